@@ -1,0 +1,154 @@
+package counts
+
+import (
+	"bytes"
+	"fmt"
+	"io"
+	"strconv"
+	"strings"
+	"unicode/utf8"
+
+	"ingot/compile/input"
+	"ingot/compile/tables"
+	"ingot/compile/text"
+)
+
+// Source is one count file to read.
+type Source struct {
+	Name string
+	R    io.Reader
+}
+
+// Load reads count files (shards) for orders 1..order, sums duplicate
+// n-grams, and checks that every k-gram's (k-1)-word prefix and suffix are
+// present (the unigram <s> is implicit). N-grams longer than order are
+// skipped. The first offending line is reported as a *text.Error with file
+// and line number.
+func Load(order int, sources []Source) (*Counts, error) {
+	if order < 1 || order > tables.MaxOrder {
+		return nil, fmt.Errorf("order %d outside 1..%d", order, tables.MaxOrder)
+	}
+	b := newBuilder(order)
+	var g []uint32
+	maxSeen := 0
+	for fi, src := range sources {
+		err := input.Lines(src.R, func(line []byte, n int) error {
+			if len(bytes.TrimSpace(line)) == 0 {
+				return nil
+			}
+			bad := func(format string, a ...any) error {
+				return &text.Error{File: src.Name, Line: n, Msg: fmt.Sprintf(format, a...)}
+			}
+			if !utf8.Valid(line) {
+				return bad("invalid UTF-8")
+			}
+			tab := bytes.LastIndexByte(line, '\t')
+			if tab < 0 {
+				return bad("no tab between n-gram and count")
+			}
+			words := strings.Fields(string(line[:tab]))
+			field := strings.TrimSpace(string(line[tab+1:]))
+			if len(words) == 0 {
+				return bad("empty n-gram")
+			}
+			if len(words) > tables.MaxOrder {
+				return bad("%d-gram is longer than the supported maximum order %d", len(words), tables.MaxOrder)
+			}
+			cnt, err := strconv.ParseUint(field, 10, 64)
+			if err != nil || cnt == 0 {
+				return bad("count %q is not a positive integer", field)
+			}
+			for i, w := range words {
+				switch {
+				case w == tables.SentenceStart && i != 0:
+					return bad("%s inside an n-gram (only first)", w)
+				case w == tables.SentenceEnd && i != len(words)-1:
+					return bad("%s inside an n-gram (only last)", w)
+				}
+			}
+			if len(words) > maxSeen {
+				maxSeen = len(words)
+			}
+			if len(words) > order {
+				return nil
+			}
+			if len(words) == 1 && words[0] == tables.SentenceStart {
+				return nil // implicit: <s> is never predicted
+			}
+			g = g[:0]
+			for _, w := range words {
+				g = append(g, b.id(w))
+			}
+			if !b.add(g, cnt, int32(fi), n) {
+				return bad("count of %q overflows 64 bits", strings.Join(words, " "))
+			}
+			return nil
+		})
+		if err != nil {
+			if _, ok := err.(*text.Error); ok {
+				return nil, err
+			}
+			return nil, fmt.Errorf("%s: %w", src.Name, err)
+		}
+	}
+	if maxSeen == 0 {
+		return nil, fmt.Errorf("no n-grams in %s", names(sources))
+	}
+	if maxSeen < order {
+		return nil, fmt.Errorf("counts hold orders up to %d, order %d asked", maxSeen, order)
+	}
+	if err := b.checkClosure(sources); err != nil {
+		return nil, err
+	}
+	return b.finish(nil), nil
+}
+
+func names(sources []Source) string {
+	var s []string
+	for _, src := range sources {
+		s = append(s, src.Name)
+	}
+	return strings.Join(s, ", ")
+}
+
+// checkClosure reports the earliest line (by file, then line) holding a
+// k-gram whose prefix or suffix is missing.
+func (b *builder) checkClosure(sources []Source) error {
+	start := b.ids[tables.SentenceStart]
+	present := func(sub []uint32) bool {
+		return (len(sub) == 1 && sub[0] == start) || b.lookup(sub) >= 0
+	}
+	var err *text.Error
+	wf, wl := len(sources), 0
+	for k := 2; k <= b.order; k++ {
+		t := &b.grams[k-1]
+		for i := 0; i < t.len(); i++ {
+			g := t.gram(i)
+			miss, sub := "prefix", g[:k-1]
+			if present(sub) {
+				miss, sub = "suffix", g[1:]
+				if present(sub) {
+					continue
+				}
+			}
+			f, l := int(t.file[i]), t.line[i]
+			if f < wf || f == wf && l < wl {
+				wf, wl = f, l
+				err = &text.Error{File: sources[f].Name, Line: l,
+					Msg: fmt.Sprintf("%q has no count for its %s %q", b.join(g), miss, b.join(sub))}
+			}
+		}
+	}
+	if err != nil {
+		return err
+	}
+	return nil
+}
+
+func (b *builder) join(g []uint32) string {
+	s := make([]string, len(g))
+	for i, id := range g {
+		s[i] = b.words[id]
+	}
+	return strings.Join(s, " ")
+}

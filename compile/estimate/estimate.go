@@ -1,0 +1,539 @@
+// Package estimate turns n-gram counts into a smoothed back-off model with
+// one of four published estimators:
+//
+//   - katz: Katz back-off with Good-Turing discounts. S. M. Katz (1987),
+//     "Estimation of probabilities from sparse data for the language model
+//     component of a speech recognizer", IEEE Trans. ASSP 35(3); discount
+//     formula as in S. F. Chen and J. Goodman (1998), "An empirical study of
+//     smoothing techniques for language modeling", Harvard TR-10-98, 2.4.
+//   - absolute: absolute discounting in back-off form. H. Ney, U. Essen and
+//     R. Kneser (1994), "On structuring probabilistic dependences in
+//     stochastic language modelling", Computer Speech and Language 8(1).
+//   - witten-bell: interpolated Witten-Bell. I. H. Witten and T. C. Bell
+//     (1991), "The zero-frequency problem", IEEE Trans. Inf. Theory 37(4);
+//     interpolated form as in Chen and Goodman (1998), 2.5.
+//   - kneser-ney: interpolated modified Kneser-Ney. R. Kneser and H. Ney
+//     (1995), "Improved backing-off for m-gram language modeling", ICASSP;
+//     modified form of Chen and Goodman (1998), section 3.
+//
+// Every model is stored in back-off form (see package tables). Orders are
+// estimated bottom-up, each from the final probabilities of the order below.
+// The corner-case rules (fallbacks) are applied as documented on each method
+// and listed in the Report.
+package estimate
+
+import (
+	"fmt"
+	"math"
+	"slices"
+
+	"ingot/compile/counts"
+	"ingot/compile/tables"
+)
+
+// Method names an estimator.
+type Method string
+
+// The estimators.
+const (
+	Katz       Method = "katz"
+	Absolute   Method = "absolute"
+	WittenBell Method = "witten-bell"
+	KneserNey  Method = "kneser-ney"
+)
+
+// Methods lists the estimators in the order help texts show them.
+var Methods = []Method{Katz, Absolute, WittenBell, KneserNey}
+
+// Defaults of the options.
+const (
+	DefaultDiscount      = 0.5 // absolute discounting: a common rule of thumb
+	DefaultKatzThreshold = 5   // Katz (1987): counts above 5 are reliable
+)
+
+// Options selects the estimator and its parameters.
+type Options struct {
+	Method Method
+	Order  int
+	// Discount is the absolute discount D in (0, 1) for all orders; 0 means
+	// DefaultDiscount. Ignored when AutoDiscount is set.
+	Discount float64
+	// AutoDiscount makes absolute discounting use D = n1/(n1+2 n2) per order.
+	AutoDiscount bool
+	// KatzThreshold is K: counts above it are not discounted. 0 means
+	// DefaultKatzThreshold.
+	KatzThreshold int
+}
+
+// Param is one named parameter value.
+type Param struct {
+	Name  string
+	Value float64
+}
+
+// OrderReport describes what the estimator did at one order.
+type OrderReport struct {
+	Order     int
+	NGrams    int
+	Contexts  int // contexts with at least one successor at this order
+	Discounts []Param
+	Fallbacks []string
+}
+
+// Report describes a build.
+type Report struct {
+	Method Method
+	Orders []OrderReport
+}
+
+// Validate checks the options and fills in defaults.
+func (o *Options) Validate() error {
+	if !slices.Contains(Methods, o.Method) {
+		return fmt.Errorf("unknown method %q (katz, absolute, witten-bell, kneser-ney)", o.Method)
+	}
+	if o.Order < 1 || o.Order > tables.MaxOrder {
+		return fmt.Errorf("order %d outside 1..%d", o.Order, tables.MaxOrder)
+	}
+	if o.Discount == 0 {
+		o.Discount = DefaultDiscount
+	}
+	if !(o.Discount > 0 && o.Discount < 1) {
+		return fmt.Errorf("discount %v outside (0, 1)", o.Discount)
+	}
+	if o.KatzThreshold == 0 {
+		o.KatzThreshold = DefaultKatzThreshold
+	}
+	if o.KatzThreshold < 1 {
+		return fmt.Errorf("katz threshold %d must be at least 1", o.KatzThreshold)
+	}
+	return nil
+}
+
+// fullCoverage is the margin of the rule "h was followed by every
+// predictable word": when the lower-order mass of the successors reaches
+// 1 - fullCoverage, the back-off methods keep undiscounted estimates.
+const fullCoverage = 1e-12
+
+// Estimate builds the model of order opt.Order from c. Counts of higher
+// orders than asked are ignored.
+func Estimate(c *counts.Counts, opt Options) (*tables.Tables, *Report, error) {
+	if err := opt.Validate(); err != nil {
+		return nil, nil, err
+	}
+	if c.Order() < opt.Order {
+		return nil, nil, fmt.Errorf("counts hold orders up to %d, order %d asked", c.Order(), opt.Order)
+	}
+	e, err := newEstimator(c, opt)
+	if err != nil {
+		return nil, nil, err
+	}
+	for k := 1; k <= opt.Order; k++ {
+		e.order(k)
+	}
+	return e.tables(), e.report, nil
+}
+
+type estimator struct {
+	c      *counts.Counts
+	opt    Options
+	N      int
+	V      float64 // |V|: the predictable vocabulary (all words but <s>)
+	start  uint32
+	prefix [][]int32   // prefix[k-1][i]: index at order k-1 of entry i's context
+	suffix [][]int32   // suffix[k-1][i]: index at order k-1 of entry i without its first word
+	adj    [][]uint64  // kneser-ney adjusted counts
+	prob   [][]float64 // full probability of each entry given its context
+	bow    [][]float64 // back-off weight of each entry as a context (orders < N)
+	empty  float64     // back-off weight of the empty context
+	report *Report
+}
+
+func newEstimator(c *counts.Counts, opt Options) (*estimator, error) {
+	N := opt.Order
+	start, _ := c.ID(tables.SentenceStart)
+	e := &estimator{
+		c: c, opt: opt, N: N, V: float64(len(c.Vocab) - 1), start: start,
+		prefix: make([][]int32, N), suffix: make([][]int32, N),
+		prob: make([][]float64, N), bow: make([][]float64, N),
+		report: &Report{Method: opt.Method},
+	}
+	for k := 2; k <= N; k++ {
+		n := c.Len(k)
+		pre, suf := make([]int32, n), make([]int32, n)
+		for i := 0; i < n; i++ {
+			g := c.Gram(k, i)
+			p, s := c.Find(g[:k-1]), c.Find(g[1:])
+			if p < 0 || s < 0 {
+				return nil, fmt.Errorf("counts are not closed: %d-gram %q lacks its prefix or suffix", k, words(c, g))
+			}
+			pre[i], suf[i] = int32(p), int32(s)
+		}
+		e.prefix[k-1], e.suffix[k-1] = pre, suf
+	}
+	for k := 1; k < N; k++ {
+		e.bow[k-1] = make([]float64, c.Len(k))
+		for i := range e.bow[k-1] {
+			e.bow[k-1][i] = 1
+		}
+	}
+	if opt.Method == KneserNey {
+		e.adjust()
+	}
+	return e, nil
+}
+
+func words(c *counts.Counts, g []uint32) string {
+	s := ""
+	for i, id := range g {
+		if i > 0 {
+			s += " "
+		}
+		s += c.Vocab[id]
+	}
+	return s
+}
+
+// adjust computes the Kneser-Ney adjusted counts: raw counts at the highest
+// order and for n-grams starting with <s>; elsewhere the number of distinct
+// words seen before the n-gram, N1+(. g).
+func (e *estimator) adjust() {
+	e.adj = make([][]uint64, e.N)
+	for k := 1; k <= e.N; k++ {
+		raw := e.c.Levels[k-1].Counts
+		a := make([]uint64, len(raw))
+		if k == e.N {
+			copy(a, raw)
+		} else {
+			for _, s := range e.suffix[k] {
+				a[s]++
+			}
+			for i := range a {
+				if e.c.Gram(k, i)[0] == e.start {
+					a[i] = raw[i]
+				}
+			}
+		}
+		e.adj[k-1] = a
+	}
+}
+
+// countOfCounts returns n_1..n_max of the given counts.
+func countOfCounts(cnt []uint64, max int) []float64 {
+	n := make([]float64, max+1)
+	for _, r := range cnt {
+		if r >= 1 && r <= uint64(max) {
+			n[r]++
+		}
+	}
+	return n
+}
+
+// absoluteAuto returns D = n1/(n1+2 n2), or 0.5 when n1 or n2 is 0.
+func absoluteAuto(n []float64) float64 {
+	if n[1] == 0 || n[2] == 0 {
+		return 0.5
+	}
+	return n[1] / (n[1] + 2*n[2])
+}
+
+// discounter turns the counts of one context's successors into their
+// probabilities and the context's back-off weight.
+type discounter func(cnt []uint64, lower []float64, p []float64) (bow float64)
+
+func (e *estimator) order(k int) {
+	rep := OrderReport{Order: k, NGrams: e.c.Len(k)}
+	cnt := e.c.Levels[k-1].Counts
+	if e.opt.Method == KneserNey {
+		cnt = e.adj[k-1]
+	}
+	disc := e.discounter(k, cnt, &rep)
+	e.prob[k-1] = make([]float64, len(cnt))
+	prob := e.prob[k-1]
+
+	if k == 1 {
+		// One context, the empty one, backing off to the uniform level 0.
+		var idx []int
+		var sc []uint64
+		var lower []float64
+		for w, r := range cnt {
+			if uint32(w) != e.start && r > 0 {
+				idx = append(idx, w)
+				sc = append(sc, r)
+				lower = append(lower, 1/e.V)
+			}
+		}
+		p := make([]float64, len(idx))
+		bow := disc(sc, lower, p)
+		for w := range prob {
+			prob[w] = bow / e.V
+		}
+		for j, w := range idx {
+			prob[w] = p[j]
+		}
+		prob[e.start] = 0
+		e.empty = bow
+		rep.Contexts = 1
+		e.report.Orders = append(e.report.Orders, rep)
+		return
+	}
+
+	pre, suf := e.prefix[k-1], e.suffix[k-1]
+	lowerProb := e.prob[k-2]
+	var lower, p []float64
+	for i := 0; i < len(cnt); {
+		j := i + 1
+		for j < len(cnt) && pre[j] == pre[i] {
+			j++
+		}
+		lower = lower[:0]
+		for x := i; x < j; x++ {
+			lower = append(lower, lowerProb[suf[x]])
+		}
+		p = slices.Grow(p[:0], j-i)[:j-i]
+		e.bow[k-2][pre[i]] = disc(cnt[i:j], lower, p)
+		copy(prob[i:j], p)
+		rep.Contexts++
+		i = j
+	}
+	e.report.Orders = append(e.report.Orders, rep)
+}
+
+func (e *estimator) discounter(k int, cnt []uint64, rep *OrderReport) discounter {
+	switch e.opt.Method {
+	case WittenBell:
+		return wittenBell
+	case KneserNey:
+		return e.kneserNey(k, cnt, rep)
+	case Absolute:
+		D := e.opt.Discount
+		if e.opt.AutoDiscount {
+			D = absoluteAuto(countOfCounts(cnt, 2))
+		}
+		rep.Discounts = []Param{{"D", D}}
+		return backoff(absolute(D), rep)
+	default:
+		return e.katz(k, cnt, rep)
+	}
+}
+
+// backoff wraps a discounting rule of a back-off method: the weight is what
+// makes the context normalise, and a context followed by every predictable
+// word keeps undiscounted estimates with weight 1 (rule).
+func backoff(discount func(cnt []uint64, total float64, p []float64), rep *OrderReport) discounter {
+	covered, idx := 0, -1
+	return func(cnt []uint64, lower []float64, p []float64) float64 {
+		var total, sumP, sumL float64
+		for _, r := range cnt {
+			total += float64(r)
+		}
+		for _, l := range lower {
+			sumL += l
+		}
+		if sumL >= 1-fullCoverage {
+			for j, r := range cnt {
+				p[j] = float64(r) / total
+			}
+			covered++
+			if idx < 0 {
+				idx = len(rep.Fallbacks)
+				rep.Fallbacks = append(rep.Fallbacks, "")
+			}
+			rep.Fallbacks[idx] = fmt.Sprintf(
+				"order %d: %d context(s) followed by every predictable word keep undiscounted estimates with back-off weight 1", rep.Order, covered)
+			return 1
+		}
+		discount(cnt, total, p)
+		for _, x := range p {
+			sumP += x
+		}
+		return (1 - sumP) / (1 - sumL)
+	}
+}
+
+func absolute(D float64) func(cnt []uint64, total float64, p []float64) {
+	return func(cnt []uint64, total float64, p []float64) {
+		for j, r := range cnt {
+			p[j] = (float64(r) - D) / total
+		}
+	}
+}
+
+// katz returns the Good-Turing discounting of Katz back-off for order k:
+// r* = (r+1) n_{r+1}/n_r and
+// d_r = (r*/r - (K+1) n_{K+1}/n_1) / (1 - (K+1) n_{K+1}/n_1) for r <= K.
+func (e *estimator) katz(k int, cnt []uint64, rep *OrderReport) discounter {
+	K := e.opt.KatzThreshold
+	n := countOfCounts(cnt, K+1)
+	Dabs := absoluteAuto(n)
+	d, why := katzDiscounts(n, K)
+	if why != "" {
+		rep.Discounts = []Param{{"D", Dabs}}
+		rep.Fallbacks = append(rep.Fallbacks, fmt.Sprintf(
+			"order %d: Good-Turing discounts unusable (%s); absolute discounting with D = %.6g used instead", k, why, Dabs))
+		return backoff(absolute(Dabs), rep)
+	}
+	for r := 1; r <= K; r++ {
+		rep.Discounts = append(rep.Discounts, Param{fmt.Sprintf("d%d", r), d[r]})
+	}
+	allAbove := 0
+	idx := -1
+	return backoff(func(cnt []uint64, total float64, p []float64) {
+		above := true
+		for _, r := range cnt {
+			if r <= uint64(K) {
+				above = false
+				break
+			}
+		}
+		if above {
+			// Rule: no mass would be left for unseen words.
+			absolute(Dabs)(cnt, total, p)
+			allAbove++
+			if idx < 0 {
+				idx = len(rep.Fallbacks)
+				rep.Fallbacks = append(rep.Fallbacks, "")
+			}
+			rep.Fallbacks[idx] = fmt.Sprintf(
+				"order %d: %d context(s) whose successors all have counts above %d use absolute discounting with D = %.6g", k, allAbove, K, Dabs)
+			return
+		}
+		for j, r := range cnt {
+			dr := 1.0
+			if r <= uint64(K) {
+				dr = d[r]
+			}
+			p[j] = dr * float64(r) / total
+		}
+	}, rep)
+}
+
+// katzDiscounts returns d_1..d_K (index r), or the reason they are unusable.
+func katzDiscounts(n []float64, K int) ([]float64, string) {
+	for r := 1; r <= K+1; r++ {
+		if n[r] == 0 {
+			return nil, fmt.Sprintf("n_%d = 0", r)
+		}
+	}
+	common := float64(K+1) * n[K+1] / n[1]
+	if common >= 1 {
+		return nil, fmt.Sprintf("(K+1) n_%d / n_1 = %.6g >= 1", K+1, common)
+	}
+	d := make([]float64, K+1)
+	for r := 1; r <= K; r++ {
+		rstar := float64(r+1) * n[r+1] / n[r]
+		d[r] = (rstar/float64(r) - common) / (1 - common)
+		if !(d[r] > 0 && d[r] <= 1) {
+			return nil, fmt.Sprintf("d_%d = %.6g outside (0, 1]", r, d[r])
+		}
+	}
+	return d, ""
+}
+
+// GoodTuring returns the Good-Turing re-estimate r* = (r+1) n_{r+1} / n_r
+// for r = 1..len(n)-2, where n[r] is the number of events seen r times.
+func GoodTuring(n []float64) []float64 {
+	rs := make([]float64, len(n)-1)
+	for r := 1; r+1 < len(n); r++ {
+		rs[r] = float64(r+1) * n[r+1] / n[r]
+	}
+	return rs
+}
+
+// wittenBell: P(w|h) = (c(hw) + T(h) P(w|h')) / (c(h) + T(h)) and
+// bow(h) = T(h) / (c(h) + T(h)), T(h) the number of distinct successors.
+func wittenBell(cnt []uint64, lower []float64, p []float64) float64 {
+	var total, T float64
+	for _, r := range cnt {
+		total += float64(r)
+		if r > 0 {
+			T++
+		}
+	}
+	for j, r := range cnt {
+		p[j] = (float64(r) + T*lower[j]) / (total + T)
+	}
+	return T / (total + T)
+}
+
+// KneserNeyDiscounts returns Y, D1, D2, D3+ of modified Kneser-Ney from the
+// count of counts n[1..4] (Chen and Goodman 1998, section 3), and the reason
+// when the rule replaced them all by Y.
+func KneserNeyDiscounts(n []float64) (Y, D1, D2, D3 float64, why string) {
+	Y = absoluteAuto(n)
+	for r := 1; r <= 4; r++ {
+		if n[r] == 0 {
+			return Y, Y, Y, Y, fmt.Sprintf("n_%d = 0", r)
+		}
+	}
+	D1 = 1 - 2*Y*n[2]/n[1]
+	D2 = 2 - 3*Y*n[3]/n[2]
+	D3 = 3 - 4*Y*n[4]/n[3]
+	switch {
+	case !(D1 > 0 && D1 <= 1):
+		why = fmt.Sprintf("D1 = %.6g outside (0, 1]", D1)
+	case !(D2 > 0 && D2 <= 2):
+		why = fmt.Sprintf("D2 = %.6g outside (0, 2]", D2)
+	case !(D3 > 0 && D3 <= 3):
+		why = fmt.Sprintf("D3+ = %.6g outside (0, 3]", D3)
+	}
+	if why != "" {
+		return Y, Y, Y, Y, why
+	}
+	return Y, D1, D2, D3, ""
+}
+
+func (e *estimator) kneserNey(k int, adj []uint64, rep *OrderReport) discounter {
+	n := countOfCounts(adj, 4)
+	Y, D1, D2, D3, why := KneserNeyDiscounts(n)
+	if why != "" {
+		rep.Fallbacks = append(rep.Fallbacks, fmt.Sprintf(
+			"order %d: modified discounts unusable (%s); D1 = D2 = D3+ = Y = %.6g", k, why, Y))
+	}
+	rep.Discounts = []Param{{"Y", Y}, {"D1", D1}, {"D2", D2}, {"D3+", D3}}
+	D := [4]float64{0, D1, D2, D3}
+	return func(a []uint64, lower []float64, p []float64) float64 {
+		var total float64
+		var N [4]float64
+		for _, r := range a {
+			total += float64(r)
+			N[min(r, 3)]++
+		}
+		if total == 0 {
+			copy(p, lower)
+			return 1
+		}
+		gamma := (D1*N[1] + D2*N[2] + D3*N[3]) / total
+		for j, r := range a {
+			p[j] = (float64(r)-D[min(r, 3)])/total + gamma*lower[j]
+		}
+		return gamma
+	}
+}
+
+func (e *estimator) tables() *tables.Tables {
+	t := &tables.Tables{Vocab: e.c.Vocab, Levels: make([]tables.Level, e.N)}
+	for k := 1; k <= e.N; k++ {
+		lv := tables.Level{Words: e.c.Levels[k-1].Words, LogProb: make([]float32, len(e.prob[k-1]))}
+		for i, p := range e.prob[k-1] {
+			lv.LogProb[i] = float32(math.Log10(p))
+		}
+		if k < e.N {
+			lv.LogBackoff = make([]float32, len(e.bow[k-1]))
+			for i, b := range e.bow[k-1] {
+				lv.LogBackoff[i] = float32(math.Log10(b))
+			}
+		}
+		t.Levels[k-1] = lv
+	}
+	t.Levels[0].LogProb[e.start] = tables.NoProb
+	t.Info = tables.Info{Method: string(e.opt.Method), EmptyContextLogBackoff: math.Log10(e.empty)}
+	for _, r := range e.report.Orders {
+		m := map[string]float64{}
+		for _, p := range r.Discounts {
+			m[p.Name] = p.Value
+		}
+		t.Info.Discounts = append(t.Info.Discounts, m)
+		t.Info.Fallbacks = append(t.Info.Fallbacks, r.Fallbacks...)
+	}
+	return t
+}

@@ -1,0 +1,9 @@
+module ingot
+
+go 1.26.8
+
+require (
+	github.com/google/go-cmp v0.7.0
+	github.com/klauspost/compress v1.20.4
+	golang.org/x/sys v0.50.0
+)
