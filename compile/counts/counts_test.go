@@ -1,0 +1,124 @@
+package counts
+
+import (
+	"bytes"
+	"strings"
+	"testing"
+
+	"github.com/google/go-cmp/cmp"
+)
+
+func countText(t *testing.T, order int, text string) string {
+	t.Helper()
+	c, err := NewCounter(order)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := c.AddText("t.txt", strings.NewReader(text)); err != nil {
+		t.Fatal(err)
+	}
+	var b bytes.Buffer
+	if _, err := c.Counts(1).WriteTo(&b); err != nil {
+		t.Fatal(err)
+	}
+	return b.String()
+}
+
+// The counting rules of the estimation notes: a sentence is padded once
+// with <s> and </s>, every k-gram ending at a predicted position is counted
+// when its span fits, the unigram <s> is never counted, and n-grams never
+// cross sentences. Expected output worked out by hand.
+func TestCountPaddingAndSpans(t *testing.T) {
+	got := countText(t, 3, "a b\n\n  b   a \n")
+	want := strings.Join([]string{
+		"</s>\t2", "a\t2", "b\t2",
+		"<s> a\t1", "<s> b\t1", "a </s>\t1", "a b\t1", "b </s>\t1", "b a\t1",
+		"<s> a b\t1", "<s> b a\t1", "a b </s>\t1", "b a </s>\t1",
+	}, "\n") + "\n"
+	if diff := cmp.Diff(want, got); diff != "" {
+		t.Errorf("counts differ (-want +got):\n%s", diff)
+	}
+}
+
+func TestMinWordCountMapsRareWordsToUnknown(t *testing.T) {
+	c, _ := NewCounter(2)
+	c.AddText("t", strings.NewReader("a b\na c\n"))
+	var b bytes.Buffer
+	c.Counts(2).WriteTo(&b)
+	want := "</s>\t2\n<unk>\t2\na\t2\n<s> a\t2\n<unk> </s>\t2\na <unk>\t2\n"
+	if diff := cmp.Diff(want, b.String()); diff != "" {
+		t.Errorf("(-want +got):\n%s", diff)
+	}
+}
+
+func TestTextErrorsNameFileAndLine(t *testing.T) {
+	for _, tc := range []struct{ text, want string }{
+		{"ok line\nthe <s> marker\n", "t.txt:2: marker <s> inside raw text"},
+		{"a\nb\n\nc <unk>\n", "t.txt:4: marker <unk> inside raw text"},
+		{"a\n\xff\xfe\n", "t.txt:2: invalid UTF-8"},
+	} {
+		c, _ := NewCounter(2)
+		err := c.AddText("t.txt", strings.NewReader(tc.text))
+		if err == nil || err.Error() != tc.want {
+			t.Errorf("%q: got %v, want %q", tc.text, err, tc.want)
+		}
+	}
+}
+
+func load(t *testing.T, order int, files ...string) (*Counts, error) {
+	t.Helper()
+	var src []Source
+	for i, f := range files {
+		src = append(src, Source{Name: []string{"a.tsv", "b.tsv", "c.tsv"}[i], R: strings.NewReader(f)})
+	}
+	return Load(order, src)
+}
+
+func TestLoadMergesShardsInAnyOrder(t *testing.T) {
+	shard1 := "a b\t1\n</s>\t1\na\t2\n"
+	shard2 := "<s> a\t2\nb\t1\na b\t1\nb </s>\t1\na </s>\t1\n</s>\t1\n"
+	c, err := load(t, 2, shard1, shard2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var b bytes.Buffer
+	c.WriteTo(&b)
+	want := "</s>\t2\na\t2\nb\t1\n<s> a\t2\na </s>\t1\na b\t2\nb </s>\t1\n"
+	if diff := cmp.Diff(want, b.String()); diff != "" {
+		t.Errorf("(-want +got):\n%s", diff)
+	}
+}
+
+func TestLoadReportsFirstOffendingLine(t *testing.T) {
+	for _, tc := range []struct {
+		files []string
+		want  string
+	}{
+		{[]string{"a\t1\nb\t0\n"}, `a.tsv:2: count "0" is not a positive integer`},
+		{[]string{"a\t-3\n"}, `a.tsv:1: count "-3" is not a positive integer`},
+		{[]string{"a\t1.5\n"}, `a.tsv:1: count "1.5" is not a positive integer`},
+		{[]string{"a\tNaN\n"}, `a.tsv:1: count "NaN" is not a positive integer`},
+		{[]string{"a 1\n"}, `a.tsv:1: no tab between n-gram and count`},
+		{[]string{"a\t1\nb </s> a\t1\n"}, `a.tsv:2: </s> inside an n-gram (only last)`},
+		{[]string{"a\t1\n", "b\t1\nx a b\t1\na b\t1\n"}, `b.tsv:2: "x a b" has no count for its prefix "x a"`},
+		{[]string{"a\t1\nb\t1\n<s> a b\t1\n<s> a\t1\n"}, `a.tsv:3: "<s> a b" has no count for its suffix "a b"`},
+	} {
+		_, err := load(t, 3, tc.files...)
+		if err == nil || err.Error() != tc.want {
+			t.Errorf("%q: got %v, want %q", tc.files, err, tc.want)
+		}
+	}
+}
+
+func TestLoadRoundTripsCounter(t *testing.T) {
+	text := countText(t, 4, "the beacon is on\nturn the beacon off\nthe beacon\n")
+	c, err := load(t, 4, text)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var b bytes.Buffer
+	c.WriteTo(&b)
+	if diff := cmp.Diff(text, b.String()); diff != "" {
+		t.Errorf("(-want +got):\n%s", diff)
+	}
+}
