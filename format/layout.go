@@ -1,0 +1,171 @@
+package format
+
+import (
+	"encoding/binary"
+	"fmt"
+	"hash/crc32"
+)
+
+// Version is the format version this package writes and the only one it
+// reads.
+const Version = 1
+
+// Magic is the 8-byte signature at the start of every model file. The first
+// byte is outside ASCII and the last two are a carriage return and a line
+// feed, so a transfer that treats the file as text damages the signature
+// before anything else.
+const Magic = "\x89INGOT\r\n"
+
+// Fixed sizes of the file layout, in bytes.
+const (
+	headerSize       = 64 // magic through header checksum
+	directoryEntry   = 32 // one section description
+	summaryFixedSize = 24 // summary fields before the per-order counts
+	sectionAlignment = 8  // every section starts at a multiple of this
+	maxSections      = 1024
+)
+
+// Offsets of the header fields.
+const (
+	offVersion      = 8
+	offSectionCount = 12
+	offFileLength   = 16
+	offDigest       = 24
+	offReserved     = 56
+	offHeaderCRC    = 60
+)
+
+// noNode marks a context that is not stored in the model.
+const noNode = ^uint32(0)
+
+// SectionKind says what a section holds.
+type SectionKind uint32
+
+// The section kinds of version 1. Kinds marked "per order" appear once per
+// order and carry that order in their directory entry; the others carry 0.
+const (
+	// KindSummary holds the counts and marker ids a reader needs (binary).
+	KindSummary SectionKind = 1
+	// KindBuildInfo holds how the model was built, as UTF-8 JSON.
+	KindBuildInfo SectionKind = 2
+	// KindWordStarts holds V+1 uint32 byte offsets into the word text.
+	KindWordStarts SectionKind = 3
+	// KindWordText holds the words of the vocabulary, concatenated.
+	KindWordText SectionKind = 4
+	// KindLastWords holds, per order k >= 2, the last word id of each entry.
+	KindLastWords SectionKind = 5
+	// KindProbabilities holds, per order, a float32 log10 probability per entry.
+	KindProbabilities SectionKind = 6
+	// KindBackoffs holds, per order below the top, a float32 log10 back-off
+	// weight per entry.
+	KindBackoffs SectionKind = 7
+	// KindChildStarts holds, per order k below the top, n_k+1 uint32 values:
+	// the children of entry i are entries [start[i], start[i+1]) of order k+1.
+	KindChildStarts SectionKind = 8
+	// KindSignature is reserved for a later signing step. It is excluded from
+	// the content digest so that adding it leaves the digest unchanged.
+	KindSignature SectionKind = 9
+)
+
+// String returns the kind's name as used in error messages and the
+// specification.
+func (k SectionKind) String() string {
+	switch k {
+	case KindSummary:
+		return "summary"
+	case KindBuildInfo:
+		return "build info"
+	case KindWordStarts:
+		return "word starts"
+	case KindWordText:
+		return "word text"
+	case KindLastWords:
+		return "last words"
+	case KindProbabilities:
+		return "probabilities"
+	case KindBackoffs:
+		return "back-offs"
+	case KindChildStarts:
+		return "child starts"
+	case KindSignature:
+		return "signature"
+	}
+	return fmt.Sprintf("kind %d", uint32(k))
+}
+
+// perOrder reports whether sections of kind k belong to one order.
+func (k SectionKind) perOrder() bool {
+	return k == KindLastWords || k == KindProbabilities || k == KindBackoffs || k == KindChildStarts
+}
+
+// Encoding says how a section's values are laid out. Version 1 defines only
+// Plain; later versions may add, for example, quantized columns.
+type Encoding uint32
+
+// Plain stores values as they are: little-endian uint32 or IEEE 754 float32
+// arrays, or raw bytes for text and JSON.
+const Plain Encoding = 0
+
+// String returns the encoding's name.
+func (e Encoding) String() string {
+	if e == Plain {
+		return "plain"
+	}
+	return fmt.Sprintf("encoding %d", uint32(e))
+}
+
+// Summary flags.
+const (
+	// FlagSuffixClosed is set when the writer found that every stored k-gram
+	// (k >= 2) has its (k-1)-word suffix stored too.
+	FlagSuffixClosed uint32 = 1 << 0
+)
+
+// Section describes one section of a model file, as its directory entry
+// records it.
+type Section struct {
+	Kind     SectionKind
+	Encoding Encoding
+	// Order is the n-gram order a per-order section belongs to, 0 otherwise.
+	Order    int
+	Checksum uint32 // CRC-32C (Castagnoli) of the section bytes
+	Offset   int64  // from the start of the file, a multiple of 8
+	Length   int64  // in bytes, padding excluded
+}
+
+// Name names the section for messages, for example "probabilities of order 2".
+func (s Section) Name() string {
+	if s.Order > 0 || s.Kind.perOrder() {
+		return fmt.Sprintf("%s of order %d", s.Kind, s.Order)
+	}
+	return s.Kind.String()
+}
+
+// checksum returns the CRC-32C (Castagnoli polynomial) of b.
+func checksum(b []byte) uint32 {
+	return crc32.Checksum(b, crc32.MakeTable(crc32.Castagnoli))
+}
+
+// updateChecksum continues a CRC-32C over more bytes.
+func updateChecksum(crc uint32, b []byte) uint32 {
+	return crc32.Update(crc, crc32.MakeTable(crc32.Castagnoli), b)
+}
+
+// align rounds n up to the section alignment.
+func align(n int64) int64 {
+	return (n + sectionAlignment - 1) &^ (sectionAlignment - 1)
+}
+
+// digestRecord is the 20-byte record hashed before each section's bytes:
+// kind, encoding, order (uint32 each) and length (uint64), little-endian.
+func digestRecord(s Section) []byte {
+	var r [20]byte
+	putU32(r[0:], uint32(s.Kind))
+	putU32(r[4:], uint32(s.Encoding))
+	putU32(r[8:], uint32(s.Order))
+	putU64(r[12:], uint64(s.Length))
+	return r[:]
+}
+
+func putU32(b []byte, v uint32) { binary.LittleEndian.PutUint32(b, v) }
+func putU64(b []byte, v uint64) { binary.LittleEndian.PutUint64(b, v) }

@@ -1,0 +1,380 @@
+package format
+
+import (
+	"encoding/binary"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+
+	"ingot/compile/tables"
+)
+
+// Model is a model file opened for queries. Its methods read the file's
+// bytes in place; none of them panics, whatever the bytes hold. A Model is
+// safe for concurrent use by several goroutines, except Close.
+type Model struct {
+	data     []byte
+	release  func() error // unmaps the file; nil when data is not mapped
+	path     string
+	sections []Section
+
+	order     int
+	vocabSize int
+	start     uint32
+	end       uint32
+	unknown   uint32
+	flags     uint32
+	counts    [tables.MaxOrder]int
+	digest    [32]byte
+	info      tables.Info
+
+	wordStarts []byte
+	wordText   []byte
+	levels     [tables.MaxOrder]level
+}
+
+// level holds the columns of one order, as slices of the file's bytes.
+type level struct {
+	lastWords []byte // order >= 2: n uint32
+	probs     []byte // n float32
+	backoffs  []byte // orders below the top: n float32
+	starts    []byte // orders below the top: n+1 uint32
+}
+
+// Open maps the model file at path into memory and checks its header,
+// directory, summary and build info. It does not read the large columns:
+// opening takes the same time for any model size. Use Verify to check every
+// byte. Close releases the mapping.
+//
+// Where memory mapping is not available, Open reads the file into memory.
+// A mapped file must not be truncated or rewritten in place while it is
+// open; replace model files by writing a new file and renaming it.
+func Open(path string) (*Model, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("ingot model: %w", err)
+	}
+	defer f.Close()
+	st, err := f.Stat()
+	if err != nil {
+		return nil, fmt.Errorf("ingot model: %w", err)
+	}
+	size := st.Size()
+	if size != int64(int(size)) {
+		return nil, fmt.Errorf("ingot model %s: %d bytes do not fit in this machine's address space", path, size)
+	}
+	var data []byte
+	var release func() error
+	if size >= headerSize {
+		data, release, err = mapFile(f, int(size))
+	}
+	if release == nil { // too small to map, or mapping unavailable
+		data, err = io.ReadAll(f)
+		if err != nil {
+			return nil, fmt.Errorf("ingot model: reading %s: %w", path, err)
+		}
+	}
+	m, err := FromBytes(data)
+	if err != nil {
+		if release != nil {
+			release()
+		}
+		var fe *FormatError
+		if errors.As(err, &fe) {
+			fe.Path = path
+		}
+		return nil, err
+	}
+	m.release = release
+	m.path = path
+	return m, nil
+}
+
+// Close releases the file mapping. After Close the Model answers every query
+// as an empty model would (no words, no entries); it must not be closed while
+// other goroutines use it.
+func (m *Model) Close() error {
+	release := m.release
+	*m = Model{}
+	if release != nil {
+		if err := release(); err != nil {
+			return fmt.Errorf("ingot model: unmapping: %w", err)
+		}
+	}
+	return nil
+}
+
+// FromBytes opens a model held in data, with the same checks as Open. The
+// Model reads data in place: the caller must not change it afterwards.
+func FromBytes(data []byte) (*Model, error) {
+	m := &Model{data: data}
+	if err := m.readHeader(); err != nil {
+		return nil, err
+	}
+	if err := m.readSummary(); err != nil {
+		return nil, err
+	}
+	if err := m.readBuildInfo(); err != nil {
+		return nil, err
+	}
+	if err := m.readVocabulary(); err != nil {
+		return nil, err
+	}
+	if err := m.readLevels(); err != nil {
+		return nil, err
+	}
+	return m, nil
+}
+
+func u32(b []byte) uint32 { return binary.LittleEndian.Uint32(b) }
+func u64(b []byte) uint64 { return binary.LittleEndian.Uint64(b) }
+
+// readHeader checks the header and the directory and records the sections.
+func (m *Model) readHeader() error {
+	data := m.data
+	if len(data) < headerSize {
+		return formatErr("header", 0, "file is %d bytes, shorter than the %d-byte header", len(data), headerSize)
+	}
+	if string(data[:len(Magic)]) != Magic {
+		return formatErr("header", 0, "bad magic %q: not an ingot model file, or damaged by a text-mode transfer", data[:len(Magic)])
+	}
+	if v := u32(data[offVersion:]); v != Version {
+		return formatErr("header", offVersion, "file is format version %d; this reader reads version %d only", v, Version)
+	}
+	count := u32(data[offSectionCount:])
+	if count > maxSections {
+		return formatErr("header", offSectionCount, "section count %d exceeds %d", count, maxSections)
+	}
+	dirEnd := int64(headerSize) + directoryEntry*int64(count)
+	if dirEnd > int64(len(data)) {
+		return formatErr("directory", headerSize, "file is %d bytes, too short for a directory of %d sections ending at %d (truncated file?)", len(data), count, dirEnd)
+	}
+	want := u32(data[offHeaderCRC:])
+	if got := updateChecksum(checksum(data[:offHeaderCRC]), data[headerSize:dirEnd]); got != want {
+		return formatErr("header", offHeaderCRC, "header and directory checksum is %08x, expected %08x: header or directory damaged", got, want)
+	}
+	if length := u64(data[offFileLength:]); length != uint64(len(data)) {
+		return formatErr("header", offFileLength, "file is %d bytes but its header records %d (truncated or extended file?)", len(data), length)
+	}
+	copy(m.digest[:], data[offDigest:offDigest+32])
+
+	m.sections = make([]Section, count)
+	prevEnd := dirEnd
+	for i := range m.sections {
+		at := headerSize + directoryEntry*int64(i)
+		e := data[at:]
+		s := Section{
+			Kind:     SectionKind(u32(e[0:])),
+			Encoding: Encoding(u32(e[4:])),
+			Checksum: u32(e[12:]),
+		}
+		order, off, length := u32(e[8:]), u64(e[16:]), u64(e[24:])
+		where := func() string { return fmt.Sprintf("directory entry %d (%s)", i, s.Name()) }
+		if order > tables.MaxOrder {
+			return formatErr(where(), at+8, "order %d exceeds %d", order, tables.MaxOrder)
+		}
+		s.Order = int(order)
+		if off%sectionAlignment != 0 {
+			return formatErr(where(), at+16, "section offset %d is not a multiple of %d", off, sectionAlignment)
+		}
+		if off < uint64(prevEnd) {
+			return formatErr(where(), at+16, "section offset %d overlaps the directory or the previous section, which ends at %d", off, prevEnd)
+		}
+		if off > uint64(len(data)) || length > uint64(len(data))-off {
+			return formatErr(where(), at+16, "section [%d, %d+%d) lies outside the %d-byte file", off, off, length, len(data))
+		}
+		s.Offset, s.Length = int64(off), int64(length)
+		prevEnd = s.Offset + s.Length
+		m.sections[i] = s
+	}
+	return nil
+}
+
+// find returns the section of kind k and order n; duplicates are an error.
+func (m *Model) find(kind SectionKind, order int) (Section, bool, error) {
+	var found Section
+	ok := false
+	for _, s := range m.sections {
+		if s.Kind != kind || s.Order != order {
+			continue
+		}
+		if ok {
+			return s, false, formatErr(s.Name(), s.Offset, "section appears twice in the directory")
+		}
+		found, ok = s, true
+	}
+	return found, ok, nil
+}
+
+// need returns the bytes of a required plain section whose length must be
+// wantLen (or any length when wantLen < 0).
+func (m *Model) need(kind SectionKind, order int, wantLen int64) (Section, []byte, error) {
+	s, ok, err := m.find(kind, order)
+	if err != nil {
+		return s, nil, err
+	}
+	if !ok {
+		name := Section{Kind: kind, Order: order}.Name()
+		return s, nil, formatErr(name, headerSize, "required section is missing from the directory")
+	}
+	if s.Encoding != Plain {
+		return s, nil, formatErr(s.Name(), s.Offset, "section has %s; this reader knows only %s", s.Encoding, Plain)
+	}
+	if wantLen >= 0 && s.Length != wantLen {
+		return s, nil, formatErr(s.Name(), s.Offset, "section is %d bytes, expected %d for the counts in the summary", s.Length, wantLen)
+	}
+	return s, m.data[s.Offset : s.Offset+s.Length : s.Offset+s.Length], nil
+}
+
+// needChecked is need plus a check of the section's CRC-32C, for the small
+// sections whose every byte is read at open.
+func (m *Model) needChecked(kind SectionKind, order int, wantLen int64) ([]byte, error) {
+	s, b, err := m.need(kind, order, wantLen)
+	if err != nil {
+		return nil, err
+	}
+	if got := checksum(b); got != s.Checksum {
+		return nil, formatErr(s.Name(), s.Offset, "checksum is %08x, expected %08x: section damaged", got, s.Checksum)
+	}
+	return b, nil
+}
+
+func (m *Model) readSummary() error {
+	b, err := m.needChecked(KindSummary, 0, -1)
+	if err != nil {
+		return err
+	}
+	s, _, _ := m.find(KindSummary, 0)
+	if len(b) < summaryFixedSize+8 {
+		return formatErr("summary", s.Offset, "section is %d bytes, shorter than the %d bytes of a model of order 1", len(b), summaryFixedSize+8)
+	}
+	order := u32(b)
+	if order < 1 || order > tables.MaxOrder {
+		return formatErr("summary", s.Offset, "order %d outside 1..%d", order, tables.MaxOrder)
+	}
+	if want := summaryFixedSize + 8*int(order); len(b) != want {
+		return formatErr("summary", s.Offset, "section is %d bytes, expected %d for a model of order %d", len(b), want, order)
+	}
+	m.order = int(order)
+	vocab := u32(b[4:])
+	if vocab == noNode {
+		return formatErr("summary", s.Offset+4, "vocabulary size %d is reserved", vocab)
+	}
+	m.vocabSize = int(vocab)
+	m.start, m.end, m.unknown = u32(b[8:]), u32(b[12:]), u32(b[16:])
+	for i, id := range []uint32{m.start, m.end, m.unknown} {
+		if uint64(id) >= uint64(vocab) {
+			return formatErr("summary", s.Offset+8+4*int64(i), "marker id %d outside the vocabulary of %d words", id, vocab)
+		}
+	}
+	m.flags = u32(b[20:])
+	for k := 1; k <= m.order; k++ {
+		at := summaryFixedSize + 8*(k-1)
+		c := u64(b[at:])
+		if c > math.MaxUint32 || c > uint64(len(m.data)) {
+			return formatErr("summary", s.Offset+int64(at), "order %d count %d is impossible for a %d-byte file", k, c, len(m.data))
+		}
+		m.counts[k-1] = int(c)
+	}
+	if m.counts[0] != m.vocabSize {
+		return formatErr("summary", s.Offset+summaryFixedSize, "%d unigrams for a vocabulary of %d words; order 1 must hold every word", m.counts[0], m.vocabSize)
+	}
+	return nil
+}
+
+func (m *Model) readBuildInfo() error {
+	b, err := m.needChecked(KindBuildInfo, 0, -1)
+	if err != nil {
+		return err
+	}
+	info, err := unmarshalInfo(b)
+	if err != nil {
+		s, _, _ := m.find(KindBuildInfo, 0)
+		return formatErr("build info", s.Offset, "not valid JSON build information: %v", err)
+	}
+	m.info = info
+	return nil
+}
+
+func (m *Model) readVocabulary() error {
+	s, starts, err := m.need(KindWordStarts, 0, 4*(int64(m.vocabSize)+1))
+	if err != nil {
+		return err
+	}
+	t, text, err := m.need(KindWordText, 0, -1)
+	if err != nil {
+		return err
+	}
+	if first := u32(starts); first != 0 {
+		return formatErr(s.Name(), s.Offset, "first word starts at %d, expected 0", first)
+	}
+	if last := u32(starts[4*m.vocabSize:]); uint64(last) != uint64(t.Length) {
+		return formatErr(s.Name(), s.Offset+4*int64(m.vocabSize), "words end at %d but the word text is %d bytes", last, t.Length)
+	}
+	m.wordStarts, m.wordText = starts, text
+	for _, marker := range []struct {
+		id   uint32
+		word string
+	}{{m.start, tables.SentenceStart}, {m.end, tables.SentenceEnd}, {m.unknown, tables.Unknown}} {
+		if w := m.Word(marker.id); w != marker.word {
+			return formatErr(s.Name(), s.Offset+4*int64(marker.id), "word id %d is %q, but the summary names it %s", marker.id, w, marker.word)
+		}
+	}
+	return nil
+}
+
+func (m *Model) readLevels() error {
+	for k := 1; k <= m.order; k++ {
+		n := int64(m.counts[k-1])
+		lv := &m.levels[k-1]
+		var err error
+		if k >= 2 {
+			if _, lv.lastWords, err = m.need(KindLastWords, k, 4*n); err != nil {
+				return err
+			}
+		}
+		if _, lv.probs, err = m.need(KindProbabilities, k, 4*n); err != nil {
+			return err
+		}
+		if k == m.order {
+			break
+		}
+		if _, lv.backoffs, err = m.need(KindBackoffs, k, 4*n); err != nil {
+			return err
+		}
+		var s Section
+		if s, lv.starts, err = m.need(KindChildStarts, k, 4*(n+1)); err != nil {
+			return err
+		}
+		if first := u32(lv.starts); first != 0 {
+			return formatErr(s.Name(), s.Offset, "first child start is %d, expected 0", first)
+		}
+		if last := u32(lv.starts[4*n:]); uint64(last) != uint64(m.counts[k]) {
+			return formatErr(s.Name(), s.Offset+4*n, "last child start is %d, expected the %d entries of order %d", last, m.counts[k], k+1)
+		}
+	}
+	for _, s := range m.sections {
+		if !m.expected(s) {
+			return formatErr(s.Name(), s.Offset, "section has no place in a model of order %d", m.order)
+		}
+	}
+	return nil
+}
+
+// expected reports whether a section of a known kind fits this model's
+// order. Sections of unknown kinds are left alone.
+func (m *Model) expected(s Section) bool {
+	switch s.Kind {
+	case KindSummary, KindBuildInfo, KindWordStarts, KindWordText, KindSignature:
+		return s.Order == 0
+	case KindLastWords:
+		return s.Order >= 2 && s.Order <= m.order
+	case KindProbabilities:
+		return s.Order >= 1 && s.Order <= m.order
+	case KindBackoffs, KindChildStarts:
+		return s.Order >= 1 && s.Order < m.order
+	}
+	return true
+}

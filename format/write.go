@@ -1,0 +1,257 @@
+package format
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"fmt"
+	"io"
+	"math"
+	"unicode/utf8"
+
+	"ingot/compile/tables"
+)
+
+// section is a section ready to be written.
+type section struct {
+	Section
+	data []byte
+}
+
+// Write encodes t as a model file and writes it to w. The output depends
+// only on t: writing the same Tables twice gives identical bytes.
+//
+// Write refuses Tables that break the conventions of package tables (see
+// Tables.Check), that hold NaN or +Inf log10 values, words that are not
+// valid UTF-8, or more entries than 32-bit ids and offsets can address.
+func Write(w io.Writer, t *tables.Tables) error {
+	header, sections, err := encode(t)
+	if err != nil {
+		return err
+	}
+	if _, err := w.Write(header); err != nil {
+		return fmt.Errorf("ingot model: writing header: %w", err)
+	}
+	var pad [sectionAlignment]byte
+	pos := int64(len(header))
+	for _, s := range sections {
+		if _, err := w.Write(pad[:s.Offset-pos]); err != nil {
+			return fmt.Errorf("ingot model: writing padding before %s: %w", s.Name(), err)
+		}
+		if _, err := w.Write(s.data); err != nil {
+			return fmt.Errorf("ingot model: writing %s: %w", s.Name(), err)
+		}
+		pos = s.Offset + s.Length
+	}
+	if end := align(pos); end > pos {
+		if _, err := w.Write(pad[:end-pos]); err != nil {
+			return fmt.Errorf("ingot model: writing final padding: %w", err)
+		}
+	}
+	return nil
+}
+
+// Marshal returns the model file for t as bytes; see Write.
+func Marshal(t *tables.Tables) ([]byte, error) {
+	var b bytes.Buffer
+	if err := Write(&b, t); err != nil {
+		return nil, err
+	}
+	return b.Bytes(), nil
+}
+
+// encode builds the header with its directory, and the sections with their
+// offsets, checksums and digest filled in.
+func encode(t *tables.Tables) ([]byte, []section, error) {
+	if err := checkWritable(t); err != nil {
+		return nil, nil, err
+	}
+	sections, err := buildSections(t)
+	if err != nil {
+		return nil, nil, err
+	}
+	header := make([]byte, headerSize+directoryEntry*len(sections))
+	pos := int64(len(header))
+	digest := sha256.New()
+	for i := range sections {
+		s := &sections[i]
+		s.Offset = align(pos)
+		s.Length = int64(len(s.data))
+		s.Checksum = checksum(s.data)
+		pos = s.Offset + s.Length
+		digest.Write(digestRecord(s.Section))
+		digest.Write(s.data)
+		e := header[headerSize+directoryEntry*i:]
+		putU32(e[0:], uint32(s.Kind))
+		putU32(e[4:], uint32(s.Encoding))
+		putU32(e[8:], uint32(s.Order))
+		putU32(e[12:], s.Checksum)
+		putU64(e[16:], uint64(s.Offset))
+		putU64(e[24:], uint64(s.Length))
+	}
+	copy(header, Magic)
+	putU32(header[offVersion:], Version)
+	putU32(header[offSectionCount:], uint32(len(sections)))
+	putU64(header[offFileLength:], uint64(align(pos)))
+	copy(header[offDigest:], digest.Sum(nil))
+	crc := updateChecksum(checksum(header[:offHeaderCRC]), header[headerSize:])
+	putU32(header[offHeaderCRC:], crc)
+	return header, sections, nil
+}
+
+// checkWritable checks what the file format needs beyond Tables.Check.
+func checkWritable(t *tables.Tables) error {
+	if t == nil {
+		return fmt.Errorf("ingot model: nothing to write: tables are nil")
+	}
+	if err := t.Check(); err != nil {
+		return fmt.Errorf("ingot model: cannot write: %w", err)
+	}
+	if uint64(len(t.Vocab)) >= uint64(noNode) {
+		return fmt.Errorf("ingot model: cannot write: vocabulary of %d words exceeds %d", len(t.Vocab), noNode-1)
+	}
+	text := 0
+	for id, w := range t.Vocab {
+		if !utf8.ValidString(w) {
+			return fmt.Errorf("ingot model: cannot write: word id %d (%q) is not valid UTF-8", id, w)
+		}
+		text += len(w)
+	}
+	if uint64(text) > math.MaxUint32 {
+		return fmt.Errorf("ingot model: cannot write: vocabulary text of %d bytes exceeds 4 GiB", text)
+	}
+	for k := 1; k <= t.Order(); k++ {
+		lv := &t.Levels[k-1]
+		if uint64(len(lv.LogProb)) > math.MaxUint32 {
+			return fmt.Errorf("ingot model: cannot write: order %d has %d entries, more than 32-bit offsets address", k, len(lv.LogProb))
+		}
+		for i, p := range lv.LogProb {
+			if math.IsNaN(float64(p)) || math.IsInf(float64(p), 1) {
+				return fmt.Errorf("ingot model: cannot write: order %d entry %d (%s) has log10 probability %v", k, i, t.Words(t.Gram(k, i)), p)
+			}
+		}
+		for i, b := range lv.LogBackoff {
+			if math.IsNaN(float64(b)) || math.IsInf(float64(b), 1) {
+				return fmt.Errorf("ingot model: cannot write: order %d entry %d (%s) has log10 back-off %v", k, i, t.Words(t.Gram(k, i)), b)
+			}
+		}
+	}
+	return nil
+}
+
+// buildSections lays out every section in the order the directory lists
+// them: summary, build info, vocabulary, then per order its last words
+// (order >= 2), probabilities, back-offs and child starts (orders below the
+// top).
+func buildSections(t *tables.Tables) ([]section, error) {
+	n := t.Order()
+	info, err := marshalInfo(t.Info)
+	if err != nil {
+		return nil, fmt.Errorf("ingot model: cannot write build info: %w", err)
+	}
+	starts, text := vocabularyBytes(t.Vocab)
+	out := []section{
+		{Section: Section{Kind: KindSummary}, data: summaryBytes(t)},
+		{Section: Section{Kind: KindBuildInfo}, data: info},
+		{Section: Section{Kind: KindWordStarts}, data: starts},
+		{Section: Section{Kind: KindWordText}, data: text},
+	}
+	for k := 1; k <= n; k++ {
+		lv := &t.Levels[k-1]
+		if k >= 2 {
+			last := make([]byte, 4*len(lv.LogProb))
+			for i := range lv.LogProb {
+				putU32(last[4*i:], lv.Words[k*i+k-1])
+			}
+			out = append(out, section{Section: Section{Kind: KindLastWords, Order: k}, data: last})
+		}
+		out = append(out, section{Section: Section{Kind: KindProbabilities, Order: k}, data: floatBytes(lv.LogProb)})
+		if k < n {
+			out = append(out,
+				section{Section: Section{Kind: KindBackoffs, Order: k}, data: floatBytes(lv.LogBackoff)},
+				section{Section: Section{Kind: KindChildStarts, Order: k}, data: childStarts(t, k)})
+		}
+	}
+	return out, nil
+}
+
+func summaryBytes(t *tables.Tables) []byte {
+	n := t.Order()
+	b := make([]byte, summaryFixedSize+8*n)
+	start, _ := t.ID(tables.SentenceStart)
+	end, _ := t.ID(tables.SentenceEnd)
+	unk, _ := t.ID(tables.Unknown)
+	var flags uint32
+	if suffixClosed(t) {
+		flags |= FlagSuffixClosed
+	}
+	putU32(b[0:], uint32(n))
+	putU32(b[4:], uint32(len(t.Vocab)))
+	putU32(b[8:], start)
+	putU32(b[12:], end)
+	putU32(b[16:], unk)
+	putU32(b[20:], flags)
+	for k := 1; k <= n; k++ {
+		putU64(b[summaryFixedSize+8*(k-1):], uint64(t.Len(k)))
+	}
+	return b
+}
+
+// suffixClosed reports whether every stored k-gram's (k-1)-word suffix is
+// stored.
+func suffixClosed(t *tables.Tables) bool {
+	for k := 2; k <= t.Order(); k++ {
+		for i := 0; i < t.Len(k); i++ {
+			if t.Find(t.Gram(k, i)[1:]) < 0 {
+				return false
+			}
+		}
+	}
+	return true
+}
+
+func vocabularyBytes(vocab []string) (starts, text []byte) {
+	starts = make([]byte, 4*(len(vocab)+1))
+	size := 0
+	for _, w := range vocab {
+		size += len(w)
+	}
+	text = make([]byte, 0, size)
+	for i, w := range vocab {
+		putU32(starts[4*i:], uint32(len(text)))
+		text = append(text, w...)
+	}
+	putU32(starts[4*len(vocab):], uint32(len(text)))
+	return starts, text
+}
+
+func floatBytes(v []float32) []byte {
+	b := make([]byte, 4*len(v))
+	for i, f := range v {
+		putU32(b[4*i:], math.Float32bits(f))
+	}
+	return b
+}
+
+// childStarts returns the n_k+1 child-start values of order k: entry i's
+// children at order k+1 are [start[i], start[i+1]). Entries of order k+1 are
+// sorted, and their (k)-word prefixes are stored at order k in the same
+// order, so one merge pass finds every parent.
+func childStarts(t *tables.Tables, k int) []byte {
+	nk, next := t.Len(k), t.Len(k+1)
+	counts := make([]uint32, nk+1)
+	parent := 0
+	for e := 0; e < next; e++ {
+		prefix := t.Gram(k+1, e)[:k]
+		for parent < nk && tables.Compare(t.Gram(k, parent), prefix) < 0 {
+			parent++
+		}
+		counts[parent+1]++ // Check guarantees the prefix is stored
+	}
+	b := make([]byte, 4*(nk+1))
+	var sum uint32
+	for i := 0; i <= nk; i++ {
+		sum += counts[i]
+		putU32(b[4*i:], sum)
+	}
+	return b
+}
