@@ -1,0 +1,181 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+
+	"github.com/spf13/cobra"
+
+	"ingot/compile/counts"
+	"ingot/compile/estimate"
+	"ingot/compile/input"
+	"ingot/format"
+)
+
+func newCompileCmd() *cobra.Command {
+	var (
+		method    string
+		order     int
+		discount  string
+		threshold int
+		out       string
+		asJSON    bool
+	)
+	cmd := &cobra.Command{
+		Use:   "compile --method M --order N -o MODEL COUNTS...",
+		Short: "Estimate a smoothed back-off model from n-gram counts",
+		Long: `Estimate a back-off language model of order N from count files and write it
+as a binary model file.
+
+Count files hold "w1 w2 ... wk<TAB>count" lines in any order; several files
+(shards) are merged and duplicate n-grams summed; .gz and .zst are
+decompressed. Every k-gram's prefix and suffix must have a count.
+
+Methods:
+  katz          Katz back-off with Good-Turing discounts (--katz-threshold K, default 5)
+  absolute      absolute discounting (--discount D in (0,1), default 0.5, or auto)
+  witten-bell   interpolated Witten-Bell
+  kneser-ney    interpolated modified Kneser-Ney
+
+The report lists n-grams per order, the discounts used and every corner-case
+rule that applied.`,
+		Example: `  ingot compile --method kneser-ney --order 3 -o field.ingot counts.tsv
+  ingot compile --method absolute --discount auto --order 4 -o m.ingot shard-*.tsv.zst`,
+		Args: cobra.MinimumNArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opt := estimate.Options{Method: estimate.Method(method), Order: order, KatzThreshold: threshold}
+			if err := parseDiscount(discount, &opt); err != nil {
+				return err
+			}
+			if err := opt.Validate(); err != nil {
+				return fmt.Errorf("compile: %w", err)
+			}
+			if out == "" {
+				return fmt.Errorf("compile: -o MODEL is required")
+			}
+			c, err := loadCounts(order, args)
+			if err != nil {
+				return err
+			}
+			t, rep, err := estimate.Estimate(c, opt)
+			if err != nil {
+				return fmt.Errorf("compile: %w", err)
+			}
+			t.Info.ToolVersion = version
+			t.Info.Options = map[string]string{
+				"method": method, "order": strconv.Itoa(order),
+			}
+			if opt.Method == estimate.Absolute {
+				t.Info.Options["discount"] = discount
+			}
+			if opt.Method == estimate.Katz {
+				t.Info.Options["katz-threshold"] = strconv.Itoa(opt.KatzThreshold)
+			}
+			if err := writeOutput(out, cmd.OutOrStdout(), func(w io.Writer) error {
+				return format.Write(w, t)
+			}); err != nil {
+				return err
+			}
+			return printReport(cmd.OutOrStdout(), rep, out, asJSON)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVar(&method, "method", "", "estimator: katz, absolute, witten-bell or kneser-ney (required)")
+	f.IntVar(&order, "order", 0, "model order N (required)")
+	f.StringVar(&discount, "discount", "0.5", "absolute discount D in (0,1), or auto for n1/(n1+2 n2) per order")
+	f.IntVar(&threshold, "katz-threshold", estimate.DefaultKatzThreshold, "Katz: counts above K are not discounted")
+	f.StringVarP(&out, "output", "o", "", "model file to write (required)")
+	f.BoolVar(&asJSON, "json", false, "print the build report as JSON")
+	cmd.MarkFlagRequired("method")
+	cmd.MarkFlagRequired("order")
+	cmd.MarkFlagRequired("output")
+	return cmd
+}
+
+func parseDiscount(s string, opt *estimate.Options) error {
+	if s == "auto" {
+		opt.AutoDiscount = true
+		return nil
+	}
+	d, err := strconv.ParseFloat(s, 64)
+	if err != nil || !(d > 0 && d < 1) {
+		return fmt.Errorf("compile: --discount %q must be a number in (0, 1) or auto", s)
+	}
+	opt.Discount = d
+	return nil
+}
+
+func loadCounts(order int, names []string) (*counts.Counts, error) {
+	var sources []counts.Source
+	for _, name := range names {
+		r, err := input.Open(name)
+		if err != nil {
+			return nil, fmt.Errorf("compile: %w", err)
+		}
+		defer r.Close()
+		shown := name
+		if name == input.Stdin {
+			shown = "stdin"
+		}
+		sources = append(sources, counts.Source{Name: shown, R: r})
+	}
+	c, err := counts.Load(order, sources)
+	if err != nil {
+		return nil, fmt.Errorf("compile: %w", err)
+	}
+	return c, nil
+}
+
+type orderJSON struct {
+	Order     int                `json:"order"`
+	NGrams    int                `json:"ngrams"`
+	Contexts  int                `json:"contexts"`
+	Discounts map[string]float64 `json:"discounts,omitempty"`
+	Fallbacks []string           `json:"fallbacks,omitempty"`
+}
+
+func printReport(w io.Writer, rep *estimate.Report, out string, asJSON bool) error {
+	if asJSON {
+		v := struct {
+			Model  string      `json:"model"`
+			Method string      `json:"method"`
+			Orders []orderJSON `json:"orders"`
+		}{Model: out, Method: string(rep.Method)}
+		for _, o := range rep.Orders {
+			oj := orderJSON{Order: o.Order, NGrams: o.NGrams, Contexts: o.Contexts, Fallbacks: o.Fallbacks}
+			if len(o.Discounts) > 0 {
+				oj.Discounts = map[string]float64{}
+				for _, p := range o.Discounts {
+					oj.Discounts[p.Name] = p.Value
+				}
+			}
+			v.Orders = append(v.Orders, oj)
+		}
+		enc := newEncoder(w)
+		enc.SetIndent("", "  ")
+		return enc.Encode(v)
+	}
+	fmt.Fprintf(w, "wrote %s (%s, order %d)\n", out, rep.Method, len(rep.Orders))
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintln(tw, "order\tn-grams\tcontexts\tdiscounts\t")
+	var fallbacks []string
+	for _, o := range rep.Orders {
+		var ds []string
+		for _, p := range o.Discounts {
+			ds = append(ds, fmt.Sprintf("%s=%.4f", p.Name, p.Value))
+		}
+		if len(ds) == 0 {
+			ds = []string{"-"}
+		}
+		fmt.Fprintf(tw, "%d\t%d\t%d\t%s\t\n", o.Order, o.NGrams, o.Contexts, strings.Join(ds, " "))
+		fallbacks = append(fallbacks, o.Fallbacks...)
+	}
+	tw.Flush()
+	for _, f := range fallbacks {
+		fmt.Fprintf(w, "rule applied: %s\n", f)
+	}
+	return nil
+}

@@ -1,0 +1,85 @@
+package main
+
+import (
+	"fmt"
+	"io"
+
+	"github.com/spf13/cobra"
+
+	"ingot/compile/counts"
+	"ingot/compile/input"
+)
+
+func newCountCmd() *cobra.Command {
+	var (
+		order    int
+		out      string
+		minCount uint64
+	)
+	cmd := &cobra.Command{
+		Use:   "count --order N [-o OUT] [TEXT...]",
+		Short: "Count the n-grams of training text",
+		Long: `Count the n-grams of orders 1..N in training text: UTF-8, one sentence per
+line, tokens separated by white space. Each sentence is padded as
+<s> ... </s>; n-grams never cross sentences. Reads standard input when no
+TEXT is given; .gz and .zst files are decompressed.
+
+Output lines are "w1 w2 ... wk<TAB>count", orders in increasing order.
+Invalid UTF-8 or a marker (<s>, </s>, <unk>) inside the text is an error
+naming the file and line, and no output file is left behind.`,
+		Example: `  ingot count --order 3 -o counts.tsv commands.txt
+  zcat big.txt.gz | ingot count --order 5 --min-word-count 2 > counts.tsv`,
+		RunE: func(cmd *cobra.Command, args []string) error {
+			c, err := counts.NewCounter(order)
+			if err != nil {
+				return fmt.Errorf("count: --order: %w", err)
+			}
+			if len(args) == 0 {
+				args = []string{input.Stdin}
+			}
+			for _, name := range args {
+				if err := addText(c, name); err != nil {
+					return err
+				}
+			}
+			res := c.Counts(minCount)
+			if total(res) == 0 {
+				return fmt.Errorf("count: no sentences in %v", args)
+			}
+			return writeOutput(out, cmd.OutOrStdout(), func(w io.Writer) error {
+				_, err := res.WriteTo(w)
+				return err
+			})
+		},
+	}
+	f := cmd.Flags()
+	f.IntVar(&order, "order", 0, "highest n-gram order to count (required)")
+	f.StringVarP(&out, "output", "o", "", "write counts here instead of standard output")
+	f.Uint64Var(&minCount, "min-word-count", 1, "replace words seen fewer times than this by <unk>")
+	cmd.MarkFlagRequired("order")
+	return cmd
+}
+
+func total(c *counts.Counts) uint64 {
+	var n uint64
+	for _, x := range c.Levels[0].Counts {
+		n += x
+	}
+	return n
+}
+
+func addText(c *counts.Counter, name string) error {
+	r, err := input.Open(name)
+	if err != nil {
+		return fmt.Errorf("count: %w", err)
+	}
+	defer r.Close()
+	shown := name
+	if name == input.Stdin {
+		shown = "stdin"
+	}
+	if err := c.AddText(shown, r); err != nil {
+		return err
+	}
+	return nil
+}

@@ -1,0 +1,88 @@
+// Command ingot compiles n-gram counts into a compact, verifiable binary
+// back-off language model and answers questions about it.
+//
+// Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input.
+package main
+
+import (
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+
+	"github.com/spf13/cobra"
+)
+
+// version is the tool version recorded in every model it writes.
+const version = "0.1.0"
+
+// Exit codes.
+const (
+	exitOK          = 0
+	exitCheckFailed = 1
+	exitBadInput    = 2
+)
+
+// checkFailed marks an error that means "a check did not hold" (exit 1)
+// rather than bad usage or input (exit 2).
+type checkFailed struct{ err error }
+
+func (e checkFailed) Error() string { return e.err.Error() }
+func (e checkFailed) Unwrap() error { return e.err }
+
+func main() {
+	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
+}
+
+// run executes one command line and returns the exit code.
+func run(args []string, stdout, stderr io.Writer) int {
+	root := newRoot(stdout, stderr)
+	root.SetArgs(args)
+	err := root.Execute()
+	if err == nil {
+		return exitOK
+	}
+	fmt.Fprintf(stderr, "ingot: %v\n", err)
+	var cf checkFailed
+	if errors.As(err, &cf) {
+		return exitCheckFailed
+	}
+	return exitBadInput
+}
+
+func newRoot(stdout, stderr io.Writer) *cobra.Command {
+	root := &cobra.Command{
+		Use:   "ingot",
+		Short: "Compile n-gram counts into a compact, verifiable back-off language model",
+		Long: `ingot turns text or n-gram counts into a smoothed back-off language model
+(Katz, absolute discounting, Witten-Bell, modified Kneser-Ney), writes it as a
+self-describing binary file, and scores and explains with it.
+
+Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input.`,
+		Version:       version,
+		SilenceUsage:  true,
+		SilenceErrors: true,
+	}
+	root.SetOut(stdout)
+	root.SetErr(stderr)
+	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
+		return fmt.Errorf("%s: %w (see 'ingot %s --help')", c.Name(), err, c.Name())
+	})
+	root.AddCommand(
+		newCountCmd(),
+		newCompileCmd(),
+		newScoreCmd(),
+		newExplainCmd(),
+		newDemoCmd(),
+	)
+	return root
+}
+
+// newEncoder returns a JSON encoder that leaves <, > and & as they are
+// (the markers <s>, </s> and <unk> read better unescaped).
+func newEncoder(w io.Writer) *json.Encoder {
+	enc := json.NewEncoder(w)
+	enc.SetEscapeHTML(false)
+	return enc
+}
