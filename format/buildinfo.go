@@ -21,6 +21,7 @@ type buildInfo struct {
 	Options                map[string]string   `json:"options,omitempty"`
 	EmptyContextLogBackoff number              `json:"empty_context_log10_backoff"`
 	ToolVersion            string              `json:"tool_version,omitempty"`
+	History                []string            `json:"history,omitempty"`
 }
 
 // number is a float64 that survives JSON even when it is not finite.
@@ -72,6 +73,7 @@ func marshalInfo(info tables.Info) ([]byte, error) {
 		Options:                info.Options,
 		EmptyContextLogBackoff: number(info.EmptyContextLogBackoff),
 		ToolVersion:            info.ToolVersion,
+		History:                info.History,
 	}
 	if info.Discounts != nil {
 		b.Discounts = make([]map[string]number, len(info.Discounts))
@@ -106,6 +108,7 @@ func unmarshalInfo(data []byte) (tables.Info, error) {
 		Options:                b.Options,
 		EmptyContextLogBackoff: float64(b.EmptyContextLogBackoff),
 		ToolVersion:            b.ToolVersion,
+		History:                b.History,
 	}
 	if b.Discounts != nil {
 		info.Discounts = make([]map[string]float64, len(b.Discounts))

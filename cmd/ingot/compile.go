@@ -12,6 +12,7 @@ import (
 	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/input"
+	"ingot/compile/prune"
 	"ingot/format"
 )
 
@@ -22,6 +23,7 @@ func newCompileCmd() *cobra.Command {
 		discount  string
 		threshold int
 		out       string
+		minCounts string
 		asJSON    bool
 	)
 	cmd := &cobra.Command{
@@ -56,6 +58,10 @@ rule that applied.`,
 			if out == "" {
 				return fmt.Errorf("compile: -o MODEL is required")
 			}
+			cutoffs, err := parseCutoffs(minCounts, order)
+			if err != nil {
+				return err
+			}
 			c, err := loadCounts(order, args)
 			if err != nil {
 				return err
@@ -63,6 +69,22 @@ rule that applied.`,
 			t, rep, err := estimate.Estimate(c, opt)
 			if err != nil {
 				return fmt.Errorf("compile: %w", err)
+			}
+			if len(cutoffs) > 0 {
+				raw := make([][]uint64, order)
+				for k := range raw {
+					raw[k] = c.Levels[k].Counts
+				}
+				keep, err := prune.Cutoffs(t, raw, cutoffs)
+				if err != nil {
+					return fmt.Errorf("compile: --min-count: %w", err)
+				}
+				t = prune.Apply(t, keep)
+				t.Info.History = append(t.Info.History, fmt.Sprintf(
+					"count cutoffs %s (kept %s n-grams per order)", minCounts, joinInts(prune.Kept(keep))))
+				for k := range rep.Orders {
+					rep.Orders[k].Kept = t.Len(k + 1)
+				}
 			}
 			t.Info.ToolVersion = version
 			t.Info.Options = map[string]string{
@@ -73,6 +95,9 @@ rule that applied.`,
 			}
 			if opt.Method == estimate.Katz {
 				t.Info.Options["katz-threshold"] = strconv.Itoa(opt.KatzThreshold)
+			}
+			if minCounts != "" {
+				t.Info.Options["min-count"] = minCounts
 			}
 			if err := writeOutput(out, cmd.OutOrStdout(), func(w io.Writer) error {
 				return format.Write(w, t)
@@ -88,6 +113,7 @@ rule that applied.`,
 	f.StringVar(&discount, "discount", "0.5", "absolute discount D in (0,1), or auto for n1/(n1+2 n2) per order")
 	f.IntVar(&threshold, "katz-threshold", estimate.DefaultKatzThreshold, "Katz: counts above K are not discounted")
 	f.StringVarP(&out, "output", "o", "", "model file to write (required)")
+	f.StringVar(&minCounts, "min-count", "", "count cutoffs K=M[,K=M...]: drop n-grams of order K seen fewer than M times")
 	f.BoolVar(&asJSON, "json", false, "print the build report as JSON")
 	cmd.MarkFlagRequired("method")
 	cmd.MarkFlagRequired("order")
@@ -106,6 +132,27 @@ func parseDiscount(s string, opt *estimate.Options) error {
 	}
 	opt.Discount = d
 	return nil
+}
+
+// parseCutoffs reads "K=M[,K=M...]".
+func parseCutoffs(s string, order int) (map[int]uint64, error) {
+	if s == "" {
+		return nil, nil
+	}
+	out := map[int]uint64{}
+	for _, part := range strings.Split(s, ",") {
+		ks, ms, ok := strings.Cut(strings.TrimSpace(part), "=")
+		k, err1 := strconv.Atoi(ks)
+		m, err2 := strconv.ParseUint(ms, 10, 64)
+		if !ok || err1 != nil || err2 != nil || m < 1 {
+			return nil, fmt.Errorf("compile: --min-count %q: want K=M pairs such as 3=2,4=2", s)
+		}
+		if k < 2 || k > order {
+			return nil, fmt.Errorf("compile: --min-count: order %d cannot be cut (orders 2..%d; for rare words use count --min-word-count)", k, order)
+		}
+		out[k] = m
+	}
+	return out, nil
 }
 
 func loadCounts(order int, names []string) (*counts.Counts, error) {
@@ -133,6 +180,7 @@ type orderJSON struct {
 	Order     int                `json:"order"`
 	NGrams    int                `json:"ngrams"`
 	Contexts  int                `json:"contexts"`
+	Kept      *int               `json:"kept,omitempty"`
 	Discounts map[string]float64 `json:"discounts,omitempty"`
 	Fallbacks []string           `json:"fallbacks,omitempty"`
 }
@@ -146,6 +194,9 @@ func printReport(w io.Writer, rep *estimate.Report, out string, asJSON bool) err
 		}{Model: out, Method: string(rep.Method)}
 		for _, o := range rep.Orders {
 			oj := orderJSON{Order: o.Order, NGrams: o.NGrams, Contexts: o.Contexts, Fallbacks: o.Fallbacks}
+			if o.Kept > 0 {
+				oj.Kept = &o.Kept
+			}
 			if len(o.Discounts) > 0 {
 				oj.Discounts = map[string]float64{}
 				for _, p := range o.Discounts {
@@ -170,7 +221,11 @@ func printReport(w io.Writer, rep *estimate.Report, out string, asJSON bool) err
 		if len(ds) == 0 {
 			ds = []string{"-"}
 		}
-		fmt.Fprintf(tw, "%d\t%d\t%d\t%s\t\n", o.Order, o.NGrams, o.Contexts, strings.Join(ds, " "))
+		ng := fmt.Sprint(o.NGrams)
+		if o.Kept > 0 {
+			ng = fmt.Sprintf("%d (kept %d)", o.NGrams, o.Kept)
+		}
+		fmt.Fprintf(tw, "%d\t%s\t%d\t%s\t\n", o.Order, ng, o.Contexts, strings.Join(ds, " "))
 		fallbacks = append(fallbacks, o.Fallbacks...)
 	}
 	tw.Flush()

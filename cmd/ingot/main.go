@@ -74,6 +74,7 @@ Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input.`,
 		newCompileCmd(),
 		newScoreCmd(),
 		newExplainCmd(),
+		newPruneCmd(),
 		newDemoCmd(),
 	)
 	return root

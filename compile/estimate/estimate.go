@@ -76,6 +76,7 @@ type OrderReport struct {
 	Order     int
 	NGrams    int
 	Contexts  int // contexts with at least one successor at this order
+	Kept      int // entries kept after count cutoffs (0: none were applied)
 	Discounts []Param
 	Fallbacks []string
 }

@@ -84,6 +84,9 @@ type Info struct {
 	EmptyContextLogBackoff float64 `json:"empty_context_log10_backoff"`
 	// ToolVersion is the version of the program that wrote the model.
 	ToolVersion string `json:"tool_version,omitempty"`
+	// History lists, oldest first, the steps applied after estimation
+	// (count cutoffs, pruning, quantization), each as one line.
+	History []string `json:"history,omitempty"`
 }
 
 // Order returns the model's order N.

@@ -1,0 +1,176 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"slices"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"ingot/compile/input"
+	"ingot/compile/prune"
+	"ingot/compile/tables"
+	"ingot/format"
+	"ingot/format/score"
+)
+
+func newPruneCmd() *cobra.Command {
+	var (
+		out       string
+		threshold float64
+		maxSize   string
+		heldout   string
+		asJSON    bool
+	)
+	cmd := &cobra.Command{
+		Use:   "prune -o OUT (--threshold T | --max-size SIZE) [--heldout TEXT] IN",
+		Short: "Shrink a model by relative-entropy pruning",
+		Long: `Remove the n-grams whose removal changes the model least, after Stolcke (1998),
+"Entropy-based pruning of backoff language models". Every n-gram (h, w) of
+order 2 and up gets, on the unpruned model, the weighted relative entropy
+(in nats) its removal alone would cause; those below the threshold go, except
+contexts of surviving longer n-grams; unigrams always stay. Back-off weights
+are then recomputed so every context sums to one again.
+
+--max-size finds, by bisection over the scores, the least pruning whose file
+fits the budget (bytes, or with a unit: 500KB, 8MiB). --heldout reports the
+perplexity of both models on held-out text.`,
+		Example: `  ingot prune --threshold 1e-7 -o small.ingot field.ingot
+  ingot prune --max-size 8MiB --heldout dev.txt -o device.ingot field.ingot`,
+		Args: cobra.ExactArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			hasT, hasS := cmd.Flags().Changed("threshold"), maxSize != ""
+			if hasT == hasS {
+				return fmt.Errorf("prune: give exactly one of --threshold and --max-size")
+			}
+			if hasT && !(threshold >= 0) {
+				return fmt.Errorf("prune: --threshold %v must be a number >= 0", threshold)
+			}
+			var budget int64
+			if hasS {
+				var err error
+				if budget, err = parseSize(maxSize); err != nil {
+					return fmt.Errorf("prune: --max-size: %w", err)
+				}
+			}
+			m, err := openModel(args[0])
+			if err != nil {
+				return err
+			}
+			defer m.Close()
+			t, err := format.ToTables(m)
+			if err != nil {
+				return fmt.Errorf("%s: %w", args[0], err)
+			}
+			scores := prune.EntropyScores(t)
+			pruned := func(threshold float64, keep [][]bool) *tables.Tables {
+				p := prune.Select(t, keep)
+				p.Info.History = append(slices.Clip(p.Info.History), fmt.Sprintf(
+					"pruned by relative entropy below %.6g nats (kept %s n-grams per order)", threshold, joinInts(prune.Kept(keep))))
+				return p
+			}
+			var keep [][]bool
+			if hasS {
+				threshold, keep, _, err = prune.Fit(t, scores, budget, func(th float64, kp [][]bool) (int64, error) {
+					return format.Size(pruned(th, kp))
+				})
+				if err != nil {
+					return checkFailed{fmt.Errorf("prune: %w", err)}
+				}
+			} else {
+				keep = prune.Keep(t, scores, threshold)
+			}
+			p := pruned(threshold, keep)
+			prune.Renormalize(p)
+			if err := writeOutput(out, nil, func(w io.Writer) error { return format.Write(w, p) }); err != nil {
+				return err
+			}
+			return reportPrune(cmd.OutOrStdout(), t, p, threshold, args[0], out, heldout, asJSON)
+		},
+	}
+	f := cmd.Flags()
+	f.StringVarP(&out, "output", "o", "", "pruned model file to write (required)")
+	f.Float64Var(&threshold, "threshold", 0, "remove n-grams whose weighted relative entropy is below T nats")
+	f.StringVar(&maxSize, "max-size", "", "prune just enough for the file to fit SIZE (e.g. 500KB, 8MiB)")
+	f.StringVar(&heldout, "heldout", "", "report perplexity of both models on this text")
+	f.BoolVar(&asJSON, "json", false, "print the report as JSON")
+	cmd.MarkFlagRequired("output")
+	return cmd
+}
+
+func joinInts(xs []int) string {
+	s := make([]string, len(xs))
+	for i, x := range xs {
+		s[i] = fmt.Sprint(x)
+	}
+	return strings.Join(s, "/")
+}
+
+func ngramsPerOrder(t *tables.Tables) []int {
+	n := make([]int, t.Order())
+	for k := range n {
+		n[k] = t.Len(k + 1)
+	}
+	return n
+}
+
+// heldoutPerplexity scores a text file with the model at path.
+func heldoutPerplexity(path, text string) (float64, error) {
+	m, err := openModel(path)
+	if err != nil {
+		return 0, err
+	}
+	defer m.Close()
+	r, err := input.Open(text)
+	if err != nil {
+		return 0, fmt.Errorf("--heldout: %w", err)
+	}
+	defer r.Close()
+	sum, err := score.Text(m, text, r, nil)
+	if err != nil {
+		return 0, err
+	}
+	return sum.Perplexity(), nil
+}
+
+func reportPrune(w io.Writer, before, after *tables.Tables, threshold float64, in, out, heldout string, asJSON bool) error {
+	fi, err := os.Stat(out)
+	if err != nil {
+		return err
+	}
+	inSize := int64(0)
+	if st, err := os.Stat(in); err == nil {
+		inSize = st.Size()
+	}
+	pplIn, pplOut := math.NaN(), math.NaN()
+	if heldout != "" {
+		if pplIn, err = heldoutPerplexity(in, heldout); err != nil {
+			return err
+		}
+		if pplOut, err = heldoutPerplexity(out, heldout); err != nil {
+			return err
+		}
+	}
+	if asJSON {
+		v := map[string]any{
+			"threshold": threshold, "ngrams_before": ngramsPerOrder(before), "ngrams": ngramsPerOrder(after),
+			"input_bytes": inSize, "file_bytes": fi.Size(), "model": out,
+		}
+		if heldout != "" {
+			v["perplexity_before"] = pplIn
+			v["perplexity"] = pplOut
+		}
+		return newEncoder(w).Encode(v)
+	}
+	fmt.Fprintf(w, "wrote %s: %s (was %s), threshold %.6g nats\n", out, humanSize(fi.Size()), humanSize(inSize), threshold)
+	for k := 1; k <= after.Order(); k++ {
+		fmt.Fprintf(w, "  order %d: kept %d of %d n-grams\n", k, after.Len(k), before.Len(k))
+	}
+	if heldout != "" {
+		fmt.Fprintf(w, "  held-out perplexity %.3f (was %.3f, %+.2f%%)\n", pplOut, pplIn, 100*(pplOut/pplIn-1))
+	}
+	return nil
+}
