@@ -29,7 +29,7 @@ func (m *Model) LogProbAt(k, i int) float32 {
 	if k < 1 || k > m.order {
 		return float32(math.NaN())
 	}
-	return floatAt(m.levels[k-1].probs, i)
+	return m.levels[k-1].probs.at(i)
 }
 
 // LogBackoffAt returns the stored log10 back-off weight of entry i of order
@@ -41,7 +41,7 @@ func (m *Model) LogBackoffAt(k, i int) float32 {
 	if k < 1 || k > m.order {
 		return float32(math.NaN())
 	}
-	return floatAt(m.levels[k-1].backoffs, i)
+	return m.levels[k-1].backoffs.at(i)
 }
 
 func floatAt(b []byte, i int) float32 {
@@ -184,6 +184,10 @@ func ToTables(m *Model) (*tables.Tables, error) {
 			if lv.LogBackoff != nil {
 				lv.LogBackoff[i] = m.LogBackoffAt(k, i)
 			}
+		}
+		lv.ProbCodebook = m.Codebook(k, false)
+		if k < m.Order() {
+			lv.BackoffCodebook = m.Codebook(k, true)
 		}
 		if err := it.Err(); err != nil {
 			return nil, err

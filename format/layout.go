@@ -6,9 +6,13 @@ import (
 	"hash/crc32"
 )
 
-// Version is the format version this package writes and the only one it
-// reads.
-const Version = 1
+// Version is the newest format version this package writes and reads.
+// Version 2 adds quantized columns (codebooks and packed indexes); a model
+// without them is written as version 1, so older readers still read it.
+const Version = 2
+
+// oldestVersion is the oldest format version this package reads.
+const oldestVersion = 1
 
 // Magic is the 8-byte signature at the start of every model file. The first
 // byte is outside ASCII and the last two are a carriage return and a line
@@ -65,6 +69,11 @@ const (
 	// KindSignature is reserved for a later signing step. It is excluded from
 	// the content digest so that adding it leaves the digest unchanged.
 	KindSignature SectionKind = 9
+	// KindProbCodebook holds, per quantized order (version 2), the sorted
+	// float32 log10 values that the probabilities' indexes refer to.
+	KindProbCodebook SectionKind = 10
+	// KindBackoffCodebook is the same for the back-off weights.
+	KindBackoffCodebook SectionKind = 11
 )
 
 // String returns the kind's name as used in error messages and the
@@ -89,27 +98,41 @@ func (k SectionKind) String() string {
 		return "child starts"
 	case KindSignature:
 		return "signature"
+	case KindProbCodebook:
+		return "probability codebook"
+	case KindBackoffCodebook:
+		return "back-off codebook"
 	}
 	return fmt.Sprintf("kind %d", uint32(k))
 }
 
 // perOrder reports whether sections of kind k belong to one order.
 func (k SectionKind) perOrder() bool {
-	return k == KindLastWords || k == KindProbabilities || k == KindBackoffs || k == KindChildStarts
+	return k == KindLastWords || k == KindProbabilities || k == KindBackoffs || k == KindChildStarts ||
+		k == KindProbCodebook || k == KindBackoffCodebook
 }
 
-// Encoding says how a section's values are laid out. Version 1 defines only
-// Plain; later versions may add, for example, quantized columns.
+// Encoding says how a section's values are laid out.
 type Encoding uint32
 
-// Plain stores values as they are: little-endian uint32 or IEEE 754 float32
-// arrays, or raw bytes for text and JSON.
-const Plain Encoding = 0
+const (
+	// Plain stores values as they are: little-endian uint32 or IEEE 754
+	// float32 arrays, or raw bytes for text and JSON.
+	Plain Encoding = 0
+	// Packed (version 2, probability and back-off sections only) stores each
+	// value as a B-bit index into the order's codebook: a uint32 B (1..16),
+	// a uint32 0, then the indexes packed least significant bit first, entry
+	// i in bits [i*B, (i+1)*B) of the little-endian bit stream.
+	Packed Encoding = 1
+)
 
 // String returns the encoding's name.
 func (e Encoding) String() string {
-	if e == Plain {
+	switch e {
+	case Plain:
 		return "plain"
+	case Packed:
+		return "packed codebook indexes"
 	}
 	return fmt.Sprintf("encoding %d", uint32(e))
 }

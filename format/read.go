@@ -18,6 +18,7 @@ type Model struct {
 	data     []byte
 	release  func() error // unmaps the file; nil when data is not mapped
 	path     string
+	version  int
 	sections []Section
 
 	order     int
@@ -38,8 +39,8 @@ type Model struct {
 // level holds the columns of one order, as slices of the file's bytes.
 type level struct {
 	lastWords []byte // order >= 2: n uint32
-	probs     []byte // n float32
-	backoffs  []byte // orders below the top: n float32
+	probs     column // n log10 probabilities
+	backoffs  column // orders below the top: n log10 back-off weights
 	starts    []byte // orders below the top: n+1 uint32
 }
 
@@ -140,9 +141,11 @@ func (m *Model) readHeader() error {
 	if string(data[:len(Magic)]) != Magic {
 		return formatErr("header", 0, "bad magic %q: not an ingot model file, or damaged by a text-mode transfer", data[:len(Magic)])
 	}
-	if v := u32(data[offVersion:]); v != Version {
-		return formatErr("header", offVersion, "file is format version %d; this reader reads version %d only", v, Version)
+	v := u32(data[offVersion:])
+	if v < oldestVersion || v > Version {
+		return formatErr("header", offVersion, "file is format version %d; this reader reads versions %d to %d", v, oldestVersion, Version)
 	}
+	m.version = int(v)
 	count := u32(data[offSectionCount:])
 	if count > maxSections {
 		return formatErr("header", offSectionCount, "section count %d exceeds %d", count, maxSections)
@@ -220,7 +223,7 @@ func (m *Model) need(kind SectionKind, order int, wantLen int64) (Section, []byt
 		return s, nil, formatErr(name, headerSize, "required section is missing from the directory")
 	}
 	if s.Encoding != Plain {
-		return s, nil, formatErr(s.Name(), s.Offset, "section has %s; this reader knows only %s", s.Encoding, Plain)
+		return s, nil, formatErr(s.Name(), s.Offset, "section has %s; only %s is allowed here", s.Encoding, Plain)
 	}
 	if wantLen >= 0 && s.Length != wantLen {
 		return s, nil, formatErr(s.Name(), s.Offset, "section is %d bytes, expected %d for the counts in the summary", s.Length, wantLen)
@@ -335,13 +338,13 @@ func (m *Model) readLevels() error {
 				return err
 			}
 		}
-		if _, lv.probs, err = m.need(KindProbabilities, k, 4*n); err != nil {
+		if lv.probs, err = m.readColumn(KindProbabilities, KindProbCodebook, k, n); err != nil {
 			return err
 		}
 		if k == m.order {
 			break
 		}
-		if _, lv.backoffs, err = m.need(KindBackoffs, k, 4*n); err != nil {
+		if lv.backoffs, err = m.readColumn(KindBackoffs, KindBackoffCodebook, k, n); err != nil {
 			return err
 		}
 		var s Section
@@ -363,6 +366,50 @@ func (m *Model) readLevels() error {
 	return nil
 }
 
+// readColumn finds the probabilities or back-off weights of order k: plain
+// float32 values, or (version 2) packed indexes with their codebook, whose
+// small codebook is checksummed at open.
+func (m *Model) readColumn(kind, codebookKind SectionKind, k int, n int64) (column, error) {
+	s, ok, err := m.find(kind, k)
+	if err != nil {
+		return column{}, err
+	}
+	if !ok || s.Encoding == Plain {
+		if cb, has, _ := m.find(codebookKind, k); has {
+			return column{}, formatErr(cb.Name(), cb.Offset, "codebook for a column that is not quantized")
+		}
+		_, b, err := m.need(kind, k, 4*n)
+		return column{plain: b, n: int(n)}, err
+	}
+	if s.Encoding != Packed {
+		return column{}, formatErr(s.Name(), s.Offset, "section has %s; this reader knows %s and %s", s.Encoding, Plain, Packed)
+	}
+	if m.version < 2 {
+		return column{}, formatErr(s.Name(), s.Offset, "section has %s, which format version %d does not allow", s.Encoding, m.version)
+	}
+	cb, err := m.needChecked(codebookKind, k, -1)
+	if err != nil {
+		return column{}, err
+	}
+	cs, _, _ := m.find(codebookKind, k)
+	levels := len(cb) / 4
+	if len(cb)%4 != 0 || levels < 1 || levels > 1<<16 {
+		return column{}, formatErr(cs.Name(), cs.Offset, "codebook is %d bytes; expected 1 to 65536 float32 values", len(cb))
+	}
+	b := m.data[s.Offset : s.Offset+s.Length : s.Offset+s.Length]
+	if len(b) < packedHeader {
+		return column{}, formatErr(s.Name(), s.Offset, "section is %d bytes, shorter than its %d-byte header", len(b), packedHeader)
+	}
+	width := u32(b)
+	if width != uint32(bitsFor(levels)) {
+		return column{}, formatErr(s.Name(), s.Offset, "indexes are %d bits wide; a codebook of %d values needs %d", width, levels, bitsFor(levels))
+	}
+	if want := packedLen(int(n), uint(width)); s.Length != want {
+		return column{}, formatErr(s.Name(), s.Offset, "section is %d bytes, expected %d for %d indexes of %d bits", s.Length, want, n, width)
+	}
+	return column{packed: b[packedHeader:], bits: uint(width), codebook: cb, n: int(n)}, nil
+}
+
 // expected reports whether a section of a known kind fits this model's
 // order. Sections of unknown kinds are left alone.
 func (m *Model) expected(s Section) bool {
@@ -373,8 +420,10 @@ func (m *Model) expected(s Section) bool {
 		return s.Order >= 2 && s.Order <= m.order
 	case KindProbabilities:
 		return s.Order >= 1 && s.Order <= m.order
-	case KindBackoffs, KindChildStarts:
+	case KindBackoffs, KindChildStarts, KindBackoffCodebook:
 		return s.Order >= 1 && s.Order < m.order
+	case KindProbCodebook:
+		return s.Order >= 1 && s.Order <= m.order
 	}
 	return true
 }

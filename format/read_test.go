@@ -192,9 +192,9 @@ func TestOpenRefusesDamage(t *testing.T) {
 			return append(append(append([]byte{}, b[:6]...), '\n'), b[8:]...)
 		}, "bad magic"},
 		{"other version", func(t *testing.T, b []byte) []byte {
-			binary.LittleEndian.PutUint32(b[offVersion:], 2)
+			binary.LittleEndian.PutUint32(b[offVersion:], 3)
 			return b
-		}, "file is format version 2; this reader reads version 1 only"},
+		}, "file is format version 3; this reader reads versions 1 to 2"},
 		{"truncated in the directory", func(t *testing.T, b []byte) []byte { return b[:100] }, "too short for a directory"},
 		{"truncated in the sections", func(t *testing.T, b []byte) []byte { return b[:len(b)-16] }, "truncated"},
 		{"extended", func(t *testing.T, b []byte) []byte { return append(b, make([]byte, 8)...) }, "header records"},

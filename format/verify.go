@@ -128,7 +128,7 @@ func (m *Model) verifyOrder(k int) error {
 	n := m.Count(k)
 	lv := &m.levels[k-1]
 	for i := 0; i < n; i++ {
-		if p := float64(floatAt(lv.probs, i)); math.IsNaN(p) || math.IsInf(p, 1) {
+		if p := float64(lv.probs.at(i)); math.IsNaN(p) || math.IsInf(p, 1) {
 			name, at := m.sectionOffset(KindProbabilities, k, 4*i)
 			return formatErr(name, at, "entry %d has log10 probability %v", i, p)
 		}
@@ -137,7 +137,7 @@ func (m *Model) verifyOrder(k int) error {
 		return nil
 	}
 	for i := 0; i < n; i++ {
-		if b := float64(floatAt(lv.backoffs, i)); math.IsNaN(b) || math.IsInf(b, 1) {
+		if b := float64(lv.backoffs.at(i)); math.IsNaN(b) || math.IsInf(b, 1) {
 			name, at := m.sectionOffset(KindBackoffs, k, 4*i)
 			return formatErr(name, at, "entry %d has log10 back-off %v", i, b)
 		}

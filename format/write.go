@@ -89,7 +89,7 @@ func encode(t *tables.Tables) ([]byte, []section, error) {
 		putU64(e[24:], uint64(s.Length))
 	}
 	copy(header, Magic)
-	putU32(header[offVersion:], Version)
+	putU32(header[offVersion:], version(t))
 	putU32(header[offSectionCount:], uint32(len(sections)))
 	putU64(header[offFileLength:], uint64(align(pos)))
 	copy(header[offDigest:], digest.Sum(nil))
@@ -134,6 +134,29 @@ func checkWritable(t *tables.Tables) error {
 				return fmt.Errorf("ingot model: cannot write: order %d entry %d (%s) has log10 back-off %v", k, i, t.Words(t.Gram(k, i)), b)
 			}
 		}
+		for _, c := range []struct {
+			name     string
+			values   []float32
+			codebook []float32
+		}{{"probability", lv.LogProb, lv.ProbCodebook}, {"back-off", lv.LogBackoff, lv.BackoffCodebook}} {
+			if c.codebook == nil {
+				continue
+			}
+			if c.values == nil {
+				return fmt.Errorf("ingot model: cannot write: order %d has a %s codebook but no %s column", k, c.name, c.name)
+			}
+			if len(c.codebook) > 1<<16 {
+				return fmt.Errorf("ingot model: cannot write: order %d %s codebook has %d values, more than 65536", k, c.name, len(c.codebook))
+			}
+			for j := 1; j < len(c.codebook); j++ {
+				if !(c.codebook[j-1] < c.codebook[j]) {
+					return fmt.Errorf("ingot model: cannot write: order %d %s codebook is not strictly ascending at %d", k, c.name, j)
+				}
+			}
+			if _, ok := packIndexes(c.values, c.codebook); !ok {
+				return fmt.Errorf("ingot model: cannot write: order %d holds a %s value outside its codebook", k, c.name)
+			}
+		}
 	}
 	return nil
 }
@@ -164,14 +187,36 @@ func buildSections(t *tables.Tables) ([]section, error) {
 			}
 			out = append(out, section{Section: Section{Kind: KindLastWords, Order: k}, data: last})
 		}
-		out = append(out, section{Section: Section{Kind: KindProbabilities, Order: k}, data: floatBytes(lv.LogProb)})
+		out = append(out, columnSections(KindProbabilities, KindProbCodebook, k, lv.LogProb, lv.ProbCodebook)...)
 		if k < n {
-			out = append(out,
-				section{Section: Section{Kind: KindBackoffs, Order: k}, data: floatBytes(lv.LogBackoff)},
-				section{Section: Section{Kind: KindChildStarts, Order: k}, data: childStarts(t, k)})
+			out = append(out, columnSections(KindBackoffs, KindBackoffCodebook, k, lv.LogBackoff, lv.BackoffCodebook)...)
+			out = append(out, section{Section: Section{Kind: KindChildStarts, Order: k}, data: childStarts(t, k)})
 		}
 	}
 	return out, nil
+}
+
+// columnSections encodes one column: plain float32 values, or its codebook
+// followed by the packed indexes.
+func columnSections(kind, codebookKind SectionKind, k int, values, codebook []float32) []section {
+	if codebook == nil {
+		return []section{{Section: Section{Kind: kind, Order: k}, data: floatBytes(values)}}
+	}
+	packed, _ := packIndexes(values, codebook) // checkWritable made sure every value is there
+	return []section{
+		{Section: Section{Kind: codebookKind, Order: k}, data: floatBytes(codebook)},
+		{Section: Section{Kind: kind, Order: k, Encoding: Packed}, data: packed},
+	}
+}
+
+// version returns the oldest format version that can hold t.
+func version(t *tables.Tables) uint32 {
+	for _, lv := range t.Levels {
+		if lv.ProbCodebook != nil || lv.BackoffCodebook != nil {
+			return 2
+		}
+	}
+	return 1
 }
 
 func summaryBytes(t *tables.Tables) []byte {

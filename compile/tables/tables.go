@@ -65,6 +65,12 @@ type Level struct {
 	// LogBackoff is the log10 back-off weight of each entry as a context;
 	// nil at the highest order.
 	LogBackoff []float32
+	// ProbCodebook, when not nil, is the quantization codebook of LogProb:
+	// sorted ascending, at most 65536 values, holding every value LogProb
+	// takes. The file then stores each probability as an index into it.
+	ProbCodebook []float32
+	// BackoffCodebook is the same for LogBackoff.
+	BackoffCodebook []float32
 }
 
 // Info is the build description stored beside the model.

@@ -1,0 +1,137 @@
+package format
+
+import (
+	"encoding/binary"
+	"math"
+	"math/bits"
+	"slices"
+)
+
+// packedHeader is the size of the fields before the bits of a Packed
+// section: the bit width and a reserved word.
+const packedHeader = 8
+
+// column is one order's probabilities or back-off weights, read in place:
+// either plain float32 values, or packed indexes into a float32 codebook.
+type column struct {
+	plain    []byte // n float32, when not quantized
+	packed   []byte // the index bits, when quantized
+	bits     uint   // bits per index
+	codebook []byte // float32 levels
+	n        int
+}
+
+// at returns value i, or NaN when i is out of range or the index points
+// outside the codebook (a damaged file).
+func (c *column) at(i int) float32 {
+	if i < 0 || i >= c.n {
+		return float32(math.NaN())
+	}
+	if c.packed == nil {
+		if 4*i+4 > len(c.plain) {
+			return float32(math.NaN())
+		}
+		return math.Float32frombits(binary.LittleEndian.Uint32(c.plain[4*i:]))
+	}
+	j := c.index(i)
+	if 4*j+4 > len(c.codebook) {
+		return float32(math.NaN())
+	}
+	return math.Float32frombits(binary.LittleEndian.Uint32(c.codebook[4*j:]))
+}
+
+// index returns the codebook index of entry i of a packed column.
+func (c *column) index(i int) int {
+	bit := uint64(i) * uint64(c.bits)
+	at := int(bit >> 3)
+	var word uint64
+	if at+8 <= len(c.packed) {
+		word = binary.LittleEndian.Uint64(c.packed[at:])
+	} else {
+		for j := 0; at+j < len(c.packed) && j < 8; j++ {
+			word |= uint64(c.packed[at+j]) << (8 * j)
+		}
+	}
+	return int((word >> (bit & 7)) & (1<<c.bits - 1))
+}
+
+// Index returns the codebook index stored for entry i of order k, for the
+// probabilities (backoff false) or the back-off weights; ok is false when
+// that column is not quantized or there is no such entry.
+func (m *Model) Index(k, i int, backoff bool) (index int, ok bool) {
+	if k < 1 || k > m.order || i < 0 || i >= m.Count(k) {
+		return 0, false
+	}
+	c := &m.levels[k-1].probs
+	if backoff {
+		c = &m.levels[k-1].backoffs
+	}
+	if c.packed == nil {
+		return 0, false
+	}
+	return c.index(i), true
+}
+
+// Codebook returns the codebook of order k's probabilities (backoff false)
+// or back-off weights, or nil when that column is not quantized.
+func (m *Model) Codebook(k int, backoff bool) []float32 {
+	if k < 1 || k > m.order {
+		return nil
+	}
+	c := &m.levels[k-1].probs
+	if backoff {
+		c = &m.levels[k-1].backoffs
+	}
+	if c.packed == nil {
+		return nil
+	}
+	out := make([]float32, len(c.codebook)/4)
+	for j := range out {
+		out[j] = math.Float32frombits(binary.LittleEndian.Uint32(c.codebook[4*j:]))
+	}
+	return out
+}
+
+// bitsFor returns the index width for a codebook of n levels (at least 1).
+func bitsFor(n int) uint {
+	if n <= 2 {
+		return 1
+	}
+	return uint(bits.Len(uint(n - 1)))
+}
+
+// packedLen is the length of a Packed section of n indexes of b bits.
+func packedLen(n int, b uint) int64 {
+	return packedHeader + int64((uint64(n)*uint64(b)+7)/8)
+}
+
+// packIndexes encodes values as indexes into codebook (which must hold
+// every value) in the Packed layout.
+func packIndexes(values, codebook []float32) ([]byte, bool) {
+	b := bitsFor(len(codebook))
+	out := make([]byte, packedLen(len(values), b))
+	binary.LittleEndian.PutUint32(out, uint32(b))
+	bitsOut := out[packedHeader:]
+	for i, v := range values {
+		j, ok := slices.BinarySearchFunc(codebook, v, func(c, v float32) int {
+			switch {
+			case c < v:
+				return -1
+			case c > v:
+				return 1
+			}
+			return 0
+		})
+		if !ok {
+			return nil, false
+		}
+		bit := uint64(i) * uint64(b)
+		for x := uint(0); x < b; x++ {
+			if j>>x&1 != 0 {
+				p := bit + uint64(x)
+				bitsOut[p>>3] |= 1 << (p & 7)
+			}
+		}
+	}
+	return out, true
+}
