@@ -15,13 +15,14 @@ import (
 // log10 of zero is a real case (an empty context that gives the uniform
 // distribution no weight).
 type buildInfo struct {
-	Method                 string              `json:"method"`
-	Discounts              []map[string]number `json:"discounts,omitempty"`
-	Fallbacks              []string            `json:"fallbacks,omitempty"`
-	Options                map[string]string   `json:"options,omitempty"`
-	EmptyContextLogBackoff number              `json:"empty_context_log10_backoff"`
-	ToolVersion            string              `json:"tool_version,omitempty"`
-	History                []string            `json:"history,omitempty"`
+	Method                 string               `json:"method"`
+	Discounts              []map[string]number  `json:"discounts,omitempty"`
+	Fallbacks              []string             `json:"fallbacks,omitempty"`
+	Options                map[string]string    `json:"options,omitempty"`
+	EmptyContextLogBackoff number               `json:"empty_context_log10_backoff"`
+	ToolVersion            string               `json:"tool_version,omitempty"`
+	History                []string             `json:"history,omitempty"`
+	Quantization           *tables.Quantization `json:"quantization,omitempty"`
 }
 
 // number is a float64 that survives JSON even when it is not finite.
@@ -74,6 +75,7 @@ func marshalInfo(info tables.Info) ([]byte, error) {
 		EmptyContextLogBackoff: number(info.EmptyContextLogBackoff),
 		ToolVersion:            info.ToolVersion,
 		History:                info.History,
+		Quantization:           info.Quantization,
 	}
 	if info.Discounts != nil {
 		b.Discounts = make([]map[string]number, len(info.Discounts))
@@ -109,6 +111,7 @@ func unmarshalInfo(data []byte) (tables.Info, error) {
 		EmptyContextLogBackoff: float64(b.EmptyContextLogBackoff),
 		ToolVersion:            b.ToolVersion,
 		History:                b.History,
+		Quantization:           b.Quantization,
 	}
 	if b.Discounts != nil {
 		info.Discounts = make([]map[string]float64, len(b.Discounts))

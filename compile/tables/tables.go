@@ -93,6 +93,27 @@ type Info struct {
 	// History lists, oldest first, the steps applied after estimation
 	// (count cutoffs, pruning, quantization), each as one line.
 	History []string `json:"history,omitempty"`
+	// Quantization describes the codebooks, when the model is quantized.
+	Quantization *Quantization `json:"quantization,omitempty"`
+}
+
+// Quantization records how a model was quantized.
+type Quantization struct {
+	Trainer     string `json:"trainer"`
+	Bits        int    `json:"bits"`
+	BackoffBits int    `json:"backoff_bits"`
+	// ProbMaxError[k-1] is the largest |quantized - original| log10
+	// probability at order k (0 where the order is not quantized).
+	ProbMaxError []float64 `json:"prob_max_error"`
+	// BackoffMaxError[k-1] is the largest |quantized - exact| log10 back-off
+	// weight at order k, the exact weight being the one recomputed from the
+	// quantized probabilities.
+	BackoffMaxError []float64 `json:"backoff_max_error"`
+	// Residual[k-1] is the largest |sum - 1| left in a context of order k
+	// (a context of order-(k+1) n-grams) after its weight was rounded and
+	// its successors' levels compensated, its lower orders taken as exact.
+	// It bounds how far each context may be from summing to one.
+	Residual []float64 `json:"residual"`
 }
 
 // Order returns the model's order N.
