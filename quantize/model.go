@@ -42,15 +42,18 @@ type OrderReport struct {
 //     probabilities would leave no mass to back off with has all its
 //     probabilities rounded down instead (the added level makes that always
 //     possible);
-//  2. every back-off weight is recomputed from the quantized probabilities
-//     (package prune's Renormalize), so every context normalises again;
-//  3. per order k < N, a codebook of 2^BackoffBits log10 weights is trained
-//     on the weights of contexts that have successors, with log10 0 added
-//     as an exact level for those that have none, and every weight replaced
-//     by its nearest level.
+//  2. order by order from the lowest, every back-off weight is recomputed
+//     from the quantized probabilities (the back-off formula), so every
+//     context would normalise exactly;
+//  3. a codebook of 2^BackoffBits - 1 log10 weights is trained on the
+//     weights of contexts that have successors, log10 0 added as an exact
+//     level for those that have none, and every weight replaced by its
+//     nearest level; the rounding is then compensated by moving successors'
+//     probabilities one level where that brings the context's total closer
+//     to one.
 //
-// The weights' rounding in step 3 is the only source of normalisation error
-// left; see Tolerance.
+// What compensation cannot absorb is recorded per order as the residual
+// (Info.Quantization.Residual); see Tolerance.
 func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error) {
 	if opt.BackoffBits == 0 {
 		opt.BackoffBits = opt.Bits
@@ -338,4 +341,48 @@ func Tolerance(base float64, residual, tops []float64) float64 {
 		worst = max(worst, t)
 	}
 	return worst
+}
+
+// Placeholder returns tables shaped like the output of Model(t, opt) but
+// holding no real values, for measuring file sizes cheaply: codebooks of the
+// largest size the options allow and build information at least as long as
+// Model writes, so that the file it gives is at least as large as the real
+// quantized file.
+func Placeholder(t *tables.Tables, opt Options) *tables.Tables {
+	if opt.BackoffBits == 0 {
+		opt.BackoffBits = opt.Bits
+	}
+	N := t.Order()
+	q := &tables.Tables{Vocab: t.Vocab, Info: t.Info, Levels: make([]tables.Level, N)}
+	long := -1.2345678901234567e-123 // as long as a float64 gets in JSON
+	qi := &tables.Quantization{Trainer: string(opt.Trainer), Bits: opt.Bits, BackoffBits: opt.BackoffBits}
+	for range N {
+		qi.ProbMaxError = append(qi.ProbMaxError, long)
+		qi.BackoffMaxError = append(qi.BackoffMaxError, long)
+		qi.Residual = append(qi.Residual, long)
+	}
+	q.Info.Quantization = qi
+	q.Info.History = append(slices.Clip(t.Info.History), fmt.Sprintf("quantized: probabilities %d bits, back-off weights %d bits, %s codebooks",
+		opt.Bits, opt.BackoffBits, opt.Trainer))
+	book := func(bits int) []float32 {
+		cb := make([]float32, 1<<bits)
+		for i := range cb {
+			cb[i] = float32(i)
+		}
+		return cb
+	}
+	for k := 1; k <= N; k++ {
+		src := &t.Levels[k-1]
+		lv := tables.Level{Words: src.Words, LogProb: src.LogProb, LogBackoff: src.LogBackoff}
+		if k >= 2 {
+			lv.LogProb = make([]float32, len(src.LogProb))
+			lv.ProbCodebook = book(opt.Bits)
+		}
+		if k < N {
+			lv.LogBackoff = make([]float32, len(src.LogBackoff))
+			lv.BackoffCodebook = book(opt.BackoffBits)
+		}
+		q.Levels[k-1] = lv
+	}
+	return q
 }

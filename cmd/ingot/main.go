@@ -75,6 +75,7 @@ Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input.`,
 		newScoreCmd(),
 		newExplainCmd(),
 		newPruneCmd(),
+		newQuantizeCmd(),
 		newDemoCmd(),
 	)
 	return root

@@ -15,6 +15,7 @@ import (
 	"ingot/compile/tables"
 	"ingot/format"
 	"ingot/format/score"
+	"ingot/quantize"
 )
 
 func newPruneCmd() *cobra.Command {
@@ -24,6 +25,7 @@ func newPruneCmd() *cobra.Command {
 		maxSize   string
 		heldout   string
 		asJSON    bool
+		qf        quantizeFlags
 	)
 	cmd := &cobra.Command{
 		Use:   "prune -o OUT (--threshold T | --max-size SIZE) [--heldout TEXT] IN",
@@ -36,8 +38,10 @@ contexts of surviving longer n-grams; unigrams always stay. Back-off weights
 are then recomputed so every context sums to one again.
 
 --max-size finds, by bisection over the scores, the least pruning whose file
-fits the budget (bytes, or with a unit: 500KB, 8MiB). --heldout reports the
-perplexity of both models on held-out text.`,
+fits the budget (bytes, or with a unit: 500KB, 8MiB). With --bits the pruned
+model is also quantized (as 'ingot quantize' does), and the budget applies
+to the quantized file. --heldout reports the perplexity of both models on
+held-out text.`,
 		Example: `  ingot prune --threshold 1e-7 -o small.ingot field.ingot
   ingot prune --max-size 8MiB --heldout dev.txt -o device.ingot field.ingot`,
 		Args: cobra.ExactArgs(1),
@@ -50,10 +54,16 @@ perplexity of both models on held-out text.`,
 				return fmt.Errorf("prune: --threshold %v must be a number >= 0", threshold)
 			}
 			var budget int64
+			var err error
 			if hasS {
-				var err error
 				if budget, err = parseSize(maxSize); err != nil {
 					return fmt.Errorf("prune: --max-size: %w", err)
+				}
+			}
+			var qopt quantize.Options
+			if qf.bits != 0 {
+				if qopt, err = qf.options("prune"); err != nil {
+					return err
 				}
 			}
 			m, err := openModel(args[0])
@@ -65,6 +75,9 @@ perplexity of both models on held-out text.`,
 			if err != nil {
 				return fmt.Errorf("%s: %w", args[0], err)
 			}
+			if t.Info.Quantization != nil {
+				return fmt.Errorf("prune: %s is quantized; prune the unquantized model (and quantize with --bits)", args[0])
+			}
 			scores := prune.EntropyScores(t)
 			pruned := func(threshold float64, keep [][]bool) *tables.Tables {
 				p := prune.Select(t, keep)
@@ -75,6 +88,9 @@ perplexity of both models on held-out text.`,
 			var keep [][]bool
 			if hasS {
 				threshold, keep, _, err = prune.Fit(t, scores, budget, func(th float64, kp [][]bool) (int64, error) {
+					if qopt.Bits != 0 {
+						return format.Size(quantize.Placeholder(pruned(th, kp), qopt))
+					}
 					return format.Size(pruned(th, kp))
 				})
 				if err != nil {
@@ -85,6 +101,11 @@ perplexity of both models on held-out text.`,
 			}
 			p := pruned(threshold, keep)
 			prune.Renormalize(p)
+			if qopt.Bits != 0 {
+				if p, _, err = quantize.Model(p, qopt); err != nil {
+					return err
+				}
+			}
 			if err := writeOutput(out, nil, func(w io.Writer) error { return format.Write(w, p) }); err != nil {
 				return err
 			}
@@ -97,6 +118,7 @@ perplexity of both models on held-out text.`,
 	f.StringVar(&maxSize, "max-size", "", "prune just enough for the file to fit SIZE (e.g. 500KB, 8MiB)")
 	f.StringVar(&heldout, "heldout", "", "report perplexity of both models on this text")
 	f.BoolVar(&asJSON, "json", false, "print the report as JSON")
+	qf.register(cmd, false)
 	cmd.MarkFlagRequired("output")
 	return cmd
 }

@@ -1,0 +1,166 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"os"
+
+	"github.com/spf13/cobra"
+
+	"ingot/format"
+	"ingot/quantize"
+)
+
+// quantizeFlags are the quantization options shared by quantize and prune.
+type quantizeFlags struct {
+	bits, bowBits int
+	trainer       string
+}
+
+func (q *quantizeFlags) register(cmd *cobra.Command, required bool) {
+	f := cmd.Flags()
+	help := "bits per probability index, 2 to 16 (orders 2 and up; unigrams stay 32-bit floats)"
+	if !required {
+		help += "; quantize the result too"
+	}
+	f.IntVar(&q.bits, "bits", 0, help)
+	f.IntVar(&q.bowBits, "bow-bits", 0, "bits per back-off weight index, 2 to 16 (default: --bits)")
+	f.StringVar(&q.trainer, "trainer", string(quantize.Optimal), "codebook trainer: optimal (least squared error) or binning (equal population)")
+}
+
+func (q *quantizeFlags) options(cmd string) (quantize.Options, error) {
+	tr, err := quantize.ParseTrainer(q.trainer)
+	if err != nil {
+		return quantize.Options{}, fmt.Errorf("%s: --trainer: %w", cmd, err)
+	}
+	for name, b := range map[string]int{"--bits": q.bits, "--bow-bits": q.bowBits} {
+		if name == "--bow-bits" && b == 0 {
+			continue
+		}
+		if b < 2 || b > 16 {
+			return quantize.Options{}, fmt.Errorf("%s: %s %d outside 2..16", cmd, name, b)
+		}
+	}
+	return quantize.Options{Bits: q.bits, BackoffBits: q.bowBits, Trainer: tr}, nil
+}
+
+func newQuantizeCmd() *cobra.Command {
+	var (
+		qf      quantizeFlags
+		out     string
+		heldout string
+		asJSON  bool
+	)
+	cmd := &cobra.Command{
+		Use:   "quantize -o OUT --bits B [--bow-bits B] [--trainer optimal|binning] IN",
+		Short: "Store log10 probabilities and back-off weights as small codebook indexes",
+		Long: `Quantize a model: per order, a codebook of 2^B log10 probabilities (orders 2
+and up; unigrams stay 32-bit floats) and one of back-off weights, each value
+stored as a B-bit index. The codebooks are trained by optimal one-dimensional
+k-means (Wang & Song 2011: least squared error) or equal-population binning.
+Back-off weights are recomputed from the quantized probabilities before they
+are quantized themselves, and their rounding is compensated where the
+levels allow, so every context still sums to one within the tolerance that
+'ingot verify' derives from the model (see the README).`,
+		Example: `  ingot quantize --bits 8 -o field-q8.ingot field.ingot
+  ingot quantize --bits 4 --bow-bits 6 --heldout dev.txt -o tiny.ingot field.ingot`,
+		Args: cobra.ExactArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			opt, err := qf.options("quantize")
+			if err != nil {
+				return err
+			}
+			m, err := openModel(args[0])
+			if err != nil {
+				return err
+			}
+			defer m.Close()
+			t, err := format.ToTables(m)
+			if err != nil {
+				return fmt.Errorf("%s: %w", args[0], err)
+			}
+			if t.Info.Quantization != nil {
+				return fmt.Errorf("quantize: %s is quantized already; quantize the unquantized model", args[0])
+			}
+			q, reports, err := quantize.Model(t, opt)
+			if err != nil {
+				return err
+			}
+			if err := writeOutput(out, nil, func(w io.Writer) error { return format.Write(w, q) }); err != nil {
+				return err
+			}
+			return reportQuantize(cmd.OutOrStdout(), reports, args[0], out, heldout, asJSON)
+		},
+	}
+	qf.register(cmd, true)
+	f := cmd.Flags()
+	f.StringVarP(&out, "output", "o", "", "quantized model file to write (required)")
+	f.StringVar(&heldout, "heldout", "", "report perplexity of both models on this text")
+	f.BoolVar(&asJSON, "json", false, "print the report as JSON")
+	cmd.MarkFlagRequired("output")
+	cmd.MarkFlagRequired("bits")
+	return cmd
+}
+
+type quantOrderJSON struct {
+	Order           int     `json:"order"`
+	ProbLevels      int     `json:"prob_levels"`
+	ProbStep        float64 `json:"prob_step"`
+	ProbMaxError    float64 `json:"prob_max_error"`
+	BackoffLevels   int     `json:"backoff_levels"`
+	BackoffStep     float64 `json:"backoff_step"`
+	BackoffMaxError float64 `json:"backoff_max_error"`
+	Residual        float64 `json:"residual"`
+}
+
+func reportQuantize(w io.Writer, reports []quantize.OrderReport, in, out, heldout string, asJSON bool) error {
+	fi, err := os.Stat(out)
+	if err != nil {
+		return err
+	}
+	inSize := int64(0)
+	if st, err := os.Stat(in); err == nil {
+		inSize = st.Size()
+	}
+	pplIn, pplOut := math.NaN(), math.NaN()
+	if heldout != "" {
+		if pplIn, err = heldoutPerplexity(in, heldout); err != nil {
+			return err
+		}
+		if pplOut, err = heldoutPerplexity(out, heldout); err != nil {
+			return err
+		}
+	}
+	if asJSON {
+		v := map[string]any{"model": out, "input_bytes": inSize, "file_bytes": fi.Size()}
+		var orders []quantOrderJSON
+		for _, r := range reports {
+			orders = append(orders, quantOrderJSON{r.Order, r.ProbLevels, r.ProbStep, r.ProbMaxError,
+				r.BackoffLevels, r.BackoffStep, r.BackoffMaxError, r.Residual})
+		}
+		v["orders"] = orders
+		if heldout != "" {
+			v["perplexity_before"] = pplIn
+			v["perplexity"] = pplOut
+		}
+		return newEncoder(w).Encode(v)
+	}
+	fmt.Fprintf(w, "wrote %s: %s (was %s)\n", out, humanSize(fi.Size()), humanSize(inSize))
+	fmt.Fprintf(w, "  %-5s  %-30s  %-30s  %s\n", "order", "probabilities", "back-off weights", "residual")
+	for _, r := range reports {
+		p := "32-bit floats"
+		if r.ProbLevels > 0 {
+			p = fmt.Sprintf("%d levels, max error %.2g", r.ProbLevels, r.ProbMaxError)
+		}
+		b := "-"
+		if r.BackoffLevels > 0 {
+			b = fmt.Sprintf("%d levels, max error %.2g", r.BackoffLevels, r.BackoffMaxError)
+		}
+		fmt.Fprintf(w, "  %-5d  %-30s  %-30s  %.2g\n", r.Order, p, b, r.Residual)
+	}
+	if heldout != "" {
+		fmt.Fprintf(w, "  held-out perplexity %.3f (was %.3f, %+.2f%%)\n", pplOut, pplIn, 100*(pplOut/pplIn-1))
+	}
+	return nil
+}
