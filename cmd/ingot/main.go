@@ -76,6 +76,7 @@ Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input.`,
 		newExplainCmd(),
 		newPruneCmd(),
 		newQuantizeCmd(),
+		newTradeoffCmd(),
 		newDemoCmd(),
 	)
 	return root

@@ -1,0 +1,158 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"ingot/compile/input"
+	"ingot/compile/text"
+	"ingot/format"
+	"ingot/quantize"
+	"ingot/quantize/tradeoff"
+)
+
+func newTradeoffCmd() *cobra.Command {
+	var (
+		heldout    string
+		thresholds string
+		bits       string
+		trainer    string
+		out        string
+	)
+	cmd := &cobra.Command{
+		Use:   "tradeoff --heldout TEXT [--thresholds T,...] [--bits B,...] -o DIR IN",
+		Short: "Chart file size against held-out perplexity for pruning and quantization settings",
+		Long: `Build, in memory, the model for every pair of a relative-entropy pruning
+threshold and a quantization bit width, and measure its file size and its
+perplexity on held-out text. Writes DIR/tradeoff.csv, DIR/tradeoff.json and
+DIR/tradeoff.svg (size against perplexity, one line per bit width), so you can
+see the curve and pick a point for your device. A threshold of 0 means no
+pruning; a bit width of 0 means 32-bit floats.`,
+		Example: `  ingot tradeoff --heldout dev.txt -o chart field.ingot
+  ingot tradeoff --heldout dev.txt --thresholds 0,1e-8,1e-7,1e-6 --bits 0,8,4 -o chart field.ingot`,
+		Args: cobra.ExactArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			ths, err := parseFloats(thresholds)
+			if err != nil {
+				return fmt.Errorf("tradeoff: --thresholds: %w", err)
+			}
+			bs, err := parseInts(bits)
+			if err != nil {
+				return fmt.Errorf("tradeoff: --bits: %w", err)
+			}
+			for _, b := range bs {
+				if b != 0 && (b < 2 || b > 16) {
+					return fmt.Errorf("tradeoff: --bits %d outside 2..16 (or 0 for floats)", b)
+				}
+			}
+			tr, err := quantize.ParseTrainer(trainer)
+			if err != nil {
+				return fmt.Errorf("tradeoff: --trainer: %w", err)
+			}
+			held, err := readSentences(heldout)
+			if err != nil {
+				return err
+			}
+			m, err := openModel(args[0])
+			if err != nil {
+				return err
+			}
+			defer m.Close()
+			t, err := format.ToTables(m)
+			if err != nil {
+				return fmt.Errorf("%s: %w", args[0], err)
+			}
+			if t.Info.Quantization != nil {
+				return fmt.Errorf("tradeoff: %s is quantized; chart the unquantized model", args[0])
+			}
+			stderr := cmd.ErrOrStderr()
+			points, err := tradeoff.Run(t, held, tradeoff.Options{Thresholds: ths, Bits: bs, Trainer: tr,
+				Progress: func(done, total int, p tradeoff.Point) {
+					fmt.Fprintf(stderr, "\r[%d/%d] threshold %g, %d bits: %s, perplexity %.2f   ", done, total, p.Threshold, p.Bits, humanSize(p.FileBytes), p.Perplexity)
+					if done == total {
+						fmt.Fprintln(stderr)
+					}
+				}})
+			if err != nil {
+				return fmt.Errorf("tradeoff: %w", err)
+			}
+			if err := os.MkdirAll(out, 0o755); err != nil {
+				return fmt.Errorf("tradeoff: %w", err)
+			}
+			title := fmt.Sprintf("%s: size against perplexity", filepath.Base(args[0]))
+			for name, write := range map[string]func(io.Writer) error{
+				"tradeoff.csv":  func(w io.Writer) error { return tradeoff.WriteCSV(w, points) },
+				"tradeoff.json": func(w io.Writer) error { return tradeoff.WriteJSON(w, points) },
+				"tradeoff.svg":  func(w io.Writer) error { return tradeoff.WriteSVG(w, title, points) },
+			} {
+				if err := writeOutput(filepath.Join(out, name), nil, write); err != nil {
+					return err
+				}
+			}
+			w := cmd.OutOrStdout()
+			fmt.Fprintf(w, "%-10s %5s %12s %11s\n", "threshold", "bits", "file", "perplexity")
+			for _, p := range points {
+				fmt.Fprintf(w, "%-10g %5d %12s %11.3f\n", p.Threshold, p.Bits, humanSize(p.FileBytes), p.Perplexity)
+			}
+			fmt.Fprintf(w, "wrote %s/tradeoff.csv, tradeoff.json, tradeoff.svg\n", out)
+			return nil
+		},
+	}
+	f := cmd.Flags()
+	f.StringVar(&heldout, "heldout", "", "held-out text to measure perplexity on (required)")
+	f.StringVar(&thresholds, "thresholds", "0,1e-9,1e-8,1e-7,1e-6,1e-5", "pruning thresholds in nats, comma-separated (0: no pruning)")
+	f.StringVar(&bits, "bits", "0,8,6,4", "quantization bit widths, comma-separated (0: 32-bit floats)")
+	f.StringVar(&trainer, "trainer", string(quantize.Optimal), "codebook trainer: optimal or binning")
+	f.StringVarP(&out, "output", "o", "", "directory for tradeoff.csv, tradeoff.json and tradeoff.svg (required)")
+	cmd.MarkFlagRequired("heldout")
+	cmd.MarkFlagRequired("output")
+	return cmd
+}
+
+func parseFloats(s string) ([]float64, error) {
+	var out []float64
+	for _, f := range strings.Split(s, ",") {
+		v, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		if err != nil || !(v >= 0) {
+			return nil, fmt.Errorf("%q is not a number >= 0", f)
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}
+
+func parseInts(s string) ([]int, error) {
+	var out []int
+	for _, f := range strings.Split(s, ",") {
+		v, err := strconv.Atoi(strings.TrimSpace(f))
+		if err != nil {
+			return nil, fmt.Errorf("%q is not a whole number", f)
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}
+
+// readSentences reads a text file as token lists, one per non-empty line.
+func readSentences(name string) ([][]string, error) {
+	r, err := input.Open(name)
+	if err != nil {
+		return nil, fmt.Errorf("--heldout: %w", err)
+	}
+	defer r.Close()
+	var out [][]string
+	err = text.Sentences(name, r, true, func(toks []string, _ int) error {
+		out = append(out, append([]string(nil), toks...))
+		return nil
+	})
+	if err == nil && len(out) == 0 {
+		err = fmt.Errorf("--heldout %s: no sentences", name)
+	}
+	return out, err
+}
