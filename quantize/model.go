@@ -13,11 +13,18 @@ type Options struct {
 	// Bits is the index width of the probabilities of orders 2..N (2 to 16).
 	Bits int
 	// BackoffBits is the index width of the back-off weights of orders
-	// 1..N-1 (2 to 16); 0 means Bits.
+	// 1..N-1 (2 to 16); 0 means DefaultBackoffBits(Bits).
 	BackoffBits int
 	// Trainer builds the codebooks.
 	Trainer Trainer
+
+	weights []float64 // of the order being quantized
 }
+
+// DefaultBackoffBits returns the back-off weight width used when none is
+// given: that of the probabilities, but at least 8 bits, because the
+// weights' rounding is what moves a context's total away from one.
+func DefaultBackoffBits(bits int) int { return max(bits, 8) }
 
 // OrderReport describes the codebooks of one order.
 type OrderReport struct {
@@ -36,7 +43,10 @@ type OrderReport struct {
 // Model returns a quantized copy of t:
 //
 //  1. per order k >= 2, a codebook of 2^Bits - 1 log10 probabilities is
-//     trained, the order's smallest value added as a level of its own, and
+//     trained, each value weighted by the model's own probability of the
+//     whole n-gram, P(h w) = P(h) P(w|h), so that levels go where text will
+//     use them (the trainer then minimises the expected squared log10
+//     error); the order's smallest value is added as a level of its own, and
 //     every probability replaced by its nearest level (order 1 stays
 //     float32, so the empty context stays exact). A context whose quantized
 //     probabilities would leave no mass to back off with has all its
@@ -56,7 +66,7 @@ type OrderReport struct {
 // (Info.Quantization.Residual); see Tolerance.
 func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error) {
 	if opt.BackoffBits == 0 {
-		opt.BackoffBits = opt.Bits
+		opt.BackoffBits = DefaultBackoffBits(opt.Bits)
 	}
 	for _, b := range []int{opt.Bits, opt.BackoffBits} {
 		if b < 2 || b > 16 {
@@ -72,8 +82,10 @@ func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error)
 	for k := 1; k <= N; k++ {
 		reports[k-1].Order = k
 	}
+	mass := jointMass(q)
 	probBooks := make([]Codebook, N)
 	for k := 2; k <= N; k++ {
+		opt.weights = mass[k-1]
 		cb, err := quantizeProbs(q, k, opt, &reports[k-1])
 		if err != nil {
 			return nil, nil, err
@@ -104,6 +116,29 @@ func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error)
 	return q, reports, nil
 }
 
+// jointMass returns, per order and entry, the probability of the whole
+// n-gram, P(h w) = P(h) P(w|h), with P(h) the product of the model's
+// conditional probabilities (P(</s>) standing for a starting <s>).
+func jointMass(t *tables.Tables) [][]float64 {
+	N := t.Order()
+	start, _ := t.ID(tables.SentenceStart)
+	end, _ := t.ID(tables.SentenceEnd)
+	mass := make([][]float64, N)
+	mass[0] = make([]float64, t.Len(1))
+	for w, lp := range t.Levels[0].LogProb {
+		mass[0][w] = math.Pow(10, float64(lp))
+	}
+	mass[0][start] = math.Pow(10, float64(t.Levels[0].LogProb[end]))
+	for k := 2; k <= N; k++ {
+		mass[k-1] = make([]float64, t.Len(k))
+		for i := range mass[k-1] {
+			g := t.Gram(k, i)
+			mass[k-1][i] = mass[k-2][t.Find(g[:k-1])] * math.Pow(10, float64(t.Levels[k-1].LogProb[i]))
+		}
+	}
+	return mass
+}
+
 func copyTables(t *tables.Tables) *tables.Tables {
 	q := &tables.Tables{Vocab: t.Vocab, Info: t.Info, Levels: make([]tables.Level, t.Order())}
 	q.Info.History = slices.Clone(t.Info.History)
@@ -131,7 +166,7 @@ func quantizeProbs(q *tables.Tables, k int, opt Options, rep *OrderReport) (Code
 		return Codebook{}, nil
 	}
 	orig := asFloat64(lv.LogProb)
-	trained, err := Train(orig, 1<<opt.Bits-1, opt.Trainer)
+	trained, err := TrainWeighted(orig, opt.weights, 1<<opt.Bits-1, opt.Trainer)
 	if err != nil {
 		return Codebook{}, fmt.Errorf("quantize: probabilities of order %d: %w", k, err)
 	}
@@ -350,7 +385,7 @@ func Tolerance(base float64, residual, tops []float64) float64 {
 // quantized file.
 func Placeholder(t *tables.Tables, opt Options) *tables.Tables {
 	if opt.BackoffBits == 0 {
-		opt.BackoffBits = opt.Bits
+		opt.BackoffBits = DefaultBackoffBits(opt.Bits)
 	}
 	N := t.Order()
 	q := &tables.Tables{Vocab: t.Vocab, Info: t.Info, Levels: make([]tables.Level, N)}

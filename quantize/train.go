@@ -183,3 +183,124 @@ func mean(xs []float64) float64 {
 	}
 	return xs[0] + sum/float64(len(xs))
 }
+
+// TrainWeighted is Train with a weight per value: the optimal trainer
+// minimises the weighted squared error sum_i w_i (v_i - level(v_i))^2, and
+// binning cuts bins of equal total weight. Weights must be finite and
+// non-negative, with a positive sum.
+func TrainWeighted(values, weights []float64, levels int, t Trainer) (Codebook, error) {
+	if len(weights) != len(values) {
+		return Codebook{}, fmt.Errorf("quantize: %d weights for %d values", len(weights), len(values))
+	}
+	if _, err := ParseTrainer(string(t)); err != nil {
+		return Codebook{}, err
+	}
+	if levels < MinLevels || levels > MaxLevels {
+		return Codebook{}, fmt.Errorf("quantize: %d levels asked for; levels must be from %d to %d", levels, MinLevels, MaxLevels)
+	}
+	if len(values) == 0 {
+		return Codebook{}, fmt.Errorf("quantize: no values to train a codebook on")
+	}
+	if err := checkValues(values); err != nil {
+		return Codebook{}, err
+	}
+	var total float64
+	for i, w := range weights {
+		if !(w >= 0) || math.IsInf(w, 0) {
+			return Codebook{}, fmt.Errorf("quantize: weight at index %d is %v", i, w)
+		}
+		total += w
+	}
+	if !(total > 0) {
+		return Codebook{}, fmt.Errorf("quantize: the weights sum to %v", total)
+	}
+	order := make([]int, len(values))
+	for i := range order {
+		order[i] = i
+	}
+	slices.SortFunc(order, func(a, b int) int {
+		switch {
+		case values[a] < values[b]:
+			return -1
+		case values[a] > values[b]:
+			return 1
+		}
+		return 0
+	})
+	var points, pw []float64
+	for _, i := range order {
+		if n := len(points); n > 0 && points[n-1] == values[i] {
+			pw[n-1] += weights[i]
+			continue
+		}
+		points = append(points, values[i])
+		pw = append(pw, weights[i])
+	}
+	if len(points) <= levels {
+		return codebookFrom(points), nil
+	}
+	if t == Binning {
+		return codebookFrom(weightedBinning(points, pw, total, levels)), nil
+	}
+	if !useLayers(len(points), levels) && len(points) > MicroBins {
+		points, pw = weightedMicroBins(points, pw, MicroBins)
+		if len(points) <= levels {
+			return codebookFrom(points), nil
+		}
+	}
+	// Points of zero weight cost nothing wherever they go; give them a tiny
+	// weight so that every group has a defined mean.
+	tiny := total * 1e-12 / float64(len(points))
+	for i := range pw {
+		pw[i] += tiny
+	}
+	return codebookFrom(groupMeans(points, pw, optimalBoundaries(points, pw, levels))), nil
+}
+
+// weightedBinning cuts the sorted distinct points into bins of (nearly)
+// equal total weight and returns each bin's weighted mean.
+func weightedBinning(points, weights []float64, total float64, levels int) []float64 {
+	var out []float64
+	var sum, wsum, acc float64
+	bin := 1
+	for i, p := range points {
+		sum += p * weights[i]
+		wsum += weights[i]
+		acc += weights[i]
+		if acc >= total*float64(bin)/float64(levels) || i == len(points)-1 {
+			if wsum > 0 {
+				out = append(out, sum/wsum)
+			}
+			sum, wsum = 0, 0
+			bin++
+		}
+	}
+	return out
+}
+
+// weightedMicroBins merges sorted distinct weighted points into at most bins
+// equal-width bins, each represented by its weighted mean and total weight.
+func weightedMicroBins(points, weights []float64, bins int) ([]float64, []float64) {
+	lo, span := points[0], points[len(points)-1]-points[0]
+	binOf := func(v float64) int { return min(int((v-lo)/span*float64(bins)), bins-1) }
+	var outP, outW []float64
+	start := 0
+	for i := 1; i <= len(points); i++ {
+		if i < len(points) && binOf(points[i]) == binOf(points[start]) {
+			continue
+		}
+		var s, w float64
+		for j := start; j < i; j++ {
+			s += points[j] * weights[j]
+			w += weights[j]
+		}
+		if w > 0 {
+			outP = append(outP, s/w)
+		} else {
+			outP = append(outP, points[start])
+		}
+		outW = append(outW, w)
+		start = i
+	}
+	return outP, outW
+}

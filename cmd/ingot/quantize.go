@@ -25,7 +25,7 @@ func (q *quantizeFlags) register(cmd *cobra.Command, required bool) {
 		help += "; quantize the result too"
 	}
 	f.IntVar(&q.bits, "bits", 0, help)
-	f.IntVar(&q.bowBits, "bow-bits", 0, "bits per back-off weight index, 2 to 16 (default: --bits)")
+	f.IntVar(&q.bowBits, "bow-bits", 0, "bits per back-off weight index, 2 to 16 (default: --bits, at least 8)")
 	f.StringVar(&q.trainer, "trainer", string(quantize.Optimal), "codebook trainer: optimal (least squared error) or binning (equal population)")
 }
 
