@@ -99,7 +99,7 @@ rule that applied.`,
 			if minCounts != "" {
 				t.Info.Options["min-count"] = minCounts
 			}
-			if err := writeOutput(out, cmd.OutOrStdout(), func(w io.Writer) error {
+			if err := writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
 				return format.Write(w, t)
 			}); err != nil {
 				return err

@@ -46,7 +46,7 @@ naming the file and line, and no output file is left behind.`,
 			if total(res) == 0 {
 				return fmt.Errorf("count: no sentences in %v", args)
 			}
-			return writeOutput(out, cmd.OutOrStdout(), func(w io.Writer) error {
+			return writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
 				_, err := res.WriteTo(w)
 				return err
 			})

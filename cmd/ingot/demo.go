@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	_ "embed"
 	"fmt"
 	"io"
@@ -36,12 +37,12 @@ prints every step as the command you would type.`,
 			if len(args) == 1 {
 				dir = args[0]
 			}
-			return runDemo(cmd.OutOrStdout(), cmd.ErrOrStderr(), dir)
+			return runDemo(cmd.Context(), cmd.OutOrStdout(), cmd.ErrOrStderr(), dir)
 		},
 	}
 }
 
-func runDemo(stdout, stderr io.Writer, dir string) error {
+func runDemo(ctx context.Context, stdout, stderr io.Writer, dir string) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return fmt.Errorf("demo: %w", err)
 	}
@@ -77,7 +78,7 @@ func runDemo(stdout, stderr io.Writer, dir string) error {
 			tail = &lastLine{}
 			out = tail
 		}
-		if code := run(st.args, out, stderr); code != exitOK {
+		if code := runContext(ctx, st.args, out, stderr); code != exitOK {
 			return fmt.Errorf("demo: step %d failed (exit %d)", i+1, code)
 		}
 		if tail != nil {

@@ -2,11 +2,15 @@ package main
 
 import (
 	"bufio"
+	"context"
 	"fmt"
 	"io"
 	"os"
+	"os/signal"
 	"path/filepath"
 	"strings"
+	"sync"
+	"syscall"
 
 	"github.com/klauspost/compress/gzip"
 	"github.com/klauspost/compress/zstd"
@@ -17,7 +21,7 @@ import (
 // ending in .gz or .zst is compressed accordingly. On any
 // error the temporary file is removed and nothing appears at path. The path
 // "-" (or "") writes to stdout instead.
-func writeOutput(path string, stdout io.Writer, fn func(w io.Writer) error) error {
+func writeOutput(ctx context.Context, path string, stdout io.Writer, fn func(w io.Writer) error) error {
 	if path == "" || path == "-" {
 		bw := bufio.NewWriterSize(stdout, 1<<16)
 		if err := fn(bw); err != nil {
@@ -33,6 +37,9 @@ func writeOutput(path string, stdout io.Writer, fn func(w io.Writer) error) erro
 	if err != nil {
 		return fmt.Errorf("cannot write %s: %w", path, err)
 	}
+	pending := pendingFrom(ctx)
+	pending.add(tmp.Name())
+	defer pending.remove(tmp.Name())
 	ok := false
 	defer func() {
 		if !ok {
@@ -86,4 +93,72 @@ func compressor(path string, w io.Writer) (io.Writer, func() error, error) {
 		return z, z.Close, nil
 	}
 	return w, func() error { return nil }, nil
+}
+
+// pendingOutputs tracks the temporary files being written, so that an
+// interrupted run (SIGINT, SIGTERM) can remove them before it exits.
+type pendingOutputs struct {
+	mu    sync.Mutex
+	files map[string]bool
+}
+
+func (p *pendingOutputs) add(name string) {
+	if p == nil {
+		return
+	}
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	p.files[name] = true
+}
+
+func (p *pendingOutputs) remove(name string) {
+	if p == nil {
+		return
+	}
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	delete(p.files, name)
+}
+
+// removeAll deletes every pending temporary file.
+func (p *pendingOutputs) removeAll() {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	for name := range p.files {
+		os.Remove(name)
+		delete(p.files, name)
+	}
+}
+
+type pendingKey struct{}
+
+func pendingFrom(ctx context.Context) *pendingOutputs {
+	if ctx == nil {
+		return nil
+	}
+	p, _ := ctx.Value(pendingKey{}).(*pendingOutputs)
+	return p
+}
+
+// withInterruptCleanup returns a context carrying a pendingOutputs and
+// starts watching for SIGINT and SIGTERM: on either, the pending temporary
+// files are removed and the process exits with 128 + the signal number, as
+// shells report it. stop ends the watch.
+func withInterruptCleanup(stderr io.Writer) (ctx context.Context, stop func()) {
+	p := &pendingOutputs{files: map[string]bool{}}
+	ctx = context.WithValue(context.Background(), pendingKey{}, p)
+	sigs := make(chan os.Signal, 1)
+	signal.Notify(sigs, syscall.SIGINT, syscall.SIGTERM)
+	done := make(chan struct{})
+	go func() {
+		select {
+		case sig := <-sigs:
+			p.removeAll()
+			fmt.Fprintf(stderr, "ingot: interrupted by %v; no output written\n", sig)
+			code := 128 + int(sig.(syscall.Signal))
+			os.Exit(code)
+		case <-done:
+		}
+	}()
+	return ctx, func() { signal.Stop(sigs); close(done) }
 }

@@ -106,7 +106,7 @@ held-out text.`,
 					return err
 				}
 			}
-			if err := writeOutput(out, nil, func(w io.Writer) error { return format.Write(w, p) }); err != nil {
+			if err := writeOutput(cmd.Context(), out, nil, func(w io.Writer) error { return format.Write(w, p) }); err != nil {
 				return err
 			}
 			return reportPrune(cmd.OutOrStdout(), t, p, threshold, args[0], out, heldout, asJSON)

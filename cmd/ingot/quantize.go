@@ -87,7 +87,7 @@ levels allow, so every context still sums to one within the tolerance that
 			if err != nil {
 				return err
 			}
-			if err := writeOutput(out, nil, func(w io.Writer) error { return format.Write(w, q) }); err != nil {
+			if err := writeOutput(cmd.Context(), out, nil, func(w io.Writer) error { return format.Write(w, q) }); err != nil {
 				return err
 			}
 			return reportQuantize(cmd.OutOrStdout(), reports, args[0], out, heldout, asJSON)

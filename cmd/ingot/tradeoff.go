@@ -91,7 +91,7 @@ pruning; a bit width of 0 means 32-bit floats.`,
 				"tradeoff.json": func(w io.Writer) error { return tradeoff.WriteJSON(w, points) },
 				"tradeoff.svg":  func(w io.Writer) error { return tradeoff.WriteSVG(w, title, points) },
 			} {
-				if err := writeOutput(filepath.Join(out, name), nil, write); err != nil {
+				if err := writeOutput(cmd.Context(), filepath.Join(out, name), nil, write); err != nil {
 					return err
 				}
 			}
