@@ -28,6 +28,11 @@ func Write(w io.Writer, t *tables.Tables) error {
 	if err != nil {
 		return err
 	}
+	return writeFile(w, header, sections)
+}
+
+// writeFile writes an assembled header and its sections with their padding.
+func writeFile(w io.Writer, header []byte, sections []section) error {
 	if _, err := w.Write(header); err != nil {
 		return fmt.Errorf("ingot model: writing header: %w", err)
 	}
@@ -69,6 +74,14 @@ func encode(t *tables.Tables) ([]byte, []section, error) {
 	if err != nil {
 		return nil, nil, err
 	}
+	header := assemble(sections, version(t))
+	return header, sections, nil
+}
+
+// assemble places the sections (offsets, lengths, checksums) and returns
+// the header with its directory and the content digest, which covers every
+// section but signatures.
+func assemble(sections []section, version uint32) []byte {
 	header := make([]byte, headerSize+directoryEntry*len(sections))
 	pos := int64(len(header))
 	digest := sha256.New()
@@ -78,8 +91,10 @@ func encode(t *tables.Tables) ([]byte, []section, error) {
 		s.Length = int64(len(s.data))
 		s.Checksum = checksum(s.data)
 		pos = s.Offset + s.Length
-		digest.Write(digestRecord(s.Section))
-		digest.Write(s.data)
+		if s.Kind != KindSignature {
+			digest.Write(digestRecord(s.Section))
+			digest.Write(s.data)
+		}
 		e := header[headerSize+directoryEntry*i:]
 		putU32(e[0:], uint32(s.Kind))
 		putU32(e[4:], uint32(s.Encoding))
@@ -89,13 +104,13 @@ func encode(t *tables.Tables) ([]byte, []section, error) {
 		putU64(e[24:], uint64(s.Length))
 	}
 	copy(header, Magic)
-	putU32(header[offVersion:], version(t))
+	putU32(header[offVersion:], version)
 	putU32(header[offSectionCount:], uint32(len(sections)))
 	putU64(header[offFileLength:], uint64(align(pos)))
 	copy(header[offDigest:], digest.Sum(nil))
 	crc := updateChecksum(checksum(header[:offHeaderCRC]), header[headerSize:])
 	putU32(header[offHeaderCRC:], crc)
-	return header, sections, nil
+	return header
 }
 
 // checkWritable checks what the file format needs beyond Tables.Check.

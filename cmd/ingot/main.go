@@ -87,6 +87,8 @@ Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input.`,
 		newPruneCmd(),
 		newQuantizeCmd(),
 		newTradeoffCmd(),
+		newKeygenCmd(),
+		newSignCmd(),
 		newDemoCmd(),
 	)
 	return root

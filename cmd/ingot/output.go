@@ -22,6 +22,11 @@ import (
 // error the temporary file is removed and nothing appears at path. The path
 // "-" (or "") writes to stdout instead.
 func writeOutput(ctx context.Context, path string, stdout io.Writer, fn func(w io.Writer) error) error {
+	return writeOutputMode(ctx, path, 0o644, stdout, fn)
+}
+
+// writeOutputMode is writeOutput with the file's permissions.
+func writeOutputMode(ctx context.Context, path string, mode os.FileMode, stdout io.Writer, fn func(w io.Writer) error) error {
 	if path == "" || path == "-" {
 		bw := bufio.NewWriterSize(stdout, 1<<16)
 		if err := fn(bw); err != nil {
@@ -67,7 +72,7 @@ func writeOutput(ctx context.Context, path string, stdout io.Writer, fn func(w i
 	if err := tmp.Close(); err != nil {
 		return fmt.Errorf("closing %s: %w", path, err)
 	}
-	if err := os.Chmod(tmp.Name(), 0o644); err != nil {
+	if err := os.Chmod(tmp.Name(), mode); err != nil {
 		return err
 	}
 	if err := os.Rename(tmp.Name(), path); err != nil {
