@@ -66,11 +66,11 @@ func Load(order int, sources []Source) (*Counts, error) {
 					return bad("%s inside an n-gram (only last)", w)
 				}
 			}
-			if len(words) > maxSeen {
-				maxSeen = len(words)
-			}
 			if len(words) > order {
 				return nil
+			}
+			if len(words) > maxSeen {
+				maxSeen = len(words)
 			}
 			if len(words) == 1 && words[0] == tables.SentenceStart {
 				return nil // implicit: <s> is never predicted
@@ -99,6 +99,9 @@ func Load(order int, sources []Source) (*Counts, error) {
 	}
 	if err := b.checkClosure(sources); err != nil {
 		return nil, err
+	}
+	if b.grams[0].len() == 0 {
+		return nil, fmt.Errorf("no unigram counts in %s", names(sources))
 	}
 	return b.finish(nil), nil
 }

@@ -1,0 +1,71 @@
+package counts
+
+import (
+	"bytes"
+	"strings"
+	"testing"
+	"unicode/utf8"
+)
+
+// FuzzLoad reads arbitrary bytes as a count file: it never panics, and
+// whatever it accepts round-trips (written back and read again, the same
+// counts).
+func FuzzLoad(f *testing.F) {
+	f.Add([]byte("a\t2\n</s>\t2\n<s> a\t2\na </s>\t2\n"), 2)
+	f.Add([]byte("a b\t1\n"), 2)
+	f.Add([]byte("the beacon\t3\r\nthe\t3\nbeacon\t3\n<s> the\t3\nbeacon </s>\t3\n</s>\t3\n"), 3)
+	f.Add([]byte("x\t18446744073709551615\nx\t1\n"), 1)
+	f.Add([]byte("\xff\t1\n"), 1)
+	f.Fuzz(func(t *testing.T, data []byte, order int) {
+		if order < 1 || order > 4 {
+			order = 1 + (order&3+4)%4
+		}
+		c, err := Load(order, []Source{{Name: "f", R: bytes.NewReader(data)}})
+		if err != nil {
+			if !strings.HasPrefix(err.Error(), "f") && !strings.HasPrefix(err.Error(), "no n-grams") && !strings.HasPrefix(err.Error(), "no unigram") && !strings.HasPrefix(err.Error(), "counts hold") {
+				t.Fatalf("error does not name the file: %v", err)
+			}
+			return
+		}
+		var out bytes.Buffer
+		if _, err := c.WriteTo(&out); err != nil {
+			t.Fatal(err)
+		}
+		again, err := Load(order, []Source{{Name: "g", R: bytes.NewReader(out.Bytes())}})
+		if err != nil {
+			t.Fatalf("written counts do not load: %v\n%s", err, out.Bytes())
+		}
+		var out2 bytes.Buffer
+		again.WriteTo(&out2)
+		if !bytes.Equal(out.Bytes(), out2.Bytes()) {
+			t.Fatalf("round trip differs:\n%s\n---\n%s", out.Bytes(), out2.Bytes())
+		}
+	})
+}
+
+// FuzzCountText counts arbitrary bytes as training text: it never panics,
+// rejects invalid UTF-8 and markers with file and line, and every token it
+// counts is valid UTF-8 without white space.
+func FuzzCountText(f *testing.F) {
+	f.Add([]byte("turn the beacon on\n\nmark waypoint\n"))
+	f.Add([]byte("a <s> b\n"))
+	f.Add([]byte("caf\xc3\xa9 \xe2\x80\x83 na\xc3\xafve\r\n"))
+	f.Add([]byte("\xff\n"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		c, _ := NewCounter(3)
+		if err := c.AddText("t", bytes.NewReader(data)); err != nil {
+			if !strings.HasPrefix(err.Error(), "t:") {
+				t.Fatalf("error does not name file and line: %v", err)
+			}
+			return
+		}
+		res := c.Counts(1)
+		for _, w := range res.Vocab {
+			if !utf8.ValidString(w) || strings.IndexFunc(w, isSpace) >= 0 || w == "" {
+				t.Fatalf("bad token %q", w)
+			}
+		}
+	})
+}
+
+func isSpace(r rune) bool { return strings.TrimSpace(string(r)) == "" }
