@@ -21,6 +21,7 @@ type buildInfo struct {
 	Options                map[string]string    `json:"options,omitempty"`
 	EmptyContextLogBackoff number               `json:"empty_context_log10_backoff"`
 	ToolVersion            string               `json:"tool_version,omitempty"`
+	BuildTime              string               `json:"build_time,omitempty"`
 	History                []string             `json:"history,omitempty"`
 	Quantization           *tables.Quantization `json:"quantization,omitempty"`
 }
@@ -74,6 +75,7 @@ func marshalInfo(info tables.Info) ([]byte, error) {
 		Options:                info.Options,
 		EmptyContextLogBackoff: number(info.EmptyContextLogBackoff),
 		ToolVersion:            info.ToolVersion,
+		BuildTime:              info.BuildTime,
 		History:                info.History,
 		Quantization:           info.Quantization,
 	}
@@ -110,6 +112,7 @@ func unmarshalInfo(data []byte) (tables.Info, error) {
 		Options:                b.Options,
 		EmptyContextLogBackoff: float64(b.EmptyContextLogBackoff),
 		ToolVersion:            b.ToolVersion,
+		BuildTime:              b.BuildTime,
 		History:                b.History,
 		Quantization:           b.Quantization,
 	}

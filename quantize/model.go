@@ -295,7 +295,7 @@ func quantizeBackoffs(q *tables.Tables, k int, opt Options, probs Codebook, rep 
 		if lowerMass[i] >= 1-1e-12 {
 			continue // followed by every word: weight 1, nothing backs off
 		}
-		target := 1 - math.Pow(10, float64(bq))*(1-lowerMass[i])
+		target := 1 - float64(math.Pow(10, float64(bq))*(1-lowerMass[i]))
 		maxResidual = max(maxResidual, compensate(above.LogProb[a:b], probs, target))
 	}
 	rep.BackoffLevels = cb.Len()

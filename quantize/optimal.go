@@ -70,7 +70,7 @@ func groupMeans(points, weights []float64, bounds []int) []float64 {
 		first := points[bounds[g]]
 		sum, weight := 0.0, 0.0
 		for i := bounds[g]; i < bounds[g+1]; i++ {
-			sum += weights[i] * (points[i] - first)
+			sum += float64(weights[i] * (points[i] - first))
 			weight += weights[i]
 		}
 		out[g] = first + sum/weight
@@ -98,8 +98,8 @@ func newGroupCosts(points, weights []float64) groupCosts {
 	for i, p := range points {
 		d := p - shift
 		c.weight[i+1] = c.weight[i] + weights[i]
-		c.sum[i+1] = c.sum[i] + weights[i]*d
-		c.squares[i+1] = c.squares[i] + weights[i]*d*d
+		c.sum[i+1] = c.sum[i] + float64(weights[i]*d)
+		c.squares[i+1] = c.squares[i] + float64(weights[i]*d*d)
 	}
 	return c
 }
@@ -112,7 +112,7 @@ func (c groupCosts) points() int { return len(c.weight) - 1 }
 // it is then 0.
 func (c groupCosts) cost(i, j int) float64 {
 	s := c.sum[j] - c.sum[i]
-	return max(0, c.squares[j]-c.squares[i]-s*s/(c.weight[j]-c.weight[i]))
+	return max(0, c.squares[j]-c.squares[i]-float64(s*s/(c.weight[j]-c.weight[i])))
 }
 
 // layeredBoundaries solves the programme of Wang and Song (2011) one layer

@@ -3,9 +3,11 @@ package main
 import (
 	"fmt"
 	"io"
+	"os"
 	"strconv"
 	"strings"
 	"text/tabwriter"
+	"time"
 
 	"github.com/spf13/cobra"
 
@@ -87,6 +89,9 @@ rule that applied.`,
 				}
 			}
 			t.Info.ToolVersion = version
+			if t.Info.BuildTime, err = buildTime(); err != nil {
+				return err
+			}
 			t.Info.Options = map[string]string{
 				"method": method, "order": strconv.Itoa(order),
 			}
@@ -132,6 +137,22 @@ func parseDiscount(s string, opt *estimate.Options) error {
 	}
 	opt.Discount = d
 	return nil
+}
+
+// buildTime returns the build time that SOURCE_DATE_EPOCH fixes (seconds
+// since 1970, the reproducible-builds convention), or "" when it is unset:
+// models record no time of their own, so the same inputs give the same
+// bytes.
+func buildTime() (string, error) {
+	s, ok := os.LookupEnv("SOURCE_DATE_EPOCH")
+	if !ok || s == "" {
+		return "", nil
+	}
+	sec, err := strconv.ParseInt(s, 10, 64)
+	if err != nil || sec < 0 {
+		return "", fmt.Errorf("compile: SOURCE_DATE_EPOCH=%q is not a number of seconds since 1970", s)
+	}
+	return time.Unix(sec, 0).UTC().Format(time.RFC3339), nil
 }
 
 // parseCutoffs reads "K=M[,K=M...]".

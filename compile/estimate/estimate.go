@@ -16,6 +16,11 @@
 //     (1995), "Improved backing-off for m-gram language modeling", ICASSP;
 //     modified form of Chen and Goodman (1998), section 3.
 //
+// Products that are added to something are converted explicitly
+// (float64(x*y)), which the Go specification says rounds them on their own:
+// no compiler may fuse them into a multiply-add, so every machine computes
+// the same bits.
+//
 // Every model is stored in back-off form (see package tables). Orders are
 // estimated bottom-up, each from the final probabilities of the order below.
 // The corner-case rules (fallbacks) are applied as documented on each method
@@ -234,7 +239,7 @@ func absoluteAuto(n []float64) float64 {
 	if n[1] == 0 || n[2] == 0 {
 		return 0.5
 	}
-	return n[1] / (n[1] + 2*n[2])
+	return n[1] / (n[1] + float64(2*n[2]))
 }
 
 // discounter turns the counts of one context's successors into their
@@ -451,7 +456,7 @@ func wittenBell(cnt []uint64, lower []float64, p []float64) float64 {
 		}
 	}
 	for j, r := range cnt {
-		p[j] = (float64(r) + T*lower[j]) / (total + T)
+		p[j] = (float64(r) + float64(T*lower[j])) / (total + T)
 	}
 	return T / (total + T)
 }
@@ -466,9 +471,9 @@ func KneserNeyDiscounts(n []float64) (Y, D1, D2, D3 float64, why string) {
 			return Y, Y, Y, Y, fmt.Sprintf("n_%d = 0", r)
 		}
 	}
-	D1 = 1 - 2*Y*n[2]/n[1]
-	D2 = 2 - 3*Y*n[3]/n[2]
-	D3 = 3 - 4*Y*n[4]/n[3]
+	D1 = 1 - float64(2*Y*n[2]/n[1])
+	D2 = 2 - float64(3*Y*n[3]/n[2])
+	D3 = 3 - float64(4*Y*n[4]/n[3])
 	switch {
 	case !(D1 > 0 && D1 <= 1):
 		why = fmt.Sprintf("D1 = %.6g outside (0, 1]", D1)
@@ -503,9 +508,9 @@ func (e *estimator) kneserNey(k int, adj []uint64, rep *OrderReport) discounter 
 			copy(p, lower)
 			return 1
 		}
-		gamma := (D1*N[1] + D2*N[2] + D3*N[3]) / total
+		gamma := (float64(D1*N[1]) + float64(D2*N[2]) + float64(D3*N[3])) / total
 		for j, r := range a {
-			p[j] = (float64(r)-D[min(r, 3)])/total + gamma*lower[j]
+			p[j] = float64((float64(r)-D[min(r, 3)])/total) + float64(gamma*lower[j])
 		}
 		return gamma
 	}

@@ -68,8 +68,10 @@ func EntropyScores(t *tables.Tables) Scores {
 			for x := i; x < j; x++ {
 				p, pl := pw[x-i], plw[x-i]
 				bowNew := (1 - sumP + p) / (1 - sumL + pl)
-				d := -ph * (p*(math.Log(pl)+math.Log(bowNew)-math.Log(p)) +
-					(math.Log(bowNew)-math.Log(bow))*(1-sumP))
+				// Explicit conversions keep each product rounded on its own,
+				// so no machine fuses a multiply and an add differently.
+				d := -ph * (float64(p*(math.Log(pl)+math.Log(bowNew)-math.Log(p))) +
+					float64((math.Log(bowNew)-math.Log(bow))*(1-sumP)))
 				scores[k-1][x] = d
 				if k < N {
 					ctxProb[k-1][x] = ph * p

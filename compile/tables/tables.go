@@ -90,6 +90,10 @@ type Info struct {
 	EmptyContextLogBackoff float64 `json:"empty_context_log10_backoff"`
 	// ToolVersion is the version of the program that wrote the model.
 	ToolVersion string `json:"tool_version,omitempty"`
+	// BuildTime is when the model was built, in RFC 3339 UTC, recorded only
+	// when the builder fixed it (SOURCE_DATE_EPOCH); empty otherwise, so
+	// that the same inputs give the same bytes.
+	BuildTime string `json:"build_time,omitempty"`
 	// History lists, oldest first, the steps applied after estimation
 	// (count cutoffs, pruning, quantization), each as one line.
 	History []string `json:"history,omitempty"`
