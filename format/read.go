@@ -136,7 +136,7 @@ func u64(b []byte) uint64 { return binary.LittleEndian.Uint64(b) }
 func (m *Model) readHeader() error {
 	data := m.data
 	if len(data) < headerSize {
-		return formatErr("header", 0, "file is %d bytes, shorter than the %d-byte header", len(data), headerSize)
+		return formatErr("header", 0, "file is %d bytes, shorter than the %d-byte header: not an ingot model file, or truncated", len(data), headerSize)
 	}
 	if string(data[:len(Magic)]) != Magic {
 		return formatErr("header", 0, "bad magic %q: not an ingot model file, or damaged by a text-mode transfer", data[:len(Magic)])

@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"io"
+	"strings"
 
 	"github.com/spf13/cobra"
 
@@ -44,7 +45,7 @@ naming the file and line, and no output file is left behind.`,
 			}
 			res := c.Counts(minCount)
 			if total(res) == 0 {
-				return fmt.Errorf("count: no sentences in %v", args)
+				return fmt.Errorf("count: no sentences in %s", strings.Join(args, ", "))
 			}
 			return writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
 				_, err := res.WriteTo(w)

@@ -63,11 +63,8 @@ summary object ("perplexity", ...).`,
 }
 
 func openModel(path string) (*format.Model, error) {
-	m, err := format.Open(path)
-	if err != nil {
-		return nil, fmt.Errorf("%s: %w", path, err)
-	}
-	return m, nil
+	// The reader's errors name the file already.
+	return format.Open(path)
 }
 
 // jsonNumber renders a float for JSON; infinities and NaN become null.

@@ -1,0 +1,107 @@
+package main
+
+import (
+	"encoding/binary"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// badInputCase is one row of the bad-input table (also in the README):
+// every command refuses bad usage and bad input with one line naming what
+// and where, exit 2, and writes nothing.
+type badInputCase struct {
+	name string
+	args []string // "$D" is replaced by the test directory, "$M" by a good model
+	want string   // a piece of the one-line message
+}
+
+var badInputTable = []badInputCase{
+	{"unknown command", []string{"frobnicate"}, `unknown command "frobnicate"`},
+	{"unknown flag", []string{"count", "--order", "2", "--colour"}, "unknown flag: --colour"},
+	{"missing required flag", []string{"count", "$D/train.txt"}, `required flag(s) "order" not set`},
+	{"order 0", []string{"count", "--order", "0", "-o", "$D/out", "$D/train.txt"}, "order 0 outside 1..10"},
+	{"order above the maximum", []string{"count", "--order", "11", "-o", "$D/out", "$D/train.txt"}, "order 11 outside 1..10"},
+	{"missing text file", []string{"count", "--order", "2", "-o", "$D/out", "$D/absent.txt"}, "absent.txt: no such file or directory"},
+	{"unreadable text (a directory)", []string{"count", "--order", "2", "-o", "$D/out", "$D"}, "is a directory"},
+	{"empty corpus", []string{"count", "--order", "2", "-o", "$D/out", "$D/empty.txt"}, "no sentences in $D/empty.txt"},
+	{"marker in text", []string{"count", "--order", "2", "-o", "$D/out", "$D/marker.txt"}, "marker.txt:2: marker <unk> inside raw text"},
+	{"invalid UTF-8", []string{"count", "--order", "2", "-o", "$D/out", "$D/latin1.txt"}, "latin1.txt:1: invalid UTF-8"},
+	{"count zero", []string{"compile", "--method", "katz", "--order", "1", "-o", "$D/out", "$D/zero.tsv"}, `zero.tsv:2: count "0" is not a positive integer`},
+	{"count negative", []string{"compile", "--method", "katz", "--order", "1", "-o", "$D/out", "$D/negative.tsv"}, `negative.tsv:1: count "-4" is not a positive integer`},
+	{"count fractional", []string{"compile", "--method", "katz", "--order", "1", "-o", "$D/out", "$D/fraction.tsv"}, `fraction.tsv:1: count "2.5" is not a positive integer`},
+	{"count NaN", []string{"compile", "--method", "katz", "--order", "1", "-o", "$D/out", "$D/nan.tsv"}, `nan.tsv:1: count "NaN" is not a positive integer`},
+	{"empty count file", []string{"compile", "--method", "katz", "--order", "2", "-o", "$D/out", "$D/empty.txt"}, "no n-grams in $D/empty.txt"},
+	{"missing prefix", []string{"compile", "--method", "katz", "--order", "2", "-o", "$D/out", "$D/noprefix.tsv"}, `noprefix.tsv:2: "x a" has no count for its prefix "x"`},
+	{"order above the counts", []string{"compile", "--method", "katz", "--order", "3", "-o", "$D/out", "$D/unigrams.tsv"}, "counts hold orders up to 1, order 3 asked"},
+	{"unknown method", []string{"compile", "--method", "magic", "--order", "2", "-o", "$D/out", "$D/zero.tsv"}, `unknown method "magic"`},
+	{"discount out of range", []string{"compile", "--method", "absolute", "--discount", "1", "--order", "2", "-o", "$D/out", "$D/zero.tsv"}, `--discount "1" must be a number in (0, 1)`},
+	{"bad cutoff", []string{"compile", "--method", "katz", "--order", "2", "--min-count", "2:3", "-o", "$D/out", "$D/zero.tsv"}, "want K=M pairs"},
+	{"model missing", []string{"score", "$D/absent.ingot"}, "absent.ingot: no such file or directory"},
+	{"not a model", []string{"score", "$D/train.txt"}, "not an ingot model file"},
+	{"model of an unknown version", []string{"score", "$D/future.ingot"}, "file is format version 9; this reader reads versions 1 to 2"},
+	{"truncated model", []string{"explain", "$D/truncated.ingot", "a b"}, "truncated"},
+	{"explain without words", []string{"explain", "$M", " "}, "no words given"},
+	{"prune without a rule", []string{"prune", "-o", "$D/out", "$M"}, "exactly one of --threshold and --max-size"},
+	{"prune budget unreadable", []string{"prune", "--max-size", "lots", "-o", "$D/out", "$M"}, `size "lots" is not a positive number`},
+	{"quantize bits out of range", []string{"quantize", "--bits", "1", "-o", "$D/out", "$M"}, "--bits 1 outside 2..16"},
+	{"quantize unknown trainer", []string{"quantize", "--bits", "8", "--trainer", "guess", "-o", "$D/out", "$M"}, `unknown trainer "guess"`},
+	{"tradeoff bad grid", []string{"tradeoff", "--heldout", "$D/train.txt", "--bits", "8,x", "-o", "$D/out", "$M"}, `"x" is not a whole number`},
+	{"sign with a missing key", []string{"sign", "--key", "$D/absent.key", "$M"}, "absent.key: no such file or directory"},
+	{"sign with a public key", []string{"sign", "--key", "$D/k.pub", "$M"}, "not a PEM PRIVATE KEY"},
+}
+
+func TestBadInputEverywhere(t *testing.T) {
+	dir := t.TempDir()
+	model := demoModel(t, dir)
+	files := map[string]string{
+		"train.txt":       "turn the beacon on\n",
+		"empty.txt":       "",
+		"marker.txt":      "ok\nthe <unk> here\n",
+		"latin1.txt":      "caf\xe9\n",
+		"zero.tsv":        "a\t3\nb\t0\n",
+		"unigrams.tsv":    "a\t3\n</s>\t3\n",
+		"negative.tsv":    "a\t-4\n",
+		"fraction.tsv":    "a\t2.5\n",
+		"nan.tsv":         "a\tNaN\n",
+		"noprefix.tsv":    "a\t1\nx a\t1\n",
+		"k.pub":           "-----BEGIN PUBLIC KEY-----\nMCowBQYDK2VwAyEAGb9ECWmEzf6FQbrBZ9w7lshQhqowtrbLDFw4rXAxZuE=\n-----END PUBLIC KEY-----\n",
+		"truncated.ingot": "",
+	}
+	for name, text := range files {
+		writeFile(t, dir, name, text)
+	}
+	good, _ := os.ReadFile(model)
+	os.WriteFile(filepath.Join(dir, "truncated.ingot"), good[:len(good)/2], 0o644)
+	future := append([]byte(nil), good...)
+	binary.LittleEndian.PutUint32(future[8:], 9)
+	os.WriteFile(filepath.Join(dir, "future.ingot"), future, 0o644)
+
+	for _, tc := range badInputTable {
+		t.Run(tc.name, func(t *testing.T) {
+			args := make([]string, len(tc.args))
+			for i, a := range tc.args {
+				args[i] = strings.ReplaceAll(strings.ReplaceAll(a, "$D", dir), "$M", model)
+			}
+			want := strings.ReplaceAll(tc.want, "$D", dir)
+			code, stdout, stderr := ingot(t, args...)
+			if code != 2 {
+				t.Errorf("exit %d, want 2 (stderr %q)", code, stderr)
+			}
+			if !strings.Contains(stderr, want) {
+				t.Errorf("stderr %q lacks %q", stderr, want)
+			}
+			if strings.Count(stderr, "\n") != 1 || !strings.HasPrefix(stderr, "ingot: ") {
+				t.Errorf("stderr is not one line starting with \"ingot: \": %q", stderr)
+			}
+			if stdout != "" {
+				t.Errorf("stdout %q, want nothing", stdout)
+			}
+			if _, err := os.Stat(filepath.Join(dir, "out")); err == nil {
+				t.Error("an output was written")
+				os.RemoveAll(filepath.Join(dir, "out"))
+			}
+		})
+	}
+}
