@@ -1,0 +1,430 @@
+package main
+
+import (
+	"bufio"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"strings"
+	"text/tabwriter"
+
+	"github.com/spf13/cobra"
+
+	"ingot/compile/input"
+	"ingot/format"
+	"ingot/verify"
+	"ingot/verify/gate"
+)
+
+// checkReleaseGate names the release-gate check in verify's report.
+const checkReleaseGate = "release-gate"
+
+type verifyFlags struct {
+	asJSON      bool
+	tolerance   float64
+	baseline    string
+	heldout     string
+	maxIncrease float64
+}
+
+func newVerifyCmd() *cobra.Command {
+	var f verifyFlags
+	cmd := &cobra.Command{
+		Use:   "verify [--json] [--tolerance T] MODEL [--baseline OLD --heldout TEXT [--max-ppl-increase PCT]]",
+		Short: "Prove a model file intact and normalised; gate a release against the previous model",
+		Long: `Check every byte of a model file and that it is a proper model:
+
+  header          magic, format version, section count, file length, header checksum
+  directory       every section inside the file, aligned, in order, once
+  checksums       the CRC-32C of every section
+  digest          the SHA-256 content digest recorded at build time
+  padding         every byte between and after the sections is zero
+  opens           the format reader accepts the file
+  vocabulary      words valid UTF-8, strictly sorted
+  prefix-closure  child ranges well formed: every stored n-gram's context is stored
+  ids             every word id inside the vocabulary
+  order           the entries under every context sorted
+  values          no NaN or infinity (but the unigram <s>), no probability
+                  above 1, back-off weights finite
+  suffix-closure  a model flagged suffix-closed is
+  normalisation   the empty context and every stored context h give the
+                  vocabulary (all words but <s>) total probability
+                  S(h) = 1 within the tolerance (default 1e-5)
+
+A check that needs a sound file is "not run" when an earlier one fails; a
+damaged file never crashes verify, and each problem names the section and
+byte offset (and the n-gram) where it lies.
+
+With --baseline and --heldout, verify also gates a release: it scores the
+held-out text with both models and fails the check "release-gate" when the
+candidate's perplexity is more than --max-ppl-increase percent (default 1)
+above the baseline's. It also reports the n-grams added, removed and changed
+(compared by their words) and the mean KL(baseline || candidate), in nats,
+between the two models' next-word distributions at every held-out
+prediction.
+
+Exit codes: 0 every check passed, 1 a check failed (named in the message),
+2 bad usage, or a file that cannot be read as a model at all.`,
+		Example: `  ingot verify field.ingot
+  ingot verify --json field.ingot
+  ingot verify new.ingot --baseline shipped.ingot --heldout dev.txt --max-ppl-increase 0.5`,
+		Args: cobra.ExactArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			return runVerify(cmd, args[0], &f)
+		},
+	}
+	fl := cmd.Flags()
+	fl.BoolVar(&f.asJSON, "json", false, "print the report as one JSON object")
+	fl.Float64Var(&f.tolerance, "tolerance", 0, "largest |S(h) - 1| allowed for any context (default: the model's, 1e-5 today)")
+	fl.StringVar(&f.baseline, "baseline", "", "the model this one replaces: compare them on --heldout")
+	fl.StringVar(&f.heldout, "heldout", "", "held-out text for the release gate, one sentence per line (.gz/.zst read directly)")
+	fl.Float64Var(&f.maxIncrease, "max-ppl-increase", gate.DefaultMaxIncreasePercent, "largest perplexity increase over the baseline, in percent, that the release gate accepts")
+	return cmd
+}
+
+func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
+	fl := cmd.Flags()
+	if fl.Changed("tolerance") && !(f.tolerance > 0 && !math.IsInf(f.tolerance, 0)) {
+		return fmt.Errorf("verify: --tolerance %v must be a number above 0", f.tolerance)
+	}
+	if math.IsNaN(f.maxIncrease) || math.IsInf(f.maxIncrease, 0) {
+		return fmt.Errorf("verify: --max-ppl-increase %v must be a finite number of percent", f.maxIncrease)
+	}
+	gated := f.baseline != "" || f.heldout != ""
+	if gated && (f.baseline == "" || f.heldout == "") {
+		return fmt.Errorf("verify: the release gate needs both --baseline and --heldout")
+	}
+	if fl.Changed("max-ppl-increase") && !gated {
+		return fmt.Errorf("verify: --max-ppl-increase needs --baseline and --heldout")
+	}
+
+	// Open the gate's inputs first, so that bad usage fails before the work.
+	var base *format.Model
+	var text io.ReadCloser
+	if gated {
+		var err error
+		if base, err = openModel(f.baseline); err != nil {
+			return fmt.Errorf("verify: baseline %w", err)
+		}
+		defer base.Close()
+		if text, err = input.Open(f.heldout); err != nil {
+			return fmt.Errorf("verify: --heldout: %w", err)
+		}
+		defer text.Close()
+	}
+
+	rep, err := verify.File(model, verify.Options{Tolerance: f.tolerance})
+	if err != nil {
+		return fmt.Errorf("verify: %w", err)
+	}
+	var res *gate.Result
+	if gated {
+		var check verify.Check
+		if check, res, err = releaseGate(rep, model, base, f, text); err != nil {
+			return err
+		}
+		rep.Checks = append(rep.Checks, check)
+	}
+
+	w := bufio.NewWriter(cmd.OutOrStdout())
+	if f.asJSON {
+		err = printVerifyJSON(w, model, rep, res, f)
+	} else {
+		err = printVerifyText(w, model, rep, res, f)
+	}
+	if err == nil {
+		err = w.Flush()
+	}
+	if err != nil {
+		return err
+	}
+	if failed := rep.Err(); failed != nil {
+		return checkFailed{fmt.Errorf("verify %s: %w", model, failed)}
+	}
+	return nil
+}
+
+// releaseGate runs the comparison with the baseline when the candidate's
+// structure allows it. Unreadable held-out text is bad input (an error);
+// a gate that does not hold is a failed check.
+func releaseGate(rep *verify.Report, model string, base *format.Model, f *verifyFlags, text io.Reader) (verify.Check, *gate.Result, error) {
+	c := verify.Check{Name: checkReleaseGate}
+	for _, name := range []string{verify.CheckOpens, verify.CheckVocabulary, verify.CheckPrefixClosure, verify.CheckIDs, verify.CheckOrder, verify.CheckValues} {
+		if ch := rep.Check(name); ch == nil || ch.Status != verify.Pass {
+			c.Status, c.Detail = verify.NotRun, "needs a model whose structure and values hold"
+			return c, nil, nil
+		}
+	}
+	if err := base.Verify(); err != nil {
+		c.Status = verify.Fail
+		c.Detail = fmt.Sprintf("the baseline %s fails verification", f.baseline)
+		c.Problems = []verify.Problem{baselineProblem(err)}
+		c.Count = 1
+		return c, nil, nil
+	}
+	cand, err := openModel(model)
+	if err != nil {
+		return c, nil, fmt.Errorf("verify: %w", err)
+	}
+	defer cand.Close()
+	res, err := gate.Compare(cand, base, f.heldout, text)
+	if err != nil {
+		return c, nil, fmt.Errorf("verify: --heldout %w", err)
+	}
+	c.Status = verify.Pass
+	c.Detail = fmt.Sprintf("perplexity %.3f against the baseline's %.3f: %+.2f%%, limit %+g%%",
+		res.Candidate.Perplexity, res.Baseline.Perplexity, res.IncreasePercent, f.maxIncrease)
+	if !res.Passes(f.maxIncrease) {
+		c.Status = verify.Fail
+		c.Count = 1
+		c.Problems = []verify.Problem{{Section: "perplexity on " + f.heldout, Offset: -1, Msg: fmt.Sprintf(
+			"the candidate's perplexity %.3f is %.2f%% above the baseline's %.3f; at most %g%% is allowed",
+			res.Candidate.Perplexity, res.IncreasePercent, res.Baseline.Perplexity, f.maxIncrease)}}
+	}
+	return c, res, nil
+}
+
+// baselineProblem turns the format reader's verdict on the baseline into a
+// problem of the release gate.
+func baselineProblem(err error) verify.Problem {
+	var fe *format.FormatError
+	if errors.As(err, &fe) {
+		return verify.Problem{Section: "baseline " + fe.Section, Offset: fe.Offset, Msg: fe.Msg}
+	}
+	return verify.Problem{Section: "baseline", Offset: -1, Msg: err.Error()}
+}
+
+// printVerifyText prints the report as aligned text.
+func printVerifyText(w io.Writer, model string, rep *verify.Report, res *gate.Result, f *verifyFlags) error {
+	if failed := rep.Failed(); len(failed) > 0 {
+		fmt.Fprintf(w, "verify %s: FAILED (%s)\n\n", model, strings.Join(failed, ", "))
+	} else {
+		fmt.Fprintf(w, "verify %s: ok\n\n", model)
+	}
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "check\tstatus\tdetail")
+	for _, c := range rep.Checks {
+		fmt.Fprintf(tw, "%s\t%s\t%s\n", c.Name, c.Status, c.Detail)
+	}
+	tw.Flush()
+
+	var problems []verify.Check
+	for _, c := range rep.Checks {
+		if len(c.Problems) > 0 {
+			problems = append(problems, c)
+		}
+	}
+	if len(problems) > 0 {
+		fmt.Fprintln(w, "\nproblems")
+		tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+		for _, c := range problems {
+			for i, p := range c.Problems {
+				name := c.Name
+				if i > 0 {
+					name = ""
+				}
+				fmt.Fprintf(tw, "  %s\t%s\n", name, p)
+			}
+			if more := c.Count - len(c.Problems); more > 0 {
+				fmt.Fprintf(tw, "  \t... and %d more\n", more)
+			}
+		}
+		tw.Flush()
+	}
+
+	if n := rep.Normalisation; n != nil {
+		fmt.Fprintf(w, "\nnormalisation (tolerance %g)\n", n.Tolerance)
+		fmt.Fprintf(w, "  %-20s %12d\n", "contexts checked", n.Contexts)
+		fmt.Fprintf(w, "  %-20s %12.3g\n", "largest |S - 1|", n.MaxDeviation)
+		fmt.Fprintf(w, "  %-20s %12d\n", "over the tolerance", n.Exceeding)
+		fmt.Fprintf(w, "\n  %-20s %12s\n", "|S - 1|", "contexts")
+		for b, count := range n.Histogram {
+			fmt.Fprintf(w, "  %-20s %12d\n", bucketLabel(b), count)
+		}
+		fmt.Fprintf(w, "\n  worst contexts\n  %-10s %-16s %s\n", "|S - 1|", "S", "context")
+		for _, c := range n.Worst {
+			fmt.Fprintf(w, "  %-10.3g %-16.12f %s\n", c.Deviation(), c.Sum, contextLabel(c.Context))
+		}
+	}
+
+	if res != nil {
+		fmt.Fprintf(w, "\nrelease gate: against the baseline %s on %s (%d sentences, %d predictions)\n",
+			f.baseline, f.heldout, res.Sentences, res.Predictions)
+		fmt.Fprintf(w, "  %-20s %12s %12s %10s\n", "", "candidate", "baseline", "change")
+		fmt.Fprintf(w, "  %-20s %12.3f %12.3f %+9.2f%%\n", "perplexity", res.Candidate.Perplexity, res.Baseline.Perplexity, res.IncreasePercent)
+		fmt.Fprintf(w, "  %-20s %12.3f %12.3f\n", "without <unk>", res.Candidate.PerplexityWithoutUnknown, res.Baseline.PerplexityWithoutUnknown)
+		fmt.Fprintf(w, "  %-20s %12d %12d\n", "<unk> predictions", res.Candidate.UnknownPredictions, res.Baseline.UnknownPredictions)
+		fmt.Fprintf(w, "  %-20s %12s %12s %+9g%%\n", "limit", "", "", f.maxIncrease)
+		fmt.Fprintf(w, "\n  %-20s %12s %12s %12s\n", "n-grams of order", "added", "removed", "changed")
+		for _, o := range res.Orders {
+			fmt.Fprintf(w, "  %-20d %12d %12d %12d\n", o.Order, o.Added, o.Removed, o.Changed)
+		}
+		fmt.Fprintf(w, "  %-20s %12d %12d %12d\n", "all", res.Added, res.Removed, res.Changed)
+		fmt.Fprintf(w, "\n  mean KL(baseline || candidate) per prediction: %.6g nats, over %d events\n", res.MeanKL, res.Events)
+	}
+	return nil
+}
+
+// bucketLabel names a histogram bucket: "below 1e-09", "1e-09 to 1e-08",
+// ..., "1e-03 and above".
+func bucketLabel(b int) string {
+	lower, upper := verify.BucketBounds(b)
+	switch {
+	case lower == 0:
+		return fmt.Sprintf("below %.0e", upper)
+	case math.IsInf(upper, 1):
+		return fmt.Sprintf("%.0e and above", lower)
+	}
+	return fmt.Sprintf("%.0e to %.0e", lower, upper)
+}
+
+func contextLabel(words []string) string {
+	if len(words) == 0 {
+		return "(the empty context)"
+	}
+	return strings.Join(words, " ")
+}
+
+type problemJSON struct {
+	Section string `json:"section"`
+	Offset  int64  `json:"offset"`
+	Message string `json:"message"`
+}
+
+type checkJSON struct {
+	Name         string        `json:"name"`
+	Status       string        `json:"status"`
+	Detail       string        `json:"detail"`
+	Problems     []problemJSON `json:"problems,omitempty"`
+	ProblemCount int           `json:"problem_count"`
+}
+
+type worstJSON struct {
+	Context      string     `json:"context"`
+	Sum          jsonNumber `json:"sum"`
+	AbsDeviation jsonNumber `json:"abs_deviation"`
+}
+
+type bucketJSON struct {
+	From     float64     `json:"from"`
+	To       *jsonNumber `json:"to"`
+	Contexts int         `json:"contexts"`
+}
+
+type orderDiffJSON struct {
+	Order   int `json:"order"`
+	Added   int `json:"added"`
+	Removed int `json:"removed"`
+	Changed int `json:"changed"`
+}
+
+type gateJSON struct {
+	Baseline                      string          `json:"baseline"`
+	Heldout                       string          `json:"heldout"`
+	Sentences                     int             `json:"sentences"`
+	Predictions                   int             `json:"predictions"`
+	CandidatePerplexity           jsonNumber      `json:"candidate_perplexity"`
+	BaselinePerplexity            jsonNumber      `json:"baseline_perplexity"`
+	CandidatePerplexityWithoutUnk jsonNumber      `json:"candidate_perplexity_without_unk"`
+	BaselinePerplexityWithoutUnk  jsonNumber      `json:"baseline_perplexity_without_unk"`
+	CandidateUnkPredictions       int             `json:"candidate_unk_predictions"`
+	BaselineUnkPredictions        int             `json:"baseline_unk_predictions"`
+	IncreasePercent               jsonNumber      `json:"perplexity_increase_percent"`
+	MaxIncreasePercent            jsonNumber      `json:"max_perplexity_increase_percent"`
+	Passed                        bool            `json:"passed"`
+	NGramsAdded                   int             `json:"ngrams_added"`
+	NGramsRemoved                 int             `json:"ngrams_removed"`
+	NGramsChanged                 int             `json:"ngrams_changed"`
+	NGramsByOrder                 []orderDiffJSON `json:"ngrams_by_order"`
+	MeanKLNats                    jsonNumber      `json:"mean_kl_nats"`
+	KLDirection                   string          `json:"kl_direction"`
+	KLEvents                      int             `json:"kl_events"`
+}
+
+// printVerifyJSON prints the report as one JSON object; see the README's
+// "Verifying a model" for the keys.
+func printVerifyJSON(w io.Writer, model string, rep *verify.Report, res *gate.Result, f *verifyFlags) error {
+	v := struct {
+		Model              string       `json:"model"`
+		OK                 bool         `json:"ok"`
+		Failed             []string     `json:"failed"`
+		Checks             []checkJSON  `json:"checks"`
+		FormatVersion      int          `json:"format_version"`
+		Order              int          `json:"order"`
+		VocabularySize     int          `json:"vocabulary_size"`
+		NGramsPerOrder     []int        `json:"ngrams_per_order"`
+		ContextsChecked    int          `json:"contexts_checked"`
+		MaxAbsDeviation    jsonNumber   `json:"max_abs_deviation"`
+		Tolerance          jsonNumber   `json:"tolerance"`
+		OverTolerance      int          `json:"contexts_over_tolerance"`
+		WorstContexts      []worstJSON  `json:"worst_contexts"`
+		DeviationHistogram []bucketJSON `json:"deviation_histogram"`
+		ReleaseGate        *gateJSON    `json:"release_gate,omitempty"`
+	}{
+		Model: model, OK: rep.OK(), Failed: rep.Failed(),
+		FormatVersion: rep.Version, Order: rep.Order, VocabularySize: rep.VocabSize, NGramsPerOrder: rep.Counts,
+		MaxAbsDeviation: jsonNumber(math.NaN()), Tolerance: jsonNumber(f.tolerance),
+		WorstContexts: []worstJSON{}, DeviationHistogram: []bucketJSON{},
+	}
+	if v.Failed == nil {
+		v.Failed = []string{}
+	}
+	if v.NGramsPerOrder == nil {
+		v.NGramsPerOrder = []int{}
+	}
+	if f.tolerance == 0 {
+		v.Tolerance = jsonNumber(math.NaN())
+	}
+	for _, c := range rep.Checks {
+		cj := checkJSON{Name: c.Name, Status: string(c.Status), Detail: c.Detail, ProblemCount: c.Count}
+		for _, p := range c.Problems {
+			cj.Problems = append(cj.Problems, problemJSON{p.Section, p.Offset, p.Msg})
+		}
+		v.Checks = append(v.Checks, cj)
+	}
+	if n := rep.Normalisation; n != nil {
+		v.ContextsChecked = n.Contexts
+		v.MaxAbsDeviation = jsonNumber(n.MaxDeviation)
+		v.Tolerance = jsonNumber(n.Tolerance)
+		v.OverTolerance = n.Exceeding
+		for _, c := range n.Worst {
+			v.WorstContexts = append(v.WorstContexts, worstJSON{strings.Join(c.Context, " "), jsonNumber(c.Sum), jsonNumber(c.Deviation())})
+		}
+		for b, count := range n.Histogram {
+			lower, upper := verify.BucketBounds(b)
+			bj := bucketJSON{From: lower, Contexts: count}
+			if !math.IsInf(upper, 1) {
+				u := jsonNumber(upper)
+				bj.To = &u
+			}
+			v.DeviationHistogram = append(v.DeviationHistogram, bj)
+		}
+	}
+	if res != nil {
+		g := &gateJSON{
+			Baseline: f.baseline, Heldout: f.heldout,
+			Sentences: res.Sentences, Predictions: res.Predictions,
+			CandidatePerplexity:           jsonNumber(res.Candidate.Perplexity),
+			BaselinePerplexity:            jsonNumber(res.Baseline.Perplexity),
+			CandidatePerplexityWithoutUnk: jsonNumber(res.Candidate.PerplexityWithoutUnknown),
+			BaselinePerplexityWithoutUnk:  jsonNumber(res.Baseline.PerplexityWithoutUnknown),
+			CandidateUnkPredictions:       res.Candidate.UnknownPredictions,
+			BaselineUnkPredictions:        res.Baseline.UnknownPredictions,
+			IncreasePercent:               jsonNumber(res.IncreasePercent),
+			MaxIncreasePercent:            jsonNumber(f.maxIncrease),
+			Passed:                        res.Passes(f.maxIncrease),
+			NGramsAdded:                   res.Added, NGramsRemoved: res.Removed, NGramsChanged: res.Changed,
+			MeanKLNats:  jsonNumber(res.MeanKL),
+			KLDirection: "KL(baseline || candidate)",
+			KLEvents:    res.Events,
+		}
+		for _, o := range res.Orders {
+			g.NGramsByOrder = append(g.NGramsByOrder, orderDiffJSON{o.Order, o.Added, o.Removed, o.Changed})
+		}
+		v.ReleaseGate = g
+	}
+	enc := newEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(v)
+}

@@ -1,0 +1,211 @@
+package verify
+
+import (
+	"errors"
+	"fmt"
+	"os"
+
+	"ingot/format"
+)
+
+// Options tune the checks.
+type Options struct {
+	// Tolerance is the largest |S(h) - 1| the normalisation check allows;
+	// 0 means DefaultTolerance of the model.
+	Tolerance float64
+}
+
+// DefaultTolerance returns the largest |S(h) - 1| allowed for m when no
+// tolerance is given: 1e-5 for every model today. Each sum adds float32
+// values, each rounded to within 2^-24 of its log10 (6e-8 relative), so an
+// unquantized model that was normalised in float64 sums to one far within
+// 1e-5; a deviation above it means a wrong weight, not rounding.
+//
+// Quantized models (format version 2, whose columns are indexes into
+// codebooks) will derive their tolerance from the step sizes of their
+// codebooks, since rounding a log10 value to the nearest codebook level
+// moves each sum by up to half a step; until then they are held to 1e-5 too
+// and need an explicit tolerance.
+func DefaultTolerance(m *format.Model) float64 {
+	_ = m // the model will matter once quantized models carry their own bound
+	return 1e-5
+}
+
+// UnreadableError reports a file that verify cannot read as a model at all:
+// it cannot be read, it is too short to hold the magic, its magic is wrong
+// (not a model, or one damaged by a text-mode transfer), or its intact
+// header names a format version this verifier does not know. Every other
+// defect of a file that starts with the magic is a failed check.
+type UnreadableError struct {
+	Path string // empty for bytes that came from no file
+	Err  error
+}
+
+func (e *UnreadableError) Error() string {
+	if e.Path == "" {
+		return fmt.Sprintf("not a readable ingot model: %v", e.Err)
+	}
+	return fmt.Sprintf("%s: not a readable ingot model: %v", e.Path, e.Err)
+}
+
+func (e *UnreadableError) Unwrap() error { return e.Err }
+
+// File reads the model file at path and runs every check on it. The error is
+// non-nil only when the file cannot be read as a model at all (an
+// *UnreadableError); damage to a file that starts with the magic is a
+// failed check in the Report.
+func File(path string, opt Options) (*Report, error) {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, &UnreadableError{Path: path, Err: unwrapPath(err)}
+	}
+	rep, err := Bytes(data, opt)
+	var ue *UnreadableError
+	if errors.As(err, &ue) {
+		ue.Path = path
+	}
+	return rep, err
+}
+
+// unwrapPath drops the path from an *os.PathError, which UnreadableError
+// names already.
+func unwrapPath(err error) error {
+	var pe *os.PathError
+	if errors.As(err, &pe) {
+		return fmt.Errorf("%s: %w", pe.Op, pe.Err)
+	}
+	return err
+}
+
+// Bytes runs every check on a model held in memory; see File.
+func Bytes(data []byte, opt Options) (*Report, error) {
+	if len(data) < len(format.Magic) || string(data[:len(format.Magic)]) != format.Magic {
+		n := min(len(data), len(format.Magic))
+		return nil, &UnreadableError{Err: fmt.Errorf("the file does not start with the ingot magic (it starts %q)", data[:n])}
+	}
+	v := &verifier{data: data, opt: opt, rep: &Report{}}
+	if err := v.run(); err != nil {
+		return nil, &UnreadableError{Err: err}
+	}
+	return v.rep, nil
+}
+
+// verifier holds the state of one run.
+type verifier struct {
+	data []byte
+	opt  Options
+	rep  *Report
+
+	version      int
+	dirEnd       int64
+	headerIntact bool // the header checksum matches
+	entries      []entry
+	m            *format.Model
+	split        int // tests: runs per order in the normalisation pass (0: one per processor, for large orders)
+}
+
+// add appends a finished check to the report.
+func (v *verifier) add(c Check) { v.rep.Checks = append(v.rep.Checks, c) }
+
+// check returns the recorded check of the given name, or nil.
+func (v *verifier) check(name string) *Check { return v.rep.Check(name) }
+
+// passed reports whether every named check ran and passed.
+func (v *verifier) passed(names ...string) bool {
+	for _, n := range names {
+		if c := v.check(n); c == nil || c.Status != Pass {
+			return false
+		}
+	}
+	return true
+}
+
+// notRun records the checks from the given names on as not run.
+func (v *verifier) notRun(why string, names ...string) {
+	for _, n := range names {
+		v.add(Check{Name: n, Status: NotRun, Detail: why})
+	}
+}
+
+func (v *verifier) run() error {
+	readable, err := v.checkHeader()
+	if err != nil {
+		return err
+	}
+	if !readable {
+		v.notRun("needs a readable header and directory", CheckDirectory, CheckChecksums, CheckDigest, CheckPadding)
+	} else {
+		v.checkDirectory()
+		v.checkChecksums()
+		v.checkDigest()
+		v.checkPadding()
+	}
+	tableChecks := []string{CheckVocabulary, CheckPrefixClosure, CheckIDs, CheckOrder, CheckValues, CheckSuffixClosure, CheckNormalisation}
+	if !v.passed(CheckHeader, CheckDirectory, CheckChecksums, CheckDigest, CheckPadding) {
+		v.notRun("needs a sound header, directory, checksums, digest and padding", append([]string{CheckOpens}, tableChecks...)...)
+		return nil
+	}
+	v.checkOpens()
+	if v.m == nil {
+		v.notRun("needs a file the format reader opens", tableChecks...)
+		return nil
+	}
+	v.rep.Version, v.rep.Order, v.rep.VocabSize = v.version, v.m.Order(), v.m.VocabSize()
+	for k := 1; k <= v.m.Order(); k++ {
+		v.rep.Counts = append(v.rep.Counts, v.m.Count(k))
+	}
+	cols := v.columns()
+	v.checkVocabulary(cols)
+	v.checkPrefixClosure(cols)
+	v.checkIDs(cols)
+	if v.passed(CheckPrefixClosure) {
+		v.checkOrder(cols)
+	} else {
+		v.notRun("needs well-formed child ranges", CheckOrder)
+	}
+	v.checkValues(cols)
+	if !v.passed(CheckVocabulary, CheckPrefixClosure, CheckIDs, CheckOrder) {
+		v.notRun("needs a sound vocabulary and trie", CheckSuffixClosure, CheckNormalisation)
+		return nil
+	}
+	v.walk(cols)
+	return nil
+}
+
+// checkOpens opens the file with the format reader, which applies the open
+// checks of spec §6.1 that the container checks leave to it: the summary,
+// the sections the model's order requires and their lengths, encodings and
+// codebooks, the first and last offsets of the vocabulary and child starts,
+// and the markers.
+func (v *verifier) checkOpens() {
+	c := Check{Name: CheckOpens, Status: Pass}
+	defer func() { v.add(c) }()
+	m, err := format.FromBytes(v.data)
+	if err != nil {
+		var fe *format.FormatError
+		if errors.As(err, &fe) {
+			c.problem(fe.Section, fe.Offset, "%s", fe.Msg)
+		} else {
+			c.problem("file", 0, "%v", err)
+		}
+		c.Detail = "the format reader refuses the file"
+		return
+	}
+	v.m = m
+	n := 0
+	for k := 1; k <= m.Order(); k++ {
+		n += m.Count(k)
+	}
+	c.Detail = fmt.Sprintf("order %d, %d words, %d n-grams", m.Order(), m.VocabSize(), n)
+}
+
+// section returns the entry of the section of the given kind and order;
+// after the opens check it exists for every section the model needs.
+func (v *verifier) section(kind format.SectionKind, order int) (entry, bool) {
+	for _, e := range v.entries {
+		if e.Kind == kind && e.Order == order {
+			return e, true
+		}
+	}
+	return entry{}, false
+}
