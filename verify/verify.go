@@ -3,6 +3,7 @@ package verify
 import (
 	"errors"
 	"fmt"
+	"ingot/quantize"
 	"os"
 
 	"ingot/format"
@@ -16,19 +17,56 @@ type Options struct {
 }
 
 // DefaultTolerance returns the largest |S(h) - 1| allowed for m when no
-// tolerance is given: 1e-5 for every model today. Each sum adds float32
-// values, each rounded to within 2^-24 of its log10 (6e-8 relative), so an
-// unquantized model that was normalised in float64 sums to one far within
-// 1e-5; a deviation above it means a wrong weight, not rounding.
+// tolerance is given.
 //
-// Quantized models (format version 2, whose columns are indexes into
-// codebooks) will derive their tolerance from the step sizes of their
-// codebooks, since rounding a log10 value to the nearest codebook level
-// moves each sum by up to half a step; until then they are held to 1e-5 too
-// and need an explicit tolerance.
+// For a model stored in 32-bit floats it is 1e-5 (UnquantizedTolerance):
+// each sum adds float32 values, each rounded to within 2^-24 of its log10
+// (6e-8 relative), so a model normalised in float64 sums to one far within
+// it; a deviation above it means a wrong weight, not rounding.
+//
+// For a quantized model it comes from the quantization itself (see
+// quantize.Tolerance): quantizing recomputes the back-off weights from the
+// quantized probabilities, so only the rounding of the weights to their
+// codebook levels moves a sum, and what compensation could not absorb is
+// recorded per order in the build information (the residual R_k). With
+// the top level of each order's back-off codebook bounding how much a
+// context scales the error it inherits, t_k = R_k + 1e-5 + max(1,
+// 10^top_k) t_{k-1}, t_0 = 1e-5, and the tolerance is the largest t_k.
 func DefaultTolerance(m *format.Model) float64 {
-	_ = m // the model will matter once quantized models carry their own bound
-	return 1e-5
+	q := m.Info().Quantization
+	if q == nil {
+		return UnquantizedTolerance
+	}
+	N := m.Order()
+	residual := make([]float64, N-1)
+	tops := make([]float64, N-1)
+	for k := 1; k < N; k++ {
+		if k-1 < len(q.Residual) {
+			residual[k-1] = q.Residual[k-1]
+		}
+		if cb := m.Codebook(k, true); len(cb) > 0 {
+			tops[k-1] = float64(cb[len(cb)-1])
+		} else {
+			tops[k-1] = maxBackoff(m, k)
+		}
+	}
+	return quantize.Tolerance(UnquantizedTolerance, residual, tops)
+}
+
+// UnquantizedTolerance is the normalisation tolerance of a model stored in
+// 32-bit floats: float32 rounding of log10 values leaves each context's sum
+// within about 1e-6 of one.
+const UnquantizedTolerance = 1e-5
+
+// maxBackoff returns the largest log10 back-off weight of order k.
+func maxBackoff(m *format.Model, k int) float64 {
+	top := 0.0
+	for i := 0; i < m.Count(k); i++ {
+		if b := float64(m.LogBackoffAt(k, i)); b > top {
+			top = b
+		}
+	}
+	return top
 }
 
 // UnreadableError reports a file that verify cannot read as a model at all:

@@ -2,6 +2,7 @@ package main
 
 import (
 	"bufio"
+	"crypto/ed25519"
 	"errors"
 	"fmt"
 	"io"
@@ -21,6 +22,7 @@ import (
 const checkReleaseGate = "release-gate"
 
 type verifyFlags struct {
+	publicKey   string
 	asJSON      bool
 	tolerance   float64
 	baseline    string
@@ -50,11 +52,16 @@ func newVerifyCmd() *cobra.Command {
   suffix-closure  a model flagged suffix-closed is
   normalisation   the empty context and every stored context h give the
                   vocabulary (all words but <s>) total probability
-                  S(h) = 1 within the tolerance (default 1e-5)
+                  S(h) = 1 within the tolerance (default 1e-5; for a
+                  quantized model, the bound its quantization recorded)
 
 A check that needs a sound file is "not run" when an earlier one fails; a
 damaged file never crashes verify, and each problem names the section and
 byte offset (and the n-gram) where it lies.
+
+With --public-key, verify also runs the check "signature": the model is
+signed (ingot sign) by that key and not one byte of its content changed
+since.
 
 With --baseline and --heldout, verify also gates a release: it scores the
 held-out text with both models and fails the check "release-gate" when the
@@ -68,6 +75,7 @@ Exit codes: 0 every check passed, 1 a check failed (named in the message),
 2 bad usage, or a file that cannot be read as a model at all.`,
 		Example: `  ingot verify field.ingot
   ingot verify --json field.ingot
+  ingot verify --public-key release.pub field.ingot
   ingot verify new.ingot --baseline shipped.ingot --heldout dev.txt --max-ppl-increase 0.5`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -76,7 +84,8 @@ Exit codes: 0 every check passed, 1 a check failed (named in the message),
 	}
 	fl := cmd.Flags()
 	fl.BoolVar(&f.asJSON, "json", false, "print the report as one JSON object")
-	fl.Float64Var(&f.tolerance, "tolerance", 0, "largest |S(h) - 1| allowed for any context (default: the model's, 1e-5 today)")
+	fl.Float64Var(&f.tolerance, "tolerance", 0, "largest |S(h) - 1| allowed for any context (default: 1e-5, or the bound a quantized model records)")
+	fl.StringVar(&f.publicKey, "public-key", "", "also check the model's signature against this public key (from 'ingot keygen')")
 	fl.StringVar(&f.baseline, "baseline", "", "the model this one replaces: compare them on --heldout")
 	fl.StringVar(&f.heldout, "heldout", "", "held-out text for the release gate, one sentence per line (.gz/.zst read directly)")
 	fl.Float64Var(&f.maxIncrease, "max-ppl-increase", gate.DefaultMaxIncreasePercent, "largest perplexity increase over the baseline, in percent, that the release gate accepts")
@@ -114,9 +123,21 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 		defer text.Close()
 	}
 
+	var pub []byte
+	if f.publicKey != "" {
+		key, err := readPublicKey(f.publicKey)
+		if err != nil {
+			return fmt.Errorf("verify: %w", err)
+		}
+		pub = key
+	}
+
 	rep, err := verify.File(model, verify.Options{Tolerance: f.tolerance})
 	if err != nil {
 		return fmt.Errorf("verify: %w", err)
+	}
+	if pub != nil {
+		rep.Checks = append(rep.Checks, signatureCheck(model, pub))
 	}
 	var res *gate.Result
 	if gated {
@@ -143,6 +164,35 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 		return checkFailed{fmt.Errorf("verify %s: %w", model, failed)}
 	}
 	return nil
+}
+
+// checkSignature names the signature check in verify's report.
+const checkSignature = "signature"
+
+// signatureCheck checks the model's Ed25519 signature against pub: a
+// missing signature, another key, or any changed byte fails it.
+func signatureCheck(model string, pub ed25519.PublicKey) verify.Check {
+	c := verify.Check{Name: checkSignature, Status: verify.Pass}
+	fail := func(msg string) verify.Check {
+		c.Status, c.Count = verify.Fail, 1
+		c.Detail = msg
+		c.Problems = []verify.Problem{{Section: "signature", Offset: -1, Msg: msg}}
+		return c
+	}
+	m, err := openModel(model)
+	if err != nil {
+		return fail("cannot check: the model does not open")
+	}
+	defer m.Close()
+	if err := m.CheckSignature(pub); err != nil {
+		if errors.Is(err, format.ErrUnsigned) {
+			return fail("the model is not signed")
+		}
+		return fail(err.Error())
+	}
+	id, _ := m.Signed()
+	c.Detail = fmt.Sprintf("signed by key id %x, content digest matches", id[:8])
+	return c
 }
 
 // releaseGate runs the comparison with the baseline when the candidate's
