@@ -477,7 +477,7 @@ func (w *walker) finish(all *tally) {
 		c.Status = Fail
 		c.Detail = fmt.Sprintf("%d of %d contexts deviate from one by more than %g; the largest |S-1| is %.3g", norm.Exceeding, norm.Contexts, tol, norm.MaxDeviation)
 	} else {
-		c.Detail = fmt.Sprintf("%d contexts sum to one within %g; the largest |S-1| is %.3g", norm.Contexts, tol, norm.MaxDeviation)
+		c.Detail = fmt.Sprintf("%d contexts sum to one within %.3g; the largest |S-1| is %.3g", norm.Contexts, tol, norm.MaxDeviation)
 	}
 	w.v.rep.Normalisation = norm
 	w.v.add(c)

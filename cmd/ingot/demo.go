@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	_ "embed"
 	"fmt"
@@ -58,39 +59,65 @@ func runDemo(ctx context.Context, stdout, stderr io.Writer, dir string) error {
 	steps := []struct {
 		why  string
 		args []string
+		show string // print only the lines holding one of these |-separated pieces (empty: all)
 	}{
 		{"Count the n-grams of orders 1 to 3.",
-			[]string{"count", "--order", "3", "-o", path("counts.tsv"), path("commands.txt")}},
+			[]string{"count", "--order", "3", "-o", path("counts.tsv"), path("commands.txt")}, ""},
 		{"Estimate an interpolated modified Kneser-Ney model and write the binary model file.",
-			[]string{"compile", "--method", "kneser-ney", "--order", "3", "-o", path("field.ingot"), path("counts.tsv")}},
+			[]string{"compile", "--method", "kneser-ney", "--order", "3", "-o", path("field.ingot"), path("counts.tsv")}, ""},
 		{"Score held-out commands the device has not seen (summary line).",
-			[]string{"score", path("field.ingot"), path("heldout.txt")}},
+			[]string{"score", path("field.ingot"), path("heldout.txt")}, "sentences "},
+		{"The device has 16 KB for the model: prune by relative entropy to fit, with 8-bit codebooks.",
+			[]string{"prune", "--max-size", "16KB", "--bits", "8", "--heldout", path("heldout.txt"), "-o", path("device.ingot"), path("field.ingot")}, ""},
+		{"Prove the shipped file intact and every context normalised (the release check).",
+			[]string{"verify", path("device.ingot")}, "verify |pass"},
+		{"Make a signing key and sign the release.",
+			[]string{"keygen", "-o", path("release")}, ""},
+		{"",
+			[]string{"sign", "--key", path("release.key"), path("device.ingot")}, ""},
+		{"Check the signature as a device or pipeline would.",
+			[]string{"verify", "--public-key", path("release.pub"), path("device.ingot")}, "verify |signature"},
+		{"Look inside the shipped file.",
+			[]string{"inspect", "--stats", path("device.ingot")}, ""},
 		{"Explain one probability: how likely is \"on\" after \"turn the beacon\"?",
-			[]string{"explain", path("field.ingot"), "turn the beacon on"}},
+			[]string{"explain", path("device.ingot"), "turn the beacon on"}, ""},
 		{"Explain a word sequence never heard in training, to see the back-off at work.",
-			[]string{"explain", path("field.ingot"), "navigate to the beacon"}},
+			[]string{"explain", path("device.ingot"), "navigate to the beacon"}, ""},
 	}
-	for i, st := range steps {
-		fmt.Fprintf(stdout, "\n%d. %s\n$ ingot %s\n", i+1, st.why, quoteArgs(st.args))
-		out := stdout
-		var tail *lastLine
-		if st.args[0] == "score" {
-			tail = &lastLine{}
-			out = tail
+	n := 0
+	for _, st := range steps {
+		if st.why != "" {
+			n++
+			fmt.Fprintf(stdout, "\n%d. %s\n", n, st.why)
 		}
-		if code := runContext(ctx, st.args, out, stderr); code != exitOK {
-			return fmt.Errorf("demo: step %d failed (exit %d)", i+1, code)
+		fmt.Fprintf(stdout, "$ ingot %s\n", quoteArgs(st.args))
+		var out bytes.Buffer
+		if code := runContext(ctx, st.args, &out, stderr); code != exitOK {
+			stdout.Write(out.Bytes())
+			return fmt.Errorf("demo: step %d (ingot %s) failed with exit %d", n, st.args[0], code)
 		}
-		if tail != nil {
-			fmt.Fprintln(stdout, tail.last())
+		text := out.String()
+		if st.show != "" {
+			lines := strings.Split(strings.TrimRight(text, "\n"), "\n")
+			var kept []string
+			for _, l := range lines {
+				for _, piece := range strings.Split(st.show, "|") {
+					if strings.Contains(l, piece) {
+						kept = append(kept, l)
+						break
+					}
+				}
+			}
+			text = strings.Join(kept, "\n") + "\n"
 		}
-		if out := outputOf(st.args); out != "" {
+		io.WriteString(stdout, text)
+		if out := outputOf(st.args); out != "" && st.args[0] == "count" {
 			if fi, err := os.Stat(out); err == nil {
 				fmt.Fprintf(stdout, "   wrote %s: %d bytes\n", out, fi.Size())
 			}
 		}
 	}
-	fmt.Fprintf(stdout, "\nDone. The model is %s; try: ingot score %s\n", path("field.ingot"), path("field.ingot"))
+	fmt.Fprintf(stdout, "\nDone. %s is the shipped model: pruned to the budget, quantized, verified and signed.\nTry: ingot inspect --next \"turn the\" %s\n", path("device.ingot"), path("device.ingot"))
 	return nil
 }
 
@@ -113,23 +140,4 @@ func quoteArgs(args []string) string {
 		q[i] = a
 	}
 	return strings.Join(q, " ")
-}
-
-// lastLine keeps only the last line written to it.
-type lastLine struct{ buf []byte }
-
-func (l *lastLine) Write(p []byte) (int, error) {
-	l.buf = append(l.buf, p...)
-	if len(l.buf) > 1<<16 {
-		l.buf = l.buf[len(l.buf)-4096:]
-	}
-	return len(p), nil
-}
-
-func (l *lastLine) last() string {
-	s := strings.TrimRight(string(l.buf), "\n")
-	if i := strings.LastIndexByte(s, '\n'); i >= 0 {
-		s = s[i+1:]
-	}
-	return s
 }

@@ -284,7 +284,7 @@ func printVerifyText(w io.Writer, model string, rep *verify.Report, res *gate.Re
 	}
 
 	if n := rep.Normalisation; n != nil {
-		fmt.Fprintf(w, "\nnormalisation (tolerance %g)\n", n.Tolerance)
+		fmt.Fprintf(w, "\nnormalisation (tolerance %.3g)\n", n.Tolerance)
 		fmt.Fprintf(w, "  %-20s %12d\n", "contexts checked", n.Contexts)
 		fmt.Fprintf(w, "  %-20s %12.3g\n", "largest |S - 1|", n.MaxDeviation)
 		fmt.Fprintf(w, "  %-20s %12d\n", "over the tolerance", n.Exceeding)
