@@ -105,3 +105,16 @@ func TestBadInputEverywhere(t *testing.T) {
 		})
 	}
 }
+
+// The README documents the same table: every case is listed there.
+func TestReadmeListsEveryBadInputCase(t *testing.T) {
+	readme, err := os.ReadFile(filepath.Join("..", "..", "README.md"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, tc := range badInputTable {
+		if !strings.Contains(string(readme), "| "+tc.name+" |") {
+			t.Errorf("README lacks the bad-input case %q", tc.name)
+		}
+	}
+}
