@@ -3,8 +3,6 @@ package main
 import (
 	"fmt"
 	"io"
-	"math"
-	"os"
 	"slices"
 	"strings"
 
@@ -66,17 +64,9 @@ held-out text.`,
 					return err
 				}
 			}
-			m, err := openModel(args[0])
+			t, err := readUnquantized("prune", args[0])
 			if err != nil {
 				return err
-			}
-			defer m.Close()
-			t, err := format.ToTables(m)
-			if err != nil {
-				return fmt.Errorf("%s: %w", args[0], err)
-			}
-			if t.Info.Quantization != nil {
-				return fmt.Errorf("prune: %s is quantized; prune the unquantized model (and quantize with --bits)", args[0])
 			}
 			scores := prune.EntropyScores(t)
 			pruned := func(threshold float64, keep [][]bool) *tables.Tables {
@@ -159,40 +149,19 @@ func heldoutPerplexity(path, text string) (float64, error) {
 }
 
 func reportPrune(w io.Writer, before, after *tables.Tables, threshold float64, in, out, heldout string, asJSON bool) error {
-	fi, err := os.Stat(out)
+	r, err := compareFiles(in, out, heldout)
 	if err != nil {
 		return err
 	}
-	inSize := int64(0)
-	if st, err := os.Stat(in); err == nil {
-		inSize = st.Size()
-	}
-	pplIn, pplOut := math.NaN(), math.NaN()
-	if heldout != "" {
-		if pplIn, err = heldoutPerplexity(in, heldout); err != nil {
-			return err
-		}
-		if pplOut, err = heldoutPerplexity(out, heldout); err != nil {
-			return err
-		}
-	}
 	if asJSON {
-		v := map[string]any{
-			"threshold": threshold, "ngrams_before": ngramsPerOrder(before), "ngrams": ngramsPerOrder(after),
-			"input_bytes": inSize, "file_bytes": fi.Size(), "model": out,
-		}
-		if heldout != "" {
-			v["perplexity_before"] = pplIn
-			v["perplexity"] = pplOut
-		}
+		v := map[string]any{"threshold": threshold, "ngrams_before": ngramsPerOrder(before), "ngrams": ngramsPerOrder(after)}
+		r.addJSON(v, out)
 		return newEncoder(w).Encode(v)
 	}
-	fmt.Fprintf(w, "wrote %s: %s (was %s), threshold %.6g nats\n", out, humanSize(fi.Size()), humanSize(inSize), threshold)
+	fmt.Fprintf(w, "wrote %s: %s (was %s), threshold %.6g nats\n", out, humanSize(r.outBytes), humanSize(r.inBytes), threshold)
 	for k := 1; k <= after.Order(); k++ {
 		fmt.Fprintf(w, "  order %d: kept %d of %d n-grams\n", k, after.Len(k), before.Len(k))
 	}
-	if heldout != "" {
-		fmt.Fprintf(w, "  held-out perplexity %.3f (was %.3f, %+.2f%%)\n", pplOut, pplIn, 100*(pplOut/pplIn-1))
-	}
-	return nil
+	_, err = io.WriteString(w, r.perplexityLine())
+	return err
 }

@@ -3,8 +3,6 @@ package main
 import (
 	"fmt"
 	"io"
-	"math"
-	"os"
 
 	"github.com/spf13/cobra"
 
@@ -71,17 +69,9 @@ levels allow, so every context still sums to one within the tolerance that
 			if err != nil {
 				return err
 			}
-			m, err := openModel(args[0])
+			t, err := readUnquantized("quantize", args[0])
 			if err != nil {
 				return err
-			}
-			defer m.Close()
-			t, err := format.ToTables(m)
-			if err != nil {
-				return fmt.Errorf("%s: %w", args[0], err)
-			}
-			if t.Info.Quantization != nil {
-				return fmt.Errorf("quantize: %s is quantized already; quantize the unquantized model", args[0])
 			}
 			q, reports, err := quantize.Model(t, opt)
 			if err != nil {
@@ -115,38 +105,22 @@ type quantOrderJSON struct {
 }
 
 func reportQuantize(w io.Writer, reports []quantize.OrderReport, in, out, heldout string, asJSON bool) error {
-	fi, err := os.Stat(out)
+	res, err := compareFiles(in, out, heldout)
 	if err != nil {
 		return err
 	}
-	inSize := int64(0)
-	if st, err := os.Stat(in); err == nil {
-		inSize = st.Size()
-	}
-	pplIn, pplOut := math.NaN(), math.NaN()
-	if heldout != "" {
-		if pplIn, err = heldoutPerplexity(in, heldout); err != nil {
-			return err
-		}
-		if pplOut, err = heldoutPerplexity(out, heldout); err != nil {
-			return err
-		}
-	}
 	if asJSON {
-		v := map[string]any{"model": out, "input_bytes": inSize, "file_bytes": fi.Size()}
+		v := map[string]any{}
+		res.addJSON(v, out)
 		var orders []quantOrderJSON
 		for _, r := range reports {
 			orders = append(orders, quantOrderJSON{r.Order, r.ProbLevels, r.ProbStep, r.ProbMaxError,
 				r.BackoffLevels, r.BackoffStep, r.BackoffMaxError, r.Residual})
 		}
 		v["orders"] = orders
-		if heldout != "" {
-			v["perplexity_before"] = pplIn
-			v["perplexity"] = pplOut
-		}
 		return newEncoder(w).Encode(v)
 	}
-	fmt.Fprintf(w, "wrote %s: %s (was %s)\n", out, humanSize(fi.Size()), humanSize(inSize))
+	fmt.Fprintf(w, "wrote %s: %s (was %s)\n", out, humanSize(res.outBytes), humanSize(res.inBytes))
 	fmt.Fprintf(w, "  %-5s  %-30s  %-30s  %s\n", "order", "probabilities", "back-off weights", "residual")
 	for _, r := range reports {
 		p := "32-bit floats"
@@ -159,8 +133,6 @@ func reportQuantize(w io.Writer, reports []quantize.OrderReport, in, out, heldou
 		}
 		fmt.Fprintf(w, "  %-5d  %-30s  %-30s  %.2g\n", r.Order, p, b, r.Residual)
 	}
-	if heldout != "" {
-		fmt.Fprintf(w, "  held-out perplexity %.3f (was %.3f, %+.2f%%)\n", pplOut, pplIn, 100*(pplOut/pplIn-1))
-	}
-	return nil
+	_, err = io.WriteString(w, res.perplexityLine())
+	return err
 }

@@ -12,7 +12,6 @@ import (
 
 	"ingot/compile/input"
 	"ingot/compile/text"
-	"ingot/format"
 	"ingot/quantize"
 	"ingot/quantize/tradeoff"
 )
@@ -59,17 +58,9 @@ pruning; a bit width of 0 means 32-bit floats.`,
 			if err != nil {
 				return err
 			}
-			m, err := openModel(args[0])
+			t, err := readUnquantized("tradeoff", args[0])
 			if err != nil {
 				return err
-			}
-			defer m.Close()
-			t, err := format.ToTables(m)
-			if err != nil {
-				return fmt.Errorf("%s: %w", args[0], err)
-			}
-			if t.Info.Quantization != nil {
-				return fmt.Errorf("tradeoff: %s is quantized; chart the unquantized model", args[0])
 			}
 			stderr := cmd.ErrOrStderr()
 			points, err := tradeoff.Run(t, held, tradeoff.Options{Thresholds: ths, Bits: bs, Trainer: tr,

@@ -1,0 +1,74 @@
+package main
+
+import (
+	"fmt"
+	"math"
+	"os"
+
+	"ingot/compile/tables"
+	"ingot/format"
+)
+
+// readUnquantized reads the model at path into memory for a command that
+// rewrites it (prune, quantize, tradeoff), refusing a quantized model: its
+// values are already rounded, so work on the model it came from.
+func readUnquantized(command, path string) (*tables.Tables, error) {
+	m, err := openModel(path)
+	if err != nil {
+		return nil, err
+	}
+	defer m.Close()
+	t, err := format.ToTables(m)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	if t.Info.Quantization != nil {
+		return nil, fmt.Errorf("%s: %s is quantized already; %s the unquantized model", command, path, command)
+	}
+	return t, nil
+}
+
+// shrinkResult compares a rewritten model with the one it came from.
+type shrinkResult struct {
+	inBytes, outBytes int64
+	pplIn, pplOut     float64 // NaN without held-out text
+}
+
+// compareFiles measures both files and, when heldout is given, both
+// models' perplexity on it.
+func compareFiles(in, out, heldout string) (shrinkResult, error) {
+	r := shrinkResult{pplIn: math.NaN(), pplOut: math.NaN()}
+	fi, err := os.Stat(out)
+	if err != nil {
+		return r, err
+	}
+	r.outBytes = fi.Size()
+	if st, err := os.Stat(in); err == nil {
+		r.inBytes = st.Size()
+	}
+	if heldout != "" {
+		if r.pplIn, err = heldoutPerplexity(in, heldout); err != nil {
+			return r, err
+		}
+		if r.pplOut, err = heldoutPerplexity(out, heldout); err != nil {
+			return r, err
+		}
+	}
+	return r, nil
+}
+
+// addJSON adds the comparison's keys to a JSON report.
+func (r shrinkResult) addJSON(v map[string]any, model string) {
+	v["model"], v["input_bytes"], v["file_bytes"] = model, r.inBytes, r.outBytes
+	if !math.IsNaN(r.pplIn) {
+		v["perplexity_before"], v["perplexity"] = r.pplIn, r.pplOut
+	}
+}
+
+// perplexityLine is the human report's held-out line, or "".
+func (r shrinkResult) perplexityLine() string {
+	if math.IsNaN(r.pplIn) {
+		return ""
+	}
+	return fmt.Sprintf("  held-out perplexity %.3f (was %.3f, %+.2f%%)\n", r.pplOut, r.pplIn, 100*(r.pplOut/r.pplIn-1))
+}
