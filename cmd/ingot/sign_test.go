@@ -62,3 +62,32 @@ func TestQuantizedModelsPassVerify(t *testing.T) {
 		}
 	}
 }
+
+// Every pruned, cut-off or quantized model passes ingot verify, its
+// normalisation within the model's own tolerance (law of probability).
+func TestShrunkModelsPassVerify(t *testing.T) {
+	dir := t.TempDir()
+	m := demoModel(t, dir)
+	cut := demoModel(t, t.TempDir(), "--min-count", "2=2,3=3")
+	held := filepath.Join(dir, "held.txt")
+	os.WriteFile(held, []byte(demoHeldout), 0o644)
+	steps := map[string][]string{
+		"pruned":             {"prune", "--threshold", "1e-5", "-o", filepath.Join(dir, "p.ingot"), m},
+		"pruned to a budget": {"prune", "--max-size", "15KB", "-o", filepath.Join(dir, "b.ingot"), m},
+		"pruned, 6 bits":     {"prune", "--max-size", "12KB", "--bits", "6", "-o", filepath.Join(dir, "pq.ingot"), m},
+		"quantized binning":  {"quantize", "--bits", "3", "--trainer", "binning", "-o", filepath.Join(dir, "qb.ingot"), m},
+		"quantized 16 bits":  {"quantize", "--bits", "16", "-o", filepath.Join(dir, "q16.ingot"), m},
+	}
+	outputs := map[string]string{"cut off": cut}
+	for name, args := range steps {
+		if code, _, e := ingot(t, args...); code != 0 {
+			t.Fatalf("%s: %s", name, e)
+		}
+		outputs[name] = args[len(args)-2]
+	}
+	for name, path := range outputs {
+		if code, out, e := ingot(t, "verify", path); code != 0 {
+			t.Errorf("%s: verify exit %d\n%s%s", name, code, out, e)
+		}
+	}
+}
