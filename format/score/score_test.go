@@ -1,0 +1,61 @@
+package score
+
+import (
+	"math"
+	"strings"
+	"testing"
+
+	"ingot/compile/tables"
+	"ingot/format"
+)
+
+// A model that gives every word of the vocabulary the same probability 1/V
+// has perplexity exactly V on any text (perplexity as the weighted
+// branching factor: a textbook fact of the trade).
+func TestUniformModelHasPerplexityV(t *testing.T) {
+	vocab := []string{"</s>", "<s>", "<unk>", "beacon", "off", "on", "the", "turn"}
+	V := len(vocab) - 1 // <s> is never predicted
+	tb := &tables.Tables{Vocab: vocab, Levels: []tables.Level{{}}}
+	for i := range vocab {
+		lv := &tb.Levels[0]
+		lv.Words = append(lv.Words, uint32(i))
+		p := float32(math.Log10(1 / float64(V)))
+		if vocab[i] == "<s>" {
+			p = tables.NoProb
+		}
+		lv.LogProb = append(lv.LogProb, p)
+	}
+	data, err := format.Marshal(tb)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m, err := format.FromBytes(data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	text := "turn the beacon on\nturn the zebra off now\n<s> on\n"
+	sum, err := Text(m, "t", strings.NewReader(text), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if sum.Sentences != 3 || sum.Predictions != 5+6+3 || sum.Unk != 3 {
+		t.Errorf("summary %+v", sum)
+	}
+	if math.Abs(sum.Perplexity()-float64(V)) > 1e-4 || math.Abs(sum.PerplexityWithoutUnknown()-float64(V)) > 1e-4 {
+		t.Errorf("perplexity %v (without <unk> %v), want %d", sum.Perplexity(), sum.PerplexityWithoutUnknown(), V)
+	}
+}
+
+func TestScorerTokens(t *testing.T) {
+	vocab := []string{"</s>", "<s>", "<unk>", "a"}
+	tb := &tables.Tables{Vocab: vocab, Levels: []tables.Level{{Words: []uint32{0, 1, 2, 3}, LogProb: []float32{-0.5, tables.NoProb, -1, -0.3}}}}
+	data, _ := format.Marshal(tb)
+	m, _ := format.FromBytes(data)
+	s := NewScorer(m).Score([]string{"a", "b", "<s>"})
+	if got := strings.Join(s.Tokens, " "); got != "a <unk> <unk> </s>" {
+		t.Errorf("tokens %q", got)
+	}
+	if s.Unk != 2 || math.Abs(s.Sum-(-0.3-1-1-0.5)) > 1e-6 {
+		t.Errorf("unk %d, sum %v", s.Unk, s.Sum)
+	}
+}
