@@ -82,7 +82,7 @@ func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error)
 	for k := 1; k <= N; k++ {
 		reports[k-1].Order = k
 	}
-	mass := jointMass(q)
+	mass := q.JointProbs()
 	probBooks := make([]Codebook, N)
 	for k := 2; k <= N; k++ {
 		opt.weights = mass[k-1]
@@ -114,29 +114,6 @@ func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error)
 	q.Info.History = append(q.Info.History, fmt.Sprintf("quantized: probabilities %d bits, back-off weights %d bits, %s codebooks",
 		opt.Bits, opt.BackoffBits, opt.Trainer))
 	return q, reports, nil
-}
-
-// jointMass returns, per order and entry, the probability of the whole
-// n-gram, P(h w) = P(h) P(w|h), with P(h) the product of the model's
-// conditional probabilities (P(</s>) standing for a starting <s>).
-func jointMass(t *tables.Tables) [][]float64 {
-	N := t.Order()
-	start, _ := t.ID(tables.SentenceStart)
-	end, _ := t.ID(tables.SentenceEnd)
-	mass := make([][]float64, N)
-	mass[0] = make([]float64, t.Len(1))
-	for w, lp := range t.Levels[0].LogProb {
-		mass[0][w] = math.Pow(10, float64(lp))
-	}
-	mass[0][start] = math.Pow(10, float64(t.Levels[0].LogProb[end]))
-	for k := 2; k <= N; k++ {
-		mass[k-1] = make([]float64, t.Len(k))
-		for i := range mass[k-1] {
-			g := t.Gram(k, i)
-			mass[k-1][i] = mass[k-2][t.Find(g[:k-1])] * math.Pow(10, float64(t.Levels[k-1].LogProb[i]))
-		}
-	}
-	return mass
 }
 
 func copyTables(t *tables.Tables) *tables.Tables {

@@ -109,16 +109,7 @@ func ParseTrainer(name string) (Trainer, error) {
 // become equal when rounded to float32 (and, for Binning, see there). The
 // trainers compute in float64 and round the levels to float32 at the end.
 func Train(values []float64, levels int, t Trainer) (Codebook, error) {
-	if _, err := ParseTrainer(string(t)); err != nil {
-		return Codebook{}, err
-	}
-	if levels < MinLevels || levels > MaxLevels {
-		return Codebook{}, fmt.Errorf("quantize: %d levels asked for; levels must be from %d to %d", levels, MinLevels, MaxLevels)
-	}
-	if len(values) == 0 {
-		return Codebook{}, fmt.Errorf("quantize: no values to train a codebook on")
-	}
-	if err := checkValues(values); err != nil {
+	if err := checkTraining(values, levels, t); err != nil {
 		return Codebook{}, err
 	}
 	sorted := slices.Clone(values)
@@ -133,6 +124,20 @@ func Train(values []float64, levels int, t Trainer) (Codebook, error) {
 	default:
 		return codebookFrom(optimalLevels(sorted, points, weights, levels)), nil
 	}
+}
+
+// checkTraining checks the arguments common to Train and TrainWeighted.
+func checkTraining(values []float64, levels int, t Trainer) error {
+	if _, err := ParseTrainer(string(t)); err != nil {
+		return err
+	}
+	if levels < MinLevels || levels > MaxLevels {
+		return fmt.Errorf("quantize: %d levels asked for; levels must be from %d to %d", levels, MinLevels, MaxLevels)
+	}
+	if len(values) == 0 {
+		return fmt.Errorf("quantize: no values to train a codebook on")
+	}
+	return checkValues(values)
 }
 
 // checkValues reports the first value that is not finite or does not fit in
@@ -192,16 +197,7 @@ func TrainWeighted(values, weights []float64, levels int, t Trainer) (Codebook, 
 	if len(weights) != len(values) {
 		return Codebook{}, fmt.Errorf("quantize: %d weights for %d values", len(weights), len(values))
 	}
-	if _, err := ParseTrainer(string(t)); err != nil {
-		return Codebook{}, err
-	}
-	if levels < MinLevels || levels > MaxLevels {
-		return Codebook{}, fmt.Errorf("quantize: %d levels asked for; levels must be from %d to %d", levels, MinLevels, MaxLevels)
-	}
-	if len(values) == 0 {
-		return Codebook{}, fmt.Errorf("quantize: no values to train a codebook on")
-	}
-	if err := checkValues(values); err != nil {
+	if err := checkTraining(values, levels, t); err != nil {
 		return Codebook{}, err
 	}
 	var total float64

@@ -27,24 +27,14 @@ type Scores [][]float64
 // frequent as sentence ends).
 func EntropyScores(t *tables.Tables) Scores {
 	N := t.Order()
-	start, _ := t.ID(tables.SentenceStart)
-	end, _ := t.ID(tables.SentenceEnd)
 	// ctxProb[k-1][i] = P(h) for the order-k entry i used as a history.
-	ctxProb := make([][]float64, N)
-	ctxProb[0] = make([]float64, t.Len(1))
-	for w, lp := range t.Levels[0].LogProb {
-		ctxProb[0][w] = math.Pow(10, float64(lp))
-	}
-	ctxProb[0][start] = math.Pow(10, float64(t.Levels[0].LogProb[end]))
+	ctxProb := t.JointProbs()
 	scores := make(Scores, N)
 	g := make([]uint32, N)
 	for k := 2; k <= N; k++ {
 		lv := &t.Levels[k-1]
 		n := t.Len(k)
 		scores[k-1] = make([]float64, n)
-		if k < N {
-			ctxProb[k-1] = make([]float64, n)
-		}
 		for i := 0; i < n; {
 			h := t.Gram(k, i)[:k-1]
 			hi := t.Find(h)
@@ -73,9 +63,6 @@ func EntropyScores(t *tables.Tables) Scores {
 				d := -ph * (float64(p*(math.Log(pl)+math.Log(bowNew)-math.Log(p))) +
 					float64((math.Log(bowNew)-math.Log(bow))*(1-sumP)))
 				scores[k-1][x] = d
-				if k < N {
-					ctxProb[k-1][x] = ph * p
-				}
 			}
 			i = j
 		}

@@ -68,3 +68,34 @@ func (t *Tables) suffixSum(sums [][]float64, empty float64, h []uint32) float64 
 	}
 	return empty
 }
+
+// JointProbs returns, per order and entry, the probability of the whole
+// n-gram g = g_1 .. g_k as the product of the model's conditional
+// probabilities, P(g_1) P(g_2 | g_1) ... P(g_k | g_1 .. g_(k-1)), each factor
+// the stored value (every prefix of a stored n-gram is stored). For an
+// n-gram starting with <s>, which is never predicted, the first factor is
+// P(</s>): sentence starts are exactly as frequent as sentence ends.
+func (t *Tables) JointProbs() [][]float64 {
+	N := t.Order()
+	start, _ := t.ID(SentenceStart)
+	end, _ := t.ID(SentenceEnd)
+	joint := make([][]float64, N)
+	joint[0] = make([]float64, t.Len(1))
+	for w, lp := range t.Levels[0].LogProb {
+		joint[0][w] = math.Pow(10, float64(lp))
+	}
+	joint[0][start] = math.Pow(10, float64(t.Levels[0].LogProb[end]))
+	for k := 2; k <= N; k++ {
+		lv := &t.Levels[k-1]
+		joint[k-1] = make([]float64, t.Len(k))
+		prefix := 0 // entries are sorted, so their prefixes come in order
+		for i := range joint[k-1] {
+			g := t.Gram(k, i)
+			for Compare(t.Gram(k-1, prefix), g[:k-1]) < 0 {
+				prefix++
+			}
+			joint[k-1][i] = joint[k-2][prefix] * math.Pow(10, float64(lv.LogProb[i]))
+		}
+	}
+	return joint
+}
