@@ -29,6 +29,13 @@ const (
 	maxSections      = 1024
 )
 
+// MaxBuildInfo is the largest build-info section a writer writes and a
+// reader accepts. Real build information takes a few kilobytes; the cap
+// bounds what decoding its JSON can allocate (about 140 bytes per byte of
+// dense JSON), so that opening any file allocates at most a few MiB beyond
+// nothing (the file's own bytes are never copied).
+const MaxBuildInfo = 16 << 10
+
 // Offsets of the header fields.
 const (
 	offVersion      = 8

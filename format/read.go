@@ -292,6 +292,10 @@ func (m *Model) readBuildInfo() error {
 	if err != nil {
 		return err
 	}
+	if len(b) > MaxBuildInfo {
+		s, _, _ := m.find(KindBuildInfo, 0)
+		return formatErr("build info", s.Offset, "section is %d bytes; at most %d are allowed", len(b), MaxBuildInfo)
+	}
 	info, err := unmarshalInfo(b)
 	if err != nil {
 		s, _, _ := m.find(KindBuildInfo, 0)

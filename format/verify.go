@@ -12,9 +12,9 @@ import (
 // VerifyChecksums), then the structure that Open takes on trust: the
 // vocabulary is valid UTF-8 and strictly sorted, child starts ascend, word
 // ids lie inside the vocabulary and ascend under each parent, no stored
-// value is NaN or +Inf, and a model flagged suffix-closed is. It takes time
-// linear in the size of the model (the suffix-closed check adds a search
-// per entry).
+// value is NaN or +Inf, codebooks ascend strictly, and a model flagged
+// suffix-closed is. It takes time linear in the size of the model (the
+// suffix-closed check adds a search per entry).
 func (m *Model) Verify() error {
 	if err := m.VerifyChecksums(); err != nil {
 		return err
@@ -127,6 +127,12 @@ func (m *Model) verifyVocabulary() error {
 func (m *Model) verifyOrder(k int) error {
 	n := m.Count(k)
 	lv := &m.levels[k-1]
+	if err := m.verifyCodebook(KindProbCodebook, k, &lv.probs); err != nil {
+		return err
+	}
+	if err := m.verifyCodebook(KindBackoffCodebook, k, &lv.backoffs); err != nil {
+		return err
+	}
 	for i := 0; i < n; i++ {
 		if p := float64(lv.probs.at(i)); math.IsNaN(p) || math.IsInf(p, 1) {
 			name, at := m.sectionOffset(KindProbabilities, k, 4*i)
@@ -164,6 +170,21 @@ func (m *Model) verifyOrder(k int) error {
 				name, at := m.sectionOffset(KindLastWords, k+1, 4*int(c))
 				return formatErr(name, at, "entry %d (word id %d) does not ascend after its sibling", c, id)
 			}
+		}
+	}
+	return nil
+}
+
+// verifyCodebook checks the codebook of a quantized column: no NaN level,
+// levels strictly ascending (spec/FORMAT.md §4, kinds 10 and 11). Open
+// checks only its length; a plain column has none.
+func (m *Model) verifyCodebook(kind SectionKind, k int, c *column) error {
+	levels := len(c.codebook) / 4
+	for j := 0; j < levels; j++ {
+		x := floatAt(c.codebook, j)
+		if math.IsNaN(float64(x)) || j > 0 && !(floatAt(c.codebook, j-1) < x) {
+			name, at := m.sectionOffset(kind, k, 4*j)
+			return formatErr(name, at, "codebook value %d (%v) is NaN or does not ascend after the one before", j, x)
 		}
 	}
 	return nil

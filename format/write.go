@@ -186,6 +186,9 @@ func buildSections(t *tables.Tables) ([]section, error) {
 	if err != nil {
 		return nil, fmt.Errorf("ingot model: cannot write build info: %w", err)
 	}
+	if len(info) > MaxBuildInfo {
+		return nil, fmt.Errorf("ingot model: cannot write: build info of %d bytes exceeds %d (too many history lines or options?)", len(info), MaxBuildInfo)
+	}
 	starts, text := vocabularyBytes(t.Vocab)
 	out := []section{
 		{Section: Section{Kind: KindSummary}, data: summaryBytes(t)},
