@@ -48,6 +48,13 @@ func runDemo(ctx context.Context, stdout, stderr io.Writer, dir string) error {
 		return fmt.Errorf("demo: %w", err)
 	}
 	path := func(name string) string { return filepath.Join(dir, name) }
+	// A demo run starts afresh: its key pair from an earlier run would make
+	// keygen refuse (it never overwrites a key).
+	for _, name := range []string{"release.key", "release.pub"} {
+		if err := os.Remove(path(name)); err != nil && !os.IsNotExist(err) {
+			return fmt.Errorf("demo: %w", err)
+		}
+	}
 	for name, text := range map[string]string{"commands.txt": demoTraining, "heldout.txt": demoHeldout} {
 		if err := os.WriteFile(path(name), []byte(text), 0o644); err != nil {
 			return fmt.Errorf("demo: %w", err)

@@ -147,4 +147,8 @@ func TestDemoRuns(t *testing.T) {
 			t.Errorf("demo output lacks %q", want)
 		}
 	}
+	// A second run in the same directory works too.
+	if code, _, e := ingot(t, "demo", dir); code != 0 {
+		t.Fatalf("second demo run: exit %d: %s", code, e)
+	}
 }
