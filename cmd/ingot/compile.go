@@ -64,10 +64,14 @@ rule that applied.`,
 			if err != nil {
 				return err
 			}
+			pr := newProgress(cmd.ErrOrStderr())
+			defer pr.done()
+			pr.step("reading counts")
 			c, err := loadCounts(order, args)
 			if err != nil {
 				return err
 			}
+			pr.step("estimating %s, order %d", method, order)
 			t, rep, err := estimate.Estimate(c, opt)
 			if err != nil {
 				return fmt.Errorf("compile: %w", err)
@@ -104,11 +108,13 @@ rule that applied.`,
 			if minCounts != "" {
 				t.Info.Options["min-count"] = minCounts
 			}
+			pr.step("writing %s", out)
 			if err := writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
 				return format.Write(w, t)
 			}); err != nil {
 				return err
 			}
+			pr.done()
 			return printReport(cmd.OutOrStdout(), rep, out, asJSON)
 		},
 	}

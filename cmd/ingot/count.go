@@ -38,11 +38,15 @@ naming the file and line, and no output file is left behind.`,
 			if len(args) == 0 {
 				args = []string{input.Stdin}
 			}
+			pr := newProgress(cmd.ErrOrStderr())
+			defer pr.done()
 			for _, name := range args {
+				pr.step("counting %s", name)
 				if err := addText(c, name); err != nil {
 					return err
 				}
 			}
+			pr.step("sorting the n-grams")
 			res := c.Counts(minCount)
 			if total(res) == 0 {
 				return fmt.Errorf("count: no sentences in %s", strings.Join(args, ", "))

@@ -68,6 +68,9 @@ held-out text.`,
 			if err != nil {
 				return err
 			}
+			pr := newProgress(cmd.ErrOrStderr())
+			defer pr.done()
+			pr.step("scoring every n-gram by relative entropy")
 			scores := prune.EntropyScores(t)
 			pruned := func(threshold float64, keep [][]bool) *tables.Tables {
 				p := prune.Select(t, keep)
@@ -76,6 +79,7 @@ held-out text.`,
 				return p
 			}
 			var keep [][]bool
+			pr.step("choosing the threshold")
 			if hasS {
 				threshold, keep, _, err = prune.Fit(t, scores, budget, func(th float64, kp [][]bool) (int64, error) {
 					if qopt.Bits != 0 {
@@ -89,9 +93,11 @@ held-out text.`,
 			} else {
 				keep = prune.Keep(t, scores, threshold)
 			}
+			pr.step("recomputing back-off weights")
 			p := pruned(threshold, keep)
 			prune.Renormalize(p)
 			if qopt.Bits != 0 {
+				pr.step("quantizing")
 				if p, _, err = quantize.Model(p, qopt); err != nil {
 					return err
 				}
@@ -99,6 +105,7 @@ held-out text.`,
 			if err := writeOutput(cmd.Context(), out, nil, func(w io.Writer) error { return format.Write(w, p) }); err != nil {
 				return err
 			}
+			pr.done()
 			return reportPrune(cmd.OutOrStdout(), t, p, threshold, args[0], out, heldout, asJSON)
 		},
 	}

@@ -73,7 +73,10 @@ levels allow, so every context still sums to one within the tolerance that
 			if err != nil {
 				return err
 			}
+			pr := newProgress(cmd.ErrOrStderr())
+			pr.step("training codebooks and quantizing")
 			q, reports, err := quantize.Model(t, opt)
+			pr.done()
 			if err != nil {
 				return err
 			}
