@@ -1,8 +1,13 @@
 package verify
 
 import (
+	"crypto/ed25519"
 	"os"
 	"testing"
+
+	"ingot/compile/estimate"
+	"ingot/format"
+	"ingot/quantize"
 )
 
 // FuzzBytes verifies arbitrary bytes: nothing may panic, and a report
@@ -20,6 +25,20 @@ func FuzzBytes(f *testing.F) {
 	damaged := append([]byte(nil), random...)
 	damaged[len(damaged)/2] ^= 0xff
 	f.Add(reseal(damaged))
+	// A quantized (format version 2) and a signed model, so that the
+	// codebook and signature sections are reached too.
+	q, _, err := quantize.Model(build(f, sotu(f, 200), 3, estimate.Options{Method: estimate.KneserNey}),
+		quantize.Options{Bits: 4, Trainer: quantize.Optimal})
+	if err != nil {
+		f.Fatal(err)
+	}
+	quantized := marshal(f, q)
+	f.Add(quantized)
+	signed, err := format.Sign(quantized, ed25519.NewKeyFromSeed(make([]byte, ed25519.SeedSize)))
+	if err != nil {
+		f.Fatal(err)
+	}
+	f.Add(signed)
 	f.Fuzz(func(t *testing.T, data []byte) {
 		rep, err := Bytes(data, Options{})
 		if (rep == nil) == (err == nil) {
