@@ -232,9 +232,7 @@ func printReport(w io.Writer, rep *estimate.Report, out string, asJSON bool) err
 			}
 			v.Orders = append(v.Orders, oj)
 		}
-		enc := newEncoder(w)
-		enc.SetIndent("", "  ")
-		return enc.Encode(v)
+		return encodeIndented(w, v)
 	}
 	fmt.Fprintf(w, "wrote %s (%s, order %d)\n", out, rep.Method, len(rep.Orders))
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)

@@ -164,9 +164,7 @@ func printExplanation(w io.Writer, m *format.Model, ex format.Explanation, unkno
 		for j, b := range ex.Backoffs {
 			v.Backoffs = append(v.Backoffs, backoffJSON{join(m, b.Context), jsonNumber(b.LogBackoff), backoffQ[j]})
 		}
-		enc := newEncoder(w)
-		enc.SetIndent("", "  ")
-		return enc.Encode(v)
+		return encodeIndented(w, v)
 	}
 	ctx := join(m, ex.Context)
 	fmt.Fprintf(w, "P(%s | %s)\n", word, ctx)

@@ -139,9 +139,7 @@ func runInspect(cmd *cobra.Command, path string, f *inspectFlags) error {
 
 func printInspectSummary(w io.Writer, path string, s inspect.Summary, asJSON bool) error {
 	if asJSON {
-		enc := newEncoder(w)
-		enc.SetIndent("", "  ")
-		return enc.Encode(struct {
+		return encodeIndented(w, struct {
 			Model string `json:"model"`
 			inspect.Summary
 		}{path, s})
@@ -282,9 +280,7 @@ func inspectYesNo(b bool) string {
 
 func printInspectStats(w io.Writer, path string, st inspect.Stats, asJSON bool) error {
 	if asJSON {
-		enc := newEncoder(w)
-		enc.SetIndent("", "  ")
-		return enc.Encode(struct {
+		return encodeIndented(w, struct {
 			Model string `json:"model"`
 			inspect.Stats
 		}{path, st})
@@ -351,9 +347,7 @@ func inspectFixed(x inspect.Number) string {
 
 func printInspectNext(w io.Writer, path string, given int, nw *inspect.NextWords, asJSON bool) error {
 	if asJSON {
-		enc := newEncoder(w)
-		enc.SetIndent("", "  ")
-		return enc.Encode(struct {
+		return encodeIndented(w, struct {
 			Model string `json:"model"`
 			*inspect.NextWords
 		}{path, nw})

@@ -103,3 +103,10 @@ func newEncoder(w io.Writer) *json.Encoder {
 	enc.SetEscapeHTML(false)
 	return enc
 }
+
+// encodeIndented writes v as indented JSON (the single-object reports).
+func encodeIndented(w io.Writer, v any) error {
+	enc := newEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(v)
+}

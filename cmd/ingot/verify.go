@@ -474,7 +474,5 @@ func printVerifyJSON(w io.Writer, model string, rep *verify.Report, res *gate.Re
 		}
 		v.ReleaseGate = g
 	}
-	enc := newEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(v)
+	return encodeIndented(w, v)
 }
