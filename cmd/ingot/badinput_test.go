@@ -38,6 +38,11 @@ var badInputTable = []badInputCase{
 	{"unknown method", []string{"compile", "--method", "magic", "--order", "2", "-o", "$D/out", "$D/zero.tsv"}, `unknown method "magic"`},
 	{"discount out of range", []string{"compile", "--method", "absolute", "--discount", "1", "--order", "2", "-o", "$D/out", "$D/zero.tsv"}, `--discount "1" must be a number in (0, 1)`},
 	{"bad cutoff", []string{"compile", "--method", "katz", "--order", "2", "--min-count", "2:3", "-o", "$D/out", "$D/zero.tsv"}, "want K=M pairs"},
+	{"word list missing", []string{"compile", "--method", "katz", "--order", "1", "--vocabulary", "$D/absent.txt", "-o", "$D/out", "$D/unigrams.tsv"}, "--vocabulary: open $D/absent.txt: no such file or directory"},
+	{"word listed twice", []string{"compile", "--method", "katz", "--order", "1", "--vocabulary", "$D/twice.txt", "-o", "$D/out", "$D/unigrams.tsv"}, `twice.txt:3: "a" listed twice (first on line 1)`},
+	{"empty line in a word list", []string{"count", "--order", "2", "--vocabulary", "$D/gap.txt", "-o", "$D/out", "$D/train.txt"}, "gap.txt:2: empty line (one word per line)"},
+	{"two words on a word-list line", []string{"count", "--order", "2", "--vocabulary", "$D/pair.txt", "-o", "$D/out", "$D/train.txt"}, "pair.txt:1: 2 words on one line"},
+	{"word list with a rare-word cutoff", []string{"count", "--order", "2", "--vocabulary", "$D/twice.txt", "--min-word-count", "2", "-o", "$D/out", "$D/train.txt"}, "--min-word-count and --vocabulary exclude each other"},
 	{"model missing", []string{"score", "$D/absent.ingot"}, "absent.ingot: no such file or directory"},
 	{"not a model", []string{"score", "$D/train.txt"}, "not an ingot model file"},
 	{"model of an unknown version", []string{"score", "$D/future.ingot"}, "file is format version 9; this reader reads versions 1 to 2"},
@@ -68,6 +73,9 @@ func TestBadInputEverywhere(t *testing.T) {
 		"noprefix.tsv":    "a\t1\nx a\t1\n",
 		"k.pub":           "-----BEGIN PUBLIC KEY-----\nMCowBQYDK2VwAyEAGb9ECWmEzf6FQbrBZ9w7lshQhqowtrbLDFw4rXAxZuE=\n-----END PUBLIC KEY-----\n",
 		"truncated.ingot": "",
+		"twice.txt":       "a\nb\na\n",
+		"gap.txt":         "a\n\nb\n",
+		"pair.txt":        "turn on\n",
 	}
 	for name, text := range files {
 		writeFile(t, dir, name, text)

@@ -15,6 +15,7 @@ import (
 	"ingot/compile/estimate"
 	"ingot/compile/input"
 	"ingot/compile/prune"
+	"ingot/compile/vocab"
 	"ingot/format"
 )
 
@@ -27,6 +28,7 @@ func newCompileCmd() *cobra.Command {
 		out       string
 		minCounts string
 		asJSON    bool
+		wordList  string
 	)
 	cmd := &cobra.Command{
 		Use:   "compile --method M --order N -o MODEL COUNTS...",
@@ -45,8 +47,14 @@ Methods:
   kneser-ney    interpolated modified Kneser-Ney
 
 The report lists n-grams per order, the discounts used and every corner-case
-rule that applied.`,
+rule that applied.
+
+With --vocabulary FILE (one word per line) the model predicts exactly the
+listed words, </s> and <unk>: every other word of the counts becomes <unk>
+(counts of n-grams that become equal are summed), and listed words without
+counts get probability through the lower orders.`,
 		Example: `  ingot compile --method kneser-ney --order 3 -o field.ingot counts.tsv
+  ingot compile --method kneser-ney --order 3 --vocabulary lexicon.txt -o field.ingot counts.tsv
   ingot compile --method absolute --discount auto --order 4 -o m.ingot shard-*.tsv.zst`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -64,12 +72,19 @@ rule that applied.`,
 			if err != nil {
 				return err
 			}
+			list, err := loadWordList("compile", wordList)
+			if err != nil {
+				return err
+			}
 			pr := newProgress(cmd.ErrOrStderr())
 			defer pr.done()
 			pr.step("reading counts")
 			c, err := loadCounts(order, args)
 			if err != nil {
 				return err
+			}
+			if list != nil {
+				c = c.MapVocabulary(list)
 			}
 			pr.step("estimating %s, order %d", method, order)
 			t, rep, err := estimate.Estimate(c, opt)
@@ -108,6 +123,9 @@ rule that applied.`,
 			if minCounts != "" {
 				t.Info.Options["min-count"] = minCounts
 			}
+			if list != nil {
+				t.Info.Options["vocabulary"] = fmt.Sprintf("%d words, sha256 %s", list.Len(), list.Digest())
+			}
 			pr.step("writing %s", out)
 			if err := writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
 				return format.Write(w, t)
@@ -126,6 +144,7 @@ rule that applied.`,
 	f.StringVarP(&out, "output", "o", "", "model file to write (required)")
 	f.StringVar(&minCounts, "min-count", "", "count cutoffs K=M[,K=M...]: drop n-grams of order K seen fewer than M times")
 	f.BoolVar(&asJSON, "json", false, "print the build report as JSON")
+	f.StringVar(&wordList, "vocabulary", "", "fixed word list, one word per line: predict exactly these words, </s> and <unk>")
 	cmd.MarkFlagRequired("method")
 	cmd.MarkFlagRequired("order")
 	cmd.MarkFlagRequired("output")
@@ -180,6 +199,19 @@ func parseCutoffs(s string, order int) (map[int]uint64, error) {
 		out[k] = m
 	}
 	return out, nil
+}
+
+// loadWordList reads the --vocabulary file, or returns nil when none is
+// given.
+func loadWordList(command, path string) (*vocab.List, error) {
+	if path == "" {
+		return nil, nil
+	}
+	l, err := vocab.Load(path)
+	if err != nil {
+		return nil, fmt.Errorf("%s: --vocabulary: %w", command, err)
+	}
+	return l, nil
 }
 
 func loadCounts(order int, names []string) (*counts.Counts, error) {

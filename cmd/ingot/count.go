@@ -16,6 +16,7 @@ func newCountCmd() *cobra.Command {
 		order    int
 		out      string
 		minCount uint64
+		wordList string
 	)
 	cmd := &cobra.Command{
 		Use:   "count --order N [-o OUT] [TEXT...]",
@@ -27,13 +28,28 @@ TEXT is given; .gz and .zst files are decompressed.
 
 Output lines are "w1 w2 ... wk<TAB>count", orders in increasing order.
 Invalid UTF-8 or a marker (<s>, </s>, <unk>) inside the text is an error
-naming the file and line, and no output file is left behind.`,
+naming the file and line, and no output file is left behind.
+
+With --vocabulary FILE (one word per line) every word outside the list
+counts as <unk>, a literal <unk> in the text included; give compile the same
+--vocabulary so that listed words never seen stay predictable.`,
 		Example: `  ingot count --order 3 -o counts.tsv commands.txt
+  ingot count --order 3 --vocabulary lexicon.txt -o counts.tsv commands.txt
   zcat big.txt.gz | ingot count --order 5 --min-word-count 2 > counts.tsv`,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			c, err := counts.NewCounter(order)
 			if err != nil {
 				return fmt.Errorf("count: --order: %w", err)
+			}
+			if wordList != "" && minCount > 1 {
+				return fmt.Errorf("count: --min-word-count and --vocabulary exclude each other (the word list fixes the vocabulary)")
+			}
+			list, err := loadWordList("count", wordList)
+			if err != nil {
+				return err
+			}
+			if list != nil {
+				c.UseVocabulary(list)
 			}
 			if len(args) == 0 {
 				args = []string{input.Stdin}
@@ -61,6 +77,7 @@ naming the file and line, and no output file is left behind.`,
 	f.IntVar(&order, "order", 0, "highest n-gram order to count (required)")
 	f.StringVarP(&out, "output", "o", "", "write counts here instead of standard output")
 	f.Uint64Var(&minCount, "min-word-count", 1, "replace words seen fewer times than this by <unk>")
+	f.StringVar(&wordList, "vocabulary", "", "fixed word list, one word per line: count every other word as <unk>")
 	cmd.MarkFlagRequired("order")
 	return cmd
 }

@@ -204,11 +204,39 @@ func (b *builder) add(g []uint32, n uint64, file int32, line int) bool {
 	return true
 }
 
+// sortMerge returns the level of k-grams whose ids are flat (k per entry)
+// with the given counts, sorted, n-grams that are equal merged.
+func sortMerge(k int, flat []uint32, count []uint64) Level {
+	n := len(count)
+	perm := make([]int32, n)
+	for i := range perm {
+		perm[i] = int32(i)
+	}
+	slices.SortFunc(perm, func(x, y int32) int {
+		return tables.Compare(flat[k*int(x):k*int(x)+k], flat[k*int(y):k*int(y)+k])
+	})
+	lv := Level{Words: make([]uint32, 0, k*n), Counts: make([]uint64, 0, n)}
+	for j, i := range perm {
+		g := flat[k*int(i) : k*int(i)+k]
+		if j > 0 && tables.Compare(lv.Words[len(lv.Words)-k:], g) == 0 {
+			lv.Counts[len(lv.Counts)-1] += count[i]
+			continue
+		}
+		lv.Words = append(lv.Words, g...)
+		lv.Counts = append(lv.Counts, count[i])
+	}
+	return lv
+}
+
 // finish sorts the vocabulary and every order. replace, when not nil, maps a
-// word to the word that stands for it (min word count); n-grams that become
-// equal are merged.
-func (b *builder) finish(replace func(word string) string) *Counts {
+// word to the word that stands for it (min word count, fixed word list);
+// n-grams that become equal are merged. The words of extra join the
+// vocabulary even when they have no count.
+func (b *builder) finish(replace func(word string) string, extra []string) *Counts {
 	final := map[string]bool{tables.SentenceStart: true, tables.SentenceEnd: true, tables.Unknown: true}
+	for _, w := range extra {
+		final[w] = true
+	}
 	target := make([]string, len(b.words))
 	for id, w := range b.words {
 		t := w
@@ -243,29 +271,11 @@ func (b *builder) finish(replace func(word string) string) *Counts {
 	c.Levels[0] = uni
 	for k := 2; k <= b.order; k++ {
 		t := &b.grams[k-1]
-		n := t.len()
 		flat := make([]uint32, len(t.ids))
 		for i, id := range t.ids {
 			flat[i] = remap[id]
 		}
-		perm := make([]int32, n)
-		for i := range perm {
-			perm[i] = int32(i)
-		}
-		slices.SortFunc(perm, func(x, y int32) int {
-			return tables.Compare(flat[k*int(x):k*int(x)+k], flat[k*int(y):k*int(y)+k])
-		})
-		lv := Level{Words: make([]uint32, 0, k*n), Counts: make([]uint64, 0, n)}
-		for j, i := range perm {
-			g := flat[k*int(i) : k*int(i)+k]
-			if j > 0 && tables.Compare(lv.Words[len(lv.Words)-k:], g) == 0 {
-				lv.Counts[len(lv.Counts)-1] += t.count[i]
-				continue
-			}
-			lv.Words = append(lv.Words, g...)
-			lv.Counts = append(lv.Counts, t.count[i])
-		}
-		c.Levels[k-1] = lv
+		c.Levels[k-1] = sortMerge(k, flat, t.count)
 	}
 	return c
 }

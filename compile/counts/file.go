@@ -103,7 +103,7 @@ func Load(order int, sources []Source) (*Counts, error) {
 	if b.grams[0].len() == 0 {
 		return nil, fmt.Errorf("no unigram counts in %s", names(sources))
 	}
-	return b.finish(nil), nil
+	return b.finish(nil, nil), nil
 }
 
 func names(sources []Source) string {

@@ -6,13 +6,15 @@ import (
 
 	"ingot/compile/tables"
 	"ingot/compile/text"
+	"ingot/compile/vocab"
 )
 
 // Counter counts the n-grams of training text, orders 1..Order.
 // Its memory grows with the number of distinct n-grams.
 type Counter struct {
-	b    *builder
-	sent []uint32
+	b     *builder
+	sent  []uint32
+	vocab *vocab.List // nil: every token is its own word
 }
 
 // NewCounter returns a Counter for orders 1..order.
@@ -24,9 +26,17 @@ func NewCounter(order int) (*Counter, error) {
 }
 
 // AddText counts every sentence of r, reported as name in errors. Invalid
-// UTF-8 or a marker inside the text is an error naming the file and line.
+// UTF-8 or a marker inside the text is an error naming the file and line;
+// with a word list (UseVocabulary), <unk> is an ordinary word outside it.
 func (c *Counter) AddText(name string, r io.Reader) error {
-	return text.Sentences(name, r, false, func(toks []string, _ int) error {
+	return text.Sentences(name, r, c.vocab != nil, func(toks []string, line int) error {
+		if c.vocab != nil {
+			for _, t := range toks {
+				if t == tables.SentenceStart || t == tables.SentenceEnd {
+					return &text.Error{File: name, Line: line, Msg: fmt.Sprintf("marker %s inside raw text", t)}
+				}
+			}
+		}
 		c.AddSentence(toks)
 		return nil
 	})
@@ -37,6 +47,9 @@ func (c *Counter) AddSentence(toks []string) {
 	b := c.b
 	s := append(c.sent[:0], b.ids[tables.SentenceStart])
 	for _, t := range toks {
+		if c.vocab != nil {
+			t = c.vocab.Map(t)
+		}
 		s = append(s, b.id(t))
 	}
 	s = append(s, b.ids[tables.SentenceEnd])
@@ -52,6 +65,9 @@ func (c *Counter) AddSentence(toks []string) {
 // token whose total count is below it is replaced by <unk> and the n-grams
 // that become equal are merged.
 func (c *Counter) Counts(minWordCount uint64) *Counts {
+	if c.vocab != nil {
+		return c.b.finish(nil, c.vocab.Words())
+	}
 	var replace func(string) string
 	if minWordCount > 1 {
 		freq := map[string]uint64{}
@@ -66,5 +82,5 @@ func (c *Counter) Counts(minWordCount uint64) *Counts {
 			return tables.Unknown
 		}
 	}
-	return c.b.finish(replace)
+	return c.b.finish(replace, nil)
 }
