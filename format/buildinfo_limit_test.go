@@ -33,4 +33,13 @@ func TestBuildInfoIsCapped(t *testing.T) {
 	if _, err := FromBytes([]byte(b.String())); err == nil || !strings.Contains(err.Error(), "at most 16384 are allowed") {
 		t.Errorf("reader: %v", err)
 	}
+	// The cap comes before the checksum: damage the oversized section and
+	// the size, not the checksum, is what is reported (no time is spent
+	// computing the CRC of a section that is refused anyway).
+	damaged := []byte(b.String())
+	at := strings.Index(b.String(), "yyyy")
+	damaged[at] = 'z'
+	if _, err := FromBytes(damaged); err == nil || !strings.Contains(err.Error(), "at most 16384 are allowed") {
+		t.Errorf("reader, damaged oversized build info: %v", err)
+	}
 }

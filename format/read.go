@@ -2,11 +2,8 @@ package format
 
 import (
 	"encoding/binary"
-	"errors"
 	"fmt"
-	"io"
 	"math"
-	"os"
 
 	"ingot/compile/tables"
 )
@@ -42,55 +39,6 @@ type level struct {
 	probs     column // n log10 probabilities
 	backoffs  column // orders below the top: n log10 back-off weights
 	starts    []byte // orders below the top: n+1 uint32
-}
-
-// Open maps the model file at path into memory and checks its header,
-// directory, summary and build info. It does not read the large columns:
-// opening takes the same time for any model size. Use Verify to check every
-// byte. Close releases the mapping.
-//
-// Where memory mapping is not available, Open reads the file into memory.
-// A mapped file must not be truncated or rewritten in place while it is
-// open; replace model files by writing a new file and renaming it.
-func Open(path string) (*Model, error) {
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, fmt.Errorf("ingot model: %w", err)
-	}
-	defer f.Close()
-	st, err := f.Stat()
-	if err != nil {
-		return nil, fmt.Errorf("ingot model: %w", err)
-	}
-	size := st.Size()
-	if size != int64(int(size)) {
-		return nil, fmt.Errorf("ingot model %s: %d bytes do not fit in this machine's address space", path, size)
-	}
-	var data []byte
-	var release func() error
-	if size >= headerSize {
-		data, release, err = mapFile(f, int(size))
-	}
-	if release == nil { // too small to map, or mapping unavailable
-		data, err = io.ReadAll(f)
-		if err != nil {
-			return nil, fmt.Errorf("ingot model: reading %s: %w", path, err)
-		}
-	}
-	m, err := FromBytes(data)
-	if err != nil {
-		if release != nil {
-			release()
-		}
-		var fe *FormatError
-		if errors.As(err, &fe) {
-			fe.Path = path
-		}
-		return nil, err
-	}
-	m.release = release
-	m.path = path
-	return m, nil
 }
 
 // Close releases the file mapping. After Close the Model answers every query
@@ -232,11 +180,15 @@ func (m *Model) need(kind SectionKind, order int, wantLen int64) (Section, []byt
 }
 
 // needChecked is need plus a check of the section's CRC-32C, for the small
-// sections whose every byte is read at open.
-func (m *Model) needChecked(kind SectionKind, order int, wantLen int64) ([]byte, error) {
-	s, b, err := m.need(kind, order, wantLen)
+// sections whose every byte is read at open. A section longer than maxLen
+// is refused before its checksum is computed.
+func (m *Model) needChecked(kind SectionKind, order int, maxLen int64) ([]byte, error) {
+	s, b, err := m.need(kind, order, -1)
 	if err != nil {
 		return nil, err
+	}
+	if s.Length > maxLen {
+		return nil, formatErr(s.Name(), s.Offset, "section is %d bytes; at most %d are allowed", s.Length, maxLen)
 	}
 	if got := checksum(b); got != s.Checksum {
 		return nil, formatErr(s.Name(), s.Offset, "checksum is %08x, expected %08x: section damaged", got, s.Checksum)
@@ -245,7 +197,7 @@ func (m *Model) needChecked(kind SectionKind, order int, wantLen int64) ([]byte,
 }
 
 func (m *Model) readSummary() error {
-	b, err := m.needChecked(KindSummary, 0, -1)
+	b, err := m.needChecked(KindSummary, 0, summaryFixedSize+8*tables.MaxOrder)
 	if err != nil {
 		return err
 	}
@@ -288,13 +240,17 @@ func (m *Model) readSummary() error {
 }
 
 func (m *Model) readBuildInfo() error {
-	b, err := m.needChecked(KindBuildInfo, 0, -1)
+	// The size cap comes before the checksum, so that an oversized section
+	// costs no time to refuse.
+	s, b, err := m.need(KindBuildInfo, 0, -1)
 	if err != nil {
 		return err
 	}
 	if len(b) > MaxBuildInfo {
-		s, _, _ := m.find(KindBuildInfo, 0)
 		return formatErr("build info", s.Offset, "section is %d bytes; at most %d are allowed", len(b), MaxBuildInfo)
+	}
+	if got := checksum(b); got != s.Checksum {
+		return formatErr(s.Name(), s.Offset, "checksum is %08x, expected %08x: section damaged", got, s.Checksum)
 	}
 	info, err := unmarshalInfo(b)
 	if err != nil {
@@ -391,7 +347,7 @@ func (m *Model) readColumn(kind, codebookKind SectionKind, k int, n int64) (colu
 	if m.version < 2 {
 		return column{}, formatErr(s.Name(), s.Offset, "section has %s, which format version %d does not allow", s.Encoding, m.version)
 	}
-	cb, err := m.needChecked(codebookKind, k, -1)
+	cb, err := m.needChecked(codebookKind, k, 4<<16)
 	if err != nil {
 		return column{}, err
 	}

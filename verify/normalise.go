@@ -228,17 +228,28 @@ func (w *walker) level(k int, all *tally) {
 	parts := max(1, min(procs, n/share))
 	workers := make([]*worker, parts)
 	var wg sync.WaitGroup
+	faults := make([]error, parts)
 	for p := range workers {
 		wk := &worker{walker: w}
 		workers[p] = wk
 		lo, hi := p*n/parts, (p+1)*n/parts
 		wg.Go(func() {
-			for i := lo; i < hi; i++ {
-				wk.context(k, i)
-			}
+			// A mapped file that shrinks under the walk faults here, in a
+			// goroutine of its own: carry the fault to the caller's Guard.
+			faults[p] = format.Guard(func() error {
+				for i := lo; i < hi; i++ {
+					wk.context(k, i)
+				}
+				return nil
+			})
 		})
 	}
 	wg.Wait()
+	for _, err := range faults {
+		if err != nil {
+			panic(err)
+		}
+	}
 	for _, wk := range workers {
 		all.merge(&wk.tally)
 	}

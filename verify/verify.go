@@ -92,12 +92,28 @@ func (e *UnreadableError) Unwrap() error { return e.Err }
 // non-nil only when the file cannot be read as a model at all (an
 // *UnreadableError); damage to a file that starts with the magic is a
 // failed check in the Report.
-func File(path string, opt Options) (*Report, error) {
-	data, err := os.ReadFile(path)
+//
+// The file is mapped, not read into memory: verifying costs the memory of
+// the tables it builds, not the file's size. It must be a regular file (a
+// device or a named pipe is unreadable). A file that shrinks while it is
+// verified is unreadable too (the error wraps a *format.FaultError), never a
+// crash.
+func File(path string, opt Options) (rep *Report, err error) {
+	data, release, err := format.MapBytes(path)
 	if err != nil {
 		return nil, &UnreadableError{Path: path, Err: unwrapPath(err)}
 	}
-	rep, err := Bytes(data, opt)
+	defer release()
+	err = format.Guard(func() error {
+		var err error
+		rep, err = Bytes(data, opt)
+		return err
+	})
+	var fault *format.FaultError
+	if errors.As(err, &fault) {
+		fault.Path = path
+		return nil, &UnreadableError{Path: path, Err: fault}
+	}
 	var ue *UnreadableError
 	if errors.As(err, &ue) {
 		ue.Path = path

@@ -39,7 +39,7 @@ func TestInterruptedRunsLeaveNoOutput(t *testing.T) {
 		t.Fatal(err)
 	}
 	stdin.Write([]byte("a b c\nd e f\n"))
-	time.Sleep(200 * time.Millisecond)
+	time.Sleep(time.Second) // time to set up its signal handling, even on a loaded machine
 	cmd.Process.Signal(syscall.SIGINT)
 	err := cmd.Wait()
 	if ee, ok := err.(*exec.ExitError); !ok || ee.ExitCode() != 130 {

@@ -1,7 +1,8 @@
 // Command ingot compiles n-gram counts into a compact, verifiable binary
 // back-off language model and answers questions about it.
 //
-// Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input.
+// Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input, 70 an
+// internal error (a panic), 134 (SIGABRT) a fatal runtime error.
 package main
 
 import (
@@ -11,18 +12,24 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"runtime/debug"
 
 	"github.com/spf13/cobra"
+
+	"ingot/format"
 )
 
 // version is the tool version recorded in every model it writes.
 const version = "0.1.0"
 
-// Exit codes.
+// Exit codes. A fatal runtime error the process cannot recover from (out
+// of memory, a fault outside the guarded query paths) ends it with SIGABRT
+// (exit status 134 in a shell), never 2: see crashOnFatalErrors.
 const (
 	exitOK          = 0
 	exitCheckFailed = 1
 	exitBadInput    = 2
+	exitInternal    = 70 // a panic: a bug in ingot (the sysexits.h EX_SOFTWARE)
 )
 
 // checkFailed marks an error that means "a check did not hold" (exit 1)
@@ -33,6 +40,7 @@ func (e checkFailed) Error() string { return e.err.Error() }
 func (e checkFailed) Unwrap() error { return e.err }
 
 func main() {
+	crashOnFatalErrors()
 	ctx, stop := withInterruptCleanup(os.Stderr)
 	code := runContext(ctx, os.Args[1:], os.Stdout, os.Stderr)
 	stop()
@@ -46,10 +54,21 @@ func run(args []string, stdout, stderr io.Writer) int {
 
 // runContext is run with a context that commands pass on (it carries the
 // temporary outputs to remove when the run is interrupted).
-func runContext(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+//
+// A model file that shrinks while a command reads it is reported as bad
+// input (the commands run inside format.Guard), and a panic as an internal
+// error, exit 70, with its stack on stderr; the temporary outputs are
+// removed on the way out either way.
+func runContext(ctx context.Context, args []string, stdout, stderr io.Writer) (code int) {
+	defer func() {
+		if r := recover(); r != nil {
+			fmt.Fprintf(stderr, "ingot: internal error (a bug in ingot; please report it with the command line): %v\n%s", r, debug.Stack())
+			code = exitInternal
+		}
+	}()
 	root := newRoot(stdout, stderr)
 	root.SetArgs(args)
-	err := root.ExecuteContext(ctx)
+	err := format.Guard(func() error { return root.ExecuteContext(ctx) })
 	if err == nil {
 		return exitOK
 	}
@@ -69,7 +88,8 @@ func newRoot(stdout, stderr io.Writer) *cobra.Command {
 (Katz, absolute discounting, Witten-Bell, modified Kneser-Ney), writes it as a
 self-describing binary file, and scores and explains with it.
 
-Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input.`,
+Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input, 70 an
+internal error (a bug), 134 (SIGABRT) a fatal runtime error.`,
 		Version:       version,
 		SilenceUsage:  true,
 		SilenceErrors: true,
@@ -93,8 +113,13 @@ Exit codes: 0 success, 1 a check failed, 2 bad usage or bad input.`,
 		newSignCmd(),
 		newDemoCmd(),
 	)
+	root.AddCommand(testCommands...)
 	return root
 }
+
+// testCommands are added to the root by tests (a command that panics, to
+// check the exit code of a bug); empty in the program.
+var testCommands []*cobra.Command
 
 // newEncoder returns a JSON encoder that leaves <, > and & as they are
 // (the markers <s>, </s> and <unk> read better unescaped).
@@ -110,3 +135,10 @@ func encodeIndented(w io.Writer, v any) error {
 	enc.SetIndent("", "  ")
 	return enc.Encode(v)
 }
+
+// crashOnFatalErrors makes a fatal runtime error, or a panic on a goroutine
+// that runContext does not cover, end the process with SIGABRT (status 134)
+// rather than the runtime's default exit status 2, which ingot keeps for bad
+// input. The traceback then lists every goroutine; a core file is written
+// only where the resource limits allow one (ulimit -c).
+func crashOnFatalErrors() { debug.SetTraceback("crash") }

@@ -38,12 +38,11 @@ func writeOutputMode(ctx context.Context, path string, mode os.FileMode, stdout 
 	if dir == "" {
 		dir = "."
 	}
-	tmp, err := os.CreateTemp(dir, "."+base+".tmp-*")
+	pending := pendingFrom(ctx)
+	tmp, err := pending.createTemp(dir, "."+base+".tmp-*")
 	if err != nil {
 		return fmt.Errorf("cannot write %s: %w", path, err)
 	}
-	pending := pendingFrom(ctx)
-	pending.add(tmp.Name())
 	defer pending.remove(tmp.Name())
 	ok := false
 	defer func() {
@@ -103,17 +102,27 @@ func compressor(path string, w io.Writer) (io.Writer, func() error, error) {
 // pendingOutputs tracks the temporary files being written, so that an
 // interrupted run (SIGINT, SIGTERM) can remove them before it exits.
 type pendingOutputs struct {
-	mu    sync.Mutex
-	files map[string]bool
+	mu      sync.Mutex
+	files   map[string]bool
+	stopped bool // interrupted: no new temporary files
 }
 
-func (p *pendingOutputs) add(name string) {
+// createTemp creates a temporary file and records it, under the lock that
+// removeAll takes: an interrupt that arrives meanwhile removes it too.
+func (p *pendingOutputs) createTemp(dir, pattern string) (*os.File, error) {
 	if p == nil {
-		return
+		return os.CreateTemp(dir, pattern)
 	}
 	p.mu.Lock()
 	defer p.mu.Unlock()
-	p.files[name] = true
+	if p.stopped {
+		return nil, fmt.Errorf("interrupted")
+	}
+	f, err := os.CreateTemp(dir, pattern)
+	if err == nil {
+		p.files[f.Name()] = true
+	}
+	return f, err
 }
 
 func (p *pendingOutputs) remove(name string) {
@@ -129,6 +138,7 @@ func (p *pendingOutputs) remove(name string) {
 func (p *pendingOutputs) removeAll() {
 	p.mu.Lock()
 	defer p.mu.Unlock()
+	p.stopped = true
 	for name := range p.files {
 		os.Remove(name)
 		delete(p.files, name)

@@ -12,6 +12,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"ingot/format"
+	"ingot/format/files"
 )
 
 func newKeygenCmd() *cobra.Command {
@@ -82,7 +83,7 @@ before is re-signed. The file is replaced atomically.`,
 			if err != nil {
 				return err
 			}
-			data, err := os.ReadFile(args[0])
+			data, err := files.ReadRegular(args[0])
 			if err != nil {
 				return fmt.Errorf("sign: %w", err)
 			}
@@ -106,8 +107,12 @@ before is re-signed. The file is replaced atomically.`,
 	return cmd
 }
 
+// maxKeyFile caps what is read of a key file: a PEM Ed25519 key is about
+// 120 bytes.
+const maxKeyFile = 64 << 10
+
 func readPEM(path, want string) ([]byte, error) {
-	b, err := os.ReadFile(path)
+	b, err := files.ReadCapped(path, maxKeyFile)
 	if err != nil {
 		return nil, err
 	}
