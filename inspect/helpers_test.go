@@ -67,7 +67,7 @@ func fromTables(t testing.TB, tb *tables.Tables) *format.Model {
 func demoModels(t testing.TB) (plain, quantized *format.Model) {
 	t.Helper()
 	tb := demoTables(t)
-	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.Optimal})
+	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -88,7 +88,7 @@ func TestSummarizeQuantizedAndSigned(t *testing.T) {
 		t.Fatalf("quantized model: version %d, quantization %v", s.FormatVersion, s.Quantization)
 	}
 	q := s.Quantization
-	if q.Bits != 8 || q.BackoffBits != 8 || q.Trainer != "optimal" || len(q.Orders) != 3 {
+	if q.Bits != 8 || q.BackoffBits != 8 || q.Trainer != "least-squares" || len(q.Orders) != 3 {
 		t.Errorf("quantization %+v", q)
 	}
 	// Unigram probabilities stay float32; the top order has no back-offs.

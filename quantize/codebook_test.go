@@ -182,7 +182,7 @@ func TestCodebookFromMergesAndNormalises(t *testing.T) {
 func BenchmarkIndex(b *testing.B) {
 	values := logProbLikeSample(1<<16, 5)
 	for _, levels := range []int{256, 65536} {
-		c, err := Train(values, levels, Binning)
+		c, err := Train(values, levels, EqualMass)
 		if err != nil {
 			b.Fatal(err)
 		}

@@ -5,14 +5,14 @@
 //
 // Train builds a codebook with one of two trainers, chosen by name:
 //
-//   - Binning ("binning") sorts the values, cuts them into bins that hold
+//   - EqualMass ("equal-mass") sorts the values, cuts them into bins that hold
 //     the same number of values and takes the mean of each bin. It is fast
 //     and simple, and it is not optimal.
-//   - Optimal ("optimal") finds the codebook with the least total squared
+//   - LeastSquares ("least-squares") finds the codebook with the least total squared
 //     error by dynamic programming over the sorted distinct values, after
 //     H. Wang and M. Song (2011), "Ckmeans.1d.dp: Optimal k-means clustering
 //     in one dimension by dynamic programming", The R Journal 3(2). See
-//     Optimal for its cost and for the one case in which it first merges
+//     LeastSquares for its cost and for the one case in which it first merges
 //     values into micro-bins.
 //
 // A Codebook maps a value to the index of its nearest level (Index) and an

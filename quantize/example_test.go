@@ -9,7 +9,7 @@ import (
 // Invented log10 probabilities of a toy model, stored with two bits each.
 func Example() {
 	logProbs := []float64{-0.3, -0.35, -0.5, -1.2, -1.25, -1.3, -2.9, -3.0, -3.1, -6.0}
-	c, err := quantize.Train(logProbs, 4, quantize.Optimal)
+	c, err := quantize.Train(logProbs, 4, quantize.LeastSquares)
 	if err != nil {
 		fmt.Println(err)
 		return

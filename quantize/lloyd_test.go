@@ -33,7 +33,7 @@ func TestLloydNeverIncreasesError(t *testing.T) {
 // leaves it where it is, up to float32 rounding.
 func TestLloydKeepsOptimalCodebook(t *testing.T) {
 	values := normalSample(20_000, 62)
-	c, err := Train(values, 12, Optimal)
+	c, err := Train(values, 12, LeastSquares)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -12,7 +12,7 @@ import (
 
 // optimalLevels returns the levels of the optimal codebook with k levels for
 // the sorted values, whose distinct values and their multiplicities are
-// points and weights (more than k of them). See Optimal.
+// points and weights (more than k of them). See LeastSquares.
 func optimalLevels(sorted, points, weights []float64, k int) []float64 {
 	if !useLayers(len(points), k) && len(points) > MicroBins {
 		points, weights = microBins(sorted, MicroBins)

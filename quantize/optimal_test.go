@@ -51,7 +51,7 @@ func TestOptimalApproachesMax1960(t *testing.T) {
 	values := normalQuantiles(200_000)
 	for _, row := range max1960 {
 		t.Run(levelsName(row.levels), func(t *testing.T) {
-			c, err := Train(values, row.levels, Optimal)
+			c, err := Train(values, row.levels, LeastSquares)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -73,7 +73,7 @@ func TestOptimalOnNormalSample(t *testing.T) {
 	values := normalSample(200_000, 1)
 	for _, row := range max1960 {
 		t.Run(levelsName(row.levels), func(t *testing.T) {
-			c, err := Train(values, row.levels, Optimal)
+			c, err := Train(values, row.levels, LeastSquares)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -112,7 +112,7 @@ func TestUniformStepSquaredOverTwelve(t *testing.T) {
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
-			c, err := Train(tt.values, tt.levels, Optimal)
+			c, err := Train(tt.values, tt.levels, LeastSquares)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -187,7 +187,7 @@ func TestOptimalMatchesBruteForce(t *testing.T) {
 		points, weights := distinct(sorted)
 		for k := 2; k <= min(4, len(values)); k++ {
 			want := bruteForceError(sorted, k)
-			c, err := Train(values, k, Optimal)
+			c, err := Train(values, k, LeastSquares)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -332,13 +332,13 @@ func TestOptimalNeverWorseThanLloyd(t *testing.T) {
 	}
 	for name, values := range shapes {
 		for _, k := range []int{3, 8, 40} {
-			optimal, err := Train(values, k, Optimal)
+			optimal, err := Train(values, k, LeastSquares)
 			if err != nil {
 				t.Fatal(err)
 			}
 			best := MeanSquaredError(values, optimal)
 			starts := map[string]Codebook{}
-			if starts["binning"], err = Train(values, k, Binning); err != nil {
+			if starts["binning"], err = Train(values, k, EqualMass); err != nil {
 				t.Fatal(err)
 			}
 			for s := range 4 {
@@ -368,7 +368,7 @@ func TestOptimalNeverWorseThanLloyd(t *testing.T) {
 func TestMicroBinnedOptimal(t *testing.T) {
 	values := logProbLikeSample(300_000, 51)
 	const levels = 512
-	c, err := Train(values, levels, Optimal)
+	c, err := Train(values, levels, LeastSquares)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -376,7 +376,7 @@ func TestMicroBinnedOptimal(t *testing.T) {
 		t.Fatalf("%d levels, want %d", c.Len(), levels)
 	}
 	optimal := MeanSquaredError(values, c)
-	binned, err := Train(values, levels, Binning)
+	binned, err := Train(values, levels, EqualMass)
 	if err != nil {
 		t.Fatal(err)
 	}

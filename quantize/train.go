@@ -15,15 +15,15 @@ const MinLevels = 2
 type Trainer string
 
 const (
-	// Binning sorts the values, cuts them into as many bins as there are
+	// EqualMass sorts the values, cuts them into as many bins as there are
 	// levels, each holding the same number of values (bin sizes differ by at
 	// most one), and uses the mean of each bin as its level. It costs
 	// O(n log n) for n values. Adjacent bins that hold one and the same
 	// repeated value produce one level, so heavily repeated values can give
 	// fewer levels than asked for.
-	Binning Trainer = "binning"
+	EqualMass Trainer = "equal-mass"
 
-	// Optimal minimises the total squared error exactly, by the dynamic
+	// LeastSquares minimises the total squared error exactly, by the dynamic
 	// programme of H. Wang and M. Song (2011), "Ckmeans.1d.dp: Optimal
 	// k-means clustering in one dimension by dynamic programming", The R
 	// Journal 3(2).
@@ -65,12 +65,12 @@ const (
 	//
 	// The result is exact up to floating-point rounding of the prefix sums,
 	// which are taken about the mean of the values to keep them small.
-	Optimal Trainer = "optimal"
+	LeastSquares Trainer = "least-squares"
 )
 
 // MicroBins is the number of equal-width bins into which the optimal trainer
 // merges values when there are more distinct values than that and more than
-// a few levels; see Optimal.
+// a few levels; see LeastSquares.
 const MicroBins = 1 << 18
 
 const (
@@ -83,18 +83,26 @@ const (
 )
 
 // Trainers returns the known trainers in the order a help text lists them.
-func Trainers() []Trainer { return []Trainer{Binning, Optimal} }
+func Trainers() []Trainer { return []Trainer{EqualMass, LeastSquares} }
+
+// renamedTrainers maps the names trainers had before version 0.2 to their
+// names now, so that an old spelling is refused with a pointer to the new.
+var renamedTrainers = map[string]Trainer{"optimal": LeastSquares, "binning": EqualMass}
 
 // ParseTrainer returns the trainer with the given name, or an error that
-// lists the known names.
+// lists the known names (or, for a name from before version 0.2, gives the
+// new one).
 func ParseTrainer(name string) (Trainer, error) {
 	t := Trainer(name)
+	if nt, ok := renamedTrainers[name]; ok {
+		return "", fmt.Errorf("trainer %q is now called %q", name, nt)
+	}
 	if !slices.Contains(Trainers(), t) {
 		names := make([]string, 0, 2)
 		for _, k := range Trainers() {
 			names = append(names, string(k))
 		}
-		return "", fmt.Errorf("quantize: unknown trainer %q (known: %s)", name, strings.Join(names, ", "))
+		return "", fmt.Errorf("unknown trainer %q (known: %s)", name, strings.Join(names, ", "))
 	}
 	return t, nil
 }
@@ -106,7 +114,7 @@ func ParseTrainer(name string) (Trainer, error) {
 //
 // When there are no more distinct values than levels, the codebook is
 // exactly the distinct values. Otherwise it has levels levels, less any that
-// become equal when rounded to float32 (and, for Binning, see there). The
+// become equal when rounded to float32 (and, for EqualMass, see there). The
 // trainers compute in float64 and round the levels to float32 at the end.
 func Train(values []float64, levels int, t Trainer) (Codebook, error) {
 	if err := checkTraining(values, levels, t); err != nil {
@@ -119,7 +127,7 @@ func Train(values []float64, levels int, t Trainer) (Codebook, error) {
 		return codebookFrom(points), nil
 	}
 	switch t {
-	case Binning:
+	case EqualMass:
 		return codebookFrom(binningLevels(sorted, levels)), nil
 	default:
 		return codebookFrom(optimalLevels(sorted, points, weights, levels)), nil
@@ -235,7 +243,7 @@ func TrainWeighted(values, weights []float64, levels int, t Trainer) (Codebook, 
 	if len(points) <= levels {
 		return codebookFrom(points), nil
 	}
-	if t == Binning {
+	if t == EqualMass {
 		return codebookFrom(weightedBinning(points, pw, total, levels)), nil
 	}
 	if !useLayers(len(points), levels) && len(points) > MicroBins {

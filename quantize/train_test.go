@@ -64,14 +64,14 @@ func TestTrainRejectsBadInput(t *testing.T) {
 		trainer Trainer
 		wantErr string
 	}{
-		{"NaN", []float64{0, 1, math.NaN()}, 2, Optimal, "value at index 2 is NaN"},
-		{"positive infinity", []float64{math.Inf(1), 1}, 2, Binning, "value at index 0 is +Inf"},
-		{"negative infinity", []float64{0, math.Inf(-1)}, 2, Optimal, "value at index 1 is -Inf"},
-		{"beyond float32", []float64{0, 1, 2, 1e39}, 2, Optimal, "value at index 3 (1e+39) is beyond the float32 range"},
-		{"one level", []float64{0, 1}, 1, Optimal, "1 levels asked for; levels must be from 2 to 65536"},
-		{"too many levels", []float64{0, 1}, MaxLevels + 1, Binning, "65537 levels asked for"},
-		{"no values", nil, 2, Optimal, "no values"},
-		{"unknown trainer", []float64{0, 1}, 2, "kmeans", `unknown trainer "kmeans" (known: binning, optimal)`},
+		{"NaN", []float64{0, 1, math.NaN()}, 2, LeastSquares, "value at index 2 is NaN"},
+		{"positive infinity", []float64{math.Inf(1), 1}, 2, EqualMass, "value at index 0 is +Inf"},
+		{"negative infinity", []float64{0, math.Inf(-1)}, 2, LeastSquares, "value at index 1 is -Inf"},
+		{"beyond float32", []float64{0, 1, 2, 1e39}, 2, LeastSquares, "value at index 3 (1e+39) is beyond the float32 range"},
+		{"one level", []float64{0, 1}, 1, LeastSquares, "1 levels asked for; levels must be from 2 to 65536"},
+		{"too many levels", []float64{0, 1}, MaxLevels + 1, EqualMass, "65537 levels asked for"},
+		{"no values", nil, 2, LeastSquares, "no values"},
+		{"unknown trainer", []float64{0, 1}, 2, "kmeans", `unknown trainer "kmeans" (known: equal-mass, least-squares)`},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
@@ -115,7 +115,7 @@ func TestParseTrainer(t *testing.T) {
 			t.Errorf("ParseTrainer(%q) = %q, %v", want, got, err)
 		}
 	}
-	if _, err := ParseTrainer("Optimal"); err == nil {
+	if _, err := ParseTrainer("Least-Squares"); err == nil {
 		t.Error("ParseTrainer accepted a name in the wrong case")
 	}
 }
@@ -140,7 +140,7 @@ func TestBinning(t *testing.T) {
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
-			c, err := Train(tt.values, tt.levels, Binning)
+			c, err := Train(tt.values, tt.levels, EqualMass)
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -19,8 +19,8 @@ func TestTrainWeightedUnitWeightsEqualsTrain(t *testing.T) {
 			w[i] = 1
 		}
 		k := 2 + r.IntN(12)
-		a, err1 := Train(v, k, Optimal)
-		b, err2 := TrainWeighted(v, w, k, Optimal)
+		a, err1 := Train(v, k, LeastSquares)
+		b, err2 := TrainWeighted(v, w, k, LeastSquares)
 		if err1 != nil || err2 != nil {
 			t.Fatal(err1, err2)
 		}
@@ -44,7 +44,7 @@ func TestTrainWeightedIsOptimal(t *testing.T) {
 			w[i] = r.ExpFloat64()
 		}
 		k := 2 + r.IntN(min(3, n-2))
-		cb, err := TrainWeighted(v, w, k, Optimal)
+		cb, err := TrainWeighted(v, w, k, LeastSquares)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -36,7 +36,7 @@ func corruptionModels(t *testing.T) []struct {
 	lines := strings.Split(strings.TrimSpace(string(text)), "\n")
 	tb := build(t, lines[:40], 3, estimate.Options{Method: estimate.KneserNey})
 	plain := marshal(t, tb)
-	q, _, err := quantize.Model(tb, quantize.Options{Bits: 4, Trainer: quantize.Binning})
+	q, _, err := quantize.Model(tb, quantize.Options{Bits: 4, Trainer: quantize.EqualMass})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -28,7 +28,7 @@ func FuzzBytes(f *testing.F) {
 	// A quantized (format version 2) and a signed model, so that the
 	// codebook and signature sections are reached too.
 	q, _, err := quantize.Model(build(f, sotu(f, 200), 3, estimate.Options{Method: estimate.KneserNey}),
-		quantize.Options{Bits: 4, Trainer: quantize.Optimal})
+		quantize.Options{Bits: 4, Trainer: quantize.LeastSquares})
 	if err != nil {
 		f.Fatal(err)
 	}

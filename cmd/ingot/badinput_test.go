@@ -48,7 +48,7 @@ var badInputTable = []badInputCase{
 	{"model of an unknown version", []string{"score", "$D/future.ingot"}, "file is format version 9; this reader reads versions 1 to 2"},
 	{"truncated model", []string{"explain", "$D/truncated.ingot", "a b"}, "truncated"},
 	{"explain without words", []string{"explain", "$M", " "}, "no words given"},
-	{"prune without a rule", []string{"prune", "-o", "$D/out", "$M"}, "exactly one of --threshold and --max-size"},
+	{"prune without a rule", []string{"prune", "-o", "$D/out", "$M"}, "exactly one of --drop-below and --max-size"},
 	{"prune budget unreadable", []string{"prune", "--max-size", "lots", "-o", "$D/out", "$M"}, `size "lots" is not a positive number`},
 	{"quantize bits out of range", []string{"quantize", "--bits", "1", "-o", "$D/out", "$M"}, "--bits 1 outside 2..16"},
 	{"quantize unknown trainer", []string{"quantize", "--bits", "8", "--trainer", "guess", "-o", "$D/out", "$M"}, `unknown trainer "guess"`},
@@ -62,6 +62,9 @@ var badInputTable = []badInputCase{
 	{"interpolate fitting text empty", []string{"interpolate", "--fit", "$D/empty.txt", "-o", "$D/out", "$M", "$M"}, "no sentences"},
 	{"interpolate a model that is not one", []string{"interpolate", "-o", "$D/out", "$M", "$D/train.txt"}, "not an ingot model file"},
 	{"sign with a missing key", []string{"sign", "--key", "$D/absent.key", "$M"}, "absent.key: no such file or directory"},
+	{"old spelling of --drop-below", []string{"prune", "--threshold", "1e-7", "-o", "$D/out", "$M"}, "--threshold is now called --drop-below"},
+	{"old spelling of --backoff-bits", []string{"quantize", "--bits", "8", "--bow-bits", "8", "-o", "$D/out", "$M"}, "--bow-bits is now called --backoff-bits"},
+	{"old trainer name", []string{"quantize", "--bits", "8", "--trainer", "optimal", "-o", "$D/out", "$M"}, `trainer "optimal" is now called "least-squares"`},
 	{"sign with a public key", []string{"sign", "--key", "$D/k.pub", "$M"}, "not a PEM PRIVATE KEY"},
 }
 

@@ -44,7 +44,7 @@ func TestInspectSummary(t *testing.T) {
 		{plain, []string{"magic ok, format version 1", "kneser-ney", "discounts", "order 3: D1=",
 			"rules applied", "suffix-closed   yes", "quantization    none", "signature       unsigned",
 			"child starts", "CRC-32C"}},
-		{quantized, []string{"format version 2", "trainer optimal, 8-bit probabilities", "probability codebook",
+		{quantized, []string{"format version 2", "trainer least-squares, 8-bit probabilities", "probability codebook",
 			"packed codebook indexes", "quantized: probabilities 8 bits"}},
 	} {
 		code, out, e := ingot(t, "inspect", tc.model)

@@ -13,6 +13,7 @@ import (
 	"io"
 	"os"
 	"runtime/debug"
+	"strings"
 
 	"github.com/spf13/cobra"
 
@@ -97,6 +98,9 @@ internal error (a bug), 134 (SIGABRT) a fatal runtime error.`,
 	root.SetOut(stdout)
 	root.SetErr(stderr)
 	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
+		if msg, ok := renamedFlag(c, err); ok {
+			return fmt.Errorf("%s: %s", c.Name(), msg)
+		}
 		return fmt.Errorf("%s: %w (see 'ingot %s --help')", c.Name(), err, c.Name())
 	})
 	root.AddCommand(
@@ -121,6 +125,28 @@ internal error (a bug), 134 (SIGABRT) a fatal runtime error.`,
 // testCommands are added to the root by tests (a command that panics, to
 // check the exit code of a bug); empty in the program.
 var testCommands []*cobra.Command
+
+// renamedFlags maps "COMMAND --old" to the flag's name since version 0.2,
+// so that a script using an old spelling fails with a pointer to the new.
+var renamedFlags = map[string]string{
+	"prune --threshold":     "--drop-below",
+	"tradeoff --thresholds": "--drop-below",
+	"quantize --bow-bits":   "--backoff-bits",
+	"prune --bow-bits":      "--backoff-bits",
+}
+
+// renamedFlag returns the message for an unknown flag that was renamed.
+func renamedFlag(c *cobra.Command, err error) (string, bool) {
+	old, ok := strings.CutPrefix(err.Error(), "unknown flag: ")
+	if !ok {
+		return "", false
+	}
+	renamed, ok := renamedFlags[c.Name()+" "+old]
+	if !ok {
+		return "", false
+	}
+	return fmt.Sprintf("%s is now called %s", old, renamed), true
+}
 
 // newEncoder returns a JSON encoder that leaves <, > and & as they are
 // (the markers <s>, </s> and <unk> read better unescaped).

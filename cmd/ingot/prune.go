@@ -26,7 +26,7 @@ func newPruneCmd() *cobra.Command {
 		qf        quantizeFlags
 	)
 	cmd := &cobra.Command{
-		Use:   "prune -o OUT (--threshold T | --max-size SIZE) [--heldout TEXT] IN",
+		Use:   "prune -o OUT (--drop-below NATS | --max-size SIZE) [--heldout TEXT] IN",
 		Short: "Shrink a model by relative-entropy pruning",
 		Long: `Remove the n-grams whose removal changes the model least, after Stolcke (1998),
 "Entropy-based pruning of backoff language models". Every n-gram (h, w) of
@@ -40,16 +40,16 @@ fits the budget (bytes, or with a unit: 500KB, 8MiB). With --bits the pruned
 model is also quantized (as 'ingot quantize' does), and the budget applies
 to the quantized file. --heldout reports the perplexity of both models on
 held-out text.`,
-		Example: `  ingot prune --threshold 1e-7 -o small.ingot field.ingot
+		Example: `  ingot prune --drop-below 1e-7 -o small.ingot field.ingot
   ingot prune --max-size 8MiB --heldout dev.txt -o device.ingot field.ingot`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			hasT, hasS := cmd.Flags().Changed("threshold"), maxSize != ""
+			hasT, hasS := cmd.Flags().Changed("drop-below"), maxSize != ""
 			if hasT == hasS {
-				return fmt.Errorf("prune: give exactly one of --threshold and --max-size")
+				return fmt.Errorf("prune: give exactly one of --drop-below and --max-size")
 			}
 			if hasT && !(threshold >= 0) {
-				return fmt.Errorf("prune: --threshold %v must be a number >= 0", threshold)
+				return fmt.Errorf("prune: --drop-below %v must be a number >= 0", threshold)
 			}
 			var budget int64
 			var err error
@@ -111,7 +111,7 @@ held-out text.`,
 	}
 	f := cmd.Flags()
 	f.StringVarP(&out, "output", "o", "", "pruned model file to write (required)")
-	f.Float64Var(&threshold, "threshold", 0, "remove n-grams whose weighted relative entropy is below T nats")
+	f.Float64Var(&threshold, "drop-below", 0, "remove n-grams whose weighted relative entropy is below NATS")
 	f.StringVar(&maxSize, "max-size", "", "prune just enough for the file to fit SIZE (e.g. 500KB, 8MiB)")
 	f.StringVar(&heldout, "heldout", "", "report perplexity of both models on this text")
 	f.BoolVar(&asJSON, "json", false, "print the report as JSON")

@@ -56,7 +56,7 @@ func TestPruneToBudget(t *testing.T) {
 	if _, err := os.Stat(out); err == nil {
 		t.Error("output written although the budget failed")
 	}
-	code, _, e = ingot(t, "prune", "--max-size", "1MB", "--threshold", "1e-6", "-o", out, m)
+	code, _, e = ingot(t, "prune", "--max-size", "1MB", "--drop-below", "1e-6", "-o", out, m)
 	if code != 2 || !strings.Contains(e, "exactly one of") {
 		t.Errorf("exit %d: %s", code, e)
 	}

@@ -12,8 +12,8 @@ import (
 
 // quantizeFlags are the quantization options shared by quantize and prune.
 type quantizeFlags struct {
-	bits, bowBits int
-	trainer       string
+	bits, backoffBits int
+	trainer           string
 }
 
 func (q *quantizeFlags) register(cmd *cobra.Command, required bool) {
@@ -23,8 +23,8 @@ func (q *quantizeFlags) register(cmd *cobra.Command, required bool) {
 		help += "; quantize the result too"
 	}
 	f.IntVar(&q.bits, "bits", 0, help)
-	f.IntVar(&q.bowBits, "bow-bits", 0, "bits per back-off weight index, 2 to 16 (default: --bits, at least 8)")
-	f.StringVar(&q.trainer, "trainer", string(quantize.Optimal), "codebook trainer: optimal (least squared error) or binning (equal population)")
+	f.IntVar(&q.backoffBits, "backoff-bits", 0, "bits per back-off weight index, 2 to 16 (default: --bits, at least 8)")
+	f.StringVar(&q.trainer, "trainer", string(quantize.LeastSquares), "codebook trainer: least-squares (least squared error) or equal-mass (equal weight per level)")
 }
 
 func (q *quantizeFlags) options(cmd string) (quantize.Options, error) {
@@ -32,15 +32,15 @@ func (q *quantizeFlags) options(cmd string) (quantize.Options, error) {
 	if err != nil {
 		return quantize.Options{}, fmt.Errorf("%s: --trainer: %w", cmd, err)
 	}
-	for name, b := range map[string]int{"--bits": q.bits, "--bow-bits": q.bowBits} {
-		if name == "--bow-bits" && b == 0 {
+	for name, b := range map[string]int{"--bits": q.bits, "--backoff-bits": q.backoffBits} {
+		if name == "--backoff-bits" && b == 0 {
 			continue
 		}
 		if b < 2 || b > 16 {
 			return quantize.Options{}, fmt.Errorf("%s: %s %d outside 2..16", cmd, name, b)
 		}
 	}
-	return quantize.Options{Bits: q.bits, BackoffBits: q.bowBits, Trainer: tr}, nil
+	return quantize.Options{Bits: q.bits, BackoffBits: q.backoffBits, Trainer: tr}, nil
 }
 
 func newQuantizeCmd() *cobra.Command {
@@ -51,18 +51,19 @@ func newQuantizeCmd() *cobra.Command {
 		asJSON  bool
 	)
 	cmd := &cobra.Command{
-		Use:   "quantize -o OUT --bits B [--bow-bits B] [--trainer optimal|binning] IN",
+		Use:   "quantize -o OUT --bits B [--backoff-bits B] [--trainer least-squares|equal-mass] IN",
 		Short: "Store log10 probabilities and back-off weights as small codebook indexes",
 		Long: `Quantize a model: per order, a codebook of 2^B log10 probabilities (orders 2
 and up; unigrams stay 32-bit floats) and one of back-off weights, each value
-stored as a B-bit index. The codebooks are trained by optimal one-dimensional
-k-means (Wang & Song 2011: least squared error) or equal-population binning.
+stored as a B-bit index. The codebooks are trained by exact one-dimensional
+k-means (least-squares: Wang & Song 2011, least squared error) or by cutting
+the values into levels of equal weight (equal-mass).
 Back-off weights are recomputed from the quantized probabilities before they
 are quantized themselves, and their rounding is compensated where the
 levels allow, so every context still sums to one within the tolerance that
 'ingot verify' derives from the model (see the README).`,
 		Example: `  ingot quantize --bits 8 -o field-q8.ingot field.ingot
-  ingot quantize --bits 4 --bow-bits 6 --heldout dev.txt -o tiny.ingot field.ingot`,
+  ingot quantize --bits 4 --backoff-bits 6 --heldout dev.txt -o tiny.ingot field.ingot`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opt, err := qf.options("quantize")

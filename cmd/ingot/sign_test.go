@@ -72,11 +72,11 @@ func TestShrunkModelsPassVerify(t *testing.T) {
 	held := filepath.Join(dir, "held.txt")
 	os.WriteFile(held, []byte(demoHeldout), 0o644)
 	steps := map[string][]string{
-		"pruned":             {"prune", "--threshold", "1e-5", "-o", filepath.Join(dir, "p.ingot"), m},
-		"pruned to a budget": {"prune", "--max-size", "15KB", "-o", filepath.Join(dir, "b.ingot"), m},
-		"pruned, 6 bits":     {"prune", "--max-size", "12KB", "--bits", "6", "-o", filepath.Join(dir, "pq.ingot"), m},
-		"quantized binning":  {"quantize", "--bits", "3", "--trainer", "binning", "-o", filepath.Join(dir, "qb.ingot"), m},
-		"quantized 16 bits":  {"quantize", "--bits", "16", "-o", filepath.Join(dir, "q16.ingot"), m},
+		"pruned":               {"prune", "--drop-below", "1e-5", "-o", filepath.Join(dir, "p.ingot"), m},
+		"pruned to a budget":   {"prune", "--max-size", "15KB", "-o", filepath.Join(dir, "b.ingot"), m},
+		"pruned, 6 bits":       {"prune", "--max-size", "12KB", "--bits", "6", "-o", filepath.Join(dir, "pq.ingot"), m},
+		"quantized equal-mass": {"quantize", "--bits", "3", "--trainer", "equal-mass", "-o", filepath.Join(dir, "qb.ingot"), m},
+		"quantized 16 bits":    {"quantize", "--bits", "16", "-o", filepath.Join(dir, "q16.ingot"), m},
 	}
 	outputs := map[string]string{"cut off": cut}
 	for name, args := range steps {

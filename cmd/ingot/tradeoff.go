@@ -25,7 +25,7 @@ func newTradeoffCmd() *cobra.Command {
 		out        string
 	)
 	cmd := &cobra.Command{
-		Use:   "tradeoff --heldout TEXT [--thresholds T,...] [--bits B,...] -o DIR IN",
+		Use:   "tradeoff --heldout TEXT [--drop-below NATS,...] [--bits B,...] -o DIR IN",
 		Short: "Chart file size against held-out perplexity for pruning and quantization settings",
 		Long: `Build, in memory, the model for every pair of a relative-entropy pruning
 threshold and a quantization bit width, and measure its file size and its
@@ -34,12 +34,12 @@ DIR/tradeoff.svg (size against perplexity, one line per bit width), so you can
 see the curve and pick a point for your device. A threshold of 0 means no
 pruning; a bit width of 0 means 32-bit floats.`,
 		Example: `  ingot tradeoff --heldout dev.txt -o chart field.ingot
-  ingot tradeoff --heldout dev.txt --thresholds 0,1e-8,1e-7,1e-6 --bits 0,8,4 -o chart field.ingot`,
+  ingot tradeoff --heldout dev.txt --drop-below 0,1e-8,1e-7,1e-6 --bits 0,8,4 -o chart field.ingot`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			ths, err := parseFloats(thresholds)
 			if err != nil {
-				return fmt.Errorf("tradeoff: --thresholds: %w", err)
+				return fmt.Errorf("tradeoff: --drop-below: %w", err)
 			}
 			bs, err := parseInts(bits)
 			if err != nil {
@@ -97,9 +97,9 @@ pruning; a bit width of 0 means 32-bit floats.`,
 	}
 	f := cmd.Flags()
 	f.StringVar(&heldout, "heldout", "", "held-out text to measure perplexity on (required)")
-	f.StringVar(&thresholds, "thresholds", "0,1e-9,1e-8,1e-7,1e-6,1e-5", "pruning thresholds in nats, comma-separated (0: no pruning)")
+	f.StringVar(&thresholds, "drop-below", "0,1e-9,1e-8,1e-7,1e-6,1e-5", "pruning thresholds in nats, comma-separated: each model drops the n-grams below one (0: no pruning)")
 	f.StringVar(&bits, "bits", "0,8,6,4", "quantization bit widths, comma-separated (0: 32-bit floats)")
-	f.StringVar(&trainer, "trainer", string(quantize.Optimal), "codebook trainer: optimal or binning")
+	f.StringVar(&trainer, "trainer", string(quantize.LeastSquares), "codebook trainer: least-squares or equal-mass")
 	f.StringVarP(&out, "output", "o", "", "directory for tradeoff.csv, tradeoff.json and tradeoff.svg (required)")
 	cmd.MarkFlagRequired("heldout")
 	cmd.MarkFlagRequired("output")

@@ -52,7 +52,7 @@ func BenchmarkShrinkTargets(b *testing.B) {
 					b.Logf("%s %s: perplexity %.3f (base %.3f, %+.2f%%), %d bytes", method, name, ppl, base, 100*(ppl/base-1), size)
 				}
 				for _, bits := range []int{8, 4} {
-					q, _, err := quantize.Model(m, quantize.Options{Bits: bits, Trainer: quantize.Optimal})
+					q, _, err := quantize.Model(m, quantize.Options{Bits: bits, Trainer: quantize.LeastSquares})
 					if err != nil {
 						b.Fatal(err)
 					}

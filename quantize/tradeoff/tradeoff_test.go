@@ -32,7 +32,7 @@ func TestGridIsMonotoneInSize(t *testing.T) {
 	for _, s := range held {
 		heldout = append(heldout, strings.Fields(s))
 	}
-	points, err := Run(m, heldout, Options{Thresholds: []float64{0, 1e-6, 1e-5}, Bits: []int{0, 8}, Trainer: quantize.Optimal})
+	points, err := Run(m, heldout, Options{Thresholds: []float64{0, 1e-6, 1e-5}, Bits: []int{0, 8}, Trainer: quantize.LeastSquares})
 	if err != nil {
 		t.Fatal(err)
 	}
