@@ -17,11 +17,11 @@ type FormatError struct {
 }
 
 func (e *FormatError) Error() string {
-	s := "ingot model"
+	s := fmt.Sprintf("%s at offset %d: %s", e.Section, e.Offset, e.Msg)
 	if e.Path != "" {
-		s += " " + e.Path
+		s = e.Path + ": " + s
 	}
-	return fmt.Sprintf("%s: %s at offset %d: %s", s, e.Section, e.Offset, e.Msg)
+	return s
 }
 
 func formatErr(section string, offset int64, format string, args ...any) *FormatError {

@@ -16,9 +16,9 @@ type FaultError struct {
 }
 
 func (e *FaultError) Error() string {
-	s := "ingot model"
+	s := "model"
 	if e.Path != "" {
-		s += " " + e.Path
+		s = e.Path
 	}
 	return fmt.Sprintf("%s: the file changed while in use (memory fault at %#x): it was truncated or rewritten in place; open it again", s, e.Addr)
 }

@@ -48,12 +48,12 @@ func MapBytes(path string) (data []byte, release func() error, err error) {
 func readBytes(path string, inMemory bool) (data []byte, release func() error, mapped bool, err error) {
 	f, st, err := files.OpenRegular(path)
 	if err != nil {
-		return nil, nil, false, fmt.Errorf("ingot model: %w", err)
+		return nil, nil, false, err
 	}
 	defer f.Close()
 	size := st.Size()
 	if size != int64(int(size)) {
-		return nil, nil, false, fmt.Errorf("ingot model %s: %d bytes do not fit in this machine's address space", path, size)
+		return nil, nil, false, fmt.Errorf("%s: %d bytes do not fit in this machine's address space", path, size)
 	}
 	if !inMemory && size >= headerSize {
 		if data, release, _ := mapFile(f, int(size)); release != nil {
@@ -62,7 +62,7 @@ func readBytes(path string, inMemory bool) (data []byte, release func() error, m
 	}
 	// Asked for, too small to map, or mapping unavailable.
 	if data, err = files.ReadExactly(f, size); err != nil {
-		return nil, nil, false, fmt.Errorf("ingot model: %w", err)
+		return nil, nil, false, fmt.Errorf("reading %s: %w", path, err)
 	}
 	return data, func() error { return nil }, false, nil
 }

@@ -127,6 +127,14 @@ func (m *Model) ContextState(context []uint32) State {
 // gives its stored -Inf; an id outside the vocabulary also scores -Inf and
 // leaves a context that matches nothing.
 func (m *Model) Next(s *State, w uint32) float64 {
+	lp, _ := m.NextMatched(s, w)
+	return lp
+}
+
+// NextMatched is Next that also returns the order of the stored n-gram
+// whose probability was used: 1 for the unigram, up to the model's order,
+// or 0 when w is outside the vocabulary. It allocates nothing either.
+func (m *Model) NextMatched(s *State, w uint32) (logProb float64, matchedOrder int) {
 	var child [tables.MaxOrder]uint32
 	n := m.extensions(s, w, &child)
 	lp := math.Inf(-1)
@@ -134,6 +142,7 @@ func (m *Model) Next(s *State, w uint32) float64 {
 	for j := n; j >= 0; j-- {
 		if c := child[j]; c != noNode {
 			lp = bow + float64(m.LogProbAt(j+1, int(c)))
+			matchedOrder = j + 1
 			break
 		}
 		if j > 0 {
@@ -145,7 +154,7 @@ func (m *Model) Next(s *State, w uint32) float64 {
 	keep := min(n+1, max(m.order-1, 0))
 	copy(s.node[:keep], child[:keep])
 	s.n = keep
-	return lp
+	return lp, matchedOrder
 }
 
 // extensions fills child[j] with the entry of order j+1 that stores the

@@ -96,10 +96,22 @@ func TestNextMatchesTables(t *testing.T) {
 						// Follow a stored continuation of the longest context.
 						w = storedContinuation(rng, m, history, w)
 					}
-					got := m.Next(&s, w)
+					got, order := m.NextMatched(&s, w)
 					history = append(history, w)
 					if want := tb.LogProb(history); !same(got, want) {
 						t.Fatalf("sentence %d: Next(%s) after %s = %v, tables say %v", sentence, tb.Words([]uint32{w}), tb.Words(history[:len(history)-1]), got, want)
+					}
+					// The back-off rule uses the longest stored n-gram
+					// ending in w, of at most the model's order.
+					want := 0
+					for k := min(len(history), tb.Order()); k >= 1; k-- {
+						if tb.Find(history[len(history)-k:]) >= 0 {
+							want = k
+							break
+						}
+					}
+					if order != want {
+						t.Fatalf("sentence %d: %s after %s matched order %d, the longest stored n-gram has order %d", sentence, tb.Words([]uint32{w}), tb.Words(history[:len(history)-1]), order, want)
 					}
 					if want := min(len(history), tb.Order()-1); s.Len() != want {
 						t.Fatalf("state keeps %d words, want %d", s.Len(), want)

@@ -49,7 +49,7 @@ func (m *Model) Close() error {
 	*m = Model{}
 	if release != nil {
 		if err := release(); err != nil {
-			return fmt.Errorf("ingot model: unmapping: %w", err)
+			return fmt.Errorf("unmapping the model: %w", err)
 		}
 	}
 	return nil

@@ -3,7 +3,6 @@ package format
 import (
 	"bytes"
 	"crypto/sha256"
-	"fmt"
 	"math"
 	"unicode/utf8"
 )
@@ -209,9 +208,9 @@ func (m *Model) verifySuffixClosed() error {
 // label names the model in messages that are not FormatErrors.
 func (m *Model) label() string {
 	if m.path == "" {
-		return "ingot model"
+		return "model"
 	}
-	return fmt.Sprintf("ingot model %s", m.path)
+	return m.path
 }
 
 // contentDigest computes the SHA-256 content digest of the sections.

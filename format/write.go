@@ -34,22 +34,22 @@ func Write(w io.Writer, t *tables.Tables) error {
 // writeFile writes an assembled header and its sections with their padding.
 func writeFile(w io.Writer, header []byte, sections []section) error {
 	if _, err := w.Write(header); err != nil {
-		return fmt.Errorf("ingot model: writing header: %w", err)
+		return fmt.Errorf("writing the model header: %w", err)
 	}
 	var pad [sectionAlignment]byte
 	pos := int64(len(header))
 	for _, s := range sections {
 		if _, err := w.Write(pad[:s.Offset-pos]); err != nil {
-			return fmt.Errorf("ingot model: writing padding before %s: %w", s.Name(), err)
+			return fmt.Errorf("writing the model: padding before %s: %w", s.Name(), err)
 		}
 		if _, err := w.Write(s.data); err != nil {
-			return fmt.Errorf("ingot model: writing %s: %w", s.Name(), err)
+			return fmt.Errorf("writing the model: %s: %w", s.Name(), err)
 		}
 		pos = s.Offset + s.Length
 	}
 	if end := align(pos); end > pos {
 		if _, err := w.Write(pad[:end-pos]); err != nil {
-			return fmt.Errorf("ingot model: writing final padding: %w", err)
+			return fmt.Errorf("writing the model: final padding: %w", err)
 		}
 	}
 	return nil
@@ -116,37 +116,37 @@ func assemble(sections []section, version uint32) []byte {
 // checkWritable checks what the file format needs beyond Tables.Check.
 func checkWritable(t *tables.Tables) error {
 	if t == nil {
-		return fmt.Errorf("ingot model: nothing to write: tables are nil")
+		return fmt.Errorf("nothing to write: tables are nil")
 	}
 	if err := t.Check(); err != nil {
-		return fmt.Errorf("ingot model: cannot write: %w", err)
+		return fmt.Errorf("cannot write the model: %w", err)
 	}
 	if uint64(len(t.Vocab)) >= uint64(noNode) {
-		return fmt.Errorf("ingot model: cannot write: vocabulary of %d words exceeds %d", len(t.Vocab), noNode-1)
+		return fmt.Errorf("cannot write the model: vocabulary of %d words exceeds %d", len(t.Vocab), noNode-1)
 	}
 	text := 0
 	for id, w := range t.Vocab {
 		if !utf8.ValidString(w) {
-			return fmt.Errorf("ingot model: cannot write: word id %d (%q) is not valid UTF-8", id, w)
+			return fmt.Errorf("cannot write the model: word id %d (%q) is not valid UTF-8", id, w)
 		}
 		text += len(w)
 	}
 	if uint64(text) > math.MaxUint32 {
-		return fmt.Errorf("ingot model: cannot write: vocabulary text of %d bytes exceeds 4 GiB", text)
+		return fmt.Errorf("cannot write the model: vocabulary text of %d bytes exceeds 4 GiB", text)
 	}
 	for k := 1; k <= t.Order(); k++ {
 		lv := &t.Levels[k-1]
 		if uint64(len(lv.LogProb)) > math.MaxUint32 {
-			return fmt.Errorf("ingot model: cannot write: order %d has %d entries, more than 32-bit offsets address", k, len(lv.LogProb))
+			return fmt.Errorf("cannot write the model: order %d has %d entries, more than 32-bit offsets address", k, len(lv.LogProb))
 		}
 		for i, p := range lv.LogProb {
 			if math.IsNaN(float64(p)) || math.IsInf(float64(p), 1) {
-				return fmt.Errorf("ingot model: cannot write: order %d entry %d (%s) has log10 probability %v", k, i, t.Words(t.Gram(k, i)), p)
+				return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 probability %v", k, i, t.Words(t.Gram(k, i)), p)
 			}
 		}
 		for i, b := range lv.LogBackoff {
 			if math.IsNaN(float64(b)) || math.IsInf(float64(b), 1) {
-				return fmt.Errorf("ingot model: cannot write: order %d entry %d (%s) has log10 back-off %v", k, i, t.Words(t.Gram(k, i)), b)
+				return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 back-off %v", k, i, t.Words(t.Gram(k, i)), b)
 			}
 		}
 		for _, c := range []struct {
@@ -158,18 +158,18 @@ func checkWritable(t *tables.Tables) error {
 				continue
 			}
 			if c.values == nil {
-				return fmt.Errorf("ingot model: cannot write: order %d has a %s codebook but no %s column", k, c.name, c.name)
+				return fmt.Errorf("cannot write the model: order %d has a %s codebook but no %s column", k, c.name, c.name)
 			}
 			if len(c.codebook) > 1<<16 {
-				return fmt.Errorf("ingot model: cannot write: order %d %s codebook has %d values, more than 65536", k, c.name, len(c.codebook))
+				return fmt.Errorf("cannot write the model: order %d %s codebook has %d values, more than 65536", k, c.name, len(c.codebook))
 			}
 			for j := 1; j < len(c.codebook); j++ {
 				if !(c.codebook[j-1] < c.codebook[j]) {
-					return fmt.Errorf("ingot model: cannot write: order %d %s codebook is not strictly ascending at %d", k, c.name, j)
+					return fmt.Errorf("cannot write the model: order %d %s codebook is not strictly ascending at %d", k, c.name, j)
 				}
 			}
 			if _, ok := packIndexes(c.values, c.codebook); !ok {
-				return fmt.Errorf("ingot model: cannot write: order %d holds a %s value outside its codebook", k, c.name)
+				return fmt.Errorf("cannot write the model: order %d holds a %s value outside its codebook", k, c.name)
 			}
 		}
 	}
@@ -184,10 +184,10 @@ func buildSections(t *tables.Tables) ([]section, error) {
 	n := t.Order()
 	info, err := marshalInfo(t.Info)
 	if err != nil {
-		return nil, fmt.Errorf("ingot model: cannot write build info: %w", err)
+		return nil, fmt.Errorf("cannot write the model's build info: %w", err)
 	}
 	if len(info) > MaxBuildInfo {
-		return nil, fmt.Errorf("ingot model: cannot write: build info of %d bytes exceeds %d (too many history lines or options?)", len(info), MaxBuildInfo)
+		return nil, fmt.Errorf("cannot write the model: build info of %d bytes exceeds %d (too many history lines or options?)", len(info), MaxBuildInfo)
 	}
 	starts, text := vocabularyBytes(t.Vocab)
 	out := []section{

@@ -20,7 +20,7 @@ type badInputCase struct {
 var badInputTable = []badInputCase{
 	{"unknown command", []string{"frobnicate"}, `unknown command "frobnicate"`},
 	{"unknown flag", []string{"count", "--order", "2", "--colour"}, "unknown flag: --colour"},
-	{"missing required flag", []string{"count", "$D/train.txt"}, `required flag(s) "order" not set`},
+	{"missing required flag", []string{"count", "$D/train.txt"}, "--order is required"},
 	{"order 0", []string{"count", "--order", "0", "-o", "$D/out", "$D/train.txt"}, "order 0 outside 1..10"},
 	{"order above the maximum", []string{"count", "--order", "11", "-o", "$D/out", "$D/train.txt"}, "order 11 outside 1..10"},
 	{"missing text file", []string{"count", "--order", "2", "-o", "$D/out", "$D/absent.txt"}, "absent.txt: no such file or directory"},

@@ -16,13 +16,14 @@ import (
 func newExplainCmd() *cobra.Command {
 	var asJSON bool
 	cmd := &cobra.Command{
-		Use:   `explain [--json] MODEL "w1 ... wn"`,
+		Use:   `explain [--json] MODEL w1 ... wn`,
 		Short: "Show how P(wn | w1 ... wn-1) was computed",
 		Long: `Show how the model computes P(wn | w1 ... wn-1): the longest stored n-gram
 that matched and its stored log10 probability, each back-off weight applied
 on the way down with the context it belongs to, and the final log10 and
 probability. Start the words with <s> to ask about the start of a sentence.
-A word outside the vocabulary is looked up as <unk>.
+A word outside the vocabulary is looked up as <unk>. The words may be given
+as separate arguments or as one quoted argument.
 
 In a quantized model, each quantized value (the matched probability, each
 back-off weight) also shows the codebook index the file stores and the
@@ -31,11 +32,12 @@ rounding is not kept in the file. With --json such a value has a
 "quantization" object: "codebook_index", "codebook_levels",
 "quantized_log10" and "max_rounding_error_recorded" (null when none is
 recorded).`,
-		Example: `  ingot explain field.ingot "<s> turn the beacon"
-  ingot explain --json field.ingot "the beacon on"`,
-		Args: cobra.ExactArgs(2),
+		Example: `  ingot explain field.ingot the beacon on
+  ingot explain field.ingot "<s> turn the beacon"
+  ingot explain --json field.ingot the beacon on`,
+		Args: cobra.MinimumNArgs(2),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			words := strings.Fields(args[1])
+			words := strings.Fields(strings.Join(args[1:], " "))
 			if len(words) == 0 {
 				return fmt.Errorf("explain: no words given")
 			}
@@ -77,7 +79,7 @@ func join(m *format.Model, ids []uint32) string {
 
 type backoffJSON struct {
 	Context      string                `json:"context"`
-	Log10Weight  jsonNumber            `json:"log10_weight"`
+	Log10Weight  inspect.Number        `json:"log10_weight"`
 	Quantization *explainQuantizedJSON `json:"quantization,omitempty"`
 }
 
@@ -86,10 +88,10 @@ type backoffJSON struct {
 // not kept in the file; the build information records, per order, the
 // largest rounding error (null when it records none).
 type explainQuantizedJSON struct {
-	CodebookIndex  int        `json:"codebook_index"`
-	CodebookLevels int        `json:"codebook_levels"`
-	QuantizedLog10 jsonNumber `json:"quantized_log10"`
-	MaxError       *float64   `json:"max_rounding_error_recorded"`
+	CodebookIndex  int            `json:"codebook_index"`
+	CodebookLevels int            `json:"codebook_levels"`
+	QuantizedLog10 inspect.Number `json:"quantized_log10"`
+	MaxError       *float64       `json:"max_rounding_error_recorded"`
 }
 
 // explainQuantized describes entry i of order k's probability (backoff false) or
@@ -100,9 +102,9 @@ func explainQuantized(m *format.Model, k, i int, backoff bool) *explainQuantized
 		return nil
 	}
 	cb := m.Codebook(k, backoff)
-	q := &explainQuantizedJSON{CodebookIndex: idx, CodebookLevels: len(cb), QuantizedLog10: jsonNumber(math.NaN())}
+	q := &explainQuantizedJSON{CodebookIndex: idx, CodebookLevels: len(cb), QuantizedLog10: inspect.Number(math.NaN())}
 	if idx < len(cb) {
-		q.QuantizedLog10 = jsonNumber(cb[idx])
+		q.QuantizedLog10 = inspect.Number(cb[idx])
 	}
 	if e, ok := inspect.RecordedMaxError(m.Info(), k, backoff); ok {
 		q.MaxError = &e
@@ -154,15 +156,15 @@ func printExplanation(w io.Writer, m *format.Model, ex format.Explanation, unkno
 			Unknown      []string              `json:"unknown_words,omitempty"`
 			MatchedOrder int                   `json:"matched_order"`
 			MatchedNGram string                `json:"matched_ngram"`
-			StoredLog10  jsonNumber            `json:"stored_log10"`
+			StoredLog10  inspect.Number        `json:"stored_log10"`
 			Backoffs     []backoffJSON         `json:"backoffs"`
-			Log10        jsonNumber            `json:"log10"`
-			Probability  jsonNumber            `json:"probability"`
+			Log10        inspect.Number        `json:"log10"`
+			Probability  inspect.Number        `json:"probability"`
 			Quantization *explainQuantizedJSON `json:"quantization,omitempty"`
-		}{join(m, ex.Context), word, unknown, ex.MatchedOrder, matched, jsonNumber(ex.StoredLogProb),
-			[]backoffJSON{}, jsonNumber(ex.LogProb), jsonNumber(math.Pow(10, ex.LogProb)), matchedQ}
+		}{join(m, ex.Context), word, unknown, ex.MatchedOrder, matched, inspect.Number(ex.StoredLogProb),
+			[]backoffJSON{}, inspect.Number(ex.LogProb), inspect.Number(math.Pow(10, ex.LogProb)), matchedQ}
 		for j, b := range ex.Backoffs {
-			v.Backoffs = append(v.Backoffs, backoffJSON{join(m, b.Context), jsonNumber(b.LogBackoff), backoffQ[j]})
+			v.Backoffs = append(v.Backoffs, backoffJSON{join(m, b.Context), inspect.Number(b.LogBackoff), backoffQ[j]})
 		}
 		return encodeIndented(w, v)
 	}

@@ -466,7 +466,7 @@ func TestInspectBadUsage(t *testing.T) {
 		{[]string{"--dump", "--order", "4", m}, "--order 4 outside the model's orders 1..3"},
 		{[]string{"--dump", "--prefix", "turn zebra", m}, `--prefix: prefix word "zebra" is not in the vocabulary`},
 		{[]string{filepath.Join(dir, "missing.ingot")}, "missing.ingot"},
-		{[]string{m, m}, "accepts 1 arg(s)"},
+		{[]string{m, m}, "argument(s) given; usage: ingot "},
 	} {
 		code, out, e := ingot(t, append([]string{"inspect"}, tc.args...)...)
 		if code != 2 || !strings.Contains(e, tc.want) || strings.Count(e, "\n") != 1 || out != "" {

@@ -13,7 +13,6 @@ import (
 	"io"
 	"os"
 	"runtime/debug"
-	"strings"
 
 	"github.com/spf13/cobra"
 
@@ -69,11 +68,18 @@ func runContext(ctx context.Context, args []string, stdout, stderr io.Writer) (c
 	}()
 	root := newRoot(stdout, stderr)
 	root.SetArgs(args)
-	err := format.Guard(func() error { return root.ExecuteContext(ctx) })
+	var cmd *cobra.Command
+	err := format.Guard(func() (err error) {
+		cmd, err = root.ExecuteContextC(ctx)
+		return err
+	})
 	if err == nil {
 		return exitOK
 	}
-	fmt.Fprintf(stderr, "ingot: %v\n", err)
+	if cmd == nil { // the command was stopped by a fault in a mapped file
+		cmd, _, _ = root.Find(args)
+	}
+	fmt.Fprintln(stderr, errorLine(root, cmd, err))
 	var cf checkFailed
 	if errors.As(err, &cf) {
 		return exitCheckFailed
@@ -99,9 +105,9 @@ internal error (a bug), 134 (SIGABRT) a fatal runtime error.`,
 	root.SetErr(stderr)
 	root.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
 		if msg, ok := renamedFlag(c, err); ok {
-			return fmt.Errorf("%s: %s", c.Name(), msg)
+			return errors.New(msg)
 		}
-		return fmt.Errorf("%s: %w (see 'ingot %s --help')", c.Name(), err, c.Name())
+		return fmt.Errorf("%w (see '%s --help')", err, c.CommandPath())
 	})
 	root.AddCommand(
 		newCountCmd(),
@@ -119,34 +125,13 @@ internal error (a bug), 134 (SIGABRT) a fatal runtime error.`,
 		newDemoCmd(),
 	)
 	root.AddCommand(testCommands...)
+	inOurVoice(root)
 	return root
 }
 
 // testCommands are added to the root by tests (a command that panics, to
 // check the exit code of a bug); empty in the program.
 var testCommands []*cobra.Command
-
-// renamedFlags maps "COMMAND --old" to the flag's name since version 0.2,
-// so that a script using an old spelling fails with a pointer to the new.
-var renamedFlags = map[string]string{
-	"prune --threshold":     "--drop-below",
-	"tradeoff --thresholds": "--drop-below",
-	"quantize --bow-bits":   "--backoff-bits",
-	"prune --bow-bits":      "--backoff-bits",
-}
-
-// renamedFlag returns the message for an unknown flag that was renamed.
-func renamedFlag(c *cobra.Command, err error) (string, bool) {
-	old, ok := strings.CutPrefix(err.Error(), "unknown flag: ")
-	if !ok {
-		return "", false
-	}
-	renamed, ok := renamedFlags[c.Name()+" "+old]
-	if !ok {
-		return "", false
-	}
-	return fmt.Sprintf("%s is now called %s", old, renamed), true
-}
 
 // newEncoder returns a JSON encoder that leaves <, > and & as they are
 // (the markers <s>, </s> and <unk> read better unescaped).

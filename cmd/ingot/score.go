@@ -2,10 +2,8 @@ package main
 
 import (
 	"bufio"
-	"encoding/json"
 	"fmt"
 	"io"
-	"math"
 	"strings"
 
 	"github.com/spf13/cobra"
@@ -13,12 +11,13 @@ import (
 	"ingot/compile/input"
 	"ingot/format"
 	"ingot/format/score"
+	"ingot/inspect"
 )
 
 func newScoreCmd() *cobra.Command {
-	var asJSON bool
+	var asJSON, summaryOnly bool
 	cmd := &cobra.Command{
-		Use:   "score [--json] MODEL [TEXT...]",
+		Use:   "score [--json] [--summary-only] MODEL [TEXT...]",
 		Short: "Score text: log10 probability and perplexity per sentence",
 		Long: `Score text with a model, one sentence per line. Each sentence is scored as
 the predictions of its words and </s>, starting from <s>; a word outside the
@@ -26,9 +25,13 @@ vocabulary is scored as <unk>. Prints, per sentence, the sum of log10
 probabilities and the perplexity with and without the predictions of <unk>,
 then a summary. Reads standard input when no TEXT is given.
 
-With --json: one JSON object per sentence ("tokens", "log10", ...), then a
-summary object ("perplexity", ...).`,
+With --json: one JSON object per sentence ("tokens", "log10",
+"matched_order", ...), then a summary object ("perplexity", ...).
+"matched_order" gives, per token, the order of the stored n-gram whose
+probability was used: 1 for a unigram, 0 for a word outside the vocabulary.
+--summary-only prints the summary alone.`,
 		Example: `  ingot score field.ingot heldout.txt
+  ingot score --summary-only field.ingot heldout.txt
   echo "turn the beacon on" | ingot score --json field.ingot`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -45,7 +48,7 @@ summary object ("perplexity", ...).`,
 			defer w.Flush()
 			var all score.Summary
 			for _, name := range texts {
-				sum, err := scoreFile(w, m, name, asJSON)
+				sum, err := scoreFile(w, m, name, asJSON, summaryOnly)
 				if err != nil {
 					return err
 				}
@@ -55,10 +58,11 @@ summary object ("perplexity", ...).`,
 				all.Sum += sum.Sum
 				all.UnkSum += sum.UnkSum
 			}
-			return printSummary(w, &all, asJSON)
+			return printSummary(w, args[0], &all, asJSON)
 		},
 	}
 	cmd.Flags().BoolVar(&asJSON, "json", false, "print JSON Lines: one object per sentence, then a summary")
+	cmd.Flags().BoolVar(&summaryOnly, "summary-only", false, "print only the summary, not every sentence")
 	return cmd
 }
 
@@ -67,37 +71,27 @@ func openModel(path string) (*format.Model, error) {
 	return format.Open(path)
 }
 
-// jsonNumber renders a float for JSON; infinities and NaN become null.
-type jsonNumber float64
-
-func (f jsonNumber) MarshalJSON() ([]byte, error) {
-	v := float64(f)
-	if math.IsInf(v, 0) || math.IsNaN(v) {
-		return []byte("null"), nil
-	}
-	return json.Marshal(v)
-}
-
-func numbers(xs []float64) []jsonNumber {
-	out := make([]jsonNumber, len(xs))
+func numbers(xs []float64) []inspect.Number {
+	out := make([]inspect.Number, len(xs))
 	for i, x := range xs {
-		out[i] = jsonNumber(x)
+		out[i] = inspect.Number(x)
 	}
 	return out
 }
 
 type sentenceJSON struct {
-	File                    string       `json:"file"`
-	Line                    int          `json:"line"`
-	Tokens                  []string     `json:"tokens"`
-	Log10                   []jsonNumber `json:"log10"`
-	SumLog10                jsonNumber   `json:"sum_log10"`
-	UnkPredictions          int          `json:"unk_predictions"`
-	SentencePerplexity      jsonNumber   `json:"sentence_perplexity"`
-	SentencePerplexityNoUnk jsonNumber   `json:"sentence_perplexity_without_unk"`
+	File                    string           `json:"file"`
+	Line                    int              `json:"line"`
+	Tokens                  []string         `json:"tokens"`
+	Log10                   []inspect.Number `json:"log10"`
+	MatchedOrder            []int            `json:"matched_order"`
+	SumLog10                inspect.Number   `json:"sum_log10"`
+	UnkPredictions          int              `json:"unk_predictions"`
+	SentencePerplexity      inspect.Number   `json:"sentence_perplexity"`
+	SentencePerplexityNoUnk inspect.Number   `json:"sentence_perplexity_without_unk"`
 }
 
-func scoreFile(w io.Writer, m *format.Model, name string, asJSON bool) (score.Summary, error) {
+func scoreFile(w io.Writer, m *format.Model, name string, asJSON, summaryOnly bool) (score.Summary, error) {
 	r, err := input.Open(name)
 	if err != nil {
 		return score.Summary{}, fmt.Errorf("score: %w", err)
@@ -109,12 +103,15 @@ func scoreFile(w io.Writer, m *format.Model, name string, asJSON bool) (score.Su
 	}
 	enc := newEncoder(w)
 	return score.Text(m, shown, r, func(s *score.Sentence) error {
+		if summaryOnly {
+			return nil
+		}
 		if asJSON {
 			return enc.Encode(sentenceJSON{
-				File: shown, Line: s.Line, Tokens: s.Tokens, Log10: numbers(s.Log10),
-				SumLog10: jsonNumber(s.Sum), UnkPredictions: s.Unk,
-				SentencePerplexity:      jsonNumber(s.Perplexity()),
-				SentencePerplexityNoUnk: jsonNumber(s.PerplexityWithoutUnknown()),
+				File: shown, Line: s.Line, Tokens: s.Tokens, Log10: numbers(s.Log10), MatchedOrder: s.MatchedOrder,
+				SumLog10: inspect.Number(s.Sum), UnkPredictions: s.Unk,
+				SentencePerplexity:      inspect.Number(s.Perplexity()),
+				SentencePerplexityNoUnk: inspect.Number(s.PerplexityWithoutUnknown()),
 			})
 		}
 		_, err := fmt.Fprintf(w, "%s:%d\tlog10 %.4f\tperplexity %.3f\twithout <unk> %.3f\t%s\n",
@@ -123,20 +120,32 @@ func scoreFile(w io.Writer, m *format.Model, name string, asJSON bool) (score.Su
 	})
 }
 
-func printSummary(w io.Writer, s *score.Summary, asJSON bool) error {
+func printSummary(w io.Writer, model string, s *score.Summary, asJSON bool) error {
 	if asJSON {
 		return newEncoder(w).Encode(struct {
-			Summary         bool       `json:"summary"`
-			Sentences       int        `json:"sentences"`
-			Predictions     int        `json:"predictions"`
-			UnkPredictions  int        `json:"unk_predictions"`
-			SumLog10        jsonNumber `json:"sum_log10"`
-			Perplexity      jsonNumber `json:"perplexity"`
-			PerplexityNoUnk jsonNumber `json:"perplexity_without_unk"`
-		}{true, s.Sentences, s.Predictions, s.Unk, jsonNumber(s.Sum),
-			jsonNumber(s.Perplexity()), jsonNumber(s.PerplexityWithoutUnknown())})
+			Summary         bool           `json:"summary"`
+			Model           string         `json:"model"`
+			Sentences       int            `json:"sentences"`
+			Predictions     int            `json:"predictions"`
+			UnkPredictions  int            `json:"unk_predictions"`
+			SumLog10        inspect.Number `json:"sum_log10"`
+			Perplexity      inspect.Number `json:"perplexity"`
+			PerplexityNoUnk inspect.Number `json:"perplexity_without_unk"`
+		}{true, model, s.Sentences, s.Predictions, s.Unk, inspect.Number(s.Sum),
+			inspect.Number(s.Perplexity()), inspect.Number(s.PerplexityWithoutUnknown())})
 	}
-	_, err := fmt.Fprintf(w, "sentences %d, predictions %d (%d of <unk>), sum log10 %.4f, perplexity %.3f, without <unk> %.3f\n",
-		s.Sentences, s.Predictions, s.Unk, s.Sum, s.Perplexity(), s.PerplexityWithoutUnknown())
-	return err
+	rows := [][2]string{
+		{"model", model},
+		{"sentences", fmt.Sprint(s.Sentences)},
+		{"predictions", fmt.Sprintf("%d, of which %d of <unk>", s.Predictions, s.Unk)},
+		{"sum of log10", fmt.Sprintf("%.4f", s.Sum)},
+		{"perplexity", fmt.Sprintf("%.3f", s.Perplexity())},
+		{"  without <unk>", fmt.Sprintf("%.3f", s.PerplexityWithoutUnknown())},
+	}
+	for _, r := range rows {
+		if _, err := fmt.Fprintf(w, "%-16s%s\n", r[0], r[1]); err != nil {
+			return err
+		}
+	}
+	return nil
 }

@@ -14,6 +14,7 @@ import (
 
 	"ingot/compile/input"
 	"ingot/format"
+	"ingot/inspect"
 	"ingot/verify"
 	"ingot/verify/gate"
 )
@@ -351,15 +352,15 @@ type checkJSON struct {
 }
 
 type worstJSON struct {
-	Context      string     `json:"context"`
-	Sum          jsonNumber `json:"sum"`
-	AbsDeviation jsonNumber `json:"abs_deviation"`
+	Context      string         `json:"context"`
+	Sum          inspect.Number `json:"sum"`
+	AbsDeviation inspect.Number `json:"abs_deviation"`
 }
 
 type bucketJSON struct {
-	From     float64     `json:"from"`
-	To       *jsonNumber `json:"to"`
-	Contexts int         `json:"contexts"`
+	From     float64         `json:"from"`
+	To       *inspect.Number `json:"to"`
+	Contexts int             `json:"contexts"`
 }
 
 type orderDiffJSON struct {
@@ -374,20 +375,20 @@ type gateJSON struct {
 	Heldout                       string          `json:"heldout"`
 	Sentences                     int             `json:"sentences"`
 	Predictions                   int             `json:"predictions"`
-	CandidatePerplexity           jsonNumber      `json:"candidate_perplexity"`
-	BaselinePerplexity            jsonNumber      `json:"baseline_perplexity"`
-	CandidatePerplexityWithoutUnk jsonNumber      `json:"candidate_perplexity_without_unk"`
-	BaselinePerplexityWithoutUnk  jsonNumber      `json:"baseline_perplexity_without_unk"`
+	CandidatePerplexity           inspect.Number  `json:"candidate_perplexity"`
+	BaselinePerplexity            inspect.Number  `json:"baseline_perplexity"`
+	CandidatePerplexityWithoutUnk inspect.Number  `json:"candidate_perplexity_without_unk"`
+	BaselinePerplexityWithoutUnk  inspect.Number  `json:"baseline_perplexity_without_unk"`
 	CandidateUnkPredictions       int             `json:"candidate_unk_predictions"`
 	BaselineUnkPredictions        int             `json:"baseline_unk_predictions"`
-	IncreasePercent               jsonNumber      `json:"perplexity_increase_percent"`
-	MaxIncreasePercent            jsonNumber      `json:"max_perplexity_increase_percent"`
+	IncreasePercent               inspect.Number  `json:"perplexity_increase_percent"`
+	MaxIncreasePercent            inspect.Number  `json:"max_perplexity_increase_percent"`
 	Passed                        bool            `json:"passed"`
 	NGramsAdded                   int             `json:"ngrams_added"`
 	NGramsRemoved                 int             `json:"ngrams_removed"`
 	NGramsChanged                 int             `json:"ngrams_changed"`
 	NGramsByOrder                 []orderDiffJSON `json:"ngrams_by_order"`
-	MeanKLNats                    jsonNumber      `json:"mean_kl_nats"`
+	MeanKLNats                    inspect.Number  `json:"mean_kl_nats"`
 	KLDirection                   string          `json:"kl_direction"`
 	KLEvents                      int             `json:"kl_events"`
 }
@@ -396,25 +397,25 @@ type gateJSON struct {
 // "Verifying a model" for the keys.
 func printVerifyJSON(w io.Writer, model string, rep *verify.Report, res *gate.Result, f *verifyFlags) error {
 	v := struct {
-		Model              string       `json:"model"`
-		OK                 bool         `json:"ok"`
-		Failed             []string     `json:"failed"`
-		Checks             []checkJSON  `json:"checks"`
-		FormatVersion      int          `json:"format_version"`
-		Order              int          `json:"order"`
-		VocabularySize     int          `json:"vocabulary_size"`
-		NGramsPerOrder     []int        `json:"ngrams_per_order"`
-		ContextsChecked    int          `json:"contexts_checked"`
-		MaxAbsDeviation    jsonNumber   `json:"max_abs_deviation"`
-		Tolerance          jsonNumber   `json:"tolerance"`
-		OverTolerance      int          `json:"contexts_over_tolerance"`
-		WorstContexts      []worstJSON  `json:"worst_contexts"`
-		DeviationHistogram []bucketJSON `json:"deviation_histogram"`
-		ReleaseGate        *gateJSON    `json:"release_gate,omitempty"`
+		Model              string         `json:"model"`
+		OK                 bool           `json:"ok"`
+		Failed             []string       `json:"failed"`
+		Checks             []checkJSON    `json:"checks"`
+		FormatVersion      int            `json:"format_version"`
+		Order              int            `json:"order"`
+		VocabularySize     int            `json:"vocabulary_size"`
+		NGramsPerOrder     []int          `json:"ngrams_per_order"`
+		ContextsChecked    int            `json:"contexts_checked"`
+		MaxAbsDeviation    inspect.Number `json:"max_abs_deviation"`
+		Tolerance          inspect.Number `json:"tolerance"`
+		OverTolerance      int            `json:"contexts_over_tolerance"`
+		WorstContexts      []worstJSON    `json:"worst_contexts"`
+		DeviationHistogram []bucketJSON   `json:"deviation_histogram"`
+		ReleaseGate        *gateJSON      `json:"release_gate,omitempty"`
 	}{
 		Model: model, OK: rep.OK(), Failed: rep.Failed(),
 		FormatVersion: rep.Version, Order: rep.Order, VocabularySize: rep.VocabSize, NGramsPerOrder: rep.Counts,
-		MaxAbsDeviation: jsonNumber(math.NaN()), Tolerance: jsonNumber(f.tolerance),
+		MaxAbsDeviation: inspect.Number(math.NaN()), Tolerance: inspect.Number(f.tolerance),
 		WorstContexts: []worstJSON{}, DeviationHistogram: []bucketJSON{},
 	}
 	if v.Failed == nil {
@@ -424,7 +425,7 @@ func printVerifyJSON(w io.Writer, model string, rep *verify.Report, res *gate.Re
 		v.NGramsPerOrder = []int{}
 	}
 	if f.tolerance == 0 {
-		v.Tolerance = jsonNumber(math.NaN())
+		v.Tolerance = inspect.Number(math.NaN())
 	}
 	for _, c := range rep.Checks {
 		cj := checkJSON{Name: c.Name, Status: string(c.Status), Detail: c.Detail, ProblemCount: c.Count}
@@ -435,17 +436,17 @@ func printVerifyJSON(w io.Writer, model string, rep *verify.Report, res *gate.Re
 	}
 	if n := rep.Normalisation; n != nil {
 		v.ContextsChecked = n.Contexts
-		v.MaxAbsDeviation = jsonNumber(n.MaxDeviation)
-		v.Tolerance = jsonNumber(n.Tolerance)
+		v.MaxAbsDeviation = inspect.Number(n.MaxDeviation)
+		v.Tolerance = inspect.Number(n.Tolerance)
 		v.OverTolerance = n.Exceeding
 		for _, c := range n.Worst {
-			v.WorstContexts = append(v.WorstContexts, worstJSON{strings.Join(c.Context, " "), jsonNumber(c.Sum), jsonNumber(c.Deviation())})
+			v.WorstContexts = append(v.WorstContexts, worstJSON{strings.Join(c.Context, " "), inspect.Number(c.Sum), inspect.Number(c.Deviation())})
 		}
 		for b, count := range n.Histogram {
 			lower, upper := verify.BucketBounds(b)
 			bj := bucketJSON{From: lower, Contexts: count}
 			if !math.IsInf(upper, 1) {
-				u := jsonNumber(upper)
+				u := inspect.Number(upper)
 				bj.To = &u
 			}
 			v.DeviationHistogram = append(v.DeviationHistogram, bj)
@@ -455,17 +456,17 @@ func printVerifyJSON(w io.Writer, model string, rep *verify.Report, res *gate.Re
 		g := &gateJSON{
 			Baseline: f.baseline, Heldout: f.heldout,
 			Sentences: res.Sentences, Predictions: res.Predictions,
-			CandidatePerplexity:           jsonNumber(res.Candidate.Perplexity),
-			BaselinePerplexity:            jsonNumber(res.Baseline.Perplexity),
-			CandidatePerplexityWithoutUnk: jsonNumber(res.Candidate.PerplexityWithoutUnknown),
-			BaselinePerplexityWithoutUnk:  jsonNumber(res.Baseline.PerplexityWithoutUnknown),
+			CandidatePerplexity:           inspect.Number(res.Candidate.Perplexity),
+			BaselinePerplexity:            inspect.Number(res.Baseline.Perplexity),
+			CandidatePerplexityWithoutUnk: inspect.Number(res.Candidate.PerplexityWithoutUnknown),
+			BaselinePerplexityWithoutUnk:  inspect.Number(res.Baseline.PerplexityWithoutUnknown),
 			CandidateUnkPredictions:       res.Candidate.UnknownPredictions,
 			BaselineUnkPredictions:        res.Baseline.UnknownPredictions,
-			IncreasePercent:               jsonNumber(res.IncreasePercent),
-			MaxIncreasePercent:            jsonNumber(f.maxIncrease),
+			IncreasePercent:               inspect.Number(res.IncreasePercent),
+			MaxIncreasePercent:            inspect.Number(f.maxIncrease),
 			Passed:                        res.Passes(f.maxIncrease),
 			NGramsAdded:                   res.Added, NGramsRemoved: res.Removed, NGramsChanged: res.Changed,
-			MeanKLNats:  jsonNumber(res.MeanKL),
+			MeanKLNats:  inspect.Number(res.MeanKL),
 			KLDirection: "KL(baseline || candidate)",
 			KLEvents:    res.Events,
 		}

@@ -114,7 +114,7 @@ func TestVerifyBadUsageExitsTwo(t *testing.T) {
 	}{
 		{[]string{"verify", filepath.Join(dir, "missing.ingot")}, "missing.ingot"},
 		{[]string{"verify", text}, "not a readable ingot model"},
-		{[]string{"verify"}, "accepts 1 arg(s)"},
+		{[]string{"verify"}, "argument(s) given; usage: ingot "},
 		{[]string{"verify", "--tolerance", "-1", good}, "--tolerance -1 must be a number above 0"},
 		{[]string{"verify", "--baseline", good, good}, "needs both --baseline and --heldout"},
 		{[]string{"verify", "--max-ppl-increase", "2", good}, "--max-ppl-increase needs --baseline"},

@@ -22,9 +22,13 @@ type Sentence struct {
 	Line   int       // line number in the input
 	Tokens []string  // predicted tokens, </s> last; unknown words as <unk>
 	Log10  []float64 // log10 probability of each prediction
-	Sum    float64   // sum of Log10
-	Unk    int       // predictions of <unk>
-	UnkSum float64   // sum of log10 over the predictions of <unk>
+	// MatchedOrder is, for each prediction, the order of the stored n-gram
+	// whose probability was used (1 for the unigram), or 0 for a word
+	// outside the vocabulary (scored as <unk>).
+	MatchedOrder []int
+	Sum          float64 // sum of Log10
+	Unk          int     // predictions of <unk>
+	UnkSum       float64 // sum of log10 over the predictions of <unk>
 }
 
 // Perplexity of the sentence over all its predictions.
@@ -83,14 +87,18 @@ func NewScorer(m *format.Model) *Scorer { return &Scorer{m: m} }
 func (sc *Scorer) Score(tokens []string) *Sentence {
 	m := sc.m
 	s := &sc.s
-	s.Tokens, s.Log10 = s.Tokens[:0], s.Log10[:0]
+	s.Tokens, s.Log10, s.MatchedOrder = s.Tokens[:0], s.Log10[:0], s.MatchedOrder[:0]
 	s.Sum, s.Unk, s.UnkSum = 0, 0, 0
 	unk, start := m.UnknownID(), m.StartID()
 	st := m.StartState()
-	predict := func(tok string, id uint32) {
-		lp := m.Next(&st, id)
+	predict := func(tok string, id uint32, known bool) {
+		lp, order := m.NextMatched(&st, id)
+		if !known {
+			order = 0
+		}
 		s.Tokens = append(s.Tokens, tok)
 		s.Log10 = append(s.Log10, lp)
+		s.MatchedOrder = append(s.MatchedOrder, order)
 		s.Sum += lp
 		if id == unk {
 			s.Unk++
@@ -100,11 +108,11 @@ func (sc *Scorer) Score(tokens []string) *Sentence {
 	for _, tok := range tokens {
 		id, ok := m.ID(tok)
 		if !ok || id == start {
-			id, tok = unk, tables.Unknown
+			id, tok, ok = unk, tables.Unknown, false
 		}
-		predict(tok, id)
+		predict(tok, id, ok)
 	}
-	predict(tables.SentenceEnd, m.EndID())
+	predict(tables.SentenceEnd, m.EndID(), true)
 	return s
 }
 

@@ -1,6 +1,7 @@
 package score
 
 import (
+	"fmt"
 	"math"
 	"strings"
 	"testing"
@@ -57,5 +58,37 @@ func TestScorerTokens(t *testing.T) {
 	}
 	if s.Unk != 2 || math.Abs(s.Sum-(-0.3-1-1-0.5)) > 1e-6 {
 		t.Errorf("unk %d, sum %v", s.Unk, s.Sum)
+	}
+}
+
+// The matched order of each prediction follows the back-off rule of package
+// tables: the longest stored n-gram ending in the word, 0 for a word outside
+// the vocabulary (worked by hand on a bigram model that stores "<s> a" and
+// "a </s>").
+func TestScorerMatchedOrder(t *testing.T) {
+	// ids: </s> 0, <s> 1, <unk> 2, a 3
+	vocab := []string{"</s>", "<s>", "<unk>", "a"}
+	tb := &tables.Tables{Vocab: vocab, Levels: []tables.Level{
+		{Words: []uint32{0, 1, 2, 3}, LogProb: []float32{-0.5, tables.NoProb, -1, -0.3}, LogBackoff: []float32{0, -0.2, 0, -0.1}},
+		{Words: []uint32{1, 3, 3, 0}, LogProb: []float32{-0.05, -0.02}},
+	}}
+	data, err := format.Marshal(tb)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m, err := format.FromBytes(data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := NewScorer(m).Score([]string{"a", "zebra", "a", "<unk>"})
+	// a|<s>: stored bigram; zebra: outside; a|<unk>: unigram; <unk>|a:
+	// unigram (in the vocabulary, so its order is given); </s>|<unk>: unigram.
+	want := []int{2, 0, 1, 1, 1}
+	if fmt.Sprint(s.MatchedOrder) != fmt.Sprint(want) {
+		t.Errorf("matched orders %v, want %v (tokens %v)", s.MatchedOrder, want, s.Tokens)
+	}
+	s = NewScorer(m).Score([]string{"a"})
+	if fmt.Sprint(s.MatchedOrder) != "[2 2]" {
+		t.Errorf("\"a\": matched orders %v, want [2 2]", s.MatchedOrder)
 	}
 }

@@ -1,0 +1,63 @@
+package main
+
+import (
+	"strings"
+	"testing"
+)
+
+// stutter returns a one-word prefix that a line repeats ("quantize" in
+// "ingot: quantize: --trainer: quantize: ..."), or "".
+func stutter(line string) string {
+	seen := map[string]bool{}
+	for _, seg := range strings.Split(line, ": ") {
+		if strings.ContainsAny(seg, " \t") {
+			continue
+		}
+		if seen[seg] {
+			return seg
+		}
+		seen[seg] = true
+	}
+	return ""
+}
+
+// Every refusal of the bad-input table, and the framework's own refusals,
+// read "ingot: COMMAND: what and where", with no prefix repeated.
+func TestErrorsSpeakWithOneVoice(t *testing.T) {
+	dir := t.TempDir()
+	model := demoModel(t, dir)
+	cases := [][]string{
+		{"count", "$D/train.txt"},         // missing required flag
+		{"explain", "$M"},                 // too few arguments
+		{"keygen", "-o", "$D/k", "extra"}, // too many arguments
+		{"inspect", "--colour", "$M"},     // unknown flag
+		{"quantize", "--bits", "8", "--trainer", "guess", "-o", "$D/out", "$M"},
+		{"score", "$D/absent.ingot"},
+		{"tradeoff", "$M"},
+	}
+	for _, tc := range badInputTable {
+		cases = append(cases, tc.args)
+	}
+	for _, args := range cases {
+		for i, a := range args {
+			args[i] = strings.ReplaceAll(strings.ReplaceAll(a, "$D", dir), "$M", model)
+		}
+		_, _, stderr := ingot(t, args...)
+		line := strings.TrimSuffix(stderr, "\n")
+		want := "ingot: " + args[0] + ": "
+		if args[0] == "frobnicate" {
+			want = `ingot: unknown command "frobnicate"`
+		}
+		if !strings.HasPrefix(line, want) || strings.Contains(line, "\n") {
+			t.Errorf("%v: %q does not start with %q on one line", args, stderr, want)
+		}
+		if s := stutter(line); s != "" {
+			t.Errorf("%v: %q repeats a prefix (%q)", args, line, s)
+		}
+		for _, framework := range []string{"arg(s)", "flag(s)", ` for "ingot`} {
+			if strings.Contains(line, framework) {
+				t.Errorf("%v: %q speaks in the framework's words (%q)", args, line, framework)
+			}
+		}
+	}
+}

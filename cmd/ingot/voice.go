@@ -1,0 +1,95 @@
+package main
+
+import (
+	"fmt"
+	"regexp"
+	"strings"
+
+	"github.com/spf13/cobra"
+)
+
+// inOurVoice words the framework's own refusals (a wrong number of
+// arguments, an unknown command) like every other message, and gives the
+// commands the framework adds (help, completion) an example.
+func inOurVoice(root *cobra.Command) {
+	root.InitDefaultHelpCmd()
+	root.InitDefaultCompletionCmd()
+	for _, c := range root.Commands() {
+		switch c.Name() {
+		case "completion":
+			c.Example = `  ingot completion bash > /etc/bash_completion.d/ingot
+  ingot completion zsh > "${fpath[1]}/_ingot"`
+		case "help":
+			c.Example = "  ingot help prune"
+		}
+		if check := c.Args; check != nil {
+			c.Args = func(c *cobra.Command, args []string) error {
+				if err := check(c, args); err != nil {
+					return fmt.Errorf("%d argument(s) given; usage: %s %s", len(args), root.Name(), c.Use)
+				}
+				return nil
+			}
+		}
+	}
+}
+
+// errorLine is the one line every failure prints: "ingot: COMMAND: what and
+// where", whoever made the error (a package, the command, or the command
+// line framework: an unknown flag, a missing argument). A prefix the
+// message already carries (the program's or the command's name) is not
+// repeated.
+func errorLine(root, cmd *cobra.Command, err error) string {
+	msg := err.Error()
+	if cmd == nil || cmd == root {
+		// The framework's refusal of an unknown command names the program
+		// at the end; say it once, at the start.
+		if strings.HasPrefix(msg, "unknown command ") {
+			msg = strings.TrimSuffix(msg, fmt.Sprintf(" for %q", root.Name())) + " (see 'ingot --help' for the commands)"
+		}
+		return root.Name() + ": " + msg
+	}
+	path := cmd.CommandPath()
+	for _, p := range []string{root.Name() + ": ", cmd.Name() + ": "} {
+		for strings.HasPrefix(msg, p) {
+			msg = msg[len(p):]
+		}
+	}
+	msg = strings.TrimSuffix(msg, fmt.Sprintf(" for %q", path))
+	if m := requiredFlags.FindStringSubmatch(msg); m != nil {
+		var names []string
+		for _, q := range regexp.MustCompile(`"([^"]+)"`).FindAllStringSubmatch(m[1], -1) {
+			names = append(names, "--"+q[1])
+		}
+		verb := "is"
+		if len(names) > 1 {
+			verb = "are"
+		}
+		msg = fmt.Sprintf("%s %s required (see '%s --help')", strings.Join(names, " and "), verb, path)
+	}
+	return root.Name() + ": " + strings.TrimPrefix(path, root.Name()+" ") + ": " + msg
+}
+
+// requiredFlags matches the framework's refusal of missing required flags.
+var requiredFlags = regexp.MustCompile(`^required flag\(s\) (.*) not set$`)
+
+// renamedFlags maps "COMMAND --old" to the flag's name since version 0.2,
+// so that a script using an old spelling fails with a pointer to the new.
+var renamedFlags = map[string]string{
+	"prune --threshold":     "--drop-below",
+	"tradeoff --thresholds": "--drop-below",
+	"quantize --bow-bits":   "--backoff-bits",
+	"prune --bow-bits":      "--backoff-bits",
+}
+
+// renamedFlag returns the message for an unknown flag that was renamed.
+func renamedFlag(c *cobra.Command, err error) (string, bool) {
+	old, ok := strings.CutPrefix(err.Error(), "unknown flag: ")
+	if !ok {
+		return "", false
+	}
+	renamed, ok := renamedFlags[c.Name()+" "+old]
+	if !ok {
+		return "", false
+	}
+	return fmt.Sprintf("%s is now called %s", old, renamed), true
+}
