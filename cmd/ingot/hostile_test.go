@@ -60,7 +60,7 @@ func TestModelsAndKeysMustBeRegularFiles(t *testing.T) {
 			{"sign", "--key", filepath.Join(dir, "k.key"), bad.path},
 			{"sign", "--key", bad.path, model},
 			{"verify", "--public-key", bad.path, model},
-			{"prune", "--threshold", "1e-6", "-o", filepath.Join(dir, "out"), bad.path},
+			{"prune", "--drop-below", "1e-6", "-o", filepath.Join(dir, "out"), bad.path},
 		} {
 			code, stdout, stderr := ingotWithin(t, 10*time.Second, args...)
 			if code != exitBadInput || !strings.Contains(stderr, bad.says) || stdout != "" {

@@ -43,7 +43,7 @@ func TestVocabularyWhileCountingOrCompilingGivesOneModel(t *testing.T) {
 				run("compile", "--method", method, "--order", "3", "-o", p("c.ingot"), p("mapped.tsv"))
 				code, out, _ := ingot(t, "score", "--json", p("a.ingot"), text)
 				_, out2, _ := ingot(t, "score", "--json", p("c.ingot"), text)
-				if code != 0 || out != out2 {
+				if code != 0 || strings.ReplaceAll(out, p("a.ingot"), p("c.ingot")) != out2 {
 					t.Errorf("%s: count --vocabulary then compile scores differently from count then compile --vocabulary", method)
 				}
 			}
