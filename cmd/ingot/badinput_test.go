@@ -53,7 +53,7 @@ var badInputTable = []badInputCase{
 	{"quantize bits out of range", []string{"quantize", "--bits", "1", "-o", "$D/out", "$M"}, "--bits 1 outside 2..16"},
 	{"quantize unknown trainer", []string{"quantize", "--bits", "8", "--trainer", "guess", "-o", "$D/out", "$M"}, `unknown trainer "guess"`},
 	{"tradeoff bad grid", []string{"tradeoff", "--heldout", "$D/train.txt", "--bits", "8,x", "-o", "$D/out", "$M"}, `"x" is not a whole number`},
-	{"interpolate one model", []string{"interpolate", "-o", "$D/out", "$M"}, "requires at least 2 arg(s)"},
+	{"interpolate one model", []string{"interpolate", "-o", "$D/out", "$M"}, "1 argument(s) given; usage: ingot interpolate"},
 	{"interpolate weights and fit together", []string{"interpolate", "--weights", "0.5,0.5", "--fit", "$D/train.txt", "-o", "$D/out", "$M", "$M"}, "give --weights or --fit, not both"},
 	{"interpolate weights of the wrong number", []string{"interpolate", "--weights", "1", "-o", "$D/out", "$M", "$M"}, "--weights: 1 weights for 2 models"},
 	{"interpolate weights not summing to one", []string{"interpolate", "--weights", "0.5,0.6", "-o", "$D/out", "$M", "$M"}, "--weights: weights sum to 1.1, not 1"},

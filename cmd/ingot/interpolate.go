@@ -12,6 +12,7 @@ import (
 	"ingot/compile/tables"
 	"ingot/format"
 	"ingot/format/score"
+	"ingot/inspect"
 )
 
 func newInterpolateCmd() *cobra.Command {
@@ -129,14 +130,14 @@ the written model on --heldout TEXT (default: the --fit text).`,
 				h := mix.Score(evalText)
 				p := &perplexities{Text: heldout, Predictions: h.Predictions()}
 				for i := range models {
-					p.Inputs = append(p.Inputs, jsonNumber(h.Perplexity(interpolate.Unit(len(models), i))))
+					p.Inputs = append(p.Inputs, inspect.Number(h.Perplexity(interpolate.Unit(len(models), i))))
 				}
-				p.Mixture = jsonNumber(h.Perplexity(w))
+				p.Mixture = inspect.Number(h.Perplexity(w))
 				written, err := filePerplexity(out, evalText)
 				if err != nil {
 					return fmt.Errorf("interpolate: %w", err)
 				}
-				p.Written = jsonNumber(written)
+				p.Written = inspect.Number(written)
 				rep.Perplexity = p
 			}
 			pr.done()
@@ -192,11 +193,11 @@ func filePerplexity(path string, sents [][]string) (float64, error) {
 }
 
 type perplexities struct {
-	Text        string       `json:"text"`
-	Predictions int          `json:"predictions"`
-	Inputs      []jsonNumber `json:"inputs"`
-	Mixture     jsonNumber   `json:"mixture"`
-	Written     jsonNumber   `json:"written"`
+	Text        string           `json:"text"`
+	Predictions int              `json:"predictions"`
+	Inputs      []inspect.Number `json:"inputs"`
+	Mixture     inspect.Number   `json:"mixture"`
+	Written     inspect.Number   `json:"written"`
 }
 
 type interpolateReport struct {

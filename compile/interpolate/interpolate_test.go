@@ -240,7 +240,7 @@ func TestDifferentVocabulariesShareUnknownMass(t *testing.T) {
 func TestQuantizedPrunedAndUnequalInputs(t *testing.T) {
 	all := sentences(t)
 	a := build(t, all[:1200], 3, estimate.KneserNey)
-	q, _, err := quantize.Model(a, quantize.Options{Bits: 8, Trainer: quantize.Binning})
+	q, _, err := quantize.Model(a, quantize.Options{Bits: 8, Trainer: quantize.EqualMass})
 	if err != nil {
 		t.Fatal(err)
 	}
