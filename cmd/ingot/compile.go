@@ -36,9 +36,10 @@ func newCompileCmd() *cobra.Command {
 		Long: `Estimate a back-off language model of order N from count files and write it
 as a binary model file.
 
-Count files hold "w1 w2 ... wk<TAB>count" lines in any order; several files
-(shards) are merged and duplicate n-grams summed; .gz and .zst are
-decompressed. Every k-gram's prefix and suffix must have a count.
+Count files are binary (as count writes them) or text ("count<TAB>w1 ... wk"
+lines in any order), told apart by their first bytes; several files
+(shards) of either form are merged and duplicate n-grams summed; .gz and
+.zst are decompressed. Every k-gram's prefix and suffix must have a count.
 
 Methods:
   katz          Katz back-off with Good-Turing discounts (--katz-threshold K, default 5)
@@ -53,9 +54,9 @@ With --vocabulary FILE (one word per line) the model predicts exactly the
 listed words, </s> and <unk>: every other word of the counts becomes <unk>
 (counts of n-grams that become equal are summed), and listed words without
 counts get probability through the lower orders.`,
-		Example: `  ingot compile --method kneser-ney --order 3 -o field.ingot counts.tsv
-  ingot compile --method kneser-ney --order 3 --vocabulary lexicon.txt -o field.ingot counts.tsv
-  ingot compile --method absolute --discount auto --order 4 -o m.ingot shard-*.tsv.zst`,
+		Example: `  ingot compile --method kneser-ney --order 3 -o field.ingot counts.bin
+  ingot compile --method kneser-ney --order 3 --vocabulary lexicon.txt -o field.ingot counts.bin
+  ingot compile --method absolute --discount auto --order 4 -o m.ingot shard-*.bin extra.txt.zst`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opt := estimate.Options{Method: estimate.Method(method), Order: order, KatzThreshold: threshold}

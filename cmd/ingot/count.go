@@ -17,6 +17,7 @@ func newCountCmd() *cobra.Command {
 		out      string
 		minCount uint64
 		wordList string
+		asText   bool
 	)
 	cmd := &cobra.Command{
 		Use:   "count --order N [-o OUT] [TEXT...]",
@@ -26,16 +27,20 @@ line, tokens separated by white space. Each sentence is padded as
 <s> ... </s>; n-grams never cross sentences. Reads standard input when no
 TEXT is given; .gz and .zst files are decompressed.
 
-Output lines are "w1 w2 ... wk<TAB>count", orders in increasing order.
+The output is a binary count file (spec/COUNTS.md): sorted, compressed in
+blocks, checked by CRC-32C; 'ingot inspect' shows it. With --text it is the
+text form instead, one "count<TAB>w1 w2 ... wk" line per n-gram, orders in
+increasing order. compile reads either, told apart by their first bytes.
 Invalid UTF-8 or a marker (<s>, </s>, <unk>) inside the text is an error
 naming the file and line, and no output file is left behind.
 
 With --vocabulary FILE (one word per line) every word outside the list
 counts as <unk>, a literal <unk> in the text included; give compile the same
 --vocabulary so that listed words never seen stay predictable.`,
-		Example: `  ingot count --order 3 -o counts.tsv commands.txt
-  ingot count --order 3 --vocabulary lexicon.txt -o counts.tsv commands.txt
-  zcat big.txt.gz | ingot count --order 5 --min-word-count 2 > counts.tsv`,
+		Example: `  ingot count --order 3 -o counts.bin commands.txt
+  ingot count --order 3 --vocabulary lexicon.txt -o counts.bin commands.txt
+  zcat big.txt.gz | ingot count --order 5 --min-word-count 2 > counts.bin
+  ingot count --order 3 --text -o counts.txt commands.txt`,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			c, err := counts.NewCounter(order)
 			if err != nil {
@@ -68,14 +73,18 @@ counts as <unk>, a literal <unk> in the text included; give compile the same
 				return fmt.Errorf("count: no sentences in %s", strings.Join(args, ", "))
 			}
 			return writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
-				_, err := res.WriteTo(w)
-				return err
+				if asText {
+					_, err := res.WriteTo(w)
+					return err
+				}
+				return res.WriteBinary(w)
 			})
 		},
 	}
 	f := cmd.Flags()
 	f.IntVar(&order, "order", 0, "highest n-gram order to count (required)")
 	f.StringVarP(&out, "output", "o", "", "write counts here instead of standard output")
+	f.BoolVar(&asText, "text", false, "write the text form (count, tab, n-gram) instead of the binary form")
 	f.Uint64Var(&minCount, "min-word-count", 1, "replace words seen fewer times than this by <unk>")
 	f.StringVar(&wordList, "vocabulary", "", "fixed word list, one word per line: count every other word as <unk>")
 	cmd.MarkFlagRequired("order")

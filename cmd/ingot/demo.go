@@ -69,9 +69,9 @@ func runDemo(ctx context.Context, stdout, stderr io.Writer, dir string) error {
 		show string // print only the lines holding one of these |-separated pieces (empty: all)
 	}{
 		{"Count the n-grams of orders 1 to 3.",
-			[]string{"count", "--order", "3", "-o", path("counts.tsv"), path("commands.txt")}, ""},
+			[]string{"count", "--order", "3", "-o", path("counts.bin"), path("commands.txt")}, ""},
 		{"Estimate an interpolated modified Kneser-Ney model and write the binary model file.",
-			[]string{"compile", "--method", "kneser-ney", "--order", "3", "-o", path("field.ingot"), path("counts.tsv")}, ""},
+			[]string{"compile", "--method", "kneser-ney", "--order", "3", "-o", path("field.ingot"), path("counts.bin")}, ""},
 		{"Score held-out commands the device has not seen (summary line).",
 			[]string{"score", path("field.ingot"), path("heldout.txt")}, "sentences "},
 		{"The device has 16 KB for the model: prune by relative entropy to fit, with 8-bit codebooks.",

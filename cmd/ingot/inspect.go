@@ -12,6 +12,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"ingot/compile/counts"
 	"ingot/compile/tables"
 	"ingot/inspect"
 )
@@ -58,7 +59,12 @@ words outside the vocabulary are looked up as <unk>; <s> may start the
 context. --next "" asks about the empty context.
 
 --json prints one JSON object (the documented keys are listed in the
-README); --dump always prints JSON Lines.`,
+README); --dump always prints JSON Lines.
+
+On a binary count file (told by its first bytes): its header and end
+record (layout version, order, words, blocks, entries and sum of the
+counts per order); --dump prints its entries in the text form of count
+files, one "count<TAB>n-gram" line each (--order K keeps one order).`,
 		Example: `  ingot inspect field.ingot
   ingot inspect --stats field.ingot
   ingot inspect --dump --prefix "turn the" field.ingot
@@ -96,6 +102,9 @@ func runInspect(cmd *cobra.Command, path string, f *inspectFlags) error {
 		return errors.New("inspect: --top goes with --next")
 	case f.top < 1:
 		return fmt.Errorf("inspect: --top %d must be at least 1", f.top)
+	}
+	if counts.IsBinaryFile(path) {
+		return runInspectCounts(cmd, path, f)
 	}
 	m, err := openModel(path)
 	if err != nil {

@@ -104,7 +104,7 @@ func TestSameInputGivesIdenticalFile(t *testing.T) {
 func TestBadInputExitsTwoAndWritesNothing(t *testing.T) {
 	dir := t.TempDir()
 	bad := writeFile(t, dir, "bad.txt", "fine line\nthe </s> here\n")
-	badCounts := writeFile(t, dir, "bad.tsv", "a\t1\nb\t-2\n")
+	badCounts := writeFile(t, dir, "bad.tsv", "1\ta\n-2\tb\n")
 	out := filepath.Join(dir, "out")
 	for _, tc := range []struct {
 		args []string

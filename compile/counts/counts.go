@@ -1,12 +1,23 @@
-// Package counts turns training text into n-gram counts and reads count
-// files back, merging shards and checking that they describe a consistent
-// set of n-grams.
+// Package counts turns training text into n-gram counts and reads and
+// writes count files, merging shards and checking that they describe a
+// consistent set of n-grams. It is the only package that reads or writes
+// count files; spec/COUNTS.md specifies both forms byte by byte.
 //
-// A count file holds one n-gram per line: the words joined by one space, a
-// tab, and a positive integer count ("the cat\t12"). Lines may come in any
-// order and an n-gram may appear several times, in one file or across shards:
-// its counts are summed. Orders 1..N are all present; the unigram <s> is
-// implicit (it is never predicted, so never counted).
+// A count file comes in two forms, told apart by their first bytes, never
+// by the file name:
+//
+//   - binary (what count writes by default): a header with the highest
+//     order and the sorted word list, then blocks of sorted entries, each
+//     block compressed with zstd and checked by CRC-32C, then an end record
+//     with the entries and the sum of the counts per order. Writer and
+//     Reader stream it.
+//   - text, for interchange: one entry per line, the count first, a tab,
+//     then the words joined by single spaces ("12<TAB>the cat").
+//
+// Lines and entries may come in any order across files, and an n-gram may
+// appear several times, in one text file or across shards: its counts are
+// summed. Orders 1..N are all present; the unigram <s> is implicit (it is
+// never predicted, so never counted).
 //
 // Counting follows the sentence rules of the estimators: a sentence
 // t1 .. tm becomes <s> t1 .. tm </s>, and for every predicted position and
@@ -17,9 +28,9 @@ package counts
 import (
 	"bufio"
 	"encoding/binary"
-	"fmt"
 	"io"
 	"slices"
+	"strconv"
 	"strings"
 
 	"ingot/compile/tables"
@@ -91,9 +102,10 @@ func (c *Counts) Truncate(n int) {
 	}
 }
 
-// WriteTo writes the counts as a count file, orders in increasing order and
-// n-grams in byte order of their words within each order. The unigram <s>
-// and zero counts are not written.
+// WriteTo writes the counts in the text form: orders in increasing order,
+// n-grams in byte order of their words within each order, each line the
+// count, a tab and the words. The unigram <s> and zero counts are not
+// written.
 func (c *Counts) WriteTo(w io.Writer) (int64, error) {
 	bw := bufio.NewWriterSize(w, 1<<16)
 	var total int64
@@ -104,15 +116,7 @@ func (c *Counts) WriteTo(w io.Writer) (int64, error) {
 			if n == 0 {
 				continue
 			}
-			line = line[:0]
-			for j, id := range lv.Words[k*i : k*i+k] {
-				if j > 0 {
-					line = append(line, ' ')
-				}
-				line = append(line, c.Vocab[id]...)
-			}
-			line = append(line, '\t')
-			line = fmt.Appendf(line, "%d\n", n)
+			line = appendTextLine(line[:0], c.Vocab, lv.Words[k*i:k*i+k], n)
 			m, err := bw.Write(line)
 			total += int64(m)
 			if err != nil {
@@ -121,6 +125,19 @@ func (c *Counts) WriteTo(w io.Writer) (int64, error) {
 		}
 	}
 	return total, bw.Flush()
+}
+
+// appendTextLine appends one line of the text form.
+func appendTextLine(line []byte, vocab []string, g []uint32, n uint64) []byte {
+	line = strconv.AppendUint(line, n, 10)
+	line = append(line, '\t')
+	for j, id := range g {
+		if j > 0 {
+			line = append(line, ' ')
+		}
+		line = append(line, vocab[id]...)
+	}
+	return append(line, '\n')
 }
 
 // builder collects n-grams under provisional ids (in order of first sight).

@@ -31,9 +31,9 @@ func countText(t *testing.T, order int, text string) string {
 func TestCountPaddingAndSpans(t *testing.T) {
 	got := countText(t, 3, "a b\n\n  b   a \n")
 	want := strings.Join([]string{
-		"</s>\t2", "a\t2", "b\t2",
-		"<s> a\t1", "<s> b\t1", "a </s>\t1", "a b\t1", "b </s>\t1", "b a\t1",
-		"<s> a b\t1", "<s> b a\t1", "a b </s>\t1", "b a </s>\t1",
+		"2\t</s>", "2\ta", "2\tb",
+		"1\t<s> a", "1\t<s> b", "1\ta </s>", "1\ta b", "1\tb </s>", "1\tb a",
+		"1\t<s> a b", "1\t<s> b a", "1\ta b </s>", "1\tb a </s>",
 	}, "\n") + "\n"
 	if diff := cmp.Diff(want, got); diff != "" {
 		t.Errorf("counts differ (-want +got):\n%s", diff)
@@ -45,7 +45,7 @@ func TestMinWordCountMapsRareWordsToUnknown(t *testing.T) {
 	c.AddText("t", strings.NewReader("a b\na c\n"))
 	var b bytes.Buffer
 	c.Counts(2).WriteTo(&b)
-	want := "</s>\t2\n<unk>\t2\na\t2\n<s> a\t2\n<unk> </s>\t2\na <unk>\t2\n"
+	want := "2\t</s>\n2\t<unk>\n2\ta\n2\t<s> a\n2\t<unk> </s>\n2\ta <unk>\n"
 	if diff := cmp.Diff(want, b.String()); diff != "" {
 		t.Errorf("(-want +got):\n%s", diff)
 	}
@@ -75,15 +75,15 @@ func load(t *testing.T, order int, files ...string) (*Counts, error) {
 }
 
 func TestLoadMergesShardsInAnyOrder(t *testing.T) {
-	shard1 := "a b\t1\n</s>\t1\na\t2\n"
-	shard2 := "<s> a\t2\nb\t1\na b\t1\nb </s>\t1\na </s>\t1\n</s>\t1\n"
+	shard1 := "1\ta b\n1\t</s>\n2\ta\n"
+	shard2 := "2\t<s> a\n1\tb\n1\ta b\n1\tb </s>\n1\ta </s>\n1\t</s>\n"
 	c, err := load(t, 2, shard1, shard2)
 	if err != nil {
 		t.Fatal(err)
 	}
 	var b bytes.Buffer
 	c.WriteTo(&b)
-	want := "</s>\t2\na\t2\nb\t1\n<s> a\t2\na </s>\t1\na b\t2\nb </s>\t1\n"
+	want := "2\t</s>\n2\ta\n1\tb\n2\t<s> a\n1\ta </s>\n2\ta b\n1\tb </s>\n"
 	if diff := cmp.Diff(want, b.String()); diff != "" {
 		t.Errorf("(-want +got):\n%s", diff)
 	}
@@ -94,14 +94,14 @@ func TestLoadReportsFirstOffendingLine(t *testing.T) {
 		files []string
 		want  string
 	}{
-		{[]string{"a\t1\nb\t0\n"}, `a.tsv:2: count "0" is not a positive integer`},
-		{[]string{"a\t-3\n"}, `a.tsv:1: count "-3" is not a positive integer`},
-		{[]string{"a\t1.5\n"}, `a.tsv:1: count "1.5" is not a positive integer`},
-		{[]string{"a\tNaN\n"}, `a.tsv:1: count "NaN" is not a positive integer`},
-		{[]string{"a 1\n"}, `a.tsv:1: no tab between n-gram and count`},
-		{[]string{"a\t1\nb </s> a\t1\n"}, `a.tsv:2: </s> inside an n-gram (only last)`},
-		{[]string{"a\t1\n", "b\t1\nx a b\t1\na b\t1\n"}, `b.tsv:2: "x a b" has no count for its prefix "x a"`},
-		{[]string{"a\t1\nb\t1\n<s> a b\t1\n<s> a\t1\n"}, `a.tsv:3: "<s> a b" has no count for its suffix "a b"`},
+		{[]string{"1\ta\n0\tb\n"}, `a.tsv:2: count "0" is not a positive integer`},
+		{[]string{"-3\ta\n"}, `a.tsv:1: count "-3" is not a positive integer`},
+		{[]string{"1.5\ta\n"}, `a.tsv:1: count "1.5" is not a positive integer`},
+		{[]string{"NaN\ta\n"}, `a.tsv:1: count "NaN" is not a positive integer`},
+		{[]string{"a 1\n"}, `a.tsv:1: no tab between count and n-gram`},
+		{[]string{"1\ta\n1\tb </s> a\n"}, `a.tsv:2: </s> inside an n-gram (only last)`},
+		{[]string{"1\ta\n", "1\tb\n1\tx a b\n1\ta b\n"}, `b.tsv:2: "x a b" has no count for its prefix "x a"`},
+		{[]string{"1\ta\n1\tb\n1\t<s> a b\n1\t<s> a\n"}, `a.tsv:3: "<s> a b" has no count for its suffix "a b"`},
 	} {
 		_, err := load(t, 3, tc.files...)
 		if err == nil || err.Error() != tc.want {

@@ -1,6 +1,7 @@
 package counts
 
 import (
+	"bufio"
 	"bytes"
 	"fmt"
 	"io"
@@ -19,78 +20,43 @@ type Source struct {
 	R    io.Reader
 }
 
-// Load reads count files (shards) for orders 1..order, sums duplicate
-// n-grams, and checks that every k-gram's (k-1)-word prefix and suffix are
-// present (the unigram <s> is implicit). N-grams longer than order are
-// skipped. The first offending line is reported as a *text.Error with file
-// and line number.
+// Load reads count files (shards) for orders 1..order, each binary or text
+// (told apart by its first bytes), sums duplicate n-grams, and checks that
+// every k-gram's (k-1)-word prefix and suffix are present (the unigram <s>
+// is implicit). N-grams longer than order are skipped. The first offending
+// line of a text file is reported as a *text.Error with file and line
+// number; a problem in a binary file names the file and the byte offset.
 func Load(order int, sources []Source) (*Counts, error) {
 	if order < 1 || order > tables.MaxOrder {
 		return nil, fmt.Errorf("order %d outside 1..%d", order, tables.MaxOrder)
 	}
 	b := newBuilder(order)
-	var g []uint32
+	var bins []binSource
 	maxSeen := 0
 	for fi, src := range sources {
-		err := input.Lines(src.R, func(line []byte, n int) error {
-			if len(bytes.TrimSpace(line)) == 0 {
-				return nil
+		br := bufio.NewReaderSize(src.R, 1<<16)
+		if head, _ := br.Peek(len(Magic)); IsBinary(head) {
+			r, err := NewReader(br)
+			if err != nil {
+				return nil, fmt.Errorf("%s: %w", src.Name, err)
 			}
-			bad := func(format string, a ...any) error {
-				return &text.Error{File: src.Name, Line: n, Msg: fmt.Sprintf(format, a...)}
-			}
-			if !utf8.Valid(line) {
-				return bad("invalid UTF-8")
-			}
-			tab := bytes.LastIndexByte(line, '\t')
-			if tab < 0 {
-				return bad("no tab between n-gram and count")
-			}
-			words := strings.Fields(string(line[:tab]))
-			field := strings.TrimSpace(string(line[tab+1:]))
-			if len(words) == 0 {
-				return bad("empty n-gram")
-			}
-			if len(words) > tables.MaxOrder {
-				return bad("%d-gram is longer than the supported maximum order %d", len(words), tables.MaxOrder)
-			}
-			cnt, err := strconv.ParseUint(field, 10, 64)
-			if err != nil || cnt == 0 {
-				return bad("count %q is not a positive integer", field)
-			}
-			for i, w := range words {
-				switch {
-				case w == tables.SentenceStart && i != 0:
-					return bad("%s inside an n-gram (only first)", w)
-				case w == tables.SentenceEnd && i != len(words)-1:
-					return bad("%s inside an n-gram (only last)", w)
-				}
-			}
-			if len(words) > order {
-				return nil
-			}
-			if len(words) > maxSeen {
-				maxSeen = len(words)
-			}
-			if len(words) == 1 && words[0] == tables.SentenceStart {
-				return nil // implicit: <s> is never predicted
-			}
-			g = g[:0]
-			for _, w := range words {
-				g = append(g, b.id(w))
-			}
-			if !b.add(g, cnt, int32(fi), n) {
-				return bad("count of %q overflows 64 bits", strings.Join(words, " "))
-			}
-			return nil
-		})
-		if err != nil {
-			if _, ok := err.(*text.Error); ok {
-				return nil, err
-			}
-			return nil, fmt.Errorf("%s: %w", src.Name, err)
+			bins = append(bins, binSource{src: fi, r: r})
+			continue
 		}
+		seen, err := b.addTextFile(order, fi, src.Name, br)
+		if err != nil {
+			return nil, err
+		}
+		maxSeen = max(maxSeen, seen)
 	}
+	if len(bins) == 0 {
+		return b.result(order, maxSeen, sources)
+	}
+	return mergeSources(order, maxSeen, b, bins, sources)
+}
+
+// result finishes a load of text files only.
+func (b *builder) result(order, maxSeen int, sources []Source) (*Counts, error) {
 	if maxSeen == 0 {
 		return nil, fmt.Errorf("no n-grams in %s", names(sources))
 	}
@@ -104,6 +70,73 @@ func Load(order int, sources []Source) (*Counts, error) {
 		return nil, fmt.Errorf("no unigram counts in %s", names(sources))
 	}
 	return b.finish(nil, nil), nil
+}
+
+// addTextFile reads one count file in the text form into b and returns the
+// highest order it held (at most order).
+func (b *builder) addTextFile(order, fi int, name string, r io.Reader) (int, error) {
+	var g []uint32
+	maxSeen := 0
+	err := input.Lines(r, func(line []byte, n int) error {
+		if len(bytes.TrimSpace(line)) == 0 {
+			return nil
+		}
+		bad := func(format string, a ...any) error {
+			return &text.Error{File: name, Line: n, Msg: fmt.Sprintf(format, a...)}
+		}
+		if !utf8.Valid(line) {
+			return bad("invalid UTF-8")
+		}
+		tab := bytes.IndexByte(line, '\t')
+		if tab < 0 {
+			return bad("no tab between count and n-gram")
+		}
+		field := strings.TrimSpace(string(line[:tab]))
+		words := strings.Fields(string(line[tab+1:]))
+		cnt, err := strconv.ParseUint(field, 10, 64)
+		if err != nil || cnt == 0 {
+			if _, err := strconv.ParseUint(strings.TrimSpace(string(line[tab+1:])), 10, 64); err == nil {
+				return bad("count %q is not a positive integer (a line is the count, a tab, then the n-gram)", field)
+			}
+			return bad("count %q is not a positive integer", field)
+		}
+		if len(words) == 0 {
+			return bad("empty n-gram")
+		}
+		if len(words) > tables.MaxOrder {
+			return bad("%d-gram is longer than the supported maximum order %d", len(words), tables.MaxOrder)
+		}
+		for i, w := range words {
+			switch {
+			case w == tables.SentenceStart && i != 0:
+				return bad("%s inside an n-gram (only first)", w)
+			case w == tables.SentenceEnd && i != len(words)-1:
+				return bad("%s inside an n-gram (only last)", w)
+			}
+		}
+		if len(words) > order {
+			return nil
+		}
+		maxSeen = max(maxSeen, len(words))
+		if len(words) == 1 && words[0] == tables.SentenceStart {
+			return nil // implicit: <s> is never predicted
+		}
+		g = g[:0]
+		for _, w := range words {
+			g = append(g, b.id(w))
+		}
+		if !b.add(g, cnt, int32(fi), n) {
+			return bad("count of %q overflows 64 bits", strings.Join(words, " "))
+		}
+		return nil
+	})
+	if err != nil {
+		if _, ok := err.(*text.Error); ok {
+			return 0, err
+		}
+		return 0, fmt.Errorf("%s: %w", name, err)
+	}
+	return maxSeen, nil
 }
 
 func names(sources []Source) string {

@@ -7,15 +7,20 @@ import (
 	"unicode/utf8"
 )
 
-// FuzzLoad reads arbitrary bytes as a count file: it never panics, and
+// FuzzLoad reads arbitrary bytes as a count file (text or binary): it never panics, and
 // whatever it accepts round-trips (written back and read again, the same
 // counts).
 func FuzzLoad(f *testing.F) {
-	f.Add([]byte("a\t2\n</s>\t2\n<s> a\t2\na </s>\t2\n"), 2)
-	f.Add([]byte("a b\t1\n"), 2)
-	f.Add([]byte("the beacon\t3\r\nthe\t3\nbeacon\t3\n<s> the\t3\nbeacon </s>\t3\n</s>\t3\n"), 3)
-	f.Add([]byte("x\t18446744073709551615\nx\t1\n"), 1)
-	f.Add([]byte("\xff\t1\n"), 1)
+	f.Add([]byte("2\ta\n2\t</s>\n2\t<s> a\n2\ta </s>\n"), 2)
+	f.Add([]byte("1\ta b\n"), 2)
+	f.Add([]byte("3\tthe beacon\r\n3\tthe\n3\tbeacon\n3\t<s> the\n3\tbeacon </s>\n3\t</s>\n"), 3)
+	f.Add([]byte("18446744073709551615\tx\n1\tx\n"), 1)
+	f.Add([]byte("1\t\xff\n"), 1)
+	var bin bytes.Buffer
+	c, _ := NewCounter(2)
+	c.AddText("t", bytes.NewReader([]byte("turn the beacon on\nthe beacon\n")))
+	c.Counts(1).WriteBinary(&bin)
+	f.Add(bin.Bytes(), 2)
 	f.Fuzz(func(t *testing.T, data []byte, order int) {
 		if order < 1 || order > 4 {
 			order = 1 + (order&3+4)%4

@@ -1,0 +1,84 @@
+package counts
+
+import (
+	"bufio"
+	"fmt"
+	"io"
+	"os"
+)
+
+// FileInfo describes a binary count file from its header and end record.
+type FileInfo struct {
+	Size          int64
+	LayoutVersion int
+	Order         int
+	Words         int
+	Totals        Totals
+}
+
+// IsBinaryFile reports whether the named file starts with the magic of a
+// binary count file.
+func IsBinaryFile(path string) bool {
+	f, err := os.Open(path)
+	if err != nil {
+		return false
+	}
+	defer f.Close()
+	head := make([]byte, len(Magic))
+	n, _ := io.ReadFull(f, head)
+	return IsBinary(head[:n])
+}
+
+// Describe reads the header and end record of the named binary count file
+// (not its blocks: Dump and Load check those).
+func Describe(path string) (*FileInfo, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	st, err := f.Stat()
+	if err != nil {
+		return nil, err
+	}
+	r, err := NewReader(f)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	h := r.Header()
+	end, err := ReadEnd(f, st.Size(), h.Order)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", path, err)
+	}
+	return &FileInfo{Size: st.Size(), LayoutVersion: BinaryVersion, Order: h.Order, Words: len(h.Vocab), Totals: end}, nil
+}
+
+// Dump writes the entries of a binary count file in the text form, one
+// line each ("count<TAB>words"); order > 0 keeps that order only. Every
+// block is checked as it is read.
+func Dump(w io.Writer, name string, r io.Reader, order int) error {
+	cr, err := NewReader(r)
+	if err != nil {
+		return fmt.Errorf("%s: %w", name, err)
+	}
+	vocab := cr.Header().Vocab
+	bw := bufio.NewWriterSize(w, 1<<16)
+	var line []byte
+	for {
+		ids, n, err := cr.Next()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return fmt.Errorf("%s: %w", name, err)
+		}
+		if order > 0 && len(ids) != order {
+			continue
+		}
+		line = appendTextLine(line[:0], vocab, ids, n)
+		if _, err := bw.Write(line); err != nil {
+			return err
+		}
+	}
+	return bw.Flush()
+}

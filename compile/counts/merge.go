@@ -1,0 +1,337 @@
+package counts
+
+import (
+	"fmt"
+	"io"
+	"slices"
+
+	"ingot/compile/tables"
+	"ingot/compile/text"
+)
+
+// A stream yields entries in increasing order (by length, then
+// lexicographically) under ids of one shared vocabulary.
+type stream interface {
+	// next returns the next entry (ids valid until the next call) or io.EOF.
+	next() ([]uint32, uint64, error)
+}
+
+// binSource is a binary count file being read as one of Load's sources.
+type binSource struct {
+	src int
+	r   *Reader
+}
+
+// readerStream maps a Reader's ids through a monotone remap (so the order
+// of its entries is kept).
+type readerStream struct {
+	r     *Reader
+	remap []uint32
+	ids   []uint32
+}
+
+func (s *readerStream) next() ([]uint32, uint64, error) {
+	ids, n, err := s.r.Next()
+	if err != nil {
+		return nil, 0, err
+	}
+	out := s.ids[:len(ids)]
+	for i, id := range ids {
+		out[i] = s.remap[id]
+	}
+	return out, n, nil
+}
+
+// countsStream walks a Counts: every order, zero counts and the unigram <s>
+// left out, ids remapped monotonically.
+type countsStream struct {
+	c     *Counts
+	remap []uint32
+	start uint32
+	k, i  int
+	ids   []uint32
+}
+
+func (s *countsStream) next() ([]uint32, uint64, error) {
+	for s.k <= len(s.c.Levels) {
+		lv := &s.c.Levels[s.k-1]
+		for s.i < len(lv.Counts) {
+			i := s.i
+			s.i++
+			n := lv.Counts[i]
+			if n == 0 || s.k == 1 && uint32(i) == s.start {
+				continue
+			}
+			out := s.ids[:s.k]
+			for j, id := range lv.Words[s.k*i : s.k*i+s.k] {
+				out[j] = s.remap[id]
+			}
+			return out, n, nil
+		}
+		s.k++
+		s.i = 0
+	}
+	return nil, 0, io.EOF
+}
+
+// unionVocab returns the sorted union of sorted word lists plus the three
+// markers, and for each list the map from its ids to the union's.
+func unionVocab(lists [][]string) ([]string, [][]uint32) {
+	var all []string
+	for _, l := range lists {
+		all = append(all, l...)
+	}
+	all = append(all, tables.SentenceStart, tables.SentenceEnd, tables.Unknown)
+	slices.Sort(all)
+	all = slices.Compact(all)
+	remaps := make([][]uint32, len(lists))
+	for li, l := range lists {
+		m := make([]uint32, len(l))
+		j := 0
+		for i, w := range l {
+			for all[j] != w {
+				j++
+			}
+			m[i] = uint32(j)
+		}
+		remaps[li] = m
+	}
+	return all, remaps
+}
+
+// merger runs a k-way merge of streams, summing equal entries.
+type merger struct {
+	streams []stream
+	heads   [][]uint32 // current entry of each stream (copied)
+	counts  []uint64
+	live    []int // streams not exhausted, kept as a binary heap on heads
+}
+
+func newMerger(streams []stream) (*merger, error) {
+	m := &merger{streams: streams, heads: make([][]uint32, len(streams)), counts: make([]uint64, len(streams))}
+	for i := range streams {
+		m.heads[i] = make([]uint32, 0, tables.MaxOrder)
+		ok, err := m.advance(i)
+		if err != nil {
+			return nil, err
+		}
+		if ok {
+			m.live = append(m.live, i)
+		}
+	}
+	for i := len(m.live)/2 - 1; i >= 0; i-- {
+		m.down(i)
+	}
+	return m, nil
+}
+
+// errStream wraps a stream's error with the stream's index.
+type errStream struct {
+	stream int
+	err    error
+}
+
+func (e *errStream) Error() string { return e.err.Error() }
+func (e *errStream) Unwrap() error { return e.err }
+
+func (m *merger) advance(i int) (bool, error) {
+	ids, n, err := m.streams[i].next()
+	if err == io.EOF {
+		return false, nil
+	}
+	if err != nil {
+		return false, &errStream{i, err}
+	}
+	m.heads[i] = append(m.heads[i][:0], ids...)
+	m.counts[i] = n
+	return true, nil
+}
+
+func (m *merger) less(a, b int) bool {
+	c := compareEntry(m.heads[m.live[a]], m.heads[m.live[b]])
+	return c < 0 || c == 0 && m.live[a] < m.live[b]
+}
+
+func (m *merger) down(i int) {
+	n := len(m.live)
+	for {
+		l := 2*i + 1
+		if l >= n {
+			return
+		}
+		j := l
+		if r := l + 1; r < n && m.less(r, l) {
+			j = r
+		}
+		if !m.less(j, i) {
+			return
+		}
+		m.live[i], m.live[j] = m.live[j], m.live[i]
+		i = j
+	}
+}
+
+// next returns the next distinct entry with its summed count and the
+// lowest-numbered stream that held it, or io.EOF. The ids are valid until
+// the next call.
+func (m *merger) next(out []uint32) ([]uint32, uint64, int, error) {
+	if len(m.live) == 0 {
+		return nil, 0, 0, io.EOF
+	}
+	first := m.live[0]
+	out = append(out[:0], m.heads[first]...)
+	var sum uint64
+	for len(m.live) > 0 && compareEntry(m.heads[m.live[0]], out) == 0 {
+		i := m.live[0]
+		if s := sum + m.counts[i]; s < sum {
+			return nil, 0, i, &errStream{i, fmt.Errorf("count of %d-gram overflows 64 bits", len(out))}
+		} else {
+			sum = s
+		}
+		ok, err := m.advance(i)
+		if err != nil {
+			return nil, 0, i, err
+		}
+		if !ok {
+			last := len(m.live) - 1
+			m.live[0] = m.live[last]
+			m.live = m.live[:last]
+		}
+		m.down(0)
+	}
+	return out, sum, first, nil
+}
+
+// mergeSources merges the text counts gathered in b with binary sources.
+func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []Source) (*Counts, error) {
+	var textCounts *Counts
+	lists := [][]string{}
+	if hasEntries(b) {
+		textCounts = b.finish(nil)
+		lists = append(lists, textCounts.Vocab)
+	}
+	for _, s := range bins {
+		lists = append(lists, s.r.Header().Vocab)
+	}
+	vocab, remaps := unionVocab(lists)
+	start, _ := find(vocab, tables.SentenceStart)
+	var streams []stream
+	var srcOf []int // source index of each stream, -1 for the text counts
+	if textCounts != nil {
+		st, _ := textCounts.ID(tables.SentenceStart)
+		streams = append(streams, &countsStream{c: textCounts, remap: remaps[0], start: st, k: 1, ids: make([]uint32, tables.MaxOrder)})
+		srcOf = append(srcOf, -1)
+		remaps = remaps[1:]
+	}
+	for i, s := range bins {
+		streams = append(streams, &readerStream{r: s.r, remap: remaps[i], ids: make([]uint32, tables.MaxOrder)})
+		srcOf = append(srcOf, s.src)
+	}
+	streamErr := func(err error) error {
+		if es, ok := err.(*errStream); ok {
+			if src := srcOf[es.stream]; src >= 0 {
+				return fmt.Errorf("%s: %w", sources[src].Name, es.err)
+			}
+			return es.err
+		}
+		return err
+	}
+	m, err := newMerger(streams)
+	if err != nil {
+		return nil, streamErr(err)
+	}
+	c := &Counts{Vocab: vocab, Levels: make([]Level, order)}
+	uni := Level{Words: make([]uint32, len(vocab)), Counts: make([]uint64, len(vocab))}
+	for i := range uni.Words {
+		uni.Words[i] = uint32(i)
+	}
+	c.Levels[0] = uni
+	var g []uint32
+	for {
+		var n uint64
+		var from int
+		g, n, from, err = m.next(g)
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return nil, streamErr(err)
+		}
+		k := len(g)
+		if k > order {
+			continue
+		}
+		maxSeen = max(maxSeen, k)
+		if k == 1 {
+			c.Levels[0].Counts[g[0]] = n
+			continue
+		}
+		present := func(sub []uint32) bool {
+			if len(sub) == 1 {
+				return sub[0] == start || c.Levels[0].Counts[sub[0]] > 0
+			}
+			return c.Find(sub) >= 0
+		}
+		miss, sub := "prefix", g[:k-1]
+		if present(sub) {
+			miss, sub = "suffix", g[1:]
+		}
+		if !present(sub) {
+			msg := fmt.Sprintf("%q has no count for its %s %q", joinWords(vocab, g), miss, joinWords(vocab, sub))
+			if src := srcOf[from]; src >= 0 {
+				r := streams[from].(*readerStream).r
+				return nil, fmt.Errorf("%s: entry %d (block at offset %d): %s", sources[src].Name, r.Index(), r.Offset(), msg)
+			}
+			return nil, b.textError(g, vocab, sources, msg)
+		}
+		lv := &c.Levels[k-1]
+		lv.Words = append(lv.Words, g...)
+		lv.Counts = append(lv.Counts, n)
+	}
+	if maxSeen == 0 {
+		return nil, fmt.Errorf("no n-grams in %s", names(sources))
+	}
+	if maxSeen < order {
+		return nil, fmt.Errorf("counts hold orders up to %d, order %d asked", maxSeen, order)
+	}
+	for _, n := range c.Levels[0].Counts {
+		if n > 0 {
+			return c, nil
+		}
+	}
+	return nil, fmt.Errorf("no unigram counts in %s", names(sources))
+}
+
+func hasEntries(b *builder) bool {
+	for k := range b.grams {
+		if b.grams[k].len() > 0 {
+			return true
+		}
+	}
+	return false
+}
+
+// textError reports msg at the text line where the n-gram g (ids of vocab)
+// was first seen.
+func (b *builder) textError(g []uint32, vocab []string, sources []Source, msg string) error {
+	prov := make([]uint32, len(g))
+	for i, id := range g {
+		prov[i] = b.ids[vocab[id]]
+	}
+	t := &b.grams[len(g)-1]
+	if i := b.lookup(prov); i >= 0 {
+		return &text.Error{File: sources[t.file[i]].Name, Line: t.line[i], Msg: msg}
+	}
+	return fmt.Errorf("%s", msg)
+}
+
+func joinWords(vocab []string, g []uint32) string {
+	s := ""
+	for i, id := range g {
+		if i > 0 {
+			s += " "
+		}
+		s += vocab[id]
+	}
+	return s
+}
