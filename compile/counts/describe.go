@@ -16,9 +16,13 @@ type FileInfo struct {
 	Totals        Totals
 }
 
-// IsBinaryFile reports whether the named file starts with the magic of a
-// binary count file.
+// IsBinaryFile reports whether the named file is a regular file that starts
+// with the magic of a binary count file. It never opens anything else (a
+// pipe would block).
 func IsBinaryFile(path string) bool {
+	if fi, err := os.Stat(path); err != nil || !fi.Mode().IsRegular() {
+		return false
+	}
 	f, err := os.Open(path)
 	if err != nil {
 		return false

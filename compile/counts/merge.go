@@ -207,7 +207,7 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 	var textCounts *Counts
 	lists := [][]string{}
 	if hasEntries(b) {
-		textCounts = b.finish(nil)
+		textCounts = b.finish(nil, nil)
 		lists = append(lists, textCounts.Vocab)
 	}
 	for _, s := range bins {

@@ -87,8 +87,8 @@ func TestCountingMapsOutsideWordsAndMerges(t *testing.T) {
 	l := mustList(t, "a", "b", "d")
 	c := countLines(t, 2, l, "a b c", "a x", "a <unk>")
 	want := strings.Join([]string{
-		"</s>\t3", "<unk>\t3", "a\t3", "b\t1",
-		"<s> a\t3", "<unk> </s>\t3", "a <unk>\t2", "a b\t1", "b <unk>\t1",
+		"3\t</s>", "3\t<unk>", "3\ta", "1\tb",
+		"3\t<s> a", "3\t<unk> </s>", "2\ta <unk>", "1\ta b", "1\tb <unk>",
 	}, "\n") + "\n"
 	if diff := cmp.Diff(want, write(c)); diff != "" {
 		t.Errorf("counts (-want +got):\n%s", diff)
