@@ -19,6 +19,12 @@ type Options struct {
 	Trainer Trainer
 
 	weights []float64 // of the order being quantized
+	// fixedBackoffBits keeps BackoffBits even where a context stays more
+	// than MaxResidual from one (tests measure the joint choice alone).
+	fixedBackoffBits bool
+	// nearestOnly rounds each weight to its nearest level and moves no
+	// probability (tests compare the joint choice against it).
+	nearestOnly bool
 }
 
 // DefaultBackoffBits returns the back-off weight width used when none is
@@ -34,10 +40,11 @@ type OrderReport struct {
 	ProbStep        float64 // largest gap between neighbouring levels (log10)
 	ProbMaxError    float64 // largest |quantized - original| (log10)
 	RoundedDown     int     // contexts whose probabilities were all rounded down
+	BackoffBits     int // the width the weights got (at least the asked one; see MaxResidual)
 	BackoffLevels   int
 	BackoffStep     float64
 	BackoffMaxError float64 // against the weights recomputed from quantized probabilities
-	Residual        float64 // largest |sum - 1| of a context, its lower orders taken as exact
+	Residual        float64 // largest |S(h) - 1| of a context of this order, as the quantized model sums
 }
 
 // Model returns a quantized copy of t:
@@ -53,17 +60,23 @@ type OrderReport struct {
 //     probabilities rounded down instead (the added level makes that always
 //     possible);
 //  2. order by order from the lowest, every back-off weight is recomputed
-//     from the quantized probabilities (the back-off formula), so every
-//     context would normalise exactly;
+//     from the quantized probabilities and the quantized lower orders' own
+//     sums (the back-off formula with S(h') in place of one), so every
+//     context would normalise exactly and no lower order's rounding is
+//     passed on;
 //  3. a codebook of 2^BackoffBits - 1 log10 weights is trained on the
 //     weights of contexts that have successors, log10 0 added as an exact
-//     level for those that have none, and every weight replaced by its
-//     nearest level; the rounding is then compensated by moving successors'
-//     probabilities one level where that brings the context's total closer
-//     to one.
+//     level for those that have none; each context's weight level is then
+//     chosen jointly with its successors' probability levels (the nearest
+//     weight level first, then its neighbours; successors moved a level at
+//     a time) so that S(h) lands within ResidualGoal of one where the
+//     levels allow. An order where some context stays further than
+//     MaxResidual from one gets wider weights (two more bits at a
+//     time, up to 16): a representation fine enough where the left-over
+//     mass needs it.
 //
-// What compensation cannot absorb is recorded per order as the residual
-// (Info.Quantization.Residual); see Tolerance.
+// The largest |S(h) - 1| per order is recorded (Info.Quantization.Residual)
+// as a claim; ingot verify measures every sum itself and never reads it.
 func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error) {
 	if opt.BackoffBits == 0 {
 		opt.BackoffBits = DefaultBackoffBits(opt.Bits)
@@ -94,8 +107,12 @@ func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error)
 	}
 	qi := &tables.Quantization{Trainer: string(opt.Trainer), Bits: opt.Bits, BackoffBits: opt.BackoffBits,
 		ProbMaxError: make([]float64, N), BackoffMaxError: make([]float64, N), Residual: make([]float64, N)}
+	sums := &contextSums{}
+	for _, p := range q.Levels[0].LogProb {
+		sums.empty += math.Pow(10, float64(p)) // <s> stores -Inf: adds 0
+	}
 	for k := 1; k < N; k++ {
-		if err := quantizeBackoffs(q, k, opt, probBooks[k], &reports[k-1]); err != nil {
+		if err := quantizeBackoffs(q, k, opt, probBooks[k], sums, &reports[k-1]); err != nil {
 			return nil, nil, err
 		}
 	}
@@ -203,13 +220,60 @@ func maxError(orig []float64, q []float32) float64 {
 	return m
 }
 
-// quantizeBackoffs recomputes the back-off weights of order k from the
-// quantized probabilities, trains their codebook, rounds each weight to its
-// nearest level, and then compensates: it moves the quantized probabilities
-// of the context's successors (order k+1, codebook probs) by one level where
-// that brings the context's total closer to one, so that the weight's
-// rounding costs as little normalisation as the levels allow.
-func quantizeBackoffs(q *tables.Tables, k int, opt Options, probs Codebook, rep *OrderReport) error {
+// ResidualGoal is how close to one the quantizer brings a context's sum
+// S(h) when the levels allow it; the joint choice stops at the first
+// choice this close.
+const ResidualGoal = 1e-5
+
+// MaxResidual is the largest |S(h) - 1| Model leaves in any context: an
+// order whose back-off weights cannot meet it at the asked width is given
+// wider weights (two more bits at a time, up to 16). ingot verify allows
+// ten times this for any model with a quantized column
+// (verify.QuantizedTolerance) and reads nothing from the file to decide
+// it.
+const MaxResidual = 1e-4
+
+// searchWindow is how many back-off levels on each side of the nearest one
+// the joint choice tries.
+const searchWindow = 8
+
+// contextSums holds S(h) = sum over the vocabulary of P(w|h), as the
+// quantized model answers, for every stored context of the orders done so
+// far; empty is S of the empty context.
+type contextSums struct {
+	empty float64
+	order [][]float64 // [k-1][i]
+}
+
+// of returns S(g) for any context g: that of its longest stored suffix
+// (the back-off rule answers an unstored context as that suffix).
+func (s *contextSums) of(q *tables.Tables, g []uint32) float64 {
+	for start := 0; start < len(g); start++ {
+		k := len(g) - start
+		if k-1 >= len(s.order) {
+			continue
+		}
+		if i := q.Find(g[start:]); i >= 0 {
+			return s.order[k-1][i]
+		}
+	}
+	return s.empty
+}
+
+// quantizeBackoffs sets the back-off weights of order k. For each context h
+// it computes the exact weight from the quantized probabilities and the
+// quantized lower orders as they sum, bow(h) = (1 - P(h)) / (S(h') - L(h)),
+// with P(h) the sum of h's stored probabilities, L(h) the lower-order
+// probabilities of the same words and S(h') the sum of the lower context
+// (not taken as one, so no lower order's residual is passed on). It trains
+// the codebook on those weights and then chooses, per context, the weight
+// level and its successors' probability levels together: for the nearest
+// weight level and then its neighbours in turn, the successors are moved a
+// level at a time towards the sum that makes S(h) one, and the first
+// choice within ResidualGoal (or else the best) is kept. When some context
+// stays further than MaxResidual from one, the order's weights are
+// quantized again with two more bits, up to 16.
+func quantizeBackoffs(q *tables.Tables, k int, opt Options, probs Codebook, sums *contextSums, rep *OrderReport) error {
 	ctx, above := &q.Levels[k-1], &q.Levels[k]
 	n := len(ctx.LogBackoff)
 	start := make([]int, n+1) // successors of context i: [start[i], start[i+1])
@@ -222,80 +286,156 @@ func quantizeBackoffs(q *tables.Tables, k int, opt Options, probs Codebook, rep 
 		}
 	}
 	start[n] = j
-	// Pass 1: the exact weights, and the lower-order mass of each context.
+	// Pass 1: the exact weights, and the mass each context backs off with.
 	exact := make([]float64, n)
-	lowerMass := make([]float64, n)
+	mass := make([]float64, n)  // S(h') - L(h)
+	sumP := make([]float64, n)  // P(h)
+	below := make([]float64, n) // S(h')
 	g := make([]uint32, k+1)
 	var train []float64
 	for i := 0; i < n; i++ {
+		below[i] = sums.of(q, q.Gram(k, i)[1:])
 		a, b := start[i], start[i+1]
 		if a == b {
-			exact[i] = 0
 			continue
 		}
-		var sumP, sumL float64
+		var sp, sl float64
 		for x := a; x < b; x++ {
-			sumP += math.Pow(10, float64(above.LogProb[x]))
+			sp += math.Pow(10, float64(above.LogProb[x]))
 			copy(g, q.Gram(k+1, x)[1:])
-			sumL += math.Pow(10, q.LogProb(g[:k]))
+			sl += math.Pow(10, q.LogProb(g[:k]))
 		}
-		lowerMass[i] = sumL
+		sumP[i], mass[i] = sp, below[i]-sl
 		bow := 1.0
-		if sumL < 1-1e-12 {
-			bow = (1 - sumP) / (1 - sumL)
+		if sl < 1-1e-12 {
+			bow = (1 - sp) / mass[i]
 		}
 		exact[i] = math.Log10(bow)
 		train = append(train, exact[i])
 	}
+	original := slices.Clone(above.LogProb)
+	sums.order = append(sums.order, make([]float64, n))
+	for bits := opt.BackoffBits; ; bits = min(bits+2, 16) {
+		worst, err := chooseBackoffs(q, k, bits, opt, probs, start, exact, mass, below, sums.order[k-1], rep)
+		if err != nil {
+			return err
+		}
+		if worst <= MaxResidual || bits == 16 || opt.fixedBackoffBits {
+			break
+		}
+		copy(above.LogProb, original)
+	}
+	return nil
+}
+
+// chooseBackoffs trains a codebook of 2^bits - 1 weights (plus log10 0
+// exact) for order k, chooses each context's level jointly with its
+// successors' levels, records each context's sum in sums, and returns the
+// largest |S(h) - 1|.
+func chooseBackoffs(q *tables.Tables, k, bits int, opt Options, probs Codebook, start []int, exact, mass, below, sums []float64, rep *OrderReport) (float64, error) {
+	ctx, above := &q.Levels[k-1], &q.Levels[k]
+	n := len(ctx.LogBackoff)
+	var train []float64
+	for i := 0; i < n; i++ {
+		if start[i] < start[i+1] {
+			train = append(train, exact[i])
+		}
+	}
 	levels := []float32{0}
 	if len(train) > 0 {
-		cb, err := Train(train, 1<<opt.BackoffBits-1, opt.Trainer)
+		cb, err := Train(train, 1<<bits-1, opt.Trainer)
 		if err != nil {
-			return fmt.Errorf("quantize: back-off weights of order %d: %w", k, err)
+			return 0, fmt.Errorf("quantize: back-off weights of order %d: %w", k, err)
 		}
 		levels = append(levels, cb.Values...)
 		slices.Sort(levels)
 		levels = slices.Compact(levels)
 	}
 	cb := Codebook{Values: levels}
-	// Pass 2: round each weight and compensate with the successors.
-	var maxErr, maxResidual float64
+	var maxErr, worst float64
+	var trial, best []float32
+	comp := newCompensator(probs)
 	for i := 0; i < n; i++ {
 		a, b := start[i], start[i+1]
 		if a == b {
 			ctx.LogBackoff[i] = 0
+			sums[i] = below[i]
 			continue
 		}
-		bq := cb.Values[cb.Index(float32(exact[i]))]
+		near := cb.index(exact[i])
+		bestJ, bestR := near, math.Inf(1)
+		best = append(best[:0], above.LogProb[a:b]...)
+		trial = append(trial[:0], above.LogProb[a:b]...)
+		sum0 := comp.start(above.LogProb[a:b])
+		window := searchWindow
+		if opt.nearestOnly {
+			window = -1
+			bestR = math.Abs(sum0 - 1 + math.Pow(10, float64(cb.Values[near]))*mass[i])
+		}
+		for d := 0; d <= window && bestR > ResidualGoal; d++ {
+			for _, j := range [2]int{near - d, near + d} {
+				if j < 0 || j >= cb.Len() || (d == 0 && j != near) || bestR <= ResidualGoal {
+					continue
+				}
+				target := 1 - math.Pow(10, float64(cb.Values[j]))*mass[i]
+				if r := comp.move(trial, sum0, target); r < bestR {
+					bestJ, bestR = j, r
+					best = append(best[:0], trial...)
+				}
+			}
+		}
+		copy(above.LogProb[a:b], best)
+		bq := cb.Values[bestJ]
 		ctx.LogBackoff[i] = bq
 		maxErr = max(maxErr, math.Abs(float64(bq)-exact[i]))
-		if lowerMass[i] >= 1-1e-12 {
-			continue // followed by every word: weight 1, nothing backs off
+		var sp float64
+		for _, v := range best {
+			sp += math.Pow(10, float64(v))
 		}
-		target := 1 - float64(math.Pow(10, float64(bq))*(1-lowerMass[i]))
-		maxResidual = max(maxResidual, compensate(above.LogProb[a:b], probs, target))
+		sums[i] = sp + math.Pow(10, float64(bq))*mass[i]
+		worst = max(worst, math.Abs(sums[i]-1))
 	}
+	rep.BackoffBits = bits
 	rep.BackoffLevels = cb.Len()
 	rep.BackoffStep = cb.LargestGap()
 	rep.BackoffMaxError = maxErr
-	rep.Residual = maxResidual
+	rep.Residual = worst
 	ctx.BackoffCodebook = cb.Values
-	return nil
+	return worst, nil
 }
 
-// compensate moves values (log10 probabilities, each a level of cb) by one
-// level at a time, largest first, while that brings the sum of their
-// probabilities closer to target; it returns the remaining |sum - target|.
-func compensate(values []float32, cb Codebook, target float64) float64 {
+// compensator moves successors' probability levels so that a context's
+// sum reaches a target. It holds the codebook's levels as probabilities
+// and scratch space, so that trying several targets for one context costs
+// no allocation and no powers.
+type compensator struct {
+	cb    Codebook
+	pow   []float64 // pow[j] = 10^cb.Values[j]
+	idx   []int     // the levels of the values being moved
+	work  []int     // their levels during a move
+	order []int     // their positions, largest value first
+}
+
+func newCompensator(cb Codebook) *compensator {
+	c := &compensator{cb: cb, pow: make([]float64, cb.Len())}
+	for j, v := range cb.Values {
+		c.pow[j] = math.Pow(10, float64(v))
+	}
+	return c
+}
+
+// start prepares to move values (log10 probabilities, each a level of the
+// codebook) and returns the sum of their probabilities.
+func (c *compensator) start(values []float32) float64 {
+	c.idx, c.order = c.idx[:0], c.order[:0]
 	var sum float64
-	for _, v := range values {
-		sum += math.Pow(10, float64(v))
+	for i, v := range values {
+		j := c.cb.Index(v)
+		c.idx = append(c.idx, j)
+		c.order = append(c.order, i)
+		sum += c.pow[j]
 	}
-	order := make([]int, len(values))
-	for i := range order {
-		order[i] = i
-	}
-	slices.SortFunc(order, func(a, b int) int {
+	slices.SortFunc(c.order, func(a, b int) int {
 		switch {
 		case values[a] > values[b]:
 			return -1
@@ -304,55 +444,51 @@ func compensate(values []float32, cb Codebook, target float64) float64 {
 		}
 		return a - b
 	})
+	return sum
+}
+
+// move moves the prepared values (whose probabilities sum to sum) by one
+// level at a time, largest first, for up to four passes, while that brings
+// the sum closer to target without reaching one (a context keeps mass to
+// back off with); it writes the chosen levels into out and returns the
+// remaining |sum - target|.
+func (c *compensator) move(out []float32, sum, target float64) float64 {
+	c.work = append(c.work[:0], c.idx...)
 	for pass := 0; pass < 4; pass++ {
-		moved := false
-		for _, x := range order {
+		changed := false
+		for _, x := range c.order {
 			d := target - sum
-			j := cb.Index(values[x])
-			cur := math.Pow(10, float64(values[x]))
+			j := c.work[x]
 			next := j + 1
 			if d < 0 {
 				next = j - 1
 			}
-			if next < 0 || next >= cb.Len() {
+			if next < 0 || next >= len(c.pow) {
 				continue
 			}
-			delta := math.Pow(10, float64(cb.Values[next])) - cur
+			delta := c.pow[next] - c.pow[j]
 			if math.Abs(d-delta) < math.Abs(d) && sum+delta < 1 {
-				values[x] = cb.Values[next]
+				c.work[x] = next
 				sum += delta
-				moved = true
+				changed = true
 			}
 		}
-		if !moved {
+		if !changed {
 			break
 		}
+	}
+	for x, j := range c.work {
+		out[x] = c.cb.Values[j]
 	}
 	return math.Abs(sum - target)
 }
 
-// Tolerance returns how far from one a context's total probability may be
-// in a quantized model. For a context h of order k,
-//
-//	S(h) - 1 = r(h) + bow(h) (S(h') - 1)
-//
-// where r(h) is the context's own residual (what rounding left after
-// compensation, recorded per order at quantization as R_k) and the error
-// inherited from the lower order is scaled by the weight, at most 10^top_k.
-// With t_0 = base, the float tolerance of an unquantized model:
-//
-//	t_k = R_k + max(1, 10^top_k) t_{k-1}
-//
-// and the tolerance is the largest t_k, plus base for float rounding.
-// residual[k-1] is R_k; tops[k-1] is the largest log10 weight of order k
-// (its codebook's top level).
-func Tolerance(base float64, residual, tops []float64) float64 {
-	t, worst := base, base
-	for k := range residual {
-		t = residual[k] + base + math.Max(1, math.Pow(10, tops[k]))*t
-		worst = max(worst, t)
-	}
-	return worst
+// compensate moves values (log10 probabilities, each a level of cb) by one
+// level at a time, largest first, while that brings the sum of their
+// probabilities closer to target; it returns the remaining |sum - target|.
+func compensate(values []float32, cb Codebook, target float64) float64 {
+	c := newCompensator(cb)
+	return c.move(values, c.start(values), target)
 }
 
 // Placeholder returns tables shaped like the output of Model(t, opt) but

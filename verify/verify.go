@@ -3,7 +3,6 @@ package verify
 import (
 	"errors"
 	"fmt"
-	"ingot/quantize"
 	"os"
 
 	"ingot/format"
@@ -17,40 +16,37 @@ type Options struct {
 }
 
 // DefaultTolerance returns the largest |S(h) - 1| allowed for m when no
-// tolerance is given.
+// tolerance is given. It depends only on how the values are stored, which
+// the structure of the file shows (a column is plain float32 or packed
+// codebook indexes); nothing the file says about itself (its build
+// information, recorded residuals or error bounds) enters it, so a file
+// cannot choose how strictly it is checked.
 //
 // For a model stored in 32-bit floats it is 1e-5 (UnquantizedTolerance):
 // each sum adds float32 values, each rounded to within 2^-24 of its log10
 // (6e-8 relative), so a model normalised in float64 sums to one far within
 // it; a deviation above it means a wrong weight, not rounding.
 //
-// For a quantized model it comes from the quantization itself (see
-// quantize.Tolerance): quantizing recomputes the back-off weights from the
-// quantized probabilities, so only the rounding of the weights to their
-// codebook levels moves a sum, and what compensation could not absorb is
-// recorded per order in the build information (the residual R_k). With
-// the top level of each order's back-off codebook bounding how much a
-// context scales the error it inherits, t_k = R_k + 1e-5 + max(1,
-// 10^top_k) t_{k-1}, t_0 = 1e-5, and the tolerance is the largest t_k.
+// For a model with any quantized column it is 1e-3 (QuantizedTolerance).
+// Quantizing does not make a model un-normalised by itself: for each
+// context h the sum is S(h) = P(h) + bow(h) (S(h') - L(h)) (P(h) the stored
+// probabilities of h's successors, L(h) their lower-order probabilities),
+// and a quantizer that knows S(h') can choose the weight level and the
+// successors' levels together so that S(h) lands as close to one as the
+// levels allow; with up to 16-bit weights the rounding of one weight moves
+// S(h) by at most (1 - P(h)) (10^(g/2) - 1) for a gap g between weight
+// levels, below 1e-4 for the gaps a 16-bit codebook leaves. ingot's
+// quantizer keeps every context within 1e-4; the tolerance leaves a factor
+// of ten for other producers' rounding, and is still 30 times below the
+// deviation of the smallest change a broken weight makes at 8 bits (one
+// codebook level, about 2% of the left-over mass).
 func DefaultTolerance(m *format.Model) float64 {
-	q := m.Info().Quantization
-	if q == nil {
-		return UnquantizedTolerance
-	}
-	N := m.Order()
-	residual := make([]float64, N-1)
-	tops := make([]float64, N-1)
-	for k := 1; k < N; k++ {
-		if k-1 < len(q.Residual) {
-			residual[k-1] = q.Residual[k-1]
-		}
-		if cb := m.Codebook(k, true); len(cb) > 0 {
-			tops[k-1] = float64(cb[len(cb)-1])
-		} else {
-			tops[k-1] = maxBackoff(m, k)
+	for k := 1; k <= m.Order(); k++ {
+		if m.Codebook(k, false) != nil || m.Codebook(k, true) != nil {
+			return QuantizedTolerance
 		}
 	}
-	return quantize.Tolerance(UnquantizedTolerance, residual, tops)
+	return UnquantizedTolerance
 }
 
 // UnquantizedTolerance is the normalisation tolerance of a model stored in
@@ -58,16 +54,9 @@ func DefaultTolerance(m *format.Model) float64 {
 // within about 1e-6 of one.
 const UnquantizedTolerance = 1e-5
 
-// maxBackoff returns the largest log10 back-off weight of order k.
-func maxBackoff(m *format.Model, k int) float64 {
-	top := 0.0
-	for i := 0; i < m.Count(k); i++ {
-		if b := float64(m.LogBackoffAt(k, i)); b > top {
-			top = b
-		}
-	}
-	return top
-}
+// QuantizedTolerance is the normalisation tolerance of a model with any
+// column stored as codebook indexes; see DefaultTolerance.
+const QuantizedTolerance = 1e-3
 
 // UnreadableError reports a file that verify cannot read as a model at all:
 // it cannot be read, it is too short to hold the magic, its magic is wrong

@@ -60,8 +60,9 @@ k-means (least-squares: Wang & Song 2011, least squared error) or by cutting
 the values into levels of equal weight (equal-mass).
 Back-off weights are recomputed from the quantized probabilities before they
 are quantized themselves, and their rounding is compensated where the
-levels allow, so every context still sums to one within the tolerance that
-'ingot verify' derives from the model (see the README).`,
+levels allow, so every context still sums to one within 1e-4 (an order's
+back-off codebook is widened where that needs it); 'ingot verify' allows
+1e-3 for any quantized model (see the README).`,
 		Example: `  ingot quantize --bits 8 -o field-q8.ingot field.ingot
   ingot quantize --bits 4 --backoff-bits 6 --heldout dev.txt -o tiny.ingot field.ingot`,
 		Args: cobra.ExactArgs(1),

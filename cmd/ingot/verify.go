@@ -53,8 +53,8 @@ func newVerifyCmd() *cobra.Command {
   suffix-closure  a model flagged suffix-closed is
   normalisation   the empty context and every stored context h give the
                   vocabulary (all words but <s>) total probability
-                  S(h) = 1 within the tolerance (default 1e-5; for a
-                  quantized model, the bound its quantization recorded)
+                  S(h) = 1 within the tolerance (default 1e-5; 1e-3 for
+                  a model with quantized columns, whatever it records)
 
 A check that needs a sound file is "not run" when an earlier one fails; a
 damaged file never crashes verify, and each problem names the section and
@@ -85,7 +85,7 @@ Exit codes: 0 every check passed, 1 a check failed (named in the message),
 	}
 	fl := cmd.Flags()
 	fl.BoolVar(&f.asJSON, "json", false, "print the report as one JSON object")
-	fl.Float64Var(&f.tolerance, "tolerance", 0, "largest |S(h) - 1| allowed for any context (default: 1e-5, or the bound a quantized model records)")
+	fl.Float64Var(&f.tolerance, "tolerance", 0, "largest |S(h) - 1| allowed for any context (default: 1e-5, or 1e-3 for a quantized model)")
 	fl.StringVar(&f.publicKey, "public-key", "", "also check the model's signature against this public key (from 'ingot keygen')")
 	fl.StringVar(&f.baseline, "baseline", "", "the model this one replaces: compare them on --heldout")
 	fl.StringVar(&f.heldout, "heldout", "", "held-out text for the release gate, one sentence per line (.gz/.zst read directly)")
