@@ -40,7 +40,7 @@ type OrderReport struct {
 	ProbStep        float64 // largest gap between neighbouring levels (log10)
 	ProbMaxError    float64 // largest |quantized - original| (log10)
 	RoundedDown     int     // contexts whose probabilities were all rounded down
-	BackoffBits     int // the width the weights got (at least the asked one; see MaxResidual)
+	BackoffBits     int     // the width the weights got (at least the asked one; see MaxResidual)
 	BackoffLevels   int
 	BackoffStep     float64
 	BackoffMaxError float64 // against the weights recomputed from quantized probabilities
