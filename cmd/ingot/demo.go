@@ -124,8 +124,22 @@ func runDemo(ctx context.Context, stdout, stderr io.Writer, dir string) error {
 			}
 		}
 	}
-	fmt.Fprintf(stdout, "\nDone. %s is the shipped model: pruned to the budget, quantized, verified and signed.\nTry: ingot inspect --next \"turn the\" %s\n", path("device.ingot"), path("device.ingot"))
+	fmt.Fprintf(stdout, "\nDone. %s is the shipped model: pruned to the budget, quantized, verified and signed.\nTry: %s inspect --next \"turn the\" %s\n", path("device.ingot"), invokedAs(os.Args[0]), path("device.ingot"))
 	return nil
+}
+
+// invokedAs is how to run ingot again the way it was run now, so that the
+// demo's closing hint works as printed: "go run ./cmd/ingot" under go run
+// (whose binary lives in a temporary build directory), the path as typed
+// for a binary run by path, and the bare name for one found on PATH.
+func invokedAs(arg0 string) string {
+	switch {
+	case strings.Contains(filepath.ToSlash(arg0), "/go-build"):
+		return "go run ./cmd/ingot"
+	case strings.ContainsRune(arg0, filepath.Separator) || strings.ContainsRune(arg0, '/'):
+		return arg0
+	}
+	return filepath.Base(arg0)
 }
 
 // outputOf returns the value of -o in args, if any.

@@ -1,9 +1,12 @@
 package main
 
 import (
+	"fmt"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"ingot/format"
 )
 
 // Every renamed flag is refused by its old spelling with a message that
@@ -22,5 +25,17 @@ func TestRenamedFlagsNameTheNewSpelling(t *testing.T) {
 		if err != nil || c.Flags().Lookup(strings.TrimPrefix(renamed, "--")) == nil {
 			t.Errorf("%s: command has no flag %s", key, renamed)
 		}
+	}
+}
+
+// --version names the format versions the reader and the writer handle, as
+// the format package reports them.
+func TestVersionReportsFormatVersions(t *testing.T) {
+	code, out, _ := ingot(t, "--version")
+	oldest, newest := format.ReadVersions()
+	floats, _ := format.WrittenVersions()
+	want := fmt.Sprintf("reads versions %d to %d, writes %d", oldest, newest, floats)
+	if code != 0 || !strings.HasPrefix(out, "ingot "+version+";") || !strings.Contains(out, want) {
+		t.Errorf("--version: exit %d, %q; want %q", code, out, want)
 	}
 }

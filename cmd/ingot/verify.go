@@ -34,7 +34,7 @@ type verifyFlags struct {
 func newVerifyCmd() *cobra.Command {
 	var f verifyFlags
 	cmd := &cobra.Command{
-		Use:   "verify [--json] [--tolerance T] MODEL [--baseline OLD --heldout TEXT [--max-ppl-increase PCT]]",
+		Use:   "verify [--json] [--tolerance T] MODEL [--baseline OLD --heldout TEXT [--max-perplexity-increase PCT]]",
 		Short: "Prove a model file intact and normalised; gate a release against the previous model",
 		Long: `Check every byte of a model file and that it is a proper model:
 
@@ -66,7 +66,7 @@ since.
 
 With --baseline and --heldout, verify also gates a release: it scores the
 held-out text with both models and fails the check "release-gate" when the
-candidate's perplexity is more than --max-ppl-increase percent (default 1)
+candidate's perplexity is more than --max-perplexity-increase percent (default 1)
 above the baseline's. It also reports the n-grams added, removed and changed
 (compared by their words) and the mean KL(baseline || candidate), in nats,
 between the two models' next-word distributions at every held-out
@@ -77,7 +77,7 @@ Exit codes: 0 every check passed, 1 a check failed (named in the message),
 		Example: `  ingot verify field.ingot
   ingot verify --json field.ingot
   ingot verify --public-key release.pub field.ingot
-  ingot verify new.ingot --baseline shipped.ingot --heldout dev.txt --max-ppl-increase 0.5`,
+  ingot verify new.ingot --baseline shipped.ingot --heldout dev.txt --max-perplexity-increase 0.5`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			return runVerify(cmd, args[0], &f)
@@ -89,7 +89,7 @@ Exit codes: 0 every check passed, 1 a check failed (named in the message),
 	fl.StringVar(&f.publicKey, "public-key", "", "also check the model's signature against this public key (from 'ingot keygen')")
 	fl.StringVar(&f.baseline, "baseline", "", "the model this one replaces: compare them on --heldout")
 	fl.StringVar(&f.heldout, "heldout", "", "held-out text for the release gate, one sentence per line (.gz/.zst read directly)")
-	fl.Float64Var(&f.maxIncrease, "max-ppl-increase", gate.DefaultMaxIncreasePercent, "largest perplexity increase over the baseline, in percent, that the release gate accepts")
+	fl.Float64Var(&f.maxIncrease, "max-perplexity-increase", gate.DefaultMaxIncreasePercent, "largest perplexity increase over the baseline, in percent, that the release gate accepts")
 	return cmd
 }
 
@@ -99,14 +99,14 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 		return fmt.Errorf("verify: --tolerance %v must be a number above 0", f.tolerance)
 	}
 	if math.IsNaN(f.maxIncrease) || math.IsInf(f.maxIncrease, 0) {
-		return fmt.Errorf("verify: --max-ppl-increase %v must be a finite number of percent", f.maxIncrease)
+		return fmt.Errorf("verify: --max-perplexity-increase %v must be a finite number of percent", f.maxIncrease)
 	}
 	gated := f.baseline != "" || f.heldout != ""
 	if gated && (f.baseline == "" || f.heldout == "") {
 		return fmt.Errorf("verify: the release gate needs both --baseline and --heldout")
 	}
-	if fl.Changed("max-ppl-increase") && !gated {
-		return fmt.Errorf("verify: --max-ppl-increase needs --baseline and --heldout")
+	if fl.Changed("max-perplexity-increase") && !gated {
+		return fmt.Errorf("verify: --max-perplexity-increase needs --baseline and --heldout")
 	}
 
 	// Open the gate's inputs first, so that bad usage fails before the work.

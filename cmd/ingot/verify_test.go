@@ -117,7 +117,7 @@ func TestVerifyBadUsageExitsTwo(t *testing.T) {
 		{[]string{"verify"}, "argument(s) given; usage: ingot "},
 		{[]string{"verify", "--tolerance", "-1", good}, "--tolerance -1 must be a number above 0"},
 		{[]string{"verify", "--baseline", good, good}, "needs both --baseline and --heldout"},
-		{[]string{"verify", "--max-ppl-increase", "2", good}, "--max-ppl-increase needs --baseline"},
+		{[]string{"verify", "--max-perplexity-increase", "2", good}, "--max-perplexity-increase needs --baseline"},
 		{[]string{"verify", "--baseline", text, "--heldout", heldout, good}, "notes.txt"},
 		{[]string{"verify", "--baseline", good, "--heldout", filepath.Join(dir, "none.txt"), good}, "none.txt"},
 	} {
@@ -145,7 +145,7 @@ func TestVerifyReleaseGate(t *testing.T) {
 		t.Errorf("order 1 against order 3: exit %d, stderr %q\n%s", code, e, out)
 	}
 	// A limit the regression fits under lets it pass.
-	if code, _, e := ingot(t, "verify", unigram, "--baseline", good, "--heldout", heldout, "--max-ppl-increase", "100000"); code != 0 {
+	if code, _, e := ingot(t, "verify", unigram, "--baseline", good, "--heldout", heldout, "--max-perplexity-increase", "100000"); code != 0 {
 		t.Errorf("generous limit: exit %d, %s", code, e)
 	}
 }

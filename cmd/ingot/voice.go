@@ -6,12 +6,15 @@ import (
 	"strings"
 
 	"github.com/spf13/cobra"
+
+	"ingot/format"
 )
 
 // inOurVoice words the framework's own refusals (a wrong number of
 // arguments, an unknown command) like every other message, and gives the
 // commands the framework adds (help, completion) an example.
 func inOurVoice(root *cobra.Command) {
+	root.SetVersionTemplate(versionLine())
 	root.InitDefaultHelpCmd()
 	root.InitDefaultCompletionCmd()
 	for _, c := range root.Commands() {
@@ -75,10 +78,11 @@ var requiredFlags = regexp.MustCompile(`^required flag\(s\) (.*) not set$`)
 // renamedFlags maps "COMMAND --old" to the flag's name since version 0.2,
 // so that a script using an old spelling fails with a pointer to the new.
 var renamedFlags = map[string]string{
-	"prune --threshold":     "--drop-below",
-	"tradeoff --thresholds": "--drop-below",
-	"quantize --bow-bits":   "--backoff-bits",
-	"prune --bow-bits":      "--backoff-bits",
+	"prune --threshold":         "--drop-below",
+	"tradeoff --thresholds":     "--drop-below",
+	"quantize --bow-bits":       "--backoff-bits",
+	"prune --bow-bits":          "--backoff-bits",
+	"verify --max-ppl-increase": "--max-perplexity-increase",
 }
 
 // renamedFlag returns the message for an unknown flag that was renamed.
@@ -92,4 +96,16 @@ func renamedFlag(c *cobra.Command, err error) (string, bool) {
 		return "", false
 	}
 	return fmt.Sprintf("%s is now called %s", old, renamed), true
+}
+
+// versionLine is what --version prints: the tool's version and the model
+// file format versions it reads and writes.
+func versionLine() string {
+	oldest, newest := format.ReadVersions()
+	floats, quantized := format.WrittenVersions()
+	writes := fmt.Sprintf("%d", floats)
+	if quantized != floats {
+		writes = fmt.Sprintf("%d (32-bit floats) and %d (quantized)", floats, quantized)
+	}
+	return fmt.Sprintf("ingot %s; model file format: reads versions %d to %d, writes %s\n", version, oldest, newest, writes)
 }
