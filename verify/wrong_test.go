@@ -91,7 +91,7 @@ func mustFailNaming(t *testing.T, data []byte, want string) *Report {
 // changes its sum the most.
 func TestQuantizedWeightOneLevelOffFails(t *testing.T) {
 	tb := build(t, sotu(t, 2000), 3, estimate.Options{Method: estimate.KneserNey})
-	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.Optimal})
+	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -176,7 +176,7 @@ func TestBuildInfoClaimsChangeNothing(t *testing.T) {
 
 	// A quantized model gets QuantizedTolerance whatever it records: none,
 	// tiny or huge residuals.
-	q, _, err := quantize.Model(tb, quantize.Options{Bits: 4, Trainer: quantize.Optimal})
+	q, _, err := quantize.Model(tb, quantize.Options{Bits: 4, Trainer: quantize.LeastSquares})
 	if err != nil {
 		t.Fatal(err)
 	}
