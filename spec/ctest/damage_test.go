@@ -1,0 +1,212 @@
+package ctest
+
+import (
+	"encoding/binary"
+	"fmt"
+	"hash/crc32"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// demoHeldOut is text the damaged models are used on: the first lines of
+// the demo's held-out text (the damage runs use every damaged copy on it,
+// so it is kept short).
+func demoHeldOut(t *testing.T, lines int) string {
+	t.Helper()
+	b, err := os.ReadFile(filepath.Join(tools(t).root, "cmd/ingot/demodata/heldout.txt"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	all := strings.SplitAfter(string(b), "\n")
+	return strings.Join(all[:min(lines, len(all))], "")
+}
+
+// tally is one line of the driver's damage report.
+type tally struct {
+	kind                    string
+	tried, atOpen, byCheck int
+}
+
+func parseTallies(t *testing.T, out string) map[string]tally {
+	t.Helper()
+	m := map[string]tally{}
+	for _, line := range strings.Split(strings.TrimSpace(out), "\n") {
+		var c tally
+		if _, err := fmt.Sscanf(line, "%s tried %d refused_at_open %d refused_by_check %d", &c.kind, &c.tried, &c.atOpen, &c.byCheck); err != nil {
+			t.Fatalf("driver output %q: %v", line, err)
+		}
+		m[c.kind] = c
+	}
+	return m
+}
+
+// Every single-bit flip of the whole file (header, directory, every
+// section, padding) and every truncation of the corruption matrix's models
+// and of the golden model is refused, at open or by ingot_check; and every
+// damaged copy that opens, checks or not, is used (every word looked up,
+// text scored) under the address and undefined-behaviour sanitizers
+// without a report. So are random 32-bit overwrites inside sections, also
+// with every checksum and the digest recomputed as an attacker would, so
+// that only the reader's bounds checks stand.
+//
+// A CRC whose generator has more than one term detects every single-bit
+// error (W. W. Peterson and D. T. Brown (1961), "Cyclic codes for error
+// detection", Proc. IRE 49(1); recalled from memory), which is why every
+// flip inside a section must be found.
+func TestDamagedCopies(t *testing.T) {
+	p := tools(t)
+	text := demoHeldOut(t, 6)
+	models := append(demoModels(t), testModel{"golden", filepath.Join(p.root, "spec/golden/tiny.ingot"), nil})
+	for i, m := range models {
+		t.Run(m.name, func(t *testing.T) {
+			r := run(t, text, true, p.driverASan, "damage", m.path, fmt.Sprint(i+1))
+			if r.code != 0 {
+				t.Fatalf("driver exit %d:\n%s", r.code, r.stderr)
+			}
+			got := parseTallies(t, r.stdout)
+			info, err := os.Stat(m.path)
+			if err != nil {
+				t.Fatal(err)
+			}
+			size := int(info.Size())
+			if f := got["flip"]; f.tried != 8*size || f.atOpen+f.byCheck != f.tried {
+				t.Errorf("bit flips: %+v; want all %d refused", f, 8*size)
+			}
+			if c := got["truncation"]; c.tried != size || c.atOpen != c.tried {
+				t.Errorf("truncations: %+v; want all %d refused at open", c, size)
+			}
+			if o := got["overwrite"]; o.tried == 0 || o.atOpen+o.byCheck < o.tried*95/100 {
+				// An overwrite that writes the value already there
+				// changes nothing; any other is refused.
+				t.Errorf("overwrites: %+v; want nearly all refused", o)
+			}
+			if s := got["resealed"]; s.tried == 0 || s.byCheck != 0 {
+				t.Errorf("resealed overwrites: %+v; want each used, none refused by the checksums", s)
+			}
+			t.Logf("%s (%d bytes): %v", m.name, size, got)
+		})
+	}
+}
+
+// sectionSpan returns the offset and length of the section of the given
+// kind and order of a model file.
+func sectionSpan(t *testing.T, data []byte, kind, order uint32) (int, int) {
+	t.Helper()
+	s := binary.LittleEndian.Uint32(data[12:])
+	for j := range s {
+		e := data[64+32*j:]
+		if binary.LittleEndian.Uint32(e) == kind && binary.LittleEndian.Uint32(e[8:]) == order {
+			return int(binary.LittleEndian.Uint64(e[16:])), int(binary.LittleEndian.Uint64(e[24:]))
+		}
+	}
+	t.Fatalf("no section of kind %d and order %d", kind, order)
+	return 0, 0
+}
+
+// write puts data in a new file of the test's temporary directory.
+func write(t *testing.T, name string, data []byte) string {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), name)
+	if err := os.WriteFile(path, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return path
+}
+
+func flipped(data []byte, at int, bit uint) []byte {
+	c := append([]byte(nil), data...)
+	c[at] ^= 1 << bit
+	return c
+}
+
+// The example program's contract (issue: exit 1 naming the damaged
+// section, 2 on an unreadable file or bad input, --no-checksums reads a
+// damaged file), with and without the sanitizers.
+func TestScoreProgramContract(t *testing.T) {
+	p := tools(t)
+	models := demoModels(t)
+	plain := models[0].data
+	off, n := sectionSpan(t, plain, 5, 2) // last words of order 2
+	lastWords := write(t, "last-words.ingot", flipped(plain, off+n/2, 3))
+	qdata := models[1].data
+	qoff, qn := sectionSpan(t, qdata, 6, 3) // packed probabilities of order 3
+	packed := write(t, "packed.ingot", flipped(qdata, qoff+qn-1, 0))
+	future := append([]byte(nil), plain...)
+	binary.LittleEndian.PutUint32(future[8:], 9)
+	s := binary.LittleEndian.Uint32(future[12:])
+	crc := crc32.Update(crc32.Checksum(future[:60], crc32.MakeTable(crc32.Castagnoli)), crc32.MakeTable(crc32.Castagnoli), future[64:64+32*s])
+	binary.LittleEndian.PutUint32(future[60:], crc)
+	cases := []struct {
+		name   string
+		args   []string
+		stdin  string
+		code   int
+		stderr string
+	}{
+		{"intact", []string{models[0].path}, "turn the camera on\n", 0, ""},
+		{"damaged last words", []string{lastWords}, "turn the camera on\n", 1, "last words of order 2"},
+		{"damaged last words, no checksums", []string{"--no-checksums", lastWords}, "turn the camera on\n", 0, ""},
+		{"damaged packed column", []string{packed}, "turn the camera on\n", 1, "probabilities of order 3"},
+		{"damaged packed column, no checksums", []string{"--no-checksums", packed}, "turn the camera on\n", 0, ""},
+		{"flipped header", []string{write(t, "header.ingot", flipped(plain, 20, 1))}, "", 2, "header"},
+		{"truncated", []string{write(t, "cut.ingot", plain[:len(plain)-8])}, "", 2, "truncated"},
+		{"future version", []string{write(t, "future.ingot", future)}, "", 2, "version 9"},
+		{"not a model", []string{write(t, "text.txt", []byte("turn the camera on\n"))}, "", 2, "not an ingot model file"},
+		{"missing", []string{filepath.Join(t.TempDir(), "absent.ingot")}, "", 2, "absent.ingot"},
+		{"a directory", []string{t.TempDir()}, "", 2, "not a regular file"},
+		{"invalid UTF-8", []string{models[0].path}, "turn the camera on\nturn \xff on\n", 2, "stdin:2: invalid UTF-8"},
+		{"no model", nil, "", 2, "usage"},
+		{"unknown option", []string{"--fast", models[0].path}, "", 2, "unknown option --fast"},
+	}
+	for _, c := range cases {
+		for _, sanitizer := range []bool{false, true} {
+			prog, name := p.score, c.name
+			if sanitizer {
+				prog, name = p.scoreASan, name+"/sanitized"
+			}
+			t.Run(name, func(t *testing.T) {
+				r := run(t, c.stdin, sanitizer, prog, c.args...)
+				if r.code != c.code || !strings.Contains(r.stderr, c.stderr) {
+					t.Fatalf("exit %d, stderr %q; want exit %d and %q", r.code, r.stderr, c.code, c.stderr)
+				}
+				if c.code == 0 && strings.Count(r.stdout, "\n") != strings.Count(c.stdin, "\n") {
+					t.Fatalf("output %q", r.stdout)
+				}
+			})
+		}
+	}
+}
+
+// The score program itself, sanitized, on damaged files on disk: sampled
+// single-bit flips in every section of the corruption matrix's models
+// are refused (exit 1, naming a section, or 2 when open finds them), and
+// with --no-checksums every file that opens is scored without a
+// sanitizer report.
+func TestScoreProgramOnDamagedFiles(t *testing.T) {
+	p := tools(t)
+	text := demoHeldOut(t, 300)
+	rng := rand.New(rand.NewPCG(14, 14))
+	for _, m := range demoModels(t) {
+		s := binary.LittleEndian.Uint32(m.data[12:])
+		for j := range s {
+			e := m.data[64+32*j:]
+			off, n := int(binary.LittleEndian.Uint64(e[16:])), int(binary.LittleEndian.Uint64(e[24:]))
+			if n == 0 {
+				continue
+			}
+			at := off + rng.IntN(n)
+			path := write(t, "damaged.ingot", flipped(m.data, at, uint(rng.IntN(8))))
+			r := run(t, text, true, p.scoreASan, path)
+			if !(r.code == 1 && strings.Contains(r.stderr, "damaged:") || r.code == 2) {
+				t.Errorf("%s, byte %d flipped: exit %d, %q; want it refused", m.name, at, r.code, r.stderr)
+			}
+			r = run(t, text, true, p.scoreASan, "--no-checksums", path)
+			if r.code != 0 && r.code != 2 {
+				t.Errorf("%s, byte %d flipped, no checksums: exit %d, %q", m.name, at, r.code, r.stderr)
+			}
+		}
+	}
+}
