@@ -26,7 +26,7 @@ func demoHeldOut(t *testing.T, lines int) string {
 
 // tally is one line of the driver's damage report.
 type tally struct {
-	kind                    string
+	kind                   string
 	tried, atOpen, byCheck int
 }
 

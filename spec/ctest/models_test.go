@@ -69,7 +69,7 @@ func corpusModels(t testing.TB) ([]testModel, string) {
 			if err != nil {
 				return err
 			}
-			q8, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.Optimal})
+			q8, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
 			if err != nil {
 				return err
 			}
@@ -83,7 +83,7 @@ func corpusModels(t testing.TB) ([]testModel, string) {
 			}
 			pr := prune.Select(tb, keep)
 			prune.Renormalize(pr)
-			p4, _, err := quantize.Model(pr, quantize.Options{Bits: 4, Trainer: quantize.Optimal})
+			p4, _, err := quantize.Model(pr, quantize.Options{Bits: 4, Trainer: quantize.LeastSquares})
 			if err != nil {
 				return err
 			}
@@ -229,7 +229,7 @@ func demoModels(t *testing.T) []testModel {
 	if err != nil {
 		t.Fatal(err)
 	}
-	q, _, err := quantize.Model(tb, quantize.Options{Bits: 4, Trainer: quantize.Binning})
+	q, _, err := quantize.Model(tb, quantize.Options{Bits: 4, Trainer: quantize.EqualMass})
 	if err != nil {
 		t.Fatal(err)
 	}
