@@ -103,6 +103,7 @@ type quantOrderJSON struct {
 	ProbLevels      int     `json:"prob_levels"`
 	ProbStep        float64 `json:"prob_step"`
 	ProbMaxError    float64 `json:"prob_max_error"`
+	BackoffBits     int     `json:"backoff_bits"`
 	BackoffLevels   int     `json:"backoff_levels"`
 	BackoffStep     float64 `json:"backoff_step"`
 	BackoffMaxError float64 `json:"backoff_max_error"`
@@ -120,7 +121,7 @@ func reportQuantize(w io.Writer, reports []quantize.OrderReport, in, out, heldou
 		var orders []quantOrderJSON
 		for _, r := range reports {
 			orders = append(orders, quantOrderJSON{r.Order, r.ProbLevels, r.ProbStep, r.ProbMaxError,
-				r.BackoffLevels, r.BackoffStep, r.BackoffMaxError, r.Residual})
+				r.BackoffBits, r.BackoffLevels, r.BackoffStep, r.BackoffMaxError, r.Residual})
 		}
 		v["orders"] = orders
 		return newEncoder(w).Encode(v)
