@@ -134,18 +134,25 @@ func checkWritable(t *tables.Tables) error {
 	if uint64(text) > math.MaxUint32 {
 		return fmt.Errorf("cannot write the model: vocabulary text of %d bytes exceeds 4 GiB", text)
 	}
+	start, _ := t.ID(tables.SentenceStart)
 	for k := 1; k <= t.Order(); k++ {
 		lv := &t.Levels[k-1]
 		if uint64(len(lv.LogProb)) > math.MaxUint32 {
 			return fmt.Errorf("cannot write the model: order %d has %d entries, more than 32-bit offsets address", k, len(lv.LogProb))
 		}
 		for i, p := range lv.LogProb {
-			if math.IsNaN(float64(p)) || math.IsInf(float64(p), 1) {
+			// Every value is finite but the unigram <s>, which is never
+			// predicted: a probability of 0 (log10 -Inf) anywhere else is a
+			// word the model could never produce, which verify refuses.
+			if k == 1 && uint32(i) == start && math.IsInf(float64(p), -1) {
+				continue
+			}
+			if math.IsNaN(float64(p)) || math.IsInf(float64(p), 0) {
 				return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 probability %v", k, i, t.Words(t.Gram(k, i)), p)
 			}
 		}
 		for i, b := range lv.LogBackoff {
-			if math.IsNaN(float64(b)) || math.IsInf(float64(b), 1) {
+			if math.IsNaN(float64(b)) || math.IsInf(float64(b), 0) {
 				return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 back-off %v", k, i, t.Words(t.Gram(k, i)), b)
 			}
 		}

@@ -158,7 +158,7 @@ func TestBuildInfoClaimsChangeNothing(t *testing.T) {
 	}
 	// Scale the weight so that the sum moves by 8%.
 	bad.Levels[1].LogBackoff[i] += float32(math.Log10(1 + 0.08/mass))
-	bad.Info.Quantization = &tables.Quantization{Trainer: "optimal", Bits: 8, BackoffBits: 8,
+	bad.Info.Quantization = &tables.Quantization{Trainer: "least-squares", Bits: 8, BackoffBits: 8,
 		ProbMaxError: []float64{0, 0.05, 0.05}, BackoffMaxError: []float64{0.05, 0.05, 0},
 		Residual: []float64{0.05, 0.05, 0.05}}
 	data := marshal(t, bad)

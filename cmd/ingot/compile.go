@@ -1,6 +1,7 @@
 package main
 
 import (
+	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -89,6 +90,10 @@ counts get probability through the lower orders.`,
 			}
 			pr.step("estimating %s, order %d", method, order)
 			t, rep, err := estimate.Estimate(c, opt)
+			var oe *estimate.OptionError
+			if errors.As(err, &oe) {
+				return fmt.Errorf("compile: --%s %v: %w", oe.Option, oe.Value, oe.Err)
+			}
 			if err != nil {
 				return fmt.Errorf("compile: %w", err)
 			}

@@ -30,6 +30,7 @@ package estimate
 import (
 	"fmt"
 	"math"
+	"math/bits"
 	"slices"
 
 	"ingot/compile/counts"
@@ -134,9 +135,88 @@ func Estimate(c *counts.Counts, opt Options) (*tables.Tables, *Report, error) {
 		return nil, nil, err
 	}
 	for k := 1; k <= opt.Order; k++ {
-		e.order(k)
+		if err := e.order(k); err != nil {
+			return nil, nil, err
+		}
+		if err := e.checkFinite(k); err != nil {
+			return nil, nil, err
+		}
 	}
 	return e.tables(), e.report, nil
+}
+
+// MaxExactTotal is the largest total count of a context's successors that
+// the estimator accepts: 2^53, up to which float64 holds every integer
+// exactly, so that c(h) and every c(hw) - D are computed without rounding
+// the count itself.
+const MaxExactTotal = 1 << 53
+
+// OptionError reports an option value that leads to a model the writer
+// would refuse; Option is the name of the Options field in lower case
+// ("discount").
+type OptionError struct {
+	Option string
+	Value  float64
+	Err    error
+}
+
+func (e *OptionError) Error() string {
+	return fmt.Sprintf("%s %v: %v", e.Option, e.Value, e.Err)
+}
+
+func (e *OptionError) Unwrap() error { return e.Err }
+
+// exactTotal returns the sum of counts, or an error when it exceeds
+// MaxExactTotal (or overflows 64 bits).
+func (e *estimator) exactTotal(k int, cnt []uint64, context []uint32) (float64, error) {
+	var sum uint64
+	for _, r := range cnt {
+		s, carry := bits.Add64(sum, r, 0)
+		if carry != 0 || s > MaxExactTotal {
+			what := "the empty context"
+			if k > 1 {
+				what = fmt.Sprintf("context %q", words(e.c, context))
+			}
+			return 0, fmt.Errorf("order %d: the counts of %s's successors total more than 2^53 (%d), the largest total that float64 arithmetic holds exactly; scale the counts down", k, what, uint64(MaxExactTotal))
+		}
+		sum = s
+	}
+	return float64(sum), nil
+}
+
+// checkFinite makes sure order k's probabilities and the weights of its
+// contexts (order k-1) are positive and finite, so that every stored log10
+// value is finite (but the unigram <s>, which is never predicted). A value
+// that is not comes from an option (a discount so small that a context
+// keeps no mass for unseen words) or from counts no method can smooth.
+func (e *estimator) checkFinite(k int) error {
+	bad := func(x float64) bool { return !(x > 0) || math.IsInf(x, 0) || math.IsNaN(x) }
+	wrap := func(err error) error {
+		if e.opt.Method == Absolute && !e.opt.AutoDiscount {
+			return &OptionError{Option: "discount", Value: e.opt.Discount, Err: err}
+		}
+		return err
+	}
+	for i, p := range e.prob[k-1] {
+		if k == 1 && uint32(i) == e.start {
+			continue
+		}
+		if bad(p) {
+			return wrap(fmt.Errorf("order %d n-gram %q gets probability %v; no model is written", k, words(e.c, e.c.Gram(k, i)), p))
+		}
+	}
+	if k == 1 {
+		if bad(e.empty) {
+			return wrap(fmt.Errorf("the empty context gets back-off weight %v; no model is written", e.empty))
+		}
+		return nil
+	}
+	for i, b := range e.bow[k-2] {
+		if bad(b) {
+			return wrap(fmt.Errorf("order %d context %q gets back-off weight %v (no mass left for unseen words); no model is written", k-1, words(e.c, e.c.Gram(k-1, i)), b))
+		}
+	}
+	return nil
 }
 
 type estimator struct {
@@ -244,9 +324,11 @@ func absoluteAuto(n []float64) float64 {
 
 // discounter turns the counts of one context's successors into their
 // probabilities and the context's back-off weight.
-type discounter func(cnt []uint64, lower []float64, p []float64) (bow float64)
+//
+// total is the sum of cnt, already checked to be exact (exactTotal).
+type discounter func(cnt []uint64, total float64, lower []float64, p []float64) (bow float64)
 
-func (e *estimator) order(k int) {
+func (e *estimator) order(k int) error {
 	rep := OrderReport{Order: k, NGrams: e.c.Len(k)}
 	cnt := e.c.Levels[k-1].Counts
 	if e.opt.Method == KneserNey {
@@ -269,7 +351,11 @@ func (e *estimator) order(k int) {
 			}
 		}
 		p := make([]float64, len(idx))
-		bow := disc(sc, lower, p)
+		total, err := e.exactTotal(1, sc, nil)
+		if err != nil {
+			return err
+		}
+		bow := disc(sc, total, lower, p)
 		for w := range prob {
 			prob[w] = bow / e.V
 		}
@@ -280,7 +366,7 @@ func (e *estimator) order(k int) {
 		e.empty = bow
 		rep.Contexts = 1
 		e.report.Orders = append(e.report.Orders, rep)
-		return
+		return nil
 	}
 
 	pre, suf := e.prefix[k-1], e.suffix[k-1]
@@ -296,12 +382,17 @@ func (e *estimator) order(k int) {
 			lower = append(lower, lowerProb[suf[x]])
 		}
 		p = slices.Grow(p[:0], j-i)[:j-i]
-		e.bow[k-2][pre[i]] = disc(cnt[i:j], lower, p)
+		total, err := e.exactTotal(k, cnt[i:j], e.c.Gram(k, i)[:k-1])
+		if err != nil {
+			return err
+		}
+		e.bow[k-2][pre[i]] = disc(cnt[i:j], total, lower, p)
 		copy(prob[i:j], p)
 		rep.Contexts++
 		i = j
 	}
 	e.report.Orders = append(e.report.Orders, rep)
+	return nil
 }
 
 func (e *estimator) discounter(k int, cnt []uint64, rep *OrderReport) discounter {
@@ -324,14 +415,14 @@ func (e *estimator) discounter(k int, cnt []uint64, rep *OrderReport) discounter
 
 // backoff wraps a discounting rule of a back-off method: the weight is what
 // makes the context normalise, and a context followed by every predictable
-// word keeps undiscounted estimates with weight 1 (rule).
-func backoff(discount func(cnt []uint64, total float64, p []float64), rep *OrderReport) discounter {
+// word keeps undiscounted estimates with weight 1 (rule). The rule returns
+// the left-over mass 1 - sum p, computed from the discounts themselves (a
+// sum of small terms) rather than by subtracting the probabilities from
+// one, which cancels to nothing when the counts are large.
+func backoff(discount func(cnt []uint64, total float64, p []float64) (left float64), rep *OrderReport) discounter {
 	covered, idx := 0, -1
-	return func(cnt []uint64, lower []float64, p []float64) float64 {
-		var total, sumP, sumL float64
-		for _, r := range cnt {
-			total += float64(r)
-		}
+	return func(cnt []uint64, total float64, lower []float64, p []float64) float64 {
+		var sumL float64
 		for _, l := range lower {
 			sumL += l
 		}
@@ -348,19 +439,19 @@ func backoff(discount func(cnt []uint64, total float64, p []float64), rep *Order
 				"order %d: %d context(s) followed by every predictable word keep undiscounted estimates with back-off weight 1", rep.Order, covered)
 			return 1
 		}
-		discount(cnt, total, p)
-		for _, x := range p {
-			sumP += x
-		}
-		return (1 - sumP) / (1 - sumL)
+		left := discount(cnt, total, p)
+		return left / (1 - sumL)
 	}
 }
 
-func absolute(D float64) func(cnt []uint64, total float64, p []float64) {
-	return func(cnt []uint64, total float64, p []float64) {
+// absolute discounts every count by D: p = (c - D) / c(h), leaving
+// D |A(h)| / c(h).
+func absolute(D float64) func(cnt []uint64, total float64, p []float64) float64 {
+	return func(cnt []uint64, total float64, p []float64) float64 {
 		for j, r := range cnt {
 			p[j] = (float64(r) - D) / total
 		}
+		return float64(D*float64(len(cnt))) / total
 	}
 }
 
@@ -383,7 +474,7 @@ func (e *estimator) katz(k int, cnt []uint64, rep *OrderReport) discounter {
 	}
 	allAbove := 0
 	idx := -1
-	return backoff(func(cnt []uint64, total float64, p []float64) {
+	return backoff(func(cnt []uint64, total float64, p []float64) float64 {
 		above := true
 		for _, r := range cnt {
 			if r <= uint64(K) {
@@ -393,7 +484,7 @@ func (e *estimator) katz(k int, cnt []uint64, rep *OrderReport) discounter {
 		}
 		if above {
 			// Rule: no mass would be left for unseen words.
-			absolute(Dabs)(cnt, total, p)
+			left := absolute(Dabs)(cnt, total, p)
 			allAbove++
 			if idx < 0 {
 				idx = len(rep.Fallbacks)
@@ -401,15 +492,20 @@ func (e *estimator) katz(k int, cnt []uint64, rep *OrderReport) discounter {
 			}
 			rep.Fallbacks[idx] = fmt.Sprintf(
 				"order %d: %d context(s) whose successors all have counts above %d use absolute discounting with D = %.6g", k, allAbove, K, Dabs)
-			return
+			return left
 		}
+		// The left-over mass is the sum of what the discounts remove,
+		// (1 - d_r) r / c(h) for r <= K.
+		var left float64
 		for j, r := range cnt {
 			dr := 1.0
 			if r <= uint64(K) {
 				dr = d[r]
+				left += float64((1-dr)*float64(r)) / total
 			}
 			p[j] = dr * float64(r) / total
 		}
+		return left
 	}, rep)
 }
 
@@ -447,10 +543,9 @@ func GoodTuring(n []float64) []float64 {
 
 // wittenBell: P(w|h) = (c(hw) + T(h) P(w|h')) / (c(h) + T(h)) and
 // bow(h) = T(h) / (c(h) + T(h)), T(h) the number of distinct successors.
-func wittenBell(cnt []uint64, lower []float64, p []float64) float64 {
-	var total, T float64
+func wittenBell(cnt []uint64, total float64, lower []float64, p []float64) float64 {
+	var T float64
 	for _, r := range cnt {
-		total += float64(r)
 		if r > 0 {
 			T++
 		}
@@ -497,11 +592,9 @@ func (e *estimator) kneserNey(k int, adj []uint64, rep *OrderReport) discounter 
 	}
 	rep.Discounts = []Param{{"Y", Y}, {"D1", D1}, {"D2", D2}, {"D3+", D3}}
 	D := [4]float64{0, D1, D2, D3}
-	return func(a []uint64, lower []float64, p []float64) float64 {
-		var total float64
+	return func(a []uint64, total float64, lower []float64, p []float64) float64 {
 		var N [4]float64
 		for _, r := range a {
-			total += float64(r)
 			N[min(r, 3)]++
 		}
 		if total == 0 {
