@@ -16,6 +16,7 @@ import (
 	"ingot/compile/estimate"
 	"ingot/compile/input"
 	"ingot/compile/prune"
+	"ingot/compile/tables"
 	"ingot/compile/vocab"
 	"ingot/format"
 )
@@ -30,6 +31,7 @@ func newCompileCmd() *cobra.Command {
 		minCounts string
 		asJSON    bool
 		wordList  string
+		bf        budgetFlags
 	)
 	cmd := &cobra.Command{
 		Use:   "compile --method M --order N -o MODEL COUNTS...",
@@ -54,10 +56,21 @@ rule that applied.
 With --vocabulary FILE (one word per line) the model predicts exactly the
 listed words, </s> and <unk>: every other word of the counts becomes <unk>
 (counts of n-grams that become equal are summed), and listed words without
-counts get probability through the lower orders.`,
+counts get probability through the lower orders.
+
+--max-size writes the model pruned to fit SIZE (bytes, or 500KB, 8MiB), in
+one step from the counts: n-grams are ranked by relative entropy (Stolcke
+1998) on a model of the same counts (--rank-with; for kneser-ney a Katz
+model by default, whose lower orders stand on their own), the least useful
+are removed, and a kneser-ney model is estimated again on the survivors so
+that its lower orders fit what was removed. --bits quantizes it too (the
+budget applies to the quantized file). --heldout TEXT also builds every
+lower order to the same budget and keeps the one with the lowest held-out
+perplexity, listing what it compared.`,
 		Example: `  ingot compile --method kneser-ney --order 3 -o field.ingot counts.bin
   ingot compile --method kneser-ney --order 3 --vocabulary lexicon.txt -o field.ingot counts.bin
-  ingot compile --method absolute --discount auto --order 4 -o m.ingot shard-*.bin extra.txt.zst`,
+  ingot compile --method absolute --discount auto --order 4 -o m.ingot shard-*.bin extra.txt.zst
+  ingot compile --method kneser-ney --order 5 --max-size 2MB --bits 8 --heldout dev.txt -o device.ingot counts.bin`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opt := estimate.Options{Method: estimate.Method(method), Order: order, KatzThreshold: threshold}
@@ -78,6 +91,38 @@ counts get probability through the lower orders.`,
 			if err != nil {
 				return err
 			}
+			if err := bf.check(); err != nil {
+				return err
+			}
+			if bf.set() && len(cutoffs) > 0 {
+				return fmt.Errorf("compile: give --max-size or --min-count, not both")
+			}
+			stamp := func(info *tables.Info) error {
+				info.ToolVersion = version
+				var err error
+				if info.BuildTime, err = buildTime(); err != nil {
+					return err
+				}
+				info.Options = map[string]string{
+					"method": method, "order": strconv.Itoa(order),
+				}
+				if opt.Method == estimate.Absolute {
+					info.Options["discount"] = discount
+				}
+				if opt.Method == estimate.Katz {
+					info.Options["katz-threshold"] = strconv.Itoa(opt.KatzThreshold)
+				}
+				if minCounts != "" {
+					info.Options["min-count"] = minCounts
+				}
+				if list != nil {
+					info.Options["vocabulary"] = fmt.Sprintf("%d words, sha256 %s", list.Len(), list.Digest())
+				}
+				if bf.set() {
+					info.Options["max-size"] = bf.maxSize
+				}
+				return nil
+			}
 			pr := newProgress(cmd.ErrOrStderr())
 			defer pr.done()
 			pr.step("reading counts")
@@ -87,6 +132,10 @@ counts get probability through the lower orders.`,
 			}
 			if list != nil {
 				c = c.MapVocabulary(list)
+			}
+			if bf.set() {
+				return compileToBudget(commandIO{cmd.Context(), cmd.OutOrStdout()}, c, opt, bf, out, pr,
+					stamp, asJSON)
 			}
 			pr.step("estimating %s, order %d", method, order)
 			t, rep, err := estimate.Estimate(c, opt)
@@ -113,24 +162,8 @@ counts get probability through the lower orders.`,
 					rep.Orders[k].Kept = t.Len(k + 1)
 				}
 			}
-			t.Info.ToolVersion = version
-			if t.Info.BuildTime, err = buildTime(); err != nil {
+			if err := stamp(&t.Info); err != nil {
 				return err
-			}
-			t.Info.Options = map[string]string{
-				"method": method, "order": strconv.Itoa(order),
-			}
-			if opt.Method == estimate.Absolute {
-				t.Info.Options["discount"] = discount
-			}
-			if opt.Method == estimate.Katz {
-				t.Info.Options["katz-threshold"] = strconv.Itoa(opt.KatzThreshold)
-			}
-			if minCounts != "" {
-				t.Info.Options["min-count"] = minCounts
-			}
-			if list != nil {
-				t.Info.Options["vocabulary"] = fmt.Sprintf("%d words, sha256 %s", list.Len(), list.Digest())
 			}
 			pr.step("writing %s", out)
 			if err := writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
@@ -151,6 +184,10 @@ counts get probability through the lower orders.`,
 	f.StringVar(&minCounts, "min-count", "", "count cutoffs K=M[,K=M...]: drop n-grams of order K seen fewer than M times")
 	f.BoolVar(&asJSON, "json", false, "print the build report as JSON")
 	f.StringVar(&wordList, "vocabulary", "", "fixed word list, one word per line: predict exactly these words, </s> and <unk>")
+	f.StringVar(&bf.maxSize, "max-size", "", "prune the model to fit SIZE bytes (e.g. 500KB, 8MiB), choosing what to remove from the counts")
+	f.StringVar(&bf.heldout, "heldout", "", "with --max-size: compare every lower order at the same budget on this text and keep the best")
+	f.StringVar(&bf.rankWith, "rank-with", "", "with --max-size: method whose model ranks n-grams for removal (default: katz for kneser-ney, else the method itself)")
+	bf.qf.register(cmd, false)
 	cmd.MarkFlagRequired("method")
 	cmd.MarkFlagRequired("order")
 	cmd.MarkFlagRequired("output")

@@ -68,6 +68,9 @@ held-out text.`,
 			if err != nil {
 				return err
 			}
+			if advice := prune.Advice(t.Info.Method); advice != "" {
+				fmt.Fprintf(cmd.ErrOrStderr(), "ingot: prune: warning: %s\n", advice)
+			}
 			pr := newProgress(cmd.ErrOrStderr())
 			defer pr.done()
 			pr.step("scoring every n-gram by relative entropy")

@@ -69,6 +69,16 @@ type Options struct {
 	// KatzThreshold is K: counts above it are not discounted. 0 means
 	// DefaultKatzThreshold.
 	KatzThreshold int
+	// Survivors, when not nil, names the n-grams a pruned model will keep
+	// (Survivors[k-1][i] for entry i of order k, in the counts' order).
+	// Kneser-Ney then computes its adjusted counts for that model: a
+	// removed n-gram v g no longer predicts its words, the lower order g
+	// does, so it adds its own adjusted count to a(g) instead of 1 (after
+	// V. Siivola, T. Hirsimäki and S. Virpioja (2007), "On growing and
+	// pruning Kneser-Ney smoothed n-gram models", IEEE TASLP 15(5)). Every
+	// entry is still estimated; the caller removes the others and
+	// recomputes the back-off weights. Other methods ignore it.
+	Survivors [][]bool
 }
 
 // Param is one named parameter value.
@@ -284,14 +294,23 @@ func words(c *counts.Counts, g []uint32) string {
 // words seen before the n-gram, N1+(. g).
 func (e *estimator) adjust() {
 	e.adj = make([][]uint64, e.N)
-	for k := 1; k <= e.N; k++ {
+	for k := e.N; k >= 1; k-- {
 		raw := e.c.Levels[k-1].Counts
 		a := make([]uint64, len(raw))
 		if k == e.N {
 			copy(a, raw)
 		} else {
-			for _, s := range e.suffix[k] {
-				a[s]++
+			above := e.adj[k] // order k+1, already adjusted
+			var kept []bool
+			if e.opt.Survivors != nil {
+				kept = e.opt.Survivors[k]
+			}
+			for j, s := range e.suffix[k] {
+				if kept == nil || kept[j] {
+					a[s]++
+				} else {
+					a[s] += above[j]
+				}
 			}
 			for i := range a {
 				if e.c.Gram(k, i)[0] == e.start {

@@ -49,3 +49,22 @@ func Renormalize(t *tables.Tables) {
 		}
 	}
 }
+
+// Advice returns a warning for pruning a finished model of the given
+// method by relative entropy, or "" when that suits it. Kneser-Ney's lower
+// orders hold continuation counts that fit only the n-grams its higher
+// orders lacked when it was estimated; pruning removes more, and the
+// criterion itself is computed with those lower orders, so the pruned model
+// falls behind the other methods (C. Chelba, T. Brants, W. Neveitt and
+// P. Xu (2010), "Study on interaction between entropy pruning and
+// Kneser-Ney smoothing", Interspeech). Pruning from the counts (package
+// budget, ingot compile --max-size) avoids both.
+func Advice(method string) string {
+	if method != "kneser-ney" {
+		return ""
+	}
+	return "relative-entropy pruning of a finished kneser-ney model keeps lower orders estimated for the unpruned model, " +
+		"so it loses to the other methods once much is removed; " +
+		"to prune from the counts instead, which ranks n-grams on a katz model and estimates kneser-ney again on the survivors: " +
+		"ingot compile --method kneser-ney --max-size SIZE"
+}

@@ -1,0 +1,127 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"slices"
+	"strconv"
+	"text/tabwriter"
+
+	"ingot/compile/budget"
+	"ingot/compile/counts"
+	"ingot/compile/estimate"
+	"ingot/compile/tables"
+	"ingot/format"
+)
+
+// budgetFlags are compile's options for writing a model pruned to a size.
+type budgetFlags struct {
+	maxSize  string
+	heldout  string
+	rankWith string
+	qf       quantizeFlags
+}
+
+func (b *budgetFlags) set() bool { return b.maxSize != "" }
+
+// check rejects bad options before any work.
+func (b *budgetFlags) check() error {
+	if !b.set() {
+		if b.heldout != "" || b.rankWith != "" || b.qf.bits != 0 {
+			return fmt.Errorf("compile: --heldout, --rank-with and --bits need --max-size (to quantize a finished model: ingot quantize)")
+		}
+		return nil
+	}
+	if _, err := parseSize(b.maxSize); err != nil {
+		return fmt.Errorf("compile: --max-size: %w", err)
+	}
+	if b.rankWith != "" && !slices.Contains(estimate.Methods, estimate.Method(b.rankWith)) {
+		return fmt.Errorf("compile: --rank-with %q: want katz, absolute, witten-bell or kneser-ney", b.rankWith)
+	}
+	if b.qf.bits != 0 {
+		if _, err := b.qf.options("compile"); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// compileToBudget runs budget.Fit and writes the chosen model.
+func compileToBudget(cmd commandIO, c *counts.Counts, opt estimate.Options, b budgetFlags, out string, pr *progress, stamp func(*tables.Info) error, asJSON bool) error {
+	bo := budget.Options{Estimate: opt, Ranking: estimate.Method(b.rankWith)}
+	var err error
+	if bo.MaxBytes, err = parseSize(b.maxSize); err != nil {
+		return fmt.Errorf("compile: --max-size: %w", err)
+	}
+	if b.qf.bits != 0 {
+		if bo.Quantize, err = b.qf.options("compile"); err != nil {
+			return err
+		}
+	}
+	if b.heldout != "" {
+		if bo.Heldout, err = readSentences(b.heldout); err != nil {
+			return fmt.Errorf("compile: %w", err)
+		}
+	}
+	bo.Progress = func(s string) { pr.step("%s", s) }
+	bo.Describe = stamp
+	res, err := budget.Fit(c, bo)
+	if err != nil {
+		return checkFailed{fmt.Errorf("compile: --max-size %s: %w", b.maxSize, err)}
+	}
+	pr.step("writing %s", out)
+	if err := writeOutput(cmd.ctx, out, cmd.stdout, func(w io.Writer) error { return format.Write(w, res.Model) }); err != nil {
+		return err
+	}
+	pr.done()
+	return printBudgetReport(cmd.stdout, res, bo, out, asJSON)
+}
+
+// commandIO is what compileToBudget needs of the cobra command.
+type commandIO struct {
+	ctx    context.Context
+	stdout io.Writer
+}
+
+func printBudgetReport(w io.Writer, res *budget.Result, bo budget.Options, out string, asJSON bool) error {
+	if asJSON {
+		v := map[string]any{
+			"model": out, "method": string(bo.Estimate.Method), "order": res.Chosen.Order,
+			"max_bytes": bo.MaxBytes, "file_bytes": res.Chosen.FileBytes, "ranked_by": string(res.Ranking),
+			"threshold": res.Chosen.Threshold, "ngrams": res.Chosen.NGrams, "orders_compared": res.Candidates,
+		}
+		if res.Chosen.Perplexity > 0 {
+			v["perplexity"] = res.Chosen.Perplexity
+		}
+		return encodeIndented(w, v)
+	}
+	fmt.Fprintf(w, "wrote %s (%s, order %d): %s, budget %s\n", out, bo.Estimate.Method, res.Chosen.Order,
+		humanSize(res.Chosen.FileBytes), humanSize(bo.MaxBytes))
+	fmt.Fprintf(w, "n-grams ranked by relative entropy on the %s model; threshold %.6g nats\n", res.Ranking, res.Chosen.Threshold)
+	for k, n := range res.Chosen.NGrams {
+		fmt.Fprintf(w, "  order %d: kept %d of %d n-grams\n", k+1, n, res.Report.Orders[k].NGrams)
+	}
+	if len(res.Candidates) > 1 {
+		fmt.Fprintln(w, "orders compared at this budget (held-out perplexity):")
+		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+		fmt.Fprintln(tw, "order\tfile size\tperplexity\t\t")
+		for _, c := range res.Candidates {
+			if c.Problem != "" {
+				fmt.Fprintf(tw, "%d\t-\t-\t%s\t\n", c.Order, c.Problem)
+				continue
+			}
+			mark := ""
+			if c.Order == res.Chosen.Order {
+				mark = "chosen"
+			}
+			fmt.Fprintf(tw, "%d\t%s\t%s\t%s\t\n", c.Order, humanSize(c.FileBytes), strconv.FormatFloat(c.Perplexity, 'f', 3, 64), mark)
+		}
+		tw.Flush()
+		if res.Chosen.Order < bo.Estimate.Order {
+			fmt.Fprintf(w, "a model of order %d fits %s better than order %d: wrote order %d\n",
+				res.Chosen.Order, humanSize(bo.MaxBytes), bo.Estimate.Order, res.Chosen.Order)
+		}
+	}
+	return nil
+}

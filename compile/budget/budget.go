@@ -1,0 +1,284 @@
+// Package budget fits a model to a byte budget from its counts, in one step:
+// estimate, choose which n-grams to remove by relative entropy (Stolcke
+// 1998, package prune), re-estimate on the survivors, recompute the
+// back-off weights and quantize, so that the written file is at most the
+// budget.
+//
+// Plain relative-entropy pruning suits back-off models whose lower orders
+// are good estimates in their own right (Katz, absolute discounting,
+// Witten-Bell). It suits Kneser-Ney badly, for two reasons (S. F. Chen and
+// J. Goodman's continuation counts fit only the n-grams that the higher
+// order lacks, and pruning later removes many more):
+//
+//   - the criterion, computed on the Kneser-Ney model itself, scores each
+//     removal with a lower-order distribution that was never meant to
+//     stand alone. Here the criterion is computed instead on a differently
+//     smoothed model of the same counts (by default Katz back-off), after
+//     C. Chelba, T. Brants, W. Neveitt and P. Xu (2010), "Study on
+//     interaction between entropy pruning and Kneser-Ney smoothing",
+//     Interspeech;
+//   - the lower orders of the kept model still hold continuation counts
+//     for a set of higher-order n-grams that no longer exists. Here the
+//     Kneser-Ney model is estimated again with adjusted counts that fit
+//     the survivors: a removed n-gram v g adds its own count to a(g), the
+//     lower order that now predicts its words (after V. Siivola,
+//     T. Hirsimäki and S. Virpioja (2007), "On growing and pruning
+//     Kneser-Ney smoothed n-gram models", IEEE TASLP 15(5); see
+//     estimate.Options.Survivors), and the discounts follow from the new
+//     adjusted counts.
+//
+// With held-out text, Fit also builds the model of every lower order to
+// the same budget and keeps the one with the lowest held-out perplexity,
+// reporting what it compared.
+package budget
+
+import (
+	"fmt"
+	"math"
+	"slices"
+
+	"ingot/compile/counts"
+	"ingot/compile/estimate"
+	"ingot/compile/prune"
+	"ingot/compile/tables"
+	"ingot/format"
+	"ingot/format/score"
+	"ingot/quantize"
+)
+
+// Options says what to build and how large it may be.
+type Options struct {
+	// Estimate is the method, the order and the method's parameters.
+	Estimate estimate.Options
+	// MaxBytes is the budget: the written file's size in bytes.
+	MaxBytes int64
+	// Quantize, when Bits is not 0, quantizes the pruned model; the budget
+	// applies to the quantized file.
+	Quantize quantize.Options
+	// Ranking is the method of the model the relative-entropy criterion is
+	// computed on; "" means DefaultRanking(Estimate.Method).
+	Ranking estimate.Method
+	// Heldout, when not empty, makes Fit compare the models of orders 2 to
+	// Estimate.Order fitted to the same budget and keep the one with the
+	// lowest perplexity on these sentences (token lists).
+	Heldout [][]string
+	// Describe, when set, fills in the build description of every model
+	// right after estimation (tool version, options), so that the sizes
+	// measured against the budget include it.
+	Describe func(*tables.Info) error
+	// Progress, when set, is told about each step.
+	Progress func(step string)
+}
+
+// DefaultRanking returns the method whose model ranks n-grams for removal
+// when building a model of method m: Katz back-off for Kneser-Ney (chosen by
+// measurement, see the package README section of BENCHMARKS.md), the
+// method itself otherwise.
+func DefaultRanking(m estimate.Method) estimate.Method {
+	if m == estimate.KneserNey {
+		return estimate.Katz
+	}
+	return m
+}
+
+// Candidate is one order's model fitted to the budget.
+type Candidate struct {
+	Order      int     `json:"order"`
+	Threshold  float64 `json:"threshold"`
+	NGrams     []int   `json:"ngrams"`
+	FileBytes  int64   `json:"file_bytes"`
+	Perplexity float64 `json:"perplexity,omitempty"` // 0 without held-out text
+	// Problem says why no model of this order fits (then the other fields
+	// but Order are zero).
+	Problem string `json:"problem,omitempty"`
+}
+
+// Result is the fitted model and what was compared to choose it.
+type Result struct {
+	// Model is the chosen model, pruned, re-estimated and (if asked)
+	// quantized, ready to write.
+	Model *tables.Tables
+	// Report is the estimator's report of the chosen order's unpruned
+	// model, each order's Kept set to what survived.
+	Report *estimate.Report
+	// Ranking is the method whose model ranked the n-grams.
+	Ranking estimate.Method
+	// Chosen is the chosen candidate; Candidates lists every order tried,
+	// highest first (only the asked order without held-out text).
+	Chosen     Candidate
+	Candidates []Candidate
+}
+
+// Fit builds the model opt asks for, pruned to fit opt.MaxBytes. It fails
+// when no order's model fits.
+func Fit(c *counts.Counts, opt Options) (*Result, error) {
+	if err := opt.Estimate.Validate(); err != nil {
+		return nil, err
+	}
+	if opt.MaxBytes <= 0 {
+		return nil, fmt.Errorf("budget %d bytes must be positive", opt.MaxBytes)
+	}
+	if opt.Ranking == "" {
+		opt.Ranking = DefaultRanking(opt.Estimate.Method)
+	}
+	if !slices.Contains(estimate.Methods, opt.Ranking) {
+		return nil, fmt.Errorf("unknown ranking method %q (katz, absolute, witten-bell, kneser-ney)", opt.Ranking)
+	}
+	N := opt.Estimate.Order
+	low := N
+	if len(opt.Heldout) > 0 {
+		low = min(2, N)
+	}
+	res := &Result{Ranking: opt.Ranking}
+	best := -1
+	var firstErr error
+	for n := N; n >= low; n-- {
+		m, rep, cand, err := fitOrder(c, opt, n)
+		if err != nil {
+			if firstErr == nil {
+				firstErr = err
+			}
+			res.Candidates = append(res.Candidates, Candidate{Order: n, Problem: err.Error()})
+			continue
+		}
+		if len(opt.Heldout) > 0 {
+			if cand.Perplexity, err = perplexity(m, opt.Heldout); err != nil {
+				return nil, err
+			}
+		}
+		res.Candidates = append(res.Candidates, cand)
+		if best < 0 || cand.Perplexity < res.Chosen.Perplexity {
+			best = len(res.Candidates) - 1
+			res.Model, res.Report, res.Chosen = m, rep, cand
+		}
+	}
+	if best < 0 {
+		return nil, firstErr
+	}
+	return res, nil
+}
+
+// fitOrder builds the model of order n fitted to the budget.
+func fitOrder(c *counts.Counts, opt Options, n int) (*tables.Tables, *estimate.Report, Candidate, error) {
+	step := func(format string, a ...any) {
+		if opt.Progress != nil {
+			opt.Progress(fmt.Sprintf(format, a...))
+		}
+	}
+	eo := opt.Estimate
+	eo.Order = n
+	method := eo.Method
+	step("estimating %s, order %d", method, n)
+	t, rep, err := estimate.Estimate(c, eo)
+	if err != nil {
+		return nil, nil, Candidate{}, err
+	}
+	describe := func(t *tables.Tables) error {
+		if opt.Describe == nil {
+			return nil
+		}
+		return opt.Describe(&t.Info)
+	}
+	if err := describe(t); err != nil {
+		return nil, nil, Candidate{}, err
+	}
+	ranker := t
+	if opt.Ranking != method {
+		step("estimating %s, order %d, to rank n-grams", opt.Ranking, n)
+		ro := estimate.Options{Method: opt.Ranking, Order: n, AutoDiscount: true}
+		if ranker, _, err = estimate.Estimate(c, ro); err != nil {
+			return nil, nil, Candidate{}, err
+		}
+	}
+	step("scoring every n-gram of order %d by relative entropy", n)
+	scores := prune.EntropyScores(ranker)
+	ranker = nil
+	shaped := func(th float64, keep [][]bool, from *tables.Tables) *tables.Tables {
+		p := prune.Select(from, keep)
+		p.Info.History = append(slices.Clip(p.Info.History), history(method, opt.Ranking, th, keep))
+		return p
+	}
+	step("choosing the threshold for %d bytes", opt.MaxBytes)
+	th, keep, _, err := prune.Fit(t, scores, opt.MaxBytes, func(th float64, kp [][]bool) (int64, error) {
+		p := shaped(th, kp, t)
+		if opt.Quantize.Bits != 0 {
+			p = quantize.Placeholder(p, opt.Quantize)
+		}
+		return format.Size(p)
+	})
+	if err != nil {
+		return nil, nil, Candidate{}, fmt.Errorf("order %d: %w", n, err)
+	}
+	if method == estimate.KneserNey {
+		step("estimating %s again on the survivors", method)
+		eo.Survivors = keep
+		if t, _, err = estimate.Estimate(c, eo); err != nil {
+			return nil, nil, Candidate{}, err
+		}
+		if err := describe(t); err != nil {
+			return nil, nil, Candidate{}, err
+		}
+	}
+	step("recomputing back-off weights")
+	m := shaped(th, keep, t)
+	prune.Renormalize(m)
+	if opt.Quantize.Bits != 0 {
+		step("quantizing")
+		if m, _, err = quantize.Model(m, opt.Quantize); err != nil {
+			return nil, nil, Candidate{}, err
+		}
+	}
+	size, err := format.Size(m)
+	if err != nil {
+		return nil, nil, Candidate{}, err
+	}
+	if size > opt.MaxBytes { // Placeholder promises this cannot happen
+		return nil, nil, Candidate{}, fmt.Errorf("order %d: internal error: the model takes %d bytes, over the budget of %d", n, size, opt.MaxBytes)
+	}
+	kept := prune.Kept(keep)
+	for k := range rep.Orders {
+		rep.Orders[k].Kept = kept[k]
+	}
+	return m, rep, Candidate{Order: n, Threshold: th, NGrams: kept, FileBytes: size}, nil
+}
+
+func history(method, ranking estimate.Method, th float64, keep [][]bool) string {
+	s := fmt.Sprintf("pruned by relative entropy below %.6g nats on the %s model of the same counts", th, ranking)
+	if method == estimate.KneserNey {
+		s += ", kneser-ney estimated again on the survivors"
+	}
+	return s + fmt.Sprintf(" (kept %s n-grams per order)", joinInts(prune.Kept(keep)))
+}
+
+func joinInts(xs []int) string {
+	s := ""
+	for i, x := range xs {
+		if i > 0 {
+			s += "/"
+		}
+		s += fmt.Sprint(x)
+	}
+	return s
+}
+
+// perplexity scores sentences with t as the written file would.
+func perplexity(t *tables.Tables, sentences [][]string) (float64, error) {
+	data, err := format.Marshal(t)
+	if err != nil {
+		return 0, err
+	}
+	m, err := format.FromBytes(data)
+	if err != nil {
+		return 0, err
+	}
+	sc := score.NewScorer(m)
+	var sum score.Summary
+	for _, s := range sentences {
+		sum.Add(sc.Score(s))
+	}
+	p := sum.Perplexity()
+	if math.IsNaN(p) {
+		return 0, fmt.Errorf("held-out text holds no sentence")
+	}
+	return p, nil
+}

@@ -1,0 +1,225 @@
+package budget
+
+import (
+	"bytes"
+	"math"
+	"strings"
+	"testing"
+
+	"ingot/compile/corpus"
+	"ingot/compile/counts"
+	"ingot/compile/estimate"
+	"ingot/compile/prune"
+	"ingot/compile/tables"
+	"ingot/format"
+	"ingot/quantize"
+	"ingot/verify"
+)
+
+// slice returns the counts of the first n sentences of the bundled State of
+// the Union corpus (every tenth held out) and the held-out sentences.
+func slice(t testing.TB, n, order int) (*counts.Counts, [][]string) {
+	t.Helper()
+	all, err := corpus.SOTU()
+	if err != nil {
+		t.Fatal(err)
+	}
+	train, held := corpus.Split(all, n)
+	c, _ := counts.NewCounter(order)
+	for _, s := range train {
+		c.AddSentence(strings.Fields(s))
+	}
+	var h [][]string
+	for _, s := range held {
+		h = append(h, strings.Fields(s))
+	}
+	return c.Counts(1), h
+}
+
+func sizeOf(t testing.TB, m *tables.Tables) int64 {
+	t.Helper()
+	n, err := format.Size(m)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return n
+}
+
+func unpruned(t testing.TB, c *counts.Counts, opt estimate.Options, q quantize.Options) (*tables.Tables, int64) {
+	t.Helper()
+	m, _, err := estimate.Estimate(c, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if q.Bits != 0 {
+		if m, _, err = quantize.Model(m, q); err != nil {
+			t.Fatal(err)
+		}
+	}
+	return m, sizeOf(t, m)
+}
+
+var q8 = quantize.Options{Bits: 8, Trainer: quantize.LeastSquares}
+
+// The law of the whole job: the written model fits the budget, every context
+// sums to one (laws of probability, checked by ingot verify's own checks on
+// the file's bytes), and the same inputs give the same bytes.
+func TestFitsBudgetPassesVerifyAndIsDeterministic(t *testing.T) {
+	c, _ := slice(t, 800, 3)
+	for _, method := range estimate.Methods {
+		opt := estimate.Options{Method: method, Order: 3}
+		_, full := unpruned(t, c, opt, q8)
+		for _, div := range []int64{2, 3} {
+			budget := full / div
+			var files [][]byte
+			runs := 1
+			if method == estimate.KneserNey {
+				runs = 2
+			}
+			for range runs {
+				res, err := Fit(c, Options{Estimate: opt, MaxBytes: budget, Quantize: q8})
+				if err != nil {
+					t.Fatalf("%s 1/%d: %v", method, div, err)
+				}
+				data, err := format.Marshal(res.Model)
+				if err != nil {
+					t.Fatal(err)
+				}
+				if int64(len(data)) > budget || res.Chosen.FileBytes != int64(len(data)) {
+					t.Fatalf("%s 1/%d: %d bytes written (reported %d), budget %d", method, div, len(data), res.Chosen.FileBytes, budget)
+				}
+				rep, err := verify.Bytes(data, verify.Options{})
+				if err != nil || !rep.OK() {
+					t.Fatalf("%s 1/%d: verify: %v %v", method, div, err, rep.Failed())
+				}
+				files = append(files, data)
+			}
+			if runs == 2 && !bytes.Equal(files[0], files[1]) {
+				t.Errorf("%s 1/%d: two runs wrote different bytes", method, div)
+			}
+		}
+	}
+}
+
+// Kneser & Ney (1995), as in Chen & Goodman (1998) section 3: the highest
+// order of a model is estimated from raw counts. Removing every n-gram above
+// order n and estimating again on the survivors (each removed v g adds its
+// count to a(g), Siivola et al. 2007) must therefore give exactly the
+// order-n Kneser-Ney model of the same counts: a(g) becomes the sum over v
+// of c(v g), which is c(g) for every g not starting with <s>.
+func TestRemovingWholeOrdersGivesTheLowerOrderModel(t *testing.T) {
+	c, _ := slice(t, 800, 4)
+	for n := 1; n <= 3; n++ {
+		surv := make([][]bool, 4)
+		for k := 1; k <= 4; k++ {
+			surv[k-1] = make([]bool, c.Len(k))
+			for i := range surv[k-1] {
+				surv[k-1][i] = k <= n
+			}
+		}
+		re, _, err := estimate.Estimate(c, estimate.Options{Method: estimate.KneserNey, Order: 4, Survivors: surv})
+		if err != nil {
+			t.Fatal(err)
+		}
+		low, _, err := estimate.Estimate(c, estimate.Options{Method: estimate.KneserNey, Order: n})
+		if err != nil {
+			t.Fatal(err)
+		}
+		for k := 1; k <= n; k++ {
+			a, b := re.Levels[k-1].LogProb, low.Levels[k-1].LogProb
+			for i := range a {
+				if a[i] != b[i] && !(math.IsInf(float64(a[i]), -1) && math.IsInf(float64(b[i]), -1)) {
+					t.Fatalf("n=%d: order %d entry %d (%s): re-estimated log10 %v, order-%d model %v",
+						n, k, i, re.Words(re.Gram(k, i)), a[i], n, b[i])
+				}
+			}
+		}
+		// And nothing removed changes nothing: the plain estimate.
+		if n == 3 {
+			all := make([][]bool, 4)
+			for k := range all {
+				all[k] = make([]bool, c.Len(k+1))
+				for i := range all[k] {
+					all[k][i] = true
+				}
+			}
+			a, _, _ := estimate.Estimate(c, estimate.Options{Method: estimate.KneserNey, Order: 4, Survivors: all})
+			b, _, _ := estimate.Estimate(c, estimate.Options{Method: estimate.KneserNey, Order: 4})
+			for k := 1; k <= 4; k++ {
+				for i, v := range a.Levels[k-1].LogProb {
+					if w := b.Levels[k-1].LogProb[i]; v != w && !math.IsInf(float64(v), -1) {
+						t.Fatalf("all kept: order %d entry %d: %v, plain estimate %v", k, i, v, w)
+					}
+				}
+			}
+		}
+	}
+}
+
+// The point of the method (Chelba et al. 2010; Siivola et al. 2007): at the
+// same budget, the Kneser-Ney model ranked on a Katz model and estimated
+// again on the survivors scores held-out text better than the Kneser-Ney
+// model pruned by relative entropy on itself with its probabilities kept.
+func TestBeatsPlainPruningOfKneserNey(t *testing.T) {
+	c, held := slice(t, 3000, 4)
+	opt := estimate.Options{Method: estimate.KneserNey, Order: 4}
+	m, full := unpruned(t, c, opt, quantize.Options{})
+	budget := full / 8
+	res, err := Fit(c, Options{Estimate: opt, MaxBytes: budget})
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, keep, _, err := prune.Fit(m, prune.EntropyScores(m), budget, func(_ float64, kp [][]bool) (int64, error) {
+		return format.Size(prune.Select(m, kp))
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	plain := prune.Apply(m, keep)
+	good, err := perplexity(res.Model, held)
+	if err != nil {
+		t.Fatal(err)
+	}
+	bad, _ := perplexity(plain, held)
+	t.Logf("held-out perplexity at %d bytes: %.3f this path, %.3f plain pruning", budget, good, bad)
+	if !(good < bad) {
+		t.Errorf("held-out perplexity %.3f, not below plain pruning's %.3f", good, bad)
+	}
+}
+
+// With held-out text every order from 2 up is fitted to the budget and the
+// lowest perplexity wins; the report lists each.
+func TestComparesOrdersOnHeldoutText(t *testing.T) {
+	c, held := slice(t, 1500, 4)
+	opt := estimate.Options{Method: estimate.KneserNey, Order: 4}
+	_, full := unpruned(t, c, opt, q8)
+	res, err := Fit(c, Options{Estimate: opt, MaxBytes: full / 4, Quantize: q8, Heldout: held})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(res.Candidates) != 3 {
+		t.Fatalf("%d candidates, want orders 4, 3, 2", len(res.Candidates))
+	}
+	for i, cand := range res.Candidates {
+		if cand.Order != 4-i || cand.Problem != "" || cand.FileBytes > full/4 {
+			t.Errorf("candidate %d: %+v", i, cand)
+		}
+		if cand.Perplexity < res.Chosen.Perplexity {
+			t.Errorf("order %d scored %.3f, below the chosen order %d's %.3f", cand.Order, cand.Perplexity, res.Chosen.Order, res.Chosen.Perplexity)
+		}
+	}
+	if res.Model.Order() != res.Chosen.Order {
+		t.Errorf("model of order %d, chosen %d", res.Model.Order(), res.Chosen.Order)
+	}
+	if got, _ := perplexity(res.Model, held); got != res.Chosen.Perplexity {
+		t.Errorf("chosen model scores %v, reported %v", got, res.Chosen.Perplexity)
+	}
+}
+
+func TestTooSmallABudgetSaysWhatFits(t *testing.T) {
+	c, _ := slice(t, 300, 3)
+	_, err := Fit(c, Options{Estimate: estimate.Options{Method: estimate.Katz, Order: 3}, MaxBytes: 1000})
+	if err == nil || !strings.Contains(err.Error(), "smallest model") {
+		t.Fatalf("got %v, want an error naming the smallest model's size", err)
+	}
+}
