@@ -198,48 +198,80 @@ func fitOrder(c *counts.Counts, opt Options, n int) (*tables.Tables, *estimate.R
 		p.Info.History = append(slices.Clip(p.Info.History), history(method, opt.Ranking, th, keep))
 		return p
 	}
-	step("choosing the threshold for %d bytes", opt.MaxBytes)
-	th, keep, _, err := prune.Fit(t, scores, opt.MaxBytes, func(th float64, kp [][]bool) (int64, error) {
-		p := shaped(th, kp, t)
-		if opt.Quantize.Bits != 0 {
-			p = quantize.Placeholder(p, opt.Quantize)
+	// The quantizer may widen a back-off codebook beyond what the sizing
+	// assumed (so that every context still sums to one); then the file is
+	// measured and the target lowered by the excess, a few times at most.
+	target := opt.MaxBytes
+	var (
+		m    *tables.Tables
+		th   float64
+		keep [][]bool
+		size int64
+	)
+	for attempt := 1; ; attempt++ {
+		step("choosing the threshold for %d bytes", target)
+		th, keep, _, err = prune.Fit(t, scores, target, func(th float64, kp [][]bool) (int64, error) {
+			p := shaped(th, kp, t)
+			if opt.Quantize.Bits != 0 {
+				p = quantize.Placeholder(p, opt.Quantize)
+			}
+			return format.Size(p)
+		})
+		if err != nil {
+			return nil, nil, Candidate{}, fmt.Errorf("order %d: %w", n, err)
 		}
-		return format.Size(p)
-	})
-	if err != nil {
-		return nil, nil, Candidate{}, fmt.Errorf("order %d: %w", n, err)
-	}
-	if method == estimate.KneserNey {
-		step("estimating %s again on the survivors", method)
-		eo.Survivors = keep
-		if t, _, err = estimate.Estimate(c, eo); err != nil {
+		if m, err = build(c, eo, t, keep, func(p *tables.Tables) *tables.Tables { return shaped(th, keep, p) }, describe, opt.Quantize, step); err != nil {
 			return nil, nil, Candidate{}, err
 		}
-		if err := describe(t); err != nil {
+		if size, err = format.Size(m); err != nil {
 			return nil, nil, Candidate{}, err
 		}
-	}
-	step("recomputing back-off weights")
-	m := shaped(th, keep, t)
-	prune.Renormalize(m)
-	if opt.Quantize.Bits != 0 {
-		step("quantizing")
-		if m, _, err = quantize.Model(m, opt.Quantize); err != nil {
-			return nil, nil, Candidate{}, err
+		if size <= opt.MaxBytes {
+			break
 		}
-	}
-	size, err := format.Size(m)
-	if err != nil {
-		return nil, nil, Candidate{}, err
-	}
-	if size > opt.MaxBytes { // Placeholder promises this cannot happen
-		return nil, nil, Candidate{}, fmt.Errorf("order %d: internal error: the model takes %d bytes, over the budget of %d", n, size, opt.MaxBytes)
+		if attempt == maxAttempts {
+			return nil, nil, Candidate{}, fmt.Errorf("order %d: after %d attempts the model still takes %d bytes, over the budget of %d", n, attempt, size, opt.MaxBytes)
+		}
+		target -= size - opt.MaxBytes
 	}
 	kept := prune.Kept(keep)
 	for k := range rep.Orders {
 		rep.Orders[k].Kept = kept[k]
 	}
 	return m, rep, Candidate{Order: n, Threshold: th, NGrams: kept, FileBytes: size}, nil
+}
+
+// maxAttempts bounds the re-fits after a quantized file came out larger
+// than its sizing.
+const maxAttempts = 5
+
+// build makes the model that keeps the given n-grams of t: Kneser-Ney
+// estimated again on them, the others removed, back-off weights recomputed,
+// quantized if asked.
+func build(c *counts.Counts, eo estimate.Options, t *tables.Tables, keep [][]bool, shaped func(*tables.Tables) *tables.Tables,
+	describe func(*tables.Tables) error, q quantize.Options, step func(string, ...any)) (*tables.Tables, error) {
+	if eo.Method == estimate.KneserNey {
+		step("estimating %s again on the survivors", eo.Method)
+		eo.Survivors = keep
+		var err error
+		if t, _, err = estimate.Estimate(c, eo); err != nil {
+			return nil, err
+		}
+		if err := describe(t); err != nil {
+			return nil, err
+		}
+	}
+	step("recomputing back-off weights")
+	m := shaped(t)
+	prune.Renormalize(m)
+	if q.Bits != 0 {
+		step("quantizing")
+		var err error
+		if m, _, err = quantize.Model(m, q); err != nil {
+			return nil, err
+		}
+	}
+	return m, nil
 }
 
 func history(method, ranking estimate.Method, th float64, keep [][]bool) string {
