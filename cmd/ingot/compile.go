@@ -159,7 +159,7 @@ perplexity, listing what it compared.`,
 				t.Info.History = append(t.Info.History, fmt.Sprintf(
 					"count cutoffs %s (kept %s n-grams per order)", minCounts, joinInts(prune.Kept(keep))))
 				for k := range rep.Orders {
-					rep.Orders[k].Kept = t.Len(k + 1)
+					rep.Orders[k].Cut, rep.Orders[k].Kept = true, t.Len(k+1)
 				}
 			}
 			if err := stamp(&t.Info); err != nil {
@@ -296,7 +296,7 @@ func printReport(w io.Writer, rep *estimate.Report, out string, asJSON bool) err
 		}{Model: out, Method: string(rep.Method)}
 		for _, o := range rep.Orders {
 			oj := orderJSON{Order: o.Order, NGrams: o.NGrams, Contexts: o.Contexts, Fallbacks: o.Fallbacks}
-			if o.Kept > 0 {
+			if o.Cut {
 				oj.Kept = &o.Kept
 			}
 			if len(o.Discounts) > 0 {
@@ -322,7 +322,7 @@ func printReport(w io.Writer, rep *estimate.Report, out string, asJSON bool) err
 			ds = []string{"-"}
 		}
 		ng := fmt.Sprint(o.NGrams)
-		if o.Kept > 0 {
+		if o.Cut {
 			ng = fmt.Sprintf("%d (kept %d)", o.NGrams, o.Kept)
 		}
 		fmt.Fprintf(tw, "%d\t%s\t%d\t%s\t\n", o.Order, ng, o.Contexts, strings.Join(ds, " "))

@@ -105,11 +105,15 @@ held-out text.`,
 					return err
 				}
 			}
+			measured, err := measureInput(args[0], heldout)
+			if err != nil {
+				return err
+			}
 			if err := writeOutput(cmd.Context(), out, nil, func(w io.Writer) error { return format.Write(w, p) }); err != nil {
 				return err
 			}
 			pr.done()
-			return reportPrune(cmd.OutOrStdout(), t, p, threshold, args[0], out, heldout, asJSON)
+			return reportPrune(cmd.OutOrStdout(), t, p, threshold, measured, out, heldout, asJSON)
 		},
 	}
 	f := cmd.Flags()
@@ -158,8 +162,8 @@ func heldoutPerplexity(path, text string) (float64, error) {
 	return sum.Perplexity(), nil
 }
 
-func reportPrune(w io.Writer, before, after *tables.Tables, threshold float64, in, out, heldout string, asJSON bool) error {
-	r, err := compareFiles(in, out, heldout)
+func reportPrune(w io.Writer, before, after *tables.Tables, threshold float64, measured shrinkResult, out, heldout string, asJSON bool) error {
+	r, err := measured.compareOutput(out, heldout)
 	if err != nil {
 		return err
 	}

@@ -82,10 +82,14 @@ back-off codebook is widened where that needs it); 'ingot verify' allows
 			if err != nil {
 				return err
 			}
+			before, err := measureInput(args[0], heldout)
+			if err != nil {
+				return err
+			}
 			if err := writeOutput(cmd.Context(), out, nil, func(w io.Writer) error { return format.Write(w, q) }); err != nil {
 				return err
 			}
-			return reportQuantize(cmd.OutOrStdout(), reports, args[0], out, heldout, asJSON)
+			return reportQuantize(cmd.OutOrStdout(), reports, before, out, heldout, asJSON)
 		},
 	}
 	qf.register(cmd, true)
@@ -110,8 +114,8 @@ type quantOrderJSON struct {
 	Residual        float64 `json:"residual"`
 }
 
-func reportQuantize(w io.Writer, reports []quantize.OrderReport, in, out, heldout string, asJSON bool) error {
-	res, err := compareFiles(in, out, heldout)
+func reportQuantize(w io.Writer, reports []quantize.OrderReport, before shrinkResult, out, heldout string, asJSON bool) error {
+	res, err := before.compareOutput(out, heldout)
 	if err != nil {
 		return err
 	}

@@ -34,22 +34,34 @@ type shrinkResult struct {
 	pplIn, pplOut     float64 // NaN without held-out text
 }
 
-// compareFiles measures both files and, when heldout is given, both
-// models' perplexity on it.
-func compareFiles(in, out, heldout string) (shrinkResult, error) {
+// measureInput measures the input model's file and, when heldout is
+// given, its perplexity on it. Commands call it before writing anything,
+// so that an output that replaces the input (-o naming the input) is
+// still compared with the input.
+func measureInput(in, heldout string) (shrinkResult, error) {
 	r := shrinkResult{pplIn: math.NaN(), pplOut: math.NaN()}
+	st, err := os.Stat(in)
+	if err != nil {
+		return r, err
+	}
+	r.inBytes = st.Size()
+	if heldout != "" {
+		if r.pplIn, err = heldoutPerplexity(in, heldout); err != nil {
+			return r, err
+		}
+	}
+	return r, nil
+}
+
+// compareOutput adds the written output's size and perplexity to the
+// input's measurements.
+func (r shrinkResult) compareOutput(out, heldout string) (shrinkResult, error) {
 	fi, err := os.Stat(out)
 	if err != nil {
 		return r, err
 	}
 	r.outBytes = fi.Size()
-	if st, err := os.Stat(in); err == nil {
-		r.inBytes = st.Size()
-	}
 	if heldout != "" {
-		if r.pplIn, err = heldoutPerplexity(in, heldout); err != nil {
-			return r, err
-		}
 		if r.pplOut, err = heldoutPerplexity(out, heldout); err != nil {
 			return r, err
 		}

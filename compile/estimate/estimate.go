@@ -92,7 +92,8 @@ type OrderReport struct {
 	Order     int
 	NGrams    int
 	Contexts  int // contexts with at least one successor at this order
-	Kept      int // entries kept after count cutoffs (0: none were applied)
+	Cut       bool // count cutoffs were applied (Kept is then meaningful, 0 included)
+	Kept      int  // entries kept after count cutoffs
 	Discounts []Param
 	Fallbacks []string
 }
