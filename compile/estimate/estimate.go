@@ -91,7 +91,7 @@ type Param struct {
 type OrderReport struct {
 	Order     int
 	NGrams    int
-	Contexts  int // contexts with at least one successor at this order
+	Contexts  int  // contexts with at least one successor at this order
 	Cut       bool // count cutoffs were applied (Kept is then meaningful, 0 included)
 	Kept      int  // entries kept after count cutoffs
 	Discounts []Param
