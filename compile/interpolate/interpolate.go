@@ -49,18 +49,16 @@ type Mixture struct {
 	uUnk   uint32
 }
 
-// New prepares the mixture of the given models (at least one). The models
-// are read, never changed.
+// New prepares the mixture of the given models (at least one), each of
+// which must follow the conventions of package tables (as format.ToTables
+// and the estimators return them). The models are read, never changed.
 func New(models []*tables.Tables) (*Mixture, error) {
 	if len(models) == 0 {
 		return nil, fmt.Errorf("no models to interpolate")
 	}
 	m := &Mixture{models: models}
 	seen := map[string]bool{}
-	for i, t := range models {
-		if err := t.Check(); err != nil {
-			return nil, fmt.Errorf("model %d: %w", i+1, err)
-		}
+	for _, t := range models {
 		for _, w := range t.Vocab {
 			if !seen[w] {
 				seen[w] = true
@@ -196,29 +194,48 @@ func (m *Mixture) Build(weights []float64, names []string) (*tables.Tables, erro
 	// lp[i][e]: log10 P_i of union entry e of the current order; prev: of
 	// the order below.
 	var prev [][]float64
-	g := make([]uint32, 0, N)
+	// prevSuffix[e]: for union entry e of order k-1, the index at order k-2
+	// of its suffix (without its first word), or -1 when the union lacks it.
+	var prevSuffix []int32
 	buf := make([]uint32, 0, N)
 	for k := 1; k <= N; k++ {
-		cnt := len(out.Levels[k-1].Words) / k
+		lv := &out.Levels[k-1]
+		cnt := len(lv.Words) / k
 		lp := make([][]float64, n)
 		for i := range lp {
 			lp[i] = make([]float64, cnt)
 		}
+		suffix := make([]int32, cnt)
+		var children []int32 // per order k-2 entry: where its children start at order k-1
+		if k >= 3 {
+			children = childStarts(out, k-1)
+		}
 		prefix := 0
 		for e := 0; e < cnt; e++ {
-			g = append(g[:0], out.Gram(k, e)...)
-			suffix := -1
-			if k > 1 {
+			g := out.Gram(k, e)
+			s := -1
+			switch {
+			case k == 1:
+			case k == 2:
+				s = int(g[1]) // order 1 is dense over U
+				for tables.Compare(out.Gram(1, prefix), g[:1]) < 0 {
+					prefix++
+				}
+			default:
 				for tables.Compare(out.Gram(k-1, prefix), g[:k-1]) < 0 {
 					prefix++
 				}
-				suffix = out.Find(g[1:])
+				// The suffix g[1:] is the child, with last word g[k-1], of
+				// the prefix's suffix g[1:k-1].
+				if sp := prevSuffix[prefix]; sp >= 0 {
+					s = findChild(out, k-1, children[sp], children[sp+1], g[k-1])
+				}
 			}
+			suffix[e] = int32(s)
 			for i, t := range m.models {
-				lp[i][e] = m.entry(i, t, k, e, g, prefix, suffix, at, prev, buf)
+				lp[i][e] = m.entry(i, t, k, e, g, prefix, s, at, prev, buf)
 			}
 		}
-		lv := &out.Levels[k-1]
 		lv.LogProb = make([]float32, cnt)
 		for e := range lv.LogProb {
 			var p float64
@@ -230,7 +247,7 @@ func (m *Mixture) Build(weights []float64, names []string) (*tables.Tables, erro
 		if k < N {
 			lv.LogBackoff = make([]float32, cnt)
 		}
-		prev = lp
+		prev, prevSuffix = lp, suffix
 	}
 	out.Levels[0].LogProb[m.uStart] = tables.NoProb
 	prune.Renormalize(out)
@@ -247,9 +264,6 @@ func (m *Mixture) Build(weights []float64, names []string) (*tables.Tables, erro
 		Options: map[string]string{"weights": formatWeights(weights)},
 		History: []string{"linear interpolation of " + strings.Join(parts, ", ")},
 	}
-	if err := out.Check(); err != nil {
-		return nil, fmt.Errorf("interpolated model: %w", err)
-	}
 	return out, nil
 }
 
@@ -259,6 +273,43 @@ func formatWeights(w []float64) string {
 		s[i] = fmt.Sprintf("%.6g", x)
 	}
 	return strings.Join(s, ",")
+}
+
+// childStarts returns, for each entry of order k-1 of t, where its
+// children start among the entries of order k (one more value at the end).
+// Entries are sorted, so one pass finds them.
+func childStarts(t *tables.Tables, k int) []int32 {
+	n := t.Len(k - 1)
+	starts := make([]int32, n+1)
+	j := 0
+	for p := 0; p < n; p++ {
+		starts[p] = int32(j)
+		for j < t.Len(k) && tables.Compare(t.Gram(k, j)[:k-1], t.Gram(k-1, p)) == 0 {
+			j++
+		}
+	}
+	starts[n] = int32(j)
+	return starts
+}
+
+// findChild returns the index among entries [lo, hi) of order k (children
+// of one context, sorted by last word) of the one whose last word is w, or
+// -1.
+func findChild(t *tables.Tables, k int, lo, hi int32, w uint32) int {
+	words := t.Levels[k-1].Words
+	i, j := int(lo), int(hi)
+	for i < j {
+		m := int(uint(i+j) >> 1)
+		if words[k*m+k-1] < w {
+			i = m + 1
+		} else {
+			j = m
+		}
+	}
+	if i < int(hi) && words[k*i+k-1] == w {
+		return i
+	}
+	return -1
 }
 
 // entry returns log10 P_i(w|h) of union entry e = g of order k, from the
