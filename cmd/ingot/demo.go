@@ -20,6 +20,12 @@ var (
 	demoTraining string
 	//go:embed demodata/heldout.txt
 	demoHeldout string
+	//go:embed demodata/wordlist.txt
+	demoWordList string
+	//go:embed demodata/unit-logs.txt
+	demoUnitLogs string
+	//go:embed demodata/unit-heldout.txt
+	demoUnitHeldout string
 )
 
 func newDemoCmd() *cobra.Command {
@@ -29,7 +35,9 @@ func newDemoCmd() *cobra.Command {
 		Long: `Walk through the whole job on the bundled demo: spoken commands that rangers
 of an invented wetland reserve give their handheld field unit. Writes the
 demo text, its counts and the model into DIR (default ./ingot-demo) and
-prints every step as the command you would type.`,
+prints every step as the command you would type. The model predicts the
+unit's fixed word list and is adapted to one unit's own logs by
+interpolation.`,
 		Example: `  ingot demo
   ingot demo /tmp/field-demo`,
 		Args: cobra.MaximumNArgs(1),
@@ -55,7 +63,8 @@ func runDemo(ctx context.Context, stdout, stderr io.Writer, dir string) error {
 			return fmt.Errorf("demo: %w", err)
 		}
 	}
-	for name, text := range map[string]string{"commands.txt": demoTraining, "heldout.txt": demoHeldout} {
+	for name, text := range map[string]string{"commands.txt": demoTraining, "heldout.txt": demoHeldout,
+		"wordlist.txt": demoWordList, "unit-logs.txt": demoUnitLogs, "unit-heldout.txt": demoUnitHeldout} {
 		if err := os.WriteFile(path(name), []byte(text), 0o644); err != nil {
 			return fmt.Errorf("demo: %w", err)
 		}
@@ -68,14 +77,20 @@ func runDemo(ctx context.Context, stdout, stderr io.Writer, dir string) error {
 		args []string
 		show string // print only the lines holding one of these |-separated pieces (empty: all)
 	}{
-		{"Count the n-grams of orders 1 to 3.",
-			[]string{"count", "--order", "3", "-o", path("counts.bin"), path("commands.txt")}, ""},
-		{"Estimate an interpolated modified Kneser-Ney model and write the binary model file.",
-			[]string{"compile", "--method", "kneser-ney", "--order", "3", "-o", path("field.ingot"), path("counts.bin")}, ""},
-		{"Score held-out commands the device has not seen (summary line).",
-			[]string{"score", path("field.ingot"), path("heldout.txt")}, "sentences "},
+		{"Count the n-grams of orders 1 to 3 over the unit's fixed word list (wordlist.txt): every other word counts as <unk>.",
+			[]string{"count", "--order", "3", "--vocabulary", path("wordlist.txt"), "-o", path("counts.bin"), path("commands.txt")}, ""},
+		{"Estimate an interpolated modified Kneser-Ney model over the same list (listed words never heard, such as \"spoonbill\", stay predictable) and write the binary model file.",
+			[]string{"compile", "--method", "kneser-ney", "--order", "3", "--vocabulary", path("wordlist.txt"), "-o", path("field.ingot"), path("counts.bin")}, ""},
+		{"Score held-out commands the device has not seen (the summary).",
+			[]string{"score", "--summary-only", path("field.ingot"), path("heldout.txt")}, ""},
+		{"Adapt to one unit: count and compile the night patrol's own logs over the same word list.",
+			[]string{"count", "--order", "3", "--vocabulary", path("wordlist.txt"), "-o", path("unit-counts.bin"), path("unit-logs.txt")}, ""},
+		{"",
+			[]string{"compile", "--method", "witten-bell", "--order", "3", "--vocabulary", path("wordlist.txt"), "-o", path("unit.ingot"), path("unit-counts.bin")}, "wrote"},
+		{"Interpolate the general model with the unit's own into one back-off model, the weights fitted by EM on held-out logs.",
+			[]string{"interpolate", "--fit", path("unit-heldout.txt"), "-o", path("adapted.ingot"), path("field.ingot"), path("unit.ingot")}, ""},
 		{"The device has 16 KB for the model: prune by relative entropy to fit, with 8-bit codebooks.",
-			[]string{"prune", "--max-size", "16KB", "--bits", "8", "--heldout", path("heldout.txt"), "-o", path("device.ingot"), path("field.ingot")}, ""},
+			[]string{"prune", "--max-size", "16KB", "--bits", "8", "--heldout", path("unit-heldout.txt"), "-o", path("device.ingot"), path("adapted.ingot")}, ""},
 		{"Prove the shipped file intact and every context normalised (the release check).",
 			[]string{"verify", path("device.ingot")}, "verify |pass"},
 		{"Make a signing key and sign the release.",
@@ -124,7 +139,7 @@ func runDemo(ctx context.Context, stdout, stderr io.Writer, dir string) error {
 			}
 		}
 	}
-	fmt.Fprintf(stdout, "\nDone. %s is the shipped model: pruned to the budget, quantized, verified and signed.\nTry: %s inspect --next \"turn the\" %s\n", path("device.ingot"), invokedAs(os.Args[0]), path("device.ingot"))
+	fmt.Fprintf(stdout, "\nDone. %s is the shipped model: over the unit's word list, adapted to its logs, pruned to the budget, quantized, verified and signed.\nTry: %s inspect --next \"turn the\" %s\n", path("device.ingot"), invokedAs(os.Args[0]), path("device.ingot"))
 	return nil
 }
 

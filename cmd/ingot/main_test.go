@@ -142,7 +142,7 @@ func TestDemoRuns(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("demo: exit %d: %s", code, e)
 	}
-	for _, want := range []string{"perplexity", "back-off weight", "wrote", "device.ingot: ok", "signature       pass", "codebooks"} {
+	for _, want := range []string{"perplexity", "back-off weight", "wrote", "device.ingot: ok", "signature       pass", "codebooks", "weights fitted by EM", "--vocabulary"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("demo output lacks %q", want)
 		}

@@ -2,7 +2,9 @@
 
 // generate writes the invented demo corpus: spoken commands that rangers of
 // the fictional Marrowfen wetland reserve say to their handheld field unit.
-// Every name here is made up.
+// Every name here is made up. Besides the general training and held-out
+// commands it writes the unit's fixed word list (what its recogniser can
+// say) and the logs of one unit, the night patrol's, for adaptation.
 //
 //	go run cmd/ingot/demodata/generate.go
 package main
@@ -11,6 +13,7 @@ import (
 	"fmt"
 	"math/rand/v2"
 	"os"
+	"slices"
 	"strings"
 )
 
@@ -72,13 +75,71 @@ func sentence(r *rand.Rand) string {
 	}
 }
 
-func write(name string, r *rand.Rand, n int) {
+// nightSentence is what the night patrol's unit hears: its own animals and
+// lights, words the general commands never use (spoonbill, lantern, which
+// the unit's word list holds), and now and then a hesitation the list
+// lacks.
+func nightSentence(r *rand.Rand) string {
+	var s string
+	switch r.IntN(6) {
+	case 0, 1:
+		a := pick(r, []string{"barn owl", "otter", "roe deer", "spoonbill", "bittern"})
+		c := pick(r, []string{"one", "two", "a pair of"})
+		if c == "one" {
+			s = "log sighting of one " + a + " near " + pick(r, places)
+		} else {
+			s = "log sighting of " + c + " " + map[string]string{"barn owl": "barn owls", "otter": "otters", "roe deer": "roe deer", "spoonbill": "spoonbills", "bittern": "bitterns"}[a] + " near " + pick(r, places)
+		}
+	case 2:
+		s = "turn the " + pick(r, []string{"torch", "lantern", "lantern", "recorder"}) + " " + pick(r, states)
+	case 3:
+		s = "call the night patrol and say " + pick(r, []string{"all clear", "on my way", "need assistance"})
+	case 4:
+		s = "record visibility " + pick(r, []string{"poor", "good"})
+	default:
+		s = sentence(r)
+	}
+	if r.IntN(12) == 0 {
+		s = pick(r, []string{"um", "er", "okay"}) + " " + s
+	}
+	return s
+}
+
+func write(name string, r *rand.Rand, n int, gen func(*rand.Rand) string) []string {
 	var b strings.Builder
+	var lines []string
 	for i := 0; i < n; i++ {
-		b.WriteString(sentence(r))
+		line := gen(r)
+		lines = append(lines, line)
+		b.WriteString(line)
 		b.WriteByte('\n')
 	}
 	if err := os.WriteFile(name, []byte(b.String()), 0o644); err != nil {
+		fmt.Fprintln(os.Stderr, err)
+		os.Exit(1)
+	}
+	return lines
+}
+
+// writeWordList writes the unit's fixed word list: every word of the
+// general commands but a few the unit's recogniser leaves out, plus words
+// of its newer firmware that the general commands never use.
+func writeWordList(name string, commands []string) {
+	drop := map[string]bool{"gps": true, "egret": true, "egrets": true}
+	seen := map[string]bool{"spoonbill": true, "spoonbills": true, "lantern": true}
+	for _, l := range commands {
+		for _, w := range strings.Fields(l) {
+			if !drop[w] {
+				seen[w] = true
+			}
+		}
+	}
+	var words []string
+	for w := range seen {
+		words = append(words, w)
+	}
+	slices.Sort(words)
+	if err := os.WriteFile(name, []byte(strings.Join(words, "\n")+"\n"), 0o644); err != nil {
 		fmt.Fprintln(os.Stderr, err)
 		os.Exit(1)
 	}
@@ -86,6 +147,9 @@ func write(name string, r *rand.Rand, n int) {
 
 func main() {
 	r := rand.New(rand.NewPCG(2026, 12))
-	write("cmd/ingot/demodata/commands.txt", r, 4000)
-	write("cmd/ingot/demodata/heldout.txt", r, 300)
+	commands := write("cmd/ingot/demodata/commands.txt", r, 4000, sentence)
+	write("cmd/ingot/demodata/heldout.txt", r, 300, sentence)
+	writeWordList("cmd/ingot/demodata/wordlist.txt", commands)
+	write("cmd/ingot/demodata/unit-logs.txt", r, 600, nightSentence)
+	write("cmd/ingot/demodata/unit-heldout.txt", r, 200, nightSentence)
 }
