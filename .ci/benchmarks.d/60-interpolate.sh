@@ -4,6 +4,7 @@
 # the bundled corpus (linear time shows as a flat ns/ngram); and the
 # accuracy targets on a general and a domain 5-gram model.
 set -euo pipefail
+load=$(cut -d' ' -f1-3 /proc/loadavg)
 speed=$(go test ./compile/interpolate -run '^$' -bench 'BenchmarkInterpolate$' -benchtime 3x -timeout 60m)
 accuracy=$(go test ./compile/interpolate -run '^$' -bench 'BenchmarkAdaptation$' -benchtime 1x -timeout 60m)
 metric() { # metric LINE UNIT: the value printed before UNIT
@@ -16,7 +17,7 @@ echo "Kneser-Ney and Witten-Bell, so the union of their n-grams is either one's)
 echo "read through the format's reader, interpolated with equal weights and"
 echo "written; in the same loop \`verify\` checks the Kneser-Ney input. Medians"
 echo "of 3 runs each. Target: interpolate at most 10 times verify, in time linear"
-echo "in the n-grams."
+echo "in the n-grams. Load average when this section started: $load."
 echo
 echo "| sentences | n-grams | interpolate ns/n-gram | verify ns/n-gram | interpolate / verify |"
 echo "| --- | --- | --- | --- | --- |"
