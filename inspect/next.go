@@ -14,7 +14,7 @@ type NextWords struct {
 	// as looked up: words outside the vocabulary appear as <unk>.
 	Context []string `json:"context"`
 	// Unknown lists the given context words that were looked up as <unk>.
-	Unknown []string `json:"unknown_words,omitempty"`
+	Unknown []string `json:"unknown_words"`
 	// Candidates is the number of words scored: the vocabulary without <s>.
 	Candidates int `json:"candidates"`
 	// TotalProbability is the sum of P(w | context) over every candidate,
@@ -48,7 +48,7 @@ func Next(m *format.Model, context []string, top int) (*NextWords, error) {
 		return nil, errors.New("the number of words to show must be at least 1")
 	}
 	ids := make([]uint32, 0, len(context))
-	out := &NextWords{Context: []string{}, Predictions: []Prediction{}}
+	out := &NextWords{Context: []string{}, Unknown: []string{}, Predictions: []Prediction{}}
 	for i, w := range context {
 		id, ok := m.ID(w)
 		if !ok || (id == m.StartID() && i > 0) {

@@ -12,7 +12,7 @@ type Stats struct {
 	FileBytes int64 `json:"file_bytes"`
 	// NGrams holds the entries per order, unigrams first; TotalNGrams
 	// their sum.
-	NGrams      []int `json:"ngrams"`
+	NGrams      []int `json:"ngrams_per_order"`
 	TotalNGrams int   `json:"total_ngrams"`
 	// BitsPerNGram is FileBytes * 8 / TotalNGrams: the whole file, header
 	// and vocabulary included.

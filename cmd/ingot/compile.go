@@ -284,7 +284,7 @@ type orderJSON struct {
 	Contexts  int                `json:"contexts"`
 	Kept      *int               `json:"kept,omitempty"`
 	Discounts map[string]float64 `json:"discounts,omitempty"`
-	Fallbacks []string           `json:"fallbacks,omitempty"`
+	Fallbacks []string           `json:"rules_applied,omitempty"`
 }
 
 func printReport(w io.Writer, rep *estimate.Report, out string, asJSON bool) error {
@@ -307,7 +307,7 @@ func printReport(w io.Writer, rep *estimate.Report, out string, asJSON bool) err
 			}
 			v.Orders = append(v.Orders, oj)
 		}
-		return encodeIndented(w, v)
+		return writeJSON(w, v)
 	}
 	fmt.Fprintf(w, "wrote %s (%s, order %d)\n", out, rep.Method, len(rep.Orders))
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)

@@ -94,7 +94,7 @@ func printBudgetReport(w io.Writer, res *budget.Result, bo budget.Options, out s
 		if res.Chosen.Perplexity > 0 {
 			v["perplexity"] = res.Chosen.Perplexity
 		}
-		return encodeIndented(w, v)
+		return writeJSON(w, v)
 	}
 	fmt.Fprintf(w, "wrote %s (%s, order %d): %s, budget %s\n", out, bo.Estimate.Method, res.Chosen.Order,
 		humanSize(res.Chosen.FileBytes), humanSize(bo.MaxBytes))

@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"io"
+	"os"
 	"strings"
 
 	"github.com/spf13/cobra"
@@ -18,6 +19,7 @@ func newCountCmd() *cobra.Command {
 		minCount uint64
 		wordList string
 		asText   bool
+		asJSON   bool
 	)
 	cmd := &cobra.Command{
 		Use:   "count --order N [-o OUT] [TEXT...]",
@@ -42,6 +44,9 @@ counts as <unk>, a literal <unk> in the text included; give compile the same
   zcat big.txt.gz | ingot count --order 5 --min-word-count 2 > counts.bin
   ingot count --order 3 --text -o counts.txt commands.txt`,
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if asJSON && (out == "" || out == "-") {
+				return fmt.Errorf("--json needs -o FILE: standard output carries the counts")
+			}
 			c, err := counts.NewCounter(order)
 			if err != nil {
 				return fmt.Errorf("count: --order: %w", err)
@@ -72,13 +77,17 @@ counts as <unk>, a literal <unk> in the text included; give compile the same
 			if total(res) == 0 {
 				return fmt.Errorf("count: no sentences in %s", strings.Join(args, ", "))
 			}
-			return writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
+			err = writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
 				if asText {
 					_, err := res.WriteTo(w)
 					return err
 				}
 				return res.WriteBinary(w)
 			})
+			if err != nil || !asJSON {
+				return err
+			}
+			return reportCount(cmd.OutOrStdout(), out, res)
 		},
 	}
 	f := cmd.Flags()
@@ -87,8 +96,28 @@ counts as <unk>, a literal <unk> in the text included; give compile the same
 	f.BoolVar(&asText, "text", false, "write the text form (count, tab, n-gram) instead of the binary form")
 	f.Uint64Var(&minCount, "min-word-count", 1, "replace words seen fewer times than this by <unk>")
 	f.StringVar(&wordList, "vocabulary", "", "fixed word list, one word per line: count every other word as <unk>")
+	f.BoolVar(&asJSON, "json", false, "report what was written as JSON (needs -o)")
 	cmd.MarkFlagRequired("order")
 	return cmd
+}
+
+// reportCount prints count's JSON report: the file written, its size, and
+// the n-grams per order.
+func reportCount(w io.Writer, out string, res *counts.Counts) error {
+	fi, err := os.Stat(out)
+	if err != nil {
+		return err
+	}
+	per := make([]int, res.Order())
+	for k := range per {
+		per[k] = res.Len(k + 1)
+	}
+	return writeJSON(w, struct {
+		Counts         string `json:"counts"`
+		FileBytes      int64  `json:"file_bytes"`
+		Order          int    `json:"order"`
+		NGramsPerOrder []int  `json:"ngrams_per_order"`
+	}{out, fi.Size(), res.Order(), per})
 }
 
 func total(c *counts.Counts) uint64 {

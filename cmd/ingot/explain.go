@@ -48,7 +48,7 @@ recorded).`,
 			defer m.Close()
 			ids, unknown := lookup(m, words)
 			ex := m.Explain(ids[:len(ids)-1], ids[len(ids)-1])
-			return printExplanation(cmd.OutOrStdout(), m, ex, unknown, asJSON)
+			return printExplanation(cmd.OutOrStdout(), args[0], m, ex, unknown, asJSON)
 		},
 	}
 	cmd.Flags().BoolVar(&asJSON, "json", false, "print the explanation as JSON")
@@ -69,6 +69,15 @@ func lookup(m *format.Model, words []string) (ids []uint32, unknown []string) {
 	return ids, unknown
 }
 
+// words returns the words of ids, never nil.
+func words(m *format.Model, ids []uint32) []string {
+	s := make([]string, len(ids))
+	for i, id := range ids {
+		s[i] = m.Word(id)
+	}
+	return s
+}
+
 func join(m *format.Model, ids []uint32) string {
 	s := make([]string, len(ids))
 	for i, id := range ids {
@@ -78,8 +87,8 @@ func join(m *format.Model, ids []uint32) string {
 }
 
 type backoffJSON struct {
-	Context      string                `json:"context"`
-	Log10Weight  inspect.Number        `json:"log10_weight"`
+	Context      []string              `json:"context"`
+	Log10Backoff inspect.Number        `json:"log10_backoff"`
 	Quantization *explainQuantizedJSON `json:"quantization,omitempty"`
 }
 
@@ -132,7 +141,7 @@ func explainAnyQuantized(m *format.Model) bool {
 	return false
 }
 
-func printExplanation(w io.Writer, m *format.Model, ex format.Explanation, unknown []string, asJSON bool) error {
+func printExplanation(w io.Writer, model string, m *format.Model, ex format.Explanation, unknown []string, asJSON bool) error {
 	word := m.Word(ex.Word)
 	matched := ""
 	var matchedQ *explainQuantizedJSON
@@ -151,9 +160,10 @@ func printExplanation(w io.Writer, m *format.Model, ex format.Explanation, unkno
 	}
 	if asJSON {
 		v := struct {
-			Context      string                `json:"context"`
+			Model        string                `json:"model"`
+			Context      []string              `json:"context"`
 			Word         string                `json:"word"`
-			Unknown      []string              `json:"unknown_words,omitempty"`
+			Unknown      []string              `json:"unknown_words"`
 			MatchedOrder int                   `json:"matched_order"`
 			MatchedNGram string                `json:"matched_ngram"`
 			StoredLog10  inspect.Number        `json:"stored_log10"`
@@ -161,12 +171,12 @@ func printExplanation(w io.Writer, m *format.Model, ex format.Explanation, unkno
 			Log10        inspect.Number        `json:"log10"`
 			Probability  inspect.Number        `json:"probability"`
 			Quantization *explainQuantizedJSON `json:"quantization,omitempty"`
-		}{join(m, ex.Context), word, unknown, ex.MatchedOrder, matched, inspect.Number(ex.StoredLogProb),
+		}{model, words(m, ex.Context), word, append([]string{}, unknown...), ex.MatchedOrder, matched, inspect.Number(ex.StoredLogProb),
 			[]backoffJSON{}, inspect.Number(ex.LogProb), inspect.Number(math.Pow(10, ex.LogProb)), matchedQ}
 		for j, b := range ex.Backoffs {
-			v.Backoffs = append(v.Backoffs, backoffJSON{join(m, b.Context), inspect.Number(b.LogBackoff), backoffQ[j]})
+			v.Backoffs = append(v.Backoffs, backoffJSON{words(m, b.Context), inspect.Number(b.LogBackoff), backoffQ[j]})
 		}
-		return encodeIndented(w, v)
+		return writeJSON(w, v)
 	}
 	ctx := join(m, ex.Context)
 	fmt.Fprintf(w, "P(%s | %s)\n", word, ctx)

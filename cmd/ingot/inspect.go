@@ -148,7 +148,7 @@ func runInspect(cmd *cobra.Command, path string, f *inspectFlags) error {
 
 func printInspectSummary(w io.Writer, path string, s inspect.Summary, asJSON bool) error {
 	if asJSON {
-		return encodeIndented(w, struct {
+		return writeJSON(w, struct {
 			Model string `json:"model"`
 			inspect.Summary
 		}{path, s})
@@ -289,7 +289,7 @@ func inspectYesNo(b bool) string {
 
 func printInspectStats(w io.Writer, path string, st inspect.Stats, asJSON bool) error {
 	if asJSON {
-		return encodeIndented(w, struct {
+		return writeJSON(w, struct {
 			Model string `json:"model"`
 			inspect.Stats
 		}{path, st})
@@ -356,7 +356,7 @@ func inspectFixed(x inspect.Number) string {
 
 func printInspectNext(w io.Writer, path string, given int, nw *inspect.NextWords, asJSON bool) error {
 	if asJSON {
-		return encodeIndented(w, struct {
+		return writeJSON(w, struct {
 			Model string `json:"model"`
 			*inspect.NextWords
 		}{path, nw})

@@ -44,7 +44,7 @@ func runInspectCounts(cmd *cobra.Command, path string, f *inspectFlags) error {
 		v := struct {
 			File          string      `json:"file"`
 			Kind          string      `json:"kind"`
-			Size          int64       `json:"file_size"`
+			Size          int64       `json:"file_bytes"`
 			LayoutVersion int         `json:"layout_version"`
 			Order         int         `json:"order"`
 			Words         int         `json:"words"`
@@ -54,7 +54,7 @@ func runInspectCounts(cmd *cobra.Command, path string, f *inspectFlags) error {
 		for k := range info.Totals.Entries {
 			v.Orders = append(v.Orders, orderJSON{k + 1, info.Totals.Entries[k], info.Totals.Sums[k]})
 		}
-		return encodeIndented(out, v)
+		return writeJSON(out, v)
 	}
 	fmt.Fprintf(out, "count file      %s\n", path)
 	fmt.Fprintf(out, "layout          binary counts, version %d, %d bytes\n", info.LayoutVersion, info.Size)

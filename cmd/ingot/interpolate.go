@@ -207,8 +207,8 @@ type interpolateReport struct {
 	Fitted     bool          `json:"fitted"`
 	Iterations int           `json:"iterations,omitempty"`
 	Order      int           `json:"order"`
-	Vocabulary int           `json:"vocabulary"`
-	Perplexity *perplexities `json:"perplexity,omitempty"`
+	Vocabulary int           `json:"vocabulary_size"`
+	Perplexity *perplexities `json:"heldout_perplexity,omitempty"`
 	Orders     []orderNGrams `json:"orders"`
 }
 
@@ -220,7 +220,7 @@ type orderNGrams struct {
 
 func (r *interpolateReport) print(w io.Writer, asJSON bool) error {
 	if asJSON {
-		return encodeIndented(w, r)
+		return writeJSON(w, r)
 	}
 	how := "given"
 	if r.Fitted {

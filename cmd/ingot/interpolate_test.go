@@ -39,7 +39,7 @@ func TestInterpolateFitReport(t *testing.T) {
 			Inputs      []float64
 			Mixture     float64
 			Written     float64
-		}
+		} `json:"heldout_perplexity"`
 		Orders []struct{ Order, NGrams int }
 	}
 	if err := json.Unmarshal([]byte(out), &rep); err != nil {

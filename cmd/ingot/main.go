@@ -141,11 +141,11 @@ func newEncoder(w io.Writer) *json.Encoder {
 	return enc
 }
 
-// encodeIndented writes v as indented JSON (the single-object reports).
-func encodeIndented(w io.Writer, v any) error {
-	enc := newEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(v)
+// writeJSON writes v as one JSON object on one line: every --json report
+// has this one style, so a report and a stream of them (score, inspect
+// --dump) read the same way, as JSON Lines.
+func writeJSON(w io.Writer, v any) error {
+	return newEncoder(w).Encode(v)
 }
 
 // crashOnFatalErrors makes a fatal runtime error, or a panic on a goroutine

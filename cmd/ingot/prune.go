@@ -143,23 +143,24 @@ func ngramsPerOrder(t *tables.Tables) []int {
 	return n
 }
 
-// heldoutPerplexity scores a text file with the model at path.
-func heldoutPerplexity(path, text string) (float64, error) {
+// heldoutPerplexity scores a text file with the model at path: perplexity
+// with and without the predictions of <unk>.
+func heldoutPerplexity(path, text string) (ppl, withoutUnk float64, err error) {
 	m, err := openModel(path)
 	if err != nil {
-		return 0, err
+		return 0, 0, err
 	}
 	defer m.Close()
 	r, err := input.Open(text)
 	if err != nil {
-		return 0, fmt.Errorf("--heldout: %w", err)
+		return 0, 0, fmt.Errorf("--heldout: %w", err)
 	}
 	defer r.Close()
 	sum, err := score.Text(m, text, r, nil)
 	if err != nil {
-		return 0, err
+		return 0, 0, err
 	}
-	return sum.Perplexity(), nil
+	return sum.Perplexity(), sum.PerplexityWithoutUnknown(), nil
 }
 
 func reportPrune(w io.Writer, before, after *tables.Tables, threshold float64, measured shrinkResult, out, heldout string, asJSON bool) error {
@@ -168,9 +169,9 @@ func reportPrune(w io.Writer, before, after *tables.Tables, threshold float64, m
 		return err
 	}
 	if asJSON {
-		v := map[string]any{"threshold": threshold, "ngrams_before": ngramsPerOrder(before), "ngrams": ngramsPerOrder(after)}
+		v := map[string]any{"threshold": threshold, "baseline_ngrams_per_order": ngramsPerOrder(before), "ngrams_per_order": ngramsPerOrder(after)}
 		r.addJSON(v, out)
-		return newEncoder(w).Encode(v)
+		return writeJSON(w, v)
 	}
 	fmt.Fprintf(w, "wrote %s: %s (was %s), threshold %.6g nats\n", out, humanSize(r.outBytes), humanSize(r.inBytes), threshold)
 	for k := 1; k <= after.Order(); k++ {

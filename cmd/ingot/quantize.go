@@ -128,7 +128,7 @@ func reportQuantize(w io.Writer, reports []quantize.OrderReport, before shrinkRe
 				r.BackoffBits, r.BackoffLevels, r.BackoffStep, r.BackoffMaxError, r.Residual})
 		}
 		v["orders"] = orders
-		return newEncoder(w).Encode(v)
+		return writeJSON(w, v)
 	}
 	fmt.Fprintf(w, "wrote %s: %s (was %s)\n", out, humanSize(res.outBytes), humanSize(res.inBytes))
 	fmt.Fprintf(w, "  %-5s  %-30s  %-30s  %s\n", "order", "probabilities", "back-off weights", "residual")

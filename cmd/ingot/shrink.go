@@ -7,6 +7,7 @@ import (
 
 	"ingot/compile/tables"
 	"ingot/format"
+	"ingot/inspect"
 )
 
 // readUnquantized reads the model at path into memory for a command that
@@ -32,6 +33,8 @@ func readUnquantized(command, path string) (*tables.Tables, error) {
 type shrinkResult struct {
 	inBytes, outBytes int64
 	pplIn, pplOut     float64 // NaN without held-out text
+	// the same without the predictions of <unk>
+	pplInNoUnk, pplOutNoUnk float64
 }
 
 // measureInput measures the input model's file and, when heldout is
@@ -46,7 +49,7 @@ func measureInput(in, heldout string) (shrinkResult, error) {
 	}
 	r.inBytes = st.Size()
 	if heldout != "" {
-		if r.pplIn, err = heldoutPerplexity(in, heldout); err != nil {
+		if r.pplIn, r.pplInNoUnk, err = heldoutPerplexity(in, heldout); err != nil {
 			return r, err
 		}
 	}
@@ -62,7 +65,7 @@ func (r shrinkResult) compareOutput(out, heldout string) (shrinkResult, error) {
 	}
 	r.outBytes = fi.Size()
 	if heldout != "" {
-		if r.pplOut, err = heldoutPerplexity(out, heldout); err != nil {
+		if r.pplOut, r.pplOutNoUnk, err = heldoutPerplexity(out, heldout); err != nil {
 			return r, err
 		}
 	}
@@ -71,9 +74,10 @@ func (r shrinkResult) compareOutput(out, heldout string) (shrinkResult, error) {
 
 // addJSON adds the comparison's keys to a JSON report.
 func (r shrinkResult) addJSON(v map[string]any, model string) {
-	v["model"], v["input_bytes"], v["file_bytes"] = model, r.inBytes, r.outBytes
+	v["model"], v["baseline_file_bytes"], v["file_bytes"] = model, r.inBytes, r.outBytes
 	if !math.IsNaN(r.pplIn) {
-		v["perplexity_before"], v["perplexity"] = r.pplIn, r.pplOut
+		v["baseline_perplexity"], v["perplexity"] = inspect.Number(r.pplIn), inspect.Number(r.pplOut)
+		v["baseline_perplexity_without_unk"], v["perplexity_without_unk"] = inspect.Number(r.pplInNoUnk), inspect.Number(r.pplOutNoUnk)
 	}
 }
 

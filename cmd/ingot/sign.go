@@ -16,9 +16,12 @@ import (
 )
 
 func newKeygenCmd() *cobra.Command {
-	var name string
+	var (
+		name   string
+		asJSON bool
+	)
 	cmd := &cobra.Command{
-		Use:   "keygen -o NAME",
+		Use:   "keygen [--json] -o NAME",
 		Short: "Make an Ed25519 key pair for signing models",
 		Long: `Make an Ed25519 key pair: NAME.key (the private key, PKCS #8 in PEM, readable
 by you alone) signs models with 'ingot sign'; NAME.pub (the public key, PKIX in
@@ -58,19 +61,30 @@ artifacts you ship. An existing key is never overwritten.`,
 				return err
 			}
 			id := format.KeyID(pub)
+			if asJSON {
+				return writeJSON(cmd.OutOrStdout(), struct {
+					PrivateKey string `json:"private_key"`
+					PublicKey  string `json:"public_key"`
+					KeyID      string `json:"key_id"`
+				}{name + ".key", name + ".pub", fmt.Sprintf("%x", id)})
+			}
 			fmt.Fprintf(cmd.OutOrStdout(), "wrote %s.key (private) and %s.pub (public), key id %x\n", name, name, id[:8])
 			return nil
 		},
 	}
 	cmd.Flags().StringVarP(&name, "output", "o", "", "write NAME.key and NAME.pub (required)")
+	cmd.Flags().BoolVar(&asJSON, "json", false, "report the files written and the key id as JSON")
 	cmd.MarkFlagRequired("output")
 	return cmd
 }
 
 func newSignCmd() *cobra.Command {
-	var keyPath string
+	var (
+		keyPath string
+		asJSON  bool
+	)
 	cmd := &cobra.Command{
-		Use:   "sign --key NAME.key MODEL",
+		Use:   "sign [--json] --key NAME.key MODEL",
 		Short: "Sign a model's content digest with an Ed25519 key",
 		Long: `Add an Ed25519 signature over the model's SHA-256 content digest, in a section
 the digest leaves out, so the content is unchanged. The model's checksums and
@@ -98,11 +112,18 @@ before is re-signed. The file is replaced atomically.`,
 				return err
 			}
 			id := format.KeyID(priv.Public().(ed25519.PublicKey))
+			if asJSON {
+				return writeJSON(cmd.OutOrStdout(), struct {
+					Model string `json:"model"`
+					KeyID string `json:"key_id"`
+				}{args[0], fmt.Sprintf("%x", id)})
+			}
 			fmt.Fprintf(cmd.OutOrStdout(), "signed %s with key id %x\n", args[0], id[:8])
 			return nil
 		},
 	}
 	cmd.Flags().StringVar(&keyPath, "key", "", "private key file from 'ingot keygen' (required)")
+	cmd.Flags().BoolVar(&asJSON, "json", false, "report the model signed and the key id as JSON")
 	cmd.MarkFlagRequired("key")
 	return cmd
 }

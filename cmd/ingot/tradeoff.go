@@ -23,6 +23,7 @@ func newTradeoffCmd() *cobra.Command {
 		bits       string
 		trainer    string
 		out        string
+		asJSON     bool
 	)
 	cmd := &cobra.Command{
 		Use:   "tradeoff --heldout TEXT [--drop-below NATS,...] [--bits B,...] -o DIR IN",
@@ -87,6 +88,13 @@ pruning; a bit width of 0 means 32-bit floats.`,
 				}
 			}
 			w := cmd.OutOrStdout()
+			if asJSON {
+				return writeJSON(w, struct {
+					Model  string           `json:"model"`
+					Output string           `json:"output"`
+					Points []tradeoff.Point `json:"points"`
+				}{args[0], out, points})
+			}
 			fmt.Fprintf(w, "%-10s %5s %12s %11s\n", "threshold", "bits", "file", "perplexity")
 			for _, p := range points {
 				fmt.Fprintf(w, "%-10g %5d %12s %11.3f\n", p.Threshold, p.Bits, humanSize(p.FileBytes), p.Perplexity)
@@ -101,6 +109,7 @@ pruning; a bit width of 0 means 32-bit floats.`,
 	f.StringVar(&bits, "bits", "0,8,6,4", "quantization bit widths, comma-separated (0: 32-bit floats)")
 	f.StringVar(&trainer, "trainer", string(quantize.LeastSquares), "codebook trainer: least-squares or equal-mass")
 	f.StringVarP(&out, "output", "o", "", "directory for tradeoff.csv, tradeoff.json and tradeoff.svg (required)")
+	f.BoolVar(&asJSON, "json", false, "print the grid's points as JSON")
 	cmd.MarkFlagRequired("heldout")
 	cmd.MarkFlagRequired("output")
 	return cmd

@@ -352,7 +352,7 @@ type checkJSON struct {
 }
 
 type worstJSON struct {
-	Context      string         `json:"context"`
+	Context      []string       `json:"context"`
 	Sum          inspect.Number `json:"sum"`
 	AbsDeviation inspect.Number `json:"abs_deviation"`
 }
@@ -440,7 +440,7 @@ func printVerifyJSON(w io.Writer, model string, rep *verify.Report, res *gate.Re
 		v.Tolerance = inspect.Number(n.Tolerance)
 		v.OverTolerance = n.Exceeding
 		for _, c := range n.Worst {
-			v.WorstContexts = append(v.WorstContexts, worstJSON{strings.Join(c.Context, " "), inspect.Number(c.Sum), inspect.Number(c.Deviation())})
+			v.WorstContexts = append(v.WorstContexts, worstJSON{append([]string{}, c.Context...), inspect.Number(c.Sum), inspect.Number(c.Deviation())})
 		}
 		for b, count := range n.Histogram {
 			lower, upper := verify.BucketBounds(b)
@@ -475,5 +475,5 @@ func printVerifyJSON(w io.Writer, model string, rep *verify.Report, res *gate.Re
 		}
 		v.ReleaseGate = g
 	}
-	return encodeIndented(w, v)
+	return writeJSON(w, v)
 }

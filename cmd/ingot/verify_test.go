@@ -37,8 +37,8 @@ type verifyOutput struct {
 		Name, Status, Detail string
 		Problems             []struct{ Section, Message string }
 	} `json:"checks"`
-	WorstContexts      []struct{ Context string } `json:"worst_contexts"`
-	DeviationHistogram []struct{ Contexts int }   `json:"deviation_histogram"`
+	WorstContexts      []struct{ Context []string } `json:"worst_contexts"`
+	DeviationHistogram []struct{ Contexts int }     `json:"deviation_histogram"`
 	ReleaseGate        *struct {
 		PerplexityIncreasePercent float64 `json:"perplexity_increase_percent"`
 		NGramsAdded               int     `json:"ngrams_added"`

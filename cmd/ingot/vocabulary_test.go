@@ -51,7 +51,7 @@ func TestVocabularyWhileCountingOrCompilingGivesOneModel(t *testing.T) {
 	}
 	// A listed word never seen is predictable, through the lower orders.
 	code, out, e := ingot(t, "explain", "--json", p("a.ingot"), "turn the sandpiper")
-	if code != 0 || !strings.Contains(out, `"matched_ngram": "sandpiper"`) {
+	if code != 0 || !strings.Contains(out, `"matched_ngram":"sandpiper"`) {
 		t.Fatalf("explain: exit %d: %s %s", code, out, e)
 	}
 }

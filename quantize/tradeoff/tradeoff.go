@@ -23,7 +23,7 @@ import (
 type Point struct {
 	Threshold  float64 `json:"threshold"`
 	Bits       int     `json:"bits"` // 0: not quantized (32-bit floats)
-	NGrams     []int   `json:"ngrams"`
+	NGrams     []int   `json:"ngrams_per_order"`
 	FileBytes  int64   `json:"file_bytes"`
 	Perplexity float64 `json:"perplexity"`
 }

@@ -1,0 +1,146 @@
+package main
+
+import (
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"regexp"
+	"slices"
+	"strings"
+	"testing"
+)
+
+// opaqueKeys hold objects keyed by data (a discount's name, a build
+// option's flag), not by a documented key: their insides are not checked.
+var opaqueKeys = map[string]bool{"discounts": true, "build_options": true}
+
+// collectKeys adds every object key in v, at any depth, to keys.
+func collectKeys(v any, keys map[string]bool) {
+	switch x := v.(type) {
+	case map[string]any:
+		for k, sub := range x {
+			keys[k] = true
+			if !opaqueKeys[k] {
+				collectKeys(sub, keys)
+			}
+		}
+	case []any:
+		for _, sub := range x {
+			collectKeys(sub, keys)
+		}
+	}
+}
+
+// readmeJSONKeys reads the README's table of JSON keys: command to keys.
+func readmeJSONKeys(t *testing.T) map[string][]string {
+	t.Helper()
+	readme, err := os.ReadFile(filepath.Join("..", "..", "README.md"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, section, ok := strings.Cut(string(readme), "\n### JSON keys\n")
+	if !ok {
+		t.Error("README has no section \"### JSON keys\"")
+	}
+	if end := strings.Index(section, "\n## "); end >= 0 {
+		section = section[:end]
+	}
+	row := regexp.MustCompile("(?m)^\\| `([a-z -]+)` \\| (.*) \\|$")
+	key := regexp.MustCompile("`([a-z0-9_]+)`")
+	out := map[string][]string{}
+	for _, m := range row.FindAllStringSubmatch(section, -1) {
+		for _, k := range key.FindAllStringSubmatch(m[2], -1) {
+			out[m[1]] = append(out[m[1]], k[1])
+		}
+	}
+	return out
+}
+
+// Every command that reports runs with --json (in each of its modes); each
+// line it prints is one JSON object, and every key in it, at any depth, is
+// listed for that command in the README; every key the README lists for a
+// command appears in some run.
+func TestEveryJSONKeyIsDocumented(t *testing.T) {
+	dir := t.TempDir()
+	p := func(n string) string { return filepath.Join(dir, n) }
+	text := writeFile(t, dir, "train.txt", demoTraining)
+	held := writeFile(t, dir, "held.txt", demoHeldout+"turn the zebra off\n")
+	type run struct {
+		report string // the README row
+		args   []string
+	}
+	runs := []run{
+		{"count", []string{"count", "--json", "--order", "3", "-o", p("c.tsv"), text}},
+		{"compile", []string{"compile", "--json", "--method", "kneser-ney", "--order", "3", "-o", p("m.ingot"), p("c.tsv")}},
+		{"compile", []string{"compile", "--json", "--method", "katz", "--order", "3", "--min-count", "3=2", "-o", p("k.ingot"), p("c.tsv")}},
+		{"quantize", []string{"quantize", "--json", "--bits", "6", "--heldout", held, "-o", p("q.ingot"), p("m.ingot")}},
+		{"prune", []string{"prune", "--json", "--drop-below", "1e-6", "--heldout", held, "-o", p("p.ingot"), p("m.ingot")}},
+		{"keygen", []string{"keygen", "--json", "-o", p("release")}},
+		{"sign", []string{"sign", "--json", "--key", p("release.key"), p("q.ingot")}},
+		{"score", []string{"score", "--json", p("m.ingot"), held}},
+		{"explain", []string{"explain", "--json", p("q.ingot"), "turn", "the", "zebra", "beacon"}},
+		{"explain", []string{"explain", "--json", p("m.ingot"), "<s>", "turn", "the"}},
+		{"inspect", []string{"inspect", "--json", p("q.ingot")}},
+		{"inspect --stats", []string{"inspect", "--json", "--stats", p("q.ingot")}},
+		{"inspect --next", []string{"inspect", "--json", "--next", "turn zebra", "--top", "3", p("m.ingot")}},
+		{"inspect --dump", []string{"inspect", "--json", "--dump", "--order", "2", p("q.ingot")}},
+		{"inspect --dump", []string{"inspect", "--json", "--dump", p("m.ingot")}},
+		{"verify", []string{"verify", "--json", "--public-key", p("release.pub"), "--baseline", p("m.ingot"), "--heldout", held, p("q.ingot")}},
+		{"keygen", []string{"keygen", "--json", "-o", p("other")}},
+		{"verify", []string{"verify", "--json", "--public-key", p("other.pub"), p("q.ingot")}}, // fails: signed by another key
+		{"interpolate", []string{"interpolate", "--json", "--fit", held, "--heldout", held, "-o", p("i.ingot"), p("m.ingot"), p("k.ingot")}},
+		{"tradeoff", []string{"tradeoff", "--json", "--heldout", held, "--drop-below", "0,1e-6", "--bits", "0,8", "-o", p("chart"), p("m.ingot")}},
+	}
+	seen := map[string]map[string]bool{}
+	if os.Getenv("LIST_KEYS") != "" {
+		defer func() {
+			for r, keys := range seen {
+				var ks []string
+				for k := range keys {
+					ks = append(ks, k)
+				}
+				slices.Sort(ks)
+				t.Logf("| `%s` | `%s` |", r, strings.Join(ks, "`, `"))
+			}
+		}()
+	}
+	documented := readmeJSONKeys(t)
+	for _, r := range runs {
+		code, out, e := ingot(t, r.args...)
+		if code != 0 && !(r.report == "verify" && code == exitCheckFailed) {
+			t.Fatalf("ingot %s: exit %d: %s", strings.Join(r.args, " "), code, e)
+		}
+		if seen[r.report] == nil {
+			seen[r.report] = map[string]bool{}
+		}
+		for _, line := range strings.Split(strings.TrimSuffix(out, "\n"), "\n") {
+			var v map[string]any
+			if err := json.Unmarshal([]byte(line), &v); err != nil {
+				t.Fatalf("%s: a line is not one JSON object (%v): %q", strings.Join(r.args, " "), err, line)
+			}
+			collectKeys(v, seen[r.report])
+		}
+	}
+	for report, keys := range seen {
+		doc, ok := documented[report]
+		if !ok {
+			t.Errorf("README lists no JSON keys for `%s`", report)
+			continue
+		}
+		for k := range keys {
+			if !slices.Contains(doc, k) {
+				t.Errorf("%s --json prints key %q, which the README does not list", report, k)
+			}
+		}
+		for _, k := range doc {
+			if !keys[k] {
+				t.Errorf("README lists key %q for %s, which no run printed", k, report)
+			}
+		}
+	}
+	for report := range documented {
+		if seen[report] == nil {
+			t.Errorf("README lists JSON keys for %q, which the test never runs", report)
+		}
+	}
+}
