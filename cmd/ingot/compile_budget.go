@@ -89,7 +89,7 @@ func printBudgetReport(w io.Writer, res *budget.Result, bo budget.Options, out s
 		v := map[string]any{
 			"model": out, "method": string(bo.Estimate.Method), "order": res.Chosen.Order,
 			"max_bytes": bo.MaxBytes, "file_bytes": res.Chosen.FileBytes, "ranked_by": string(res.Ranking),
-			"threshold": res.Chosen.Threshold, "ngrams": res.Chosen.NGrams, "orders_compared": res.Candidates,
+			"threshold": res.Chosen.Threshold, "ngrams_per_order": res.Chosen.NGrams, "orders_compared": res.Candidates,
 		}
 		if res.Chosen.Perplexity > 0 {
 			v["perplexity"] = res.Chosen.Perplexity

@@ -23,7 +23,7 @@ func TestReportsMeasureBeforeReplacing(t *testing.T) {
 	if err := os.WriteFile(copyPath, orig, 0o644); err != nil {
 		t.Fatal(err)
 	}
-	want, err := heldoutPerplexity(copyPath, held)
+	want, _, err := heldoutPerplexity(copyPath, held)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -40,9 +40,9 @@ func TestReportsMeasureBeforeReplacing(t *testing.T) {
 			t.Fatalf("%s: exit %d: %s", args[0], code, e)
 		}
 		var rep struct {
-			InputBytes       int64   `json:"input_bytes"`
+			InputBytes       int64   `json:"baseline_file_bytes"`
 			FileBytes        int64   `json:"file_bytes"`
-			PerplexityBefore float64 `json:"perplexity_before"`
+			PerplexityBefore float64 `json:"baseline_perplexity"`
 			Perplexity       float64 `json:"perplexity"`
 		}
 		if err := json.Unmarshal([]byte(stdout), &rep); err != nil {
@@ -50,7 +50,7 @@ func TestReportsMeasureBeforeReplacing(t *testing.T) {
 		}
 		fi, _ := os.Stat(m)
 		if rep.InputBytes != int64(len(orig)) || rep.FileBytes != fi.Size() || rep.PerplexityBefore != want {
-			t.Errorf("%s -o input: input_bytes %d (was %d), file_bytes %d (is %d), perplexity_before %v (was %v)",
+			t.Errorf("%s -o input: baseline_file_bytes %d (was %d), file_bytes %d (is %d), baseline_perplexity %v (was %v)",
 				args[0], rep.InputBytes, len(orig), rep.FileBytes, fi.Size(), rep.PerplexityBefore, want)
 		}
 		// The text report says the same.

@@ -85,7 +85,7 @@ func DefaultRanking(m estimate.Method) estimate.Method {
 type Candidate struct {
 	Order      int     `json:"order"`
 	Threshold  float64 `json:"threshold"`
-	NGrams     []int   `json:"ngrams"`
+	NGrams     []int   `json:"ngrams_per_order"`
 	FileBytes  int64   `json:"file_bytes"`
 	Perplexity float64 `json:"perplexity,omitempty"` // 0 without held-out text
 	// Problem says why no model of this order fits (then the other fields
