@@ -112,11 +112,33 @@ type Result struct {
 // Fit builds the model opt asks for, pruned to fit opt.MaxBytes. It fails
 // when no order's model fits.
 func Fit(c *counts.Counts, opt Options) (*Result, error) {
-	if err := opt.Estimate.Validate(); err != nil {
+	b, err := NewBuilder(c, opt)
+	if err != nil {
 		return nil, err
 	}
-	if opt.MaxBytes <= 0 {
-		return nil, fmt.Errorf("budget %d bytes must be positive", opt.MaxBytes)
+	return b.Fit(opt.MaxBytes)
+}
+
+// Builder fits the model of one set of counts to budgets, keeping each
+// order's estimate and ranking between calls, so that trying several
+// budgets costs one estimation.
+type Builder struct {
+	c      *counts.Counts
+	opt    Options
+	orders map[int]*prepared
+}
+
+// prepared is one order's unpruned model and the scores that rank it.
+type prepared struct {
+	t      *tables.Tables
+	rep    *estimate.Report
+	scores prune.Scores
+}
+
+// NewBuilder checks opt (but for MaxBytes) and returns a Builder.
+func NewBuilder(c *counts.Counts, opt Options) (*Builder, error) {
+	if err := opt.Estimate.Validate(); err != nil {
+		return nil, err
 	}
 	if opt.Ranking == "" {
 		opt.Ranking = DefaultRanking(opt.Estimate.Method)
@@ -124,16 +146,25 @@ func Fit(c *counts.Counts, opt Options) (*Result, error) {
 	if !slices.Contains(estimate.Methods, opt.Ranking) {
 		return nil, fmt.Errorf("unknown ranking method %q (katz, absolute, witten-bell, kneser-ney)", opt.Ranking)
 	}
-	N := opt.Estimate.Order
+	return &Builder{c: c, opt: opt, orders: map[int]*prepared{}}, nil
+}
+
+// Fit builds the model fitted to maxBytes (see Options.Heldout for the
+// orders compared).
+func (b *Builder) Fit(maxBytes int64) (*Result, error) {
+	if maxBytes <= 0 {
+		return nil, fmt.Errorf("budget %d bytes must be positive", maxBytes)
+	}
+	N := b.opt.Estimate.Order
 	low := N
-	if len(opt.Heldout) > 0 {
+	if len(b.opt.Heldout) > 0 {
 		low = min(2, N)
 	}
-	res := &Result{Ranking: opt.Ranking}
+	res := &Result{Ranking: b.opt.Ranking}
 	best := -1
 	var firstErr error
 	for n := N; n >= low; n-- {
-		m, rep, cand, err := fitOrder(c, opt, n)
+		m, rep, cand, err := b.fitOrder(n, maxBytes)
 		if err != nil {
 			if firstErr == nil {
 				firstErr = err
@@ -141,8 +172,8 @@ func Fit(c *counts.Counts, opt Options) (*Result, error) {
 			res.Candidates = append(res.Candidates, Candidate{Order: n, Problem: err.Error()})
 			continue
 		}
-		if len(opt.Heldout) > 0 {
-			if cand.Perplexity, err = perplexity(m, opt.Heldout); err != nil {
+		if len(b.opt.Heldout) > 0 {
+			if cand.Perplexity, err = perplexity(m, b.opt.Heldout); err != nil {
 				return nil, err
 			}
 		}
@@ -158,41 +189,60 @@ func Fit(c *counts.Counts, opt Options) (*Result, error) {
 	return res, nil
 }
 
-// fitOrder builds the model of order n fitted to the budget.
-func fitOrder(c *counts.Counts, opt Options, n int) (*tables.Tables, *estimate.Report, Candidate, error) {
-	step := func(format string, a ...any) {
-		if opt.Progress != nil {
-			opt.Progress(fmt.Sprintf(format, a...))
+func (b *Builder) step(format string, a ...any) {
+	if b.opt.Progress != nil {
+		b.opt.Progress(fmt.Sprintf(format, a...))
+	}
+}
+
+func (b *Builder) describe(t *tables.Tables) error {
+	if b.opt.Describe == nil {
+		return nil
+	}
+	return b.opt.Describe(&t.Info)
+}
+
+// prepare estimates and ranks the model of order n, once.
+func (b *Builder) prepare(n int) (*prepared, error) {
+	if p, ok := b.orders[n]; ok {
+		return p, nil
+	}
+	eo := b.opt.Estimate
+	eo.Order = n
+	b.step("estimating %s, order %d", eo.Method, n)
+	t, rep, err := estimate.Estimate(b.c, eo)
+	if err != nil {
+		return nil, err
+	}
+	if err := b.describe(t); err != nil {
+		return nil, err
+	}
+	ranker := t
+	if b.opt.Ranking != eo.Method {
+		b.step("estimating %s, order %d, to rank n-grams", b.opt.Ranking, n)
+		ro := estimate.Options{Method: b.opt.Ranking, Order: n, AutoDiscount: true}
+		if ranker, _, err = estimate.Estimate(b.c, ro); err != nil {
+			return nil, err
 		}
 	}
-	eo := opt.Estimate
-	eo.Order = n
-	method := eo.Method
-	step("estimating %s, order %d", method, n)
-	t, rep, err := estimate.Estimate(c, eo)
+	b.step("scoring every n-gram of order %d by relative entropy", n)
+	p := &prepared{t: t, rep: rep, scores: prune.EntropyScores(ranker)}
+	b.orders[n] = p
+	return p, nil
+}
+
+// fitOrder builds the model of order n fitted to maxBytes.
+func (b *Builder) fitOrder(n int, maxBytes int64) (*tables.Tables, *estimate.Report, Candidate, error) {
+	pre, err := b.prepare(n)
 	if err != nil {
 		return nil, nil, Candidate{}, err
 	}
-	describe := func(t *tables.Tables) error {
-		if opt.Describe == nil {
-			return nil
-		}
-		return opt.Describe(&t.Info)
-	}
-	if err := describe(t); err != nil {
-		return nil, nil, Candidate{}, err
-	}
-	ranker := t
-	if opt.Ranking != method {
-		step("estimating %s, order %d, to rank n-grams", opt.Ranking, n)
-		ro := estimate.Options{Method: opt.Ranking, Order: n, AutoDiscount: true}
-		if ranker, _, err = estimate.Estimate(c, ro); err != nil {
-			return nil, nil, Candidate{}, err
-		}
-	}
-	step("scoring every n-gram of order %d by relative entropy", n)
-	scores := prune.EntropyScores(ranker)
-	ranker = nil
+	opt, c, t, step, describe := b.opt, b.c, pre.t, b.step, b.describe
+	scores := pre.scores
+	eo := opt.Estimate
+	eo.Order = n
+	method := eo.Method
+	rep := &estimate.Report{Method: pre.rep.Method, Orders: slices.Clone(pre.rep.Orders)}
 	shaped := func(th float64, keep [][]bool, from *tables.Tables) *tables.Tables {
 		p := prune.Select(from, keep)
 		p.Info.History = append(slices.Clip(p.Info.History), history(method, opt.Ranking, th, keep))
@@ -201,7 +251,7 @@ func fitOrder(c *counts.Counts, opt Options, n int) (*tables.Tables, *estimate.R
 	// The quantizer may widen a back-off codebook beyond what the sizing
 	// assumed (so that every context still sums to one); then the file is
 	// measured and the target lowered by the excess, a few times at most.
-	target := opt.MaxBytes
+	target := maxBytes
 	var (
 		m    *tables.Tables
 		th   float64
@@ -226,13 +276,13 @@ func fitOrder(c *counts.Counts, opt Options, n int) (*tables.Tables, *estimate.R
 		if size, err = format.Size(m); err != nil {
 			return nil, nil, Candidate{}, err
 		}
-		if size <= opt.MaxBytes {
+		if size <= maxBytes {
 			break
 		}
 		if attempt == maxAttempts {
-			return nil, nil, Candidate{}, fmt.Errorf("order %d: after %d attempts the model still takes %d bytes, over the budget of %d", n, attempt, size, opt.MaxBytes)
+			return nil, nil, Candidate{}, fmt.Errorf("order %d: after %d attempts the model still takes %d bytes, over the budget of %d", n, attempt, size, maxBytes)
 		}
-		target -= size - opt.MaxBytes
+		target -= size - maxBytes
 	}
 	kept := prune.Kept(keep)
 	for k := range rep.Orders {
