@@ -50,7 +50,9 @@ func parseTallies(t *testing.T, out string) map[string]tally {
 // text scored) under the address and undefined-behaviour sanitizers
 // without a report. So are random 32-bit overwrites inside sections, also
 // with every checksum and the digest recomputed as an attacker would, so
-// that only the reader's bounds checks stand.
+// that only the reader's bounds checks stand, and random header and
+// directory fields (section count, offsets, lengths, kinds, orders,
+// encodings), resealed likewise, so that only the open checks stand.
 //
 // A CRC whose generator has more than one term detects every single-bit
 // error (W. W. Peterson and D. T. Brown (1961), "Cyclic codes for error
@@ -85,6 +87,9 @@ func TestDamagedCopies(t *testing.T) {
 			}
 			if s := got["resealed"]; s.tried == 0 || s.byCheck != 0 {
 				t.Errorf("resealed overwrites: %+v; want each used, none refused by the checksums", s)
+			}
+			if l := got["layout"]; l.tried != 4000 {
+				t.Errorf("resealed header and directory fields: %+v; want 4000 tried", l)
 			}
 			t.Logf("%s (%d bytes): %v", m.name, size, got)
 		})

@@ -14,7 +14,8 @@
  *       damages in-memory copies of MODEL: every single-bit flip, every
  *       truncation, and random overwrites of 32-bit values inside sections
  *       (then with every checksum and the digest recomputed, so that only
- *       the bounds checks stand between the reader and the damage). Each
+ *       the bounds checks stand between the reader and the damage), and
+ *       random header and directory fields, resealed likewise. Each
  *       copy is opened, checked, and, checks or not, used: every word
  *       looked up and TEXT scored. Prints one line per kind of damage:
  *       "KIND tried N refused_at_open R refused_by_check C".
@@ -311,12 +312,14 @@ static void reseal(unsigned char *d, size_t size)
 {
 	uint32_t S = rd32(d + 12), j, crc;
 	ingot_sha256_ctx c;
+	if (64 + 32 * (uint64_t)S > size)
+		return;
 	ingot_sha256_init(&c);
 	for (j = 0; j < S; j++) {
 		unsigned char *e = d + 64 + 32 * (size_t)j;
 		uint64_t off = rd64(e + 16), len = rd64(e + 24);
 		if (off > size || len > size - off)
-			return;
+			continue;
 		wr32(e + 12, ingot_crc32c(0, d + off, (size_t)len));
 		if (rd32(e) != 9) {
 			unsigned char rec[20];
@@ -348,7 +351,7 @@ static int damage(int argc, char **argv)
 	size_t size, n, i;
 	unsigned char *orig, *text, *copy;
 	tally flips = {"flip", 0, 0, 0}, cuts = {"truncation", 0, 0, 0}, over = {"overwrite", 0, 0, 0},
-	      sealed = {"resealed", 0, 0, 0};
+	      sealed = {"resealed", 0, 0, 0}, layout = {"layout", 0, 0, 0};
 	double sink = 0;
 	uint32_t S, j;
 	if (argc < 4)
@@ -400,11 +403,38 @@ static int damage(int argc, char **argv)
 		try_copy(&sealed, copy, size, text, n, &sink);
 		free(copy);
 	}
+	/* Random values written over fields of the header (version, section
+	 * count, file length) and of the directory (kind, encoding, order,
+	 * offset, length), everything resealed: the open checks alone must
+	 * keep every read inside the file. */
+	for (i = 0; i < 4000; i++) {
+		static const unsigned header_fields[] = {8, 12, 16, 20};
+		uint64_t at;
+		uint32_t v, r;
+		int k, fields = 1 + (int)(rnd() % 2);
+		copy = malloc(size);
+		memcpy(copy, orig, size);
+		for (k = 0; k < fields; k++) {
+			if (rnd() % 5 == 0)
+				at = header_fields[rnd() % 4];
+			else {
+				static const unsigned entry_fields[] = {0, 4, 8, 16, 20, 24, 28};
+				at = 64 + 32 * (uint64_t)(rnd() % S) + entry_fields[rnd() % 7];
+			}
+			r = rnd() % 7;
+			v = r == 0 ? 0xFFFFFFFFu : r == 1 ? 0 : r == 2 ? rd32(copy + at) + 1 : r == 3 ? rd32(copy + at) - 1 :
+			    r == 4 ? rd32(copy + at) + 8 : r == 5 ? (uint32_t)(rnd() % 16) : rnd();
+			wr32(copy + at, v);
+		}
+		reseal(copy, size);
+		try_copy(&layout, copy, size, text, n, &sink);
+		free(copy);
+	}
 	{
-		tally *all[4];
+		tally *all[5];
 		int a;
-		all[0] = &flips, all[1] = &cuts, all[2] = &over, all[3] = &sealed;
-		for (a = 0; a < 4; a++)
+		all[0] = &flips, all[1] = &cuts, all[2] = &over, all[3] = &sealed, all[4] = &layout;
+		for (a = 0; a < 5; a++)
 			printf("%s tried %lu refused_at_open %lu refused_by_check %lu\n", all[a]->kind, all[a]->tried,
 			       all[a]->at_open, all[a]->by_check);
 	}
