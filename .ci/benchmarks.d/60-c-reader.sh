@@ -20,5 +20,9 @@ printf '%s\n' "$out" | awk '/^BenchmarkNextCAgainstGo\// {
 	printf "| %s | %.1f MiB | %d | %.0f | %.0f | %.2f |\n", name, v["MiB"], v["words"], v["c-ns/word"], v["go-ns/word"], v["c/go"]
 }'
 echo
-echo "Command: \`$cmd\` (\`INGOT_BENCH_SENTENCES=N\` builds from the first N"
-echo "sentences only)."
+echo "Load average when measured: $(cut -d' ' -f1-3 /proc/loadavg); the absolute"
+echo "times move with the load, the ratio much less (both readers run in the"
+echo "same rounds, alternating)."
+echo
+echo "Command: \`$cmd\`"
+echo "(\`INGOT_BENCH_SENTENCES=N\` builds from the first N sentences only)."

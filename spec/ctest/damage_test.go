@@ -1,6 +1,7 @@
 package ctest
 
 import (
+	"crypto/sha256"
 	"encoding/binary"
 	"fmt"
 	"hash/crc32"
@@ -9,6 +10,9 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"ingot/format"
+	"ingot/quantize"
 )
 
 // demoHeldOut is text the damaged models are used on: the first lines of
@@ -212,6 +216,104 @@ func TestScoreProgramOnDamagedFiles(t *testing.T) {
 			if r.code != 0 && r.code != 2 {
 				t.Errorf("%s, byte %d flipped, no checksums: exit %d, %q", m.name, at, r.code, r.stderr)
 			}
+		}
+	}
+}
+
+var castagnoli = crc32.MakeTable(crc32.Castagnoli)
+
+// reseal recomputes every section checksum, the content digest and the
+// header checksum (spec/FORMAT.md section 5), as an attacker would.
+func reseal(data []byte) {
+	s := binary.LittleEndian.Uint32(data[12:])
+	h := sha256.New()
+	for j := range s {
+		e := data[64+32*j:]
+		off, n := binary.LittleEndian.Uint64(e[16:]), binary.LittleEndian.Uint64(e[24:])
+		b := data[off : off+n]
+		binary.LittleEndian.PutUint32(e[12:], crc32.Checksum(b, castagnoli))
+		if binary.LittleEndian.Uint32(e) != 9 {
+			var rec [20]byte
+			copy(rec[:12], e[:12])
+			copy(rec[12:], e[24:32])
+			h.Write(rec[:])
+			h.Write(b)
+		}
+	}
+	copy(data[24:56], h.Sum(nil))
+	crc := crc32.Update(crc32.Checksum(data[:60], castagnoli), castagnoli, data[64:64+32*s])
+	binary.LittleEndian.PutUint32(data[60:], crc)
+}
+
+// A packed index at or above its codebook's length (spec/FORMAT.md 4.5:
+// "the file is damaged") is never used to read past the codebook: with
+// every index set to the codebook's length and the file resealed so that every check
+// passes, the predictions that read the column are NaN, and the others
+// are numbers.
+func TestCodebookIndexOutOfRange(t *testing.T) {
+	p := tools(t)
+	// 8-bit codebooks of a small model hold fewer values than 2^8.
+	text, err := os.ReadFile(filepath.Join(p.root, "cmd/ingot/demodata/commands.txt"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	tb, err := estimateText(strings.Split(strings.TrimSpace(string(text)), "\n")[:40], 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
+	if err != nil {
+		t.Fatal(err)
+	}
+	data, err := format.Marshal(q)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := binary.LittleEndian.Uint32(data[12:])
+	damaged := false
+	for order := uint32(2); order <= 3 && !damaged; order++ {
+		_, cLen := sectionSpan(t, data, 10, order)
+		off, n := sectionSpan(t, data, 6, order)
+		bits := binary.LittleEndian.Uint32(data[off:])
+		if uint64(cLen/4) >= 1<<bits {
+			continue // every index fits this codebook
+		}
+		// Every index becomes L, the first value out of range: read
+		// unchecked, it would land just past the codebook, on bytes that
+		// are no NaN.
+		stream := data[off+8 : off+n]
+		clear(stream)
+		L := uint64(cLen / 4)
+		for i := uint64(0); (i+1)*uint64(bits) <= uint64(len(stream))*8; i++ {
+			for b := range uint64(bits) {
+				if L>>b&1 == 1 {
+					at := i*uint64(bits) + b
+					stream[at/8] |= 1 << (at % 8)
+				}
+			}
+		}
+		damaged = true
+	}
+	if !damaged {
+		t.Fatalf("no probability codebook of orders 2-3 shorter than its index width allows (%d sections)", s)
+	}
+	reseal(data)
+	path := write(t, "indexes.ingot", data)
+	held := demoHeldOut(t, 20)
+	for _, sanitizer := range []bool{false, true} {
+		prog := p.score
+		if sanitizer {
+			prog = p.scoreASan
+		}
+		r := run(t, held, sanitizer, prog, path)
+		if r.code != 0 {
+			t.Fatalf("exit %d: %s (the resealed file passes every check)", r.code, r.stderr)
+		}
+		if !strings.Contains(r.stdout, "nan") {
+			t.Fatalf("no prediction came out NaN:\n%s", r.stdout)
+		}
+		if strings.Count(r.stdout, "nan") == len(strings.Fields(r.stdout)) {
+			t.Fatalf("every prediction came out NaN:\n%s", r.stdout)
 		}
 	}
 }
