@@ -16,7 +16,7 @@ go run testdata/sotu/split.go "$work/train.txt" "$work/held.txt"
 echo "## Normalisation of quantized models"
 echo
 echo "Full State of the Union text, 5-gram models (every tenth sentence held"
-echo "out), quantized with the optimal trainer. \`ingot verify\` allows"
+echo "out), quantized with the least-squares trainer. \`ingot verify\` allows"
 echo "|S(h) - 1| up to 1e-3 for any quantized model (1e-5 in floats); the"
 echo "quantizer keeps every context within 1e-4 by widening an order's"
 echo "back-off codebook where needed (widths per order 1..4 below)."
@@ -30,7 +30,7 @@ for method in katz absolute witten-bell kneser-ney; do
 		qrep=$("$ingot" quantize --json --bits "$bits" --heldout "$work/held.txt" -o "$q" "$work/$method.ingot" 2>/dev/null)
 		num() { printf '%s\n' "$qrep" | grep -o "\"$1\":[-0-9.e+]*" | head -n 1 | cut -d: -f2; }
 		size=$(awk -v b="$(num file_bytes)" 'BEGIN { printf "%.2f MB", b / 1e6 }')
-		ppl=$(awk -v a="$(num perplexity_before)" -v b="$(num perplexity)" 'BEGIN { printf "%.3f → %.3f (%+.2f%%)", a, b, 100 * (b / a - 1) }')
+		ppl=$(awk -v a="$(num baseline_perplexity)" -v b="$(num perplexity)" 'BEGIN { printf "%.3f → %.3f (%+.2f%%)", a, b, 100 * (b / a - 1) }')
 		widths=$(printf '%s\n' "$qrep" | grep -o '"backoff_bits":[0-9]*' | cut -d: -f2 | awk '$1 > 0' | paste -sd, -)
 		vrep=$("$ingot" verify "$q" || true)
 		tol=$(printf '%s\n' "$vrep" | sed -n 's/^normalisation (tolerance \(.*\))$/\1/p')

@@ -9,6 +9,7 @@ import (
 	"math"
 	"strings"
 	"text/tabwriter"
+	"time"
 
 	"github.com/spf13/cobra"
 
@@ -143,7 +144,18 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 	var res *gate.Result
 	if gated {
 		var check verify.Check
-		if check, res, err = releaseGate(rep, model, base, f, text); err != nil {
+		// On a terminal, a line that counts the held-out sentences done.
+		tty, start, done := newProgress(cmd.ErrOrStderr()).w, time.Now(), 0
+		progress := func(sentences int) {
+			if done = sentences; tty != nil && sentences%500 == 0 {
+				fmt.Fprintf(tty, "\rrelease gate: %d held-out sentences scored and compared, %.0fs", sentences, time.Since(start).Seconds())
+			}
+		}
+		check, res, err = releaseGate(rep, model, base, f, text, progress)
+		if tty != nil {
+			fmt.Fprintf(tty, "\rrelease gate: %d held-out sentences scored and compared in %.1fs\n", done, time.Since(start).Seconds())
+		}
+		if err != nil {
 			return err
 		}
 		rep.Checks = append(rep.Checks, check)
@@ -199,7 +211,7 @@ func signatureCheck(model string, pub ed25519.PublicKey) verify.Check {
 // releaseGate runs the comparison with the baseline when the candidate's
 // structure allows it. Unreadable held-out text is bad input (an error);
 // a gate that does not hold is a failed check.
-func releaseGate(rep *verify.Report, model string, base *format.Model, f *verifyFlags, text io.Reader) (verify.Check, *gate.Result, error) {
+func releaseGate(rep *verify.Report, model string, base *format.Model, f *verifyFlags, text io.Reader, progress func(sentences int)) (verify.Check, *gate.Result, error) {
 	c := verify.Check{Name: checkReleaseGate}
 	for _, name := range []string{verify.CheckOpens, verify.CheckVocabulary, verify.CheckPrefixClosure, verify.CheckIDs, verify.CheckOrder, verify.CheckValues} {
 		if ch := rep.Check(name); ch == nil || ch.Status != verify.Pass {
@@ -219,7 +231,7 @@ func releaseGate(rep *verify.Report, model string, base *format.Model, f *verify
 		return c, nil, fmt.Errorf("verify: %w", err)
 	}
 	defer cand.Close()
-	res, err := gate.Compare(cand, base, f.heldout, text)
+	res, err := gate.CompareWithProgress(cand, base, f.heldout, text, progress)
 	if err != nil {
 		return c, nil, fmt.Errorf("verify: --heldout %w", err)
 	}

@@ -26,24 +26,52 @@ import (
 // divergence (the log-sum inequality, Cover and Thomas ch. 2), so the number is a lower bound of
 // what a finer comparison would find.
 //
-// Each prediction costs time linear in the two vocabularies: the whole
-// distribution is built (the stored successors of each stored context
-// suffix, then every other word through the back-off weights), never one
-// query per word.
+// Each prediction costs time linear in the stored n-grams it touches, not
+// in the vocabularies, so the gate stays fast for a keyboard's 100,000-word
+// lexicon. A word that neither model stores after any suffix of the
+// context gets, in each model, the product W of the back-off weights of
+// the stored suffixes times its unigram probability u. The sum of
+// p ln(p/q) over all such words is therefore
+//
+//	(Wp/Zp) * ( sum u_p ln(u_p/u_q) + ln((Wp/Zp)/(Wq/Zq)) * sum u_p )
+//
+// with Z each model's total; the two sums over those words are the sums
+// over every shared word (computed once) less the sums over the words
+// stored after the context, which are visited anyway. The totals and the
+// "any other word" event are found the same way: whole-vocabulary sums of
+// unigram probabilities computed once, corrected for the stored words. This
+// is how verify's normalisation sums a context's back-off mass.
 type Divergence struct {
 	p, q   distribution
 	events int
+	shared int32 // events below shared are one shared word each
+	// Whole-vocabulary sums over the shared words, computed once:
+	// sum u_p ln(u_p/u_q), sum u_p, and the number of shared words that
+	// p gives mass and q none (each makes the divergence infinite).
+	allLog, allP float64
+	allZeroQ     int
+	// touched lists the shared events stored after the current context
+	// in either model; mark[e] == gen flags them.
+	touched []int32
+	mark    []uint32
+	gen     uint32
 }
 
-// distribution builds one model's next-word distribution over the events.
+// distribution holds one model's side of the comparison.
 type distribution struct {
 	m       *format.Model
 	event   []int32   // word id -> event; -1 for <s>
+	word    []uint32  // shared event -> this model's word id
 	unigram []float64 // P(w) of each word, 0 for <s>
-	stamp   []uint32  // stamp[w] == gen: w already placed at this prediction
-	gen     uint32
-	dist    []float64 // per event, at the current prediction
-	history []uint32  // the sentence so far as this model's ids, <s> first
+	// Sums of unigram probabilities over every predictable word and over
+	// the words of the "any other word" event.
+	allUnigram, otherUnigram float64
+	stamp                    []uint32  // stamp[w] == gen: w stored after the current context
+	value                    []float64 // value[w]: its probability when stamped
+	gen                      uint32
+	stored                   []uint32 // the words stamped at this prediction
+	weight                   float64  // W: the product of the stored suffixes' back-off weights
+	history                  []uint32 // the sentence so far as this model's ids, <s> first
 }
 
 // NewDivergence prepares to compare the models p and q.
@@ -77,6 +105,7 @@ func NewDivergence(p, q *format.Model) *Divergence {
 		}
 	}
 	d.events = int(shared) + 1
+	d.shared = shared
 	for _, s := range []*distribution{&d.p, &d.q} {
 		for id, ev := range s.event {
 			switch {
@@ -93,9 +122,38 @@ func NewDivergence(p, q *format.Model) *Divergence {
 			}
 		}
 		s.stamp = make([]uint32, len(s.event))
-		s.dist = make([]float64, d.events)
+		s.value = make([]float64, len(s.event))
+		s.word = make([]uint32, shared)
+		for id, ev := range s.event {
+			switch {
+			case ev < 0:
+			case ev < shared:
+				s.word[ev] = uint32(id)
+				s.allUnigram += s.unigram[id]
+			default:
+				s.allUnigram += s.unigram[id]
+				s.otherUnigram += s.unigram[id]
+			}
+		}
 	}
+	for e := range shared {
+		up, uq := d.p.unigram[d.p.word[e]], d.q.unigram[d.q.word[e]]
+		d.allLog += plogq(up, uq)
+		d.allP += up
+		if up > 0 && uq == 0 {
+			d.allZeroQ++
+		}
+	}
+	d.mark = make([]uint32, shared)
 	return d
+}
+
+// plogq is p ln(p/q), 0 when p is 0 (and +Inf when q alone is 0).
+func plogq(p, q float64) float64 {
+	if p == 0 {
+		return 0
+	}
+	return p * math.Log(p/q)
 }
 
 // Events returns the number of events the distributions are compared on.
@@ -123,26 +181,87 @@ func (d *Divergence) Sentence(tokens []string) float64 {
 	return total
 }
 
-// divergence returns KL(p || q) of the distributions just built.
+// divergence returns KL(p || q) of the distributions just built, in time
+// linear in the words stored after the context (see Divergence).
 func (d *Divergence) divergence() float64 {
-	zp, zq := 0.0, 0.0
-	for e := range d.p.dist {
-		zp += d.p.dist[e]
-		zq += d.q.dist[e]
+	if d.gen++; d.gen == 0 {
+		clear(d.mark)
+		d.gen = 1
 	}
+	d.touched = d.touched[:0]
+	for _, s := range []*distribution{&d.p, &d.q} {
+		for _, w := range s.stored {
+			if ev := s.event[w]; ev >= 0 && ev < d.shared && d.mark[ev] != d.gen {
+				d.mark[ev] = d.gen
+				d.touched = append(d.touched, ev)
+			}
+		}
+	}
+	zp, op := d.p.total(d.shared)
+	zq, oq := d.q.total(d.shared)
+	// The shared words no model stores after the context: the
+	// whole-vocabulary sums less those of the touched words.
+	restLog, restP, restZeroQ := d.allLog, d.allP, d.allZeroQ
 	kl := 0.0
-	for e, pe := range d.p.dist {
-		x := pe / zp
+	for _, e := range d.touched {
+		wp, wq := d.p.word[e], d.q.word[e]
+		up, uq := d.p.unigram[wp], d.q.unigram[wq]
+		restLog -= plogq(up, uq)
+		restP -= up
+		if up > 0 && uq == 0 {
+			restZeroQ--
+		}
+		x, y := d.p.prob(wp)/zp, d.q.prob(wq)/zq
 		if x == 0 {
 			continue
 		}
-		y := d.q.dist[e] / zq
+		if y == 0 {
+			return math.Inf(1)
+		}
+		kl += x * math.Log(x/y)
+	}
+	a, b := d.p.weight/zp, d.q.weight/zq
+	if a > 0 && restP > 0 {
+		if restZeroQ > 0 || b == 0 {
+			return math.Inf(1)
+		}
+		kl += a * (restLog + math.Log(a/b)*restP)
+	}
+	if x, y := op/zp, oq/zq; x > 0 {
 		if y == 0 {
 			return math.Inf(1)
 		}
 		kl += x * math.Log(x/y)
 	}
 	return kl
+}
+
+// prob is the model's probability of word w at the current prediction.
+func (s *distribution) prob(w uint32) float64 {
+	if s.stamp[w] == s.gen {
+		return s.value[w]
+	}
+	return s.weight * s.unigram[w]
+}
+
+// total returns the model's total over every predictable word, and its
+// mass on the "any other word" event, from the whole-vocabulary sums
+// corrected for the stored words.
+func (s *distribution) total(shared int32) (total, other float64) {
+	restAll, restOther := s.allUnigram, s.otherUnigram
+	for _, w := range s.stored {
+		ev := s.event[w]
+		if ev < 0 {
+			continue
+		}
+		restAll -= s.unigram[w]
+		total += s.value[w]
+		if ev >= shared {
+			restOther -= s.unigram[w]
+			other += s.value[w]
+		}
+	}
+	return total + s.weight*restAll, other + s.weight*restOther
 }
 
 func (s *distribution) begin() {
@@ -157,17 +276,18 @@ func (s *distribution) read(token string) {
 	s.history = append(s.history, id)
 }
 
-// build fills dist with the model's next-word distribution after the
-// history, by the back-off rule: a word stored after the longest stored
-// suffix h_j of the context that stores it gets the back-off weights of the
-// longer stored suffixes times its stored probability; every other word
-// gets all the weights times its unigram probability.
+// build finds, by the back-off rule, the words stored after some suffix of
+// the context with their probabilities (a word stored after the longest
+// stored suffix h_j that stores it gets the back-off weights of the longer
+// stored suffixes times its stored probability), and W, the product of
+// every stored suffix's weight, which every other word's unigram
+// probability is multiplied by.
 func (s *distribution) build() {
-	clear(s.dist)
 	if s.gen++; s.gen == 0 {
 		clear(s.stamp)
 		s.gen = 1
 	}
+	s.stored = s.stored[:0]
 	m := s.m
 	weight := 1.0
 	for j := min(len(s.history), m.Order()-1); j >= 1; j-- {
@@ -182,17 +302,10 @@ func (s *distribution) build() {
 				continue
 			}
 			s.stamp[w] = s.gen
-			if ev := s.event[w]; ev >= 0 {
-				s.dist[ev] += weight * exp10(float64(m.LogProbAt(j+1, c)))
-			}
+			s.value[w] = weight * exp10(float64(m.LogProbAt(j+1, c)))
+			s.stored = append(s.stored, w)
 		}
 		weight *= exp10(float64(m.LogBackoffAt(j, e)))
 	}
-	for w, u := range s.unigram {
-		if s.stamp[w] != s.gen {
-			if ev := s.event[w]; ev >= 0 {
-				s.dist[ev] += weight * u
-			}
-		}
-	}
+	s.weight = weight
 }

@@ -87,6 +87,12 @@ func (r *Result) Passes(maxIncreasePercent float64) bool {
 // n-grams and next-word distributions. It fails when the text cannot be
 // read or holds no sentence, or when a model's trie is damaged.
 func Compare(candidate, baseline *format.Model, name string, heldout io.Reader) (*Result, error) {
+	return CompareWithProgress(candidate, baseline, name, heldout, nil)
+}
+
+// CompareWithProgress is Compare that calls progress, when not nil, with
+// the number of sentences done after each one.
+func CompareWithProgress(candidate, baseline *format.Model, name string, heldout io.Reader, progress func(sentences int)) (*Result, error) {
 	res := &Result{}
 	orders, err := Diff(candidate, baseline)
 	if err != nil {
@@ -106,6 +112,9 @@ func Compare(candidate, baseline *format.Model, name string, heldout io.Reader) 
 		sumC.Add(sc.Score(tokens))
 		sumB.Add(sb.Score(tokens))
 		kl += div.Sentence(tokens)
+		if progress != nil {
+			progress(sumC.Sentences)
+		}
 		return nil
 	})
 	if err != nil {
