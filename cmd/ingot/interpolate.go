@@ -124,6 +124,7 @@ the written model on --heldout TEXT (default: the --fit text).`,
 			}
 			for k := 1; k <= t.Order(); k++ {
 				rep.Orders = append(rep.Orders, orderNGrams{Order: k, NGrams: t.Len(k)})
+				rep.NGramsPerOrder = append(rep.NGramsPerOrder, t.Len(k))
 			}
 			if heldout != "" {
 				pr.step("scoring %s", heldout)
@@ -210,6 +211,9 @@ type interpolateReport struct {
 	Vocabulary int           `json:"vocabulary_size"`
 	Perplexity *perplexities `json:"heldout_perplexity,omitempty"`
 	Orders     []orderNGrams `json:"orders"`
+	// NGramsPerOrder repeats Orders as a plain list, the form verify
+	// reports.
+	NGramsPerOrder []int `json:"ngrams_per_order"`
 }
 
 // orderNGrams is one order's n-gram count in a report.

@@ -40,7 +40,9 @@ func TestInterpolateFitReport(t *testing.T) {
 			Mixture     float64
 			Written     float64
 		} `json:"heldout_perplexity"`
-		Orders []struct{ Order, NGrams int }
+		Orders         []struct{ Order, NGrams int }
+		NGramsPerOrder []int `json:"ngrams_per_order"`
+		VocabularySize int   `json:"vocabulary_size"`
 	}
 	if err := json.Unmarshal([]byte(out), &rep); err != nil {
 		t.Fatalf("%v:\n%s", err, out)
@@ -58,8 +60,9 @@ func TestInterpolateFitReport(t *testing.T) {
 	if pp.Mixture > pp.Inputs[0]*(1+1e-4) || pp.Mixture > pp.Inputs[1]*(1+1e-4) {
 		t.Errorf("fitted mixture %.4f worse than an input %v", pp.Mixture, pp.Inputs)
 	}
-	if len(rep.Orders) != 3 || rep.Orders[2].NGrams == 0 {
-		t.Errorf("orders %+v", rep.Orders)
+	if len(rep.Orders) != 3 || rep.Orders[2].NGrams == 0 || len(rep.NGramsPerOrder) != 3 ||
+		rep.NGramsPerOrder[2] != rep.Orders[2].NGrams || rep.VocabularySize < 100 {
+		t.Errorf("orders %+v, n-grams per order %v, vocabulary %d", rep.Orders, rep.NGramsPerOrder, rep.VocabularySize)
 	}
 	if code, _, e := ingot(t, "verify", p("mix.ingot")); code != 0 {
 		t.Errorf("verify: exit %d: %s", code, e)

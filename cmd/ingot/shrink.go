@@ -6,7 +6,6 @@ import (
 	"os"
 
 	"ingot/compile/tables"
-	"ingot/format"
 	"ingot/inspect"
 )
 
@@ -14,14 +13,9 @@ import (
 // rewrites it (prune, quantize, tradeoff), refusing a quantized model: its
 // values are already rounded, so work on the model it came from.
 func readUnquantized(command, path string) (*tables.Tables, error) {
-	m, err := openModel(path)
+	t, err := readTables(path)
 	if err != nil {
 		return nil, err
-	}
-	defer m.Close()
-	t, err := format.ToTables(m)
-	if err != nil {
-		return nil, fmt.Errorf("%s: %w", path, err)
 	}
 	if t.Info.Quantization != nil {
 		return nil, fmt.Errorf("%s: %s is quantized already; %s the unquantized model", command, path, command)

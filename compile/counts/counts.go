@@ -221,6 +221,16 @@ func (b *builder) add(g []uint32, n uint64, file int32, line int) bool {
 	return true
 }
 
+// remapLevel returns the k-grams with ids (k per entry) and counts, each id
+// replaced by remap[id], sorted, n-grams that became equal merged.
+func remapLevel(k int, ids []uint32, count []uint64, remap []uint32) Level {
+	flat := make([]uint32, len(ids))
+	for i, id := range ids {
+		flat[i] = remap[id]
+	}
+	return sortMerge(k, flat, count)
+}
+
 // sortMerge returns the level of k-grams whose ids are flat (k per entry)
 // with the given counts, sorted, n-grams that are equal merged.
 func sortMerge(k int, flat []uint32, count []uint64) Level {
@@ -288,11 +298,7 @@ func (b *builder) finish(replace func(word string) string, extra []string) *Coun
 	c.Levels[0] = uni
 	for k := 2; k <= b.order; k++ {
 		t := &b.grams[k-1]
-		flat := make([]uint32, len(t.ids))
-		for i, id := range t.ids {
-			flat[i] = remap[id]
-		}
-		c.Levels[k-1] = sortMerge(k, flat, t.count)
+		c.Levels[k-1] = remapLevel(k, t.ids, t.count, remap)
 	}
 	return c
 }

@@ -42,12 +42,7 @@ func (c *Counts) MapVocabulary(l *vocab.List) *Counts {
 	}
 	out.Levels[0] = uni
 	for k := 2; k <= c.Order(); k++ {
-		lv := &c.Levels[k-1]
-		flat := make([]uint32, len(lv.Words))
-		for i, id := range lv.Words {
-			flat[i] = remap[id]
-		}
-		out.Levels[k-1] = sortMerge(k, flat, lv.Counts)
+		out.Levels[k-1] = remapLevel(k, c.Levels[k-1].Words, c.Levels[k-1].Counts, remap)
 	}
 	return out
 }
