@@ -1,5 +1,6 @@
 /*
- * ingot.c: the reader declared in ingot.h, written from spec/FORMAT.md.
+ * ingot.c: the reader declared in ingot.h, written from spec/FORMAT.md
+ * (versions 1, 2 and 3).
  * Section numbers in comments refer to that document.
  */
 #if !defined(_POSIX_C_SOURCE) && (defined(__unix__) || defined(__APPLE__))
@@ -35,7 +36,9 @@ enum {
 	KIND_SIGNATURE = 9,
 	KIND_PROBABILITY_CODEBOOK = 10,
 	KIND_BACKOFF_CODEBOOK = 11,
-	KIND_LAST_DEFINED = 11
+	KIND_CONTEXTS = 12,
+	KIND_WORD_HASH = 13,
+	KIND_LAST_DEFINED = 13
 };
 
 enum {
@@ -44,6 +47,8 @@ enum {
 	MAX_SECTIONS = 1024, /* a reader MAY refuse more (section 3.1) */
 	ENCODING_PLAIN = 0,
 	ENCODING_PACKED = 1,
+	ENCODING_CODED_IDS = 2,   /* version 3: Elias-Fano, keys are word ids */
+	ENCODING_CODED_RANKS = 3, /* version 3: Elias-Fano, keys are successor ranks */
 	MAX_CODEBOOK = 65536
 };
 
@@ -242,6 +247,8 @@ const char *ingot_section_name(uint32_t kind)
 	case KIND_SIGNATURE: return "signature";
 	case KIND_PROBABILITY_CODEBOOK: return "probability codebook";
 	case KIND_BACKOFF_CODEBOOK: return "back-off codebook";
+	case KIND_CONTEXTS: return "contexts";
+	case KIND_WORD_HASH: return "word hash";
 	default: return "unknown";
 	}
 }
@@ -333,11 +340,10 @@ typedef struct {
 } index_table;
 
 static ingot_status open_column(ingot_model *m, ingot_error *err, const index_table *t,
-                                uint32_t kind, uint32_t codebook_kind, uint32_t k, ingot_column_ *col)
+                                uint32_t kind, uint32_t codebook_kind, uint32_t k, uint64_t n, ingot_column_ *col)
 {
 	int j = t->at[kind][k];
 	entry e = read_entry(m->data, (uint32_t)j);
-	uint64_t n = m->levels[k - 1].count;
 	int cj = t->at[codebook_kind][k];
 	memset(col, 0, sizeof *col);
 	col->data = section_bytes(m, &e);
@@ -414,6 +420,272 @@ static int word_is(const ingot_model *m, uint32_t id, const char *want)
 	return w != NULL && len == n && memcmp(w, want, n) == 0;
 }
 
+/* ---- Version 3: Elias-Fano sequences, contexts, word hash (section 4.8). */
+
+static unsigned popcount64(uint64_t x)
+{
+#if defined(__GNUC__) || defined(__clang__)
+	return (unsigned)__builtin_popcountll(x);
+#else
+	x = x - ((x >> 1) & 0x5555555555555555ull);
+	x = (x & 0x3333333333333333ull) + ((x >> 2) & 0x3333333333333333ull);
+	x = (x + (x >> 4)) & 0x0F0F0F0F0F0F0F0Full;
+	return (unsigned)((x * 0x0101010101010101ull) >> 56);
+#endif
+}
+
+/* ctz64: the index of the lowest one of x, which is not 0. */
+static unsigned ctz64(uint64_t x)
+{
+#if defined(__GNUC__) || defined(__clang__)
+	return (unsigned)__builtin_ctzll(x);
+#else
+	unsigned n = 0;
+	while (!(x & 1)) {
+		x >>= 1;
+		n++;
+	}
+	return n;
+#endif
+}
+
+/* select64: the position of the r-th one (from 0) of x, which has more
+ * than r ones. */
+static unsigned select64(uint64_t x, unsigned r)
+{
+	while (r-- > 0)
+		x &= x - 1;
+	return ctz64(x);
+}
+
+#define NO_POSITION ((uint64_t)-1)
+
+/* ef_low returns the low bits of value i (i below n). */
+static uint64_t ef_low(const ingot_sequence_ *q, uint64_t i)
+{
+	uint64_t bit, w, v;
+	unsigned off, L = q->low_bits;
+	if (L == 0)
+		return 0;
+	bit = i * L;
+	w = bit >> 6;
+	off = (unsigned)(bit & 63);
+	v = u64le(q->low + 8 * (size_t)w) >> off;
+	if (off + L > 64 && w + 1 < q->low_words)
+		v |= u64le(q->low + 8 * (size_t)(w + 1)) << (64 - off);
+	return v & (((uint64_t)1 << L) - 1);
+}
+
+/* ef_position returns p_i, the position of the i-th one of the high bits,
+ * or NO_POSITION when i is not below n or the file is damaged. */
+static uint64_t ef_position(const ingot_sequence_ *q, uint64_t i)
+{
+	uint64_t p, w, word;
+	unsigned r;
+	if (i >= q->n)
+		return NO_POSITION;
+	p = u64le(q->samples + 8 * (size_t)(i >> 8));
+	if (p >= q->high_words * 64)
+		return NO_POSITION;
+	r = (unsigned)(i & 255);
+	w = p >> 6;
+	word = u64le(q->high + 8 * (size_t)w) & (~(uint64_t)0 << (p & 63));
+	for (;;) {
+		unsigned c = popcount64(word);
+		if (r < c)
+			return (w << 6) + select64(word, r);
+		r -= c;
+		if (++w >= q->high_words)
+			return NO_POSITION;
+		word = u64le(q->high + 8 * (size_t)w);
+	}
+}
+
+/* ef_next_position returns the position of the first one after p, or
+ * NO_POSITION. */
+static uint64_t ef_next_position(const ingot_sequence_ *q, uint64_t p)
+{
+	uint64_t w, word;
+	p++;
+	w = p >> 6;
+	if (w >= q->high_words)
+		return NO_POSITION;
+	word = u64le(q->high + 8 * (size_t)w) & (~(uint64_t)0 << (p & 63));
+	while (word == 0) {
+		if (++w >= q->high_words)
+			return NO_POSITION;
+		word = u64le(q->high + 8 * (size_t)w);
+	}
+	return (w << 6) + ctz64(word);
+}
+
+/* ef_value turns the position of the i-th one into x_i; 0 when damaged. */
+static int ef_value(const ingot_sequence_ *q, uint64_t i, uint64_t p, uint64_t *x)
+{
+	if (p == NO_POSITION || p < i)
+		return 0;
+	*x = ((p - i) << q->low_bits) | ef_low(q, i);
+	return 1;
+}
+
+static int ef_get(const ingot_sequence_ *q, uint64_t i, uint64_t *x)
+{
+	return ef_value(q, i, ef_position(q, i), x);
+}
+
+/* ef_find returns the e in [s, t) with x_e = target, or INGOT_NONE. The
+ * values ascend strictly over the range in an intact file; a damaged one
+ * gives a wrong answer, never a read outside the sequence. */
+static uint32_t ef_find(const ingot_sequence_ *q, uint64_t s, uint64_t t, uint64_t target)
+{
+	uint64_t x;
+	if (t - s <= 16) {
+		uint64_t p = ef_position(q, s), e;
+		for (e = s; e < t; e++) {
+			if (e > s)
+				p = ef_next_position(q, p);
+			if (!ef_value(q, e, p, &x) || x > target)
+				return INGOT_NONE;
+			if (x == target)
+				return (uint32_t)e;
+		}
+		return INGOT_NONE;
+	}
+	while (t - s > 1) {
+		uint64_t mid = s + (t - s) / 2;
+		if (!ef_get(q, mid, &x))
+			return INGOT_NONE;
+		if (x <= target)
+			s = mid;
+		else
+			t = mid;
+	}
+	return ef_get(q, s, &x) && x == target ? (uint32_t)s : INGOT_NONE;
+}
+
+/* context_rank tells whether entry i (below n_k) of a level is a context
+ * and sets *rank to the number of contexts before it. */
+static int context_rank(const ingot_level_ *lv, uint64_t i, uint64_t *rank)
+{
+	uint64_t word = u64le(lv->context_bits + 8 * (size_t)(i >> 6)), w, r;
+	unsigned bit = (unsigned)(i & 63);
+	if (!((word >> bit) & 1))
+		return 0;
+	r = u32le(lv->context_counts + 4 * (size_t)(i >> 9));
+	for (w = (i >> 9) * 8; w < (i >> 6); w++)
+		r += popcount64(u64le(lv->context_bits + 8 * (size_t)w));
+	*rank = r + popcount64(word & (((uint64_t)1 << bit) - 1));
+	return 1;
+}
+
+/* open_sequence checks the head and length of an Elias-Fano section
+ * (section 4.8.1) holding want values and points q at its parts. */
+static ingot_status open_sequence(ingot_model *m, ingot_error *err, uint32_t j, const entry *e, uint64_t want,
+                                  ingot_sequence_ *q)
+{
+	const unsigned char *b = section_bytes(m, e);
+	uint64_t n, U, quotient, w_low, w_high, w_samples;
+	uint32_t L, wantL = 0;
+	if (e->length < 24)
+		return fail_at(err, INGOT_ERR_FORMAT, j, e, "length %llu, shorter than its 24-byte head",
+		               (unsigned long long)e->length);
+	n = u64le(b), U = u64le(b + 8), L = u32le(b + 16);
+	if (n != want)
+		return fail_at(err, INGOT_ERR_FORMAT, j, e, "%llu values, want %llu", (unsigned long long)n,
+		               (unsigned long long)want);
+	if (u32le(b + 20) != 0)
+		return fail_at(err, INGOT_ERR_FORMAT, j, e, "reserved field is not 0");
+	if (n == 0 ? U != 0 : U / n >= ((uint64_t)1 << 32))
+		return fail_at(err, INGOT_ERR_FORMAT, j, e, "last value %llu out of range for %llu values",
+		               (unsigned long long)U, (unsigned long long)n);
+	if (n > 0) {
+		quotient = U / n + (U % n == n - 1 ? 1 : 0);
+		while (wantL < 63 && ((uint64_t)1 << (wantL + 1)) <= quotient)
+			wantL++;
+		if (quotient == 0)
+			wantL = 0;
+	}
+	if (L != wantL)
+		return fail_at(err, INGOT_ERR_FORMAT, j, e, "%u low bits, want %u", (unsigned)L, (unsigned)wantL);
+	w_low = (n * L + 63) / 64;
+	w_high = ((U >> L) + n + 63) / 64;
+	w_samples = (n + 255) / 256;
+	if (e->length != 24 + 8 * (w_low + w_high + w_samples))
+		return fail_at(err, INGOT_ERR_FORMAT, j, e, "length %llu, want %llu", (unsigned long long)e->length,
+		               (unsigned long long)(24 + 8 * (w_low + w_high + w_samples)));
+	q->n = n;
+	q->low_bits = L;
+	q->low = b + 24;
+	q->low_words = w_low;
+	q->high = q->low + 8 * (size_t)w_low;
+	q->high_words = w_high;
+	q->samples = q->high + 8 * (size_t)w_high;
+	return INGOT_OK;
+}
+
+/* open_version3 checks the sections version 3 adds or codes differently
+ * (section 6.1, item 10): contexts, child starts, last words, word hash. */
+static ingot_status open_version3(ingot_model *m, ingot_error *err, const index_table *t)
+{
+	uint32_t k, j, N = m->order;
+	entry e;
+	ingot_status st;
+	for (k = 1; k < N; k++) {
+		ingot_level_ *lv = &m->levels[k - 1];
+		uint64_t n = lv->count, words = (n + 63) / 64, counters = (words + 7) / 8, first;
+		const unsigned char *b;
+		j = (uint32_t)t->at[KIND_CONTEXTS][k];
+		e = read_entry(m->data, j);
+		b = section_bytes(m, &e);
+		if (e.length < 16 || u64le(b) != n || u64le(b + 8) > n)
+			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "head does not record %llu entries and at most as many contexts",
+			               (unsigned long long)n);
+		if (e.length != 16 + 8 * words + 4 * counters)
+			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "length %llu, want %llu", (unsigned long long)e.length,
+			               (unsigned long long)(16 + 8 * words + 4 * counters));
+		lv->contexts = u64le(b + 8);
+		lv->context_bits = b + 16;
+		lv->context_counts = b + 16 + 8 * (size_t)words;
+
+		j = (uint32_t)t->at[KIND_CHILD_STARTS][k];
+		e = read_entry(m->data, j);
+		if (e.encoding != ENCODING_CODED_IDS)
+			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "encoding %u, want 2 in a version-3 file", (unsigned)e.encoding);
+		st = open_sequence(m, err, j, &e, lv->contexts + 1, &lv->context_starts);
+		if (st != INGOT_OK)
+			return st;
+		if (u64le(section_bytes(m, &e) + 8) != m->levels[k].count || !ef_get(&lv->context_starts, 0, &first) ||
+		    first != 0)
+			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "starts do not run from 0 to %llu",
+			               (unsigned long long)m->levels[k].count);
+	}
+	for (k = 2; k <= N; k++) {
+		ingot_level_ *lv = &m->levels[k - 1];
+		j = (uint32_t)t->at[KIND_LAST_WORDS][k];
+		e = read_entry(m->data, j);
+		if (e.encoding != ENCODING_CODED_IDS && !(e.encoding == ENCODING_CODED_RANKS && k >= 3))
+			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "encoding %u, which a version-3 file does not allow here",
+			               (unsigned)e.encoding);
+		lv->key_encoding = e.encoding;
+		st = open_sequence(m, err, j, &e, lv->count, &lv->keys);
+		if (st != INGOT_OK)
+			return st;
+	}
+	{
+		uint64_t V = m->vocabulary_size, P = V + V / 4 + 1;
+		const unsigned char *b;
+		j = (uint32_t)t->at[KIND_WORD_HASH][0];
+		e = read_entry(m->data, j);
+		b = section_bytes(m, &e);
+		if (e.length < 8 || u32le(b) != P || u32le(b + 4) != 0 || e.length != 8 + 4 * P)
+			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "want %llu slots, a zero reserved field and length %llu",
+			               (unsigned long long)P, (unsigned long long)(8 + 4 * P));
+		m->word_slots = b + 8;
+		m->word_slot_count = (uint32_t)P;
+	}
+	return INGOT_OK;
+}
+
 static ingot_status open_buffer(ingot_model *m, const void *buf, size_t size, ingot_error *err)
 {
 	const unsigned char *d = (const unsigned char *)buf;
@@ -437,8 +709,8 @@ static ingot_status open_buffer(ingot_model *m, const void *buf, size_t size, in
 	if (size < HEADER_SIZE || memcmp(d, magic, sizeof magic) != 0)
 		return fail(err, INGOT_ERR_FORMAT, "not an ingot model file");
 	version = u32le(d + 8);
-	if (version < 1 || version > 2)
-		return fail(err, INGOT_ERR_VERSION, "file is format version %u; this reader reads versions 1 to 2",
+	if (version < 1 || version > 3)
+		return fail(err, INGOT_ERR_VERSION, "file is format version %u; this reader reads versions 1 to 3",
 		            (unsigned)version);
 
 	/* 2. Directory in the file, header checksum, file length. */
@@ -551,12 +823,19 @@ static ingot_status open_buffer(ingot_model *m, const void *buf, size_t size, in
 			break;
 		case KIND_LAST_WORDS: lo = 2, hi = N; break;
 		case KIND_PROBABILITIES: case KIND_PROBABILITY_CODEBOOK: lo = 1, hi = N; break;
-		case KIND_BACKOFFS: case KIND_CHILD_STARTS: case KIND_BACKOFF_CODEBOOK: lo = 1, hi = N - 1; break;
+		case KIND_BACKOFFS: case KIND_CHILD_STARTS: case KIND_BACKOFF_CODEBOOK: case KIND_CONTEXTS:
+			lo = 1, hi = N - 1;
+			break;
+		case KIND_WORD_HASH: lo = hi = 0; break;
 		default: continue;
 		}
+		if ((e.kind == KIND_CONTEXTS || e.kind == KIND_WORD_HASH) && version < 3)
+			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "a version-3 section in a version-%u file", (unsigned)version);
 		if (e.order < lo || e.order > hi)
 			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "order %u does not fit a model of order %u",
 			               (unsigned)e.order, (unsigned)N);
+		if (version >= 3 && (e.kind == KIND_LAST_WORDS || e.kind == KIND_CHILD_STARTS))
+			continue; /* coded: checked below */
 		if (e.kind != KIND_PROBABILITIES && e.kind != KIND_BACKOFFS && e.kind != KIND_SIGNATURE &&
 		    e.encoding != ENCODING_PLAIN)
 			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "encoding %u, which this reader does not know",
@@ -577,7 +856,11 @@ static ingot_status open_buffer(ingot_model *m, const void *buf, size_t size, in
 				return fail(err, INGOT_ERR_FORMAT, "no back-offs section of order %u", (unsigned)k);
 			if (k < N && t.at[KIND_CHILD_STARTS][k] < 0)
 				return fail(err, INGOT_ERR_FORMAT, "no child starts section of order %u", (unsigned)k);
+			if (version >= 3 && k < N && t.at[KIND_CONTEXTS][k] < 0)
+				return fail(err, INGOT_ERR_FORMAT, "no contexts section of order %u", (unsigned)k);
 		}
+		if (version >= 3 && t.at[KIND_WORD_HASH][0] < 0)
+			return fail(err, INGOT_ERR_FORMAT, "no word hash section");
 	}
 
 	/* 7. Column lengths; 8. the ends of the starts arrays. */
@@ -599,10 +882,15 @@ static ingot_status open_buffer(ingot_model *m, const void *buf, size_t size, in
 				               (unsigned long long)w.length);
 		}
 	}
+	if (version >= 3) {
+		st = open_version3(m, err, &t);
+		if (st != INGOT_OK)
+			return st;
+	}
 	for (k = 1; k <= N; k++) {
 		ingot_level_ *lv = &m->levels[k - 1];
 		uint64_t n = lv->count;
-		if (k >= 2) {
+		if (k >= 2 && version < 3) {
 			j = (uint32_t)t.at[KIND_LAST_WORDS][k];
 			e = read_entry(d, j);
 			if (e.length / 4 != n || e.length % 4 != 0)
@@ -610,13 +898,17 @@ static ingot_status open_buffer(ingot_model *m, const void *buf, size_t size, in
 				               (unsigned long long)e.length, (unsigned long long)n);
 			lv->last_words = section_bytes(m, &e);
 		}
-		st = open_column(m, err, &t, KIND_PROBABILITIES, KIND_PROBABILITY_CODEBOOK, k, &lv->probabilities);
+		st = open_column(m, err, &t, KIND_PROBABILITIES, KIND_PROBABILITY_CODEBOOK, k, n, &lv->probabilities);
 		if (st != INGOT_OK)
 			return st;
 		if (k < N) {
-			st = open_column(m, err, &t, KIND_BACKOFFS, KIND_BACKOFF_CODEBOOK, k, &lv->backoffs);
+			/* Version 3 stores back-off weights for the contexts only. */
+			st = open_column(m, err, &t, KIND_BACKOFFS, KIND_BACKOFF_CODEBOOK, k,
+			                 version >= 3 ? lv->contexts : n, &lv->backoffs);
 			if (st != INGOT_OK)
 				return st;
+			if (version >= 3)
+				continue;
 			j = (uint32_t)t.at[KIND_CHILD_STARTS][k];
 			e = read_entry(d, j);
 			if (e.length / 4 != n + 1 || e.length % 4 != 0)
@@ -837,10 +1129,40 @@ static int compare_word(const ingot_model *m, uint32_t id, const unsigned char *
 	return n < klen ? -1 : n > klen ? 1 : 0;
 }
 
+/* lookup_hash finds a word through the word hash of a version-3 file
+ * (section 4.8.4): 64-bit FNV-1a, linear probing, at most P probes. */
+static int lookup_hash(const ingot_model *m, const unsigned char *key, size_t len, uint32_t *id)
+{
+	uint64_t h = 14695981039346656037ull;
+	uint32_t P = m->word_slot_count, slot, probes;
+	size_t i;
+	for (i = 0; i < len; i++)
+		h = (h ^ key[i]) * 1099511628211ull;
+	slot = (uint32_t)(h % P);
+	for (probes = 0; probes < P; probes++) {
+		uint32_t w = u32le(m->word_slots + 4 * (size_t)slot);
+		size_t n = 0;
+		const unsigned char *text;
+		if (w == 0xFFFFFFFFu)
+			return 0;
+		text = word_range(m, w, &n);
+		if (text != NULL && n == len && (len == 0 || memcmp(text, key, len) == 0)) {
+			if (id)
+				*id = w;
+			return 1;
+		}
+		if (++slot == P)
+			slot = 0;
+	}
+	return 0;
+}
+
 int ingot_lookup(const ingot_model *m, const char *word, size_t len, uint32_t *id)
 {
 	uint32_t lo = 0, hi = m->vocabulary_size;
 	const unsigned char *key = (const unsigned char *)word;
+	if (m->version >= 3)
+		return lookup_hash(m, key, len, id);
 	while (lo < hi) {
 		uint32_t mid = lo + (hi - lo) / 2;
 		int valid, c = compare_word(m, mid, key, len, &valid);
@@ -924,11 +1246,73 @@ static uint32_t find_child(const ingot_model *m, uint32_t k, uint32_t parent, ui
 	return u32le(lw + 4 * (size_t)lo) == w ? lo : INGOT_NONE;
 }
 
+/* next_version3 is ingot_next over the succinct trie ("Running text in
+ * version 3", section 7). */
+static double next_version3(const ingot_model *m, ingot_state *s, uint32_t w)
+{
+	uint32_t found[INGOT_MAX_ORDER]; /* found[j]: the entry of order j+1 storing h_j w */
+	uint64_t first[INGOT_MAX_ORDER]; /* first[j]: the first child of h_j */
+	uint64_t rank[INGOT_MAX_ORDER];  /* rank[j]: h_j's rank among the contexts, or NO_POSITION */
+	uint32_t n = s->length, j, keep;
+	double weight = 0, lp = -INFINITY;
+	if (n > m->order - 1)
+		n = m->order - 1;
+	if (w >= m->vocabulary_size) {
+		s->length = 0;
+		return -INFINITY;
+	}
+	found[0] = w;
+	first[0] = 0;
+	for (j = 1; j <= n; j++) {
+		const ingot_level_ *lv = &m->levels[j - 1], *next = &m->levels[j];
+		uint64_t e = s->entry[j - 1], a, b, key;
+		found[j] = INGOT_NONE;
+		rank[j] = NO_POSITION;
+		if (e >= lv->count || !context_rank(lv, e, &rank[j]))
+			continue; /* not stored, or stored without children */
+		if (!ef_get(&lv->context_starts, rank[j], &a) || !ef_get(&lv->context_starts, rank[j] + 1, &b))
+			continue;
+		if (b > next->count)
+			b = next->count;
+		if (a >= b)
+			continue;
+		if (next->key_encoding == ENCODING_CODED_RANKS) {
+			if (found[j - 1] == INGOT_NONE)
+				continue; /* h_{j-1} w is not stored, so neither is h_j w */
+			key = found[j - 1] - first[j - 1];
+		} else
+			key = w;
+		{
+			uint64_t base = 0;
+			if (a > 0 && !ef_get(&next->keys, a - 1, &base))
+				continue;
+			found[j] = ef_find(&next->keys, a, b, base + key);
+		}
+		first[j] = a;
+	}
+	for (j = n;; j--) {
+		if (found[j] != INGOT_NONE) {
+			lp = weight + value(&m->levels[j].probabilities, found[j]);
+			break;
+		}
+		/* A stored h_j that is not a context has weight 1 (log10 0). */
+		if (rank[j] < m->levels[j - 1].contexts)
+			weight += value(&m->levels[j - 1].backoffs, rank[j]);
+	}
+	keep = n + 1 < m->order - 1 ? n + 1 : m->order - 1;
+	for (j = 0; j < keep; j++)
+		s->entry[j] = found[j];
+	s->length = keep;
+	return lp;
+}
+
 double ingot_next(const ingot_model *m, ingot_state *s, uint32_t w)
 {
 	uint32_t found[INGOT_MAX_ORDER]; /* found[j]: the entry of order j+1 storing h_j w */
 	uint32_t n = s->length, j, keep;
 	double weight = 0, lp = -INFINITY;
+	if (m->version >= 3)
+		return next_version3(m, s, w);
 	if (n > m->order - 1)
 		n = m->order - 1;
 	if (w >= m->vocabulary_size) {

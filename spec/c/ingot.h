@@ -1,5 +1,6 @@
 /*
- * ingot.h: a reader of ingot model files (spec/FORMAT.md), in portable C99.
+ * ingot.h: a reader of ingot model files (spec/FORMAT.md), versions 1 to 3,
+ * in portable C99.
  *
  * Written from the specification alone, as its proof and as code a device
  * team can drop in: one header and one source file (ingot.c), libc only,
@@ -68,10 +69,24 @@ typedef struct {
 	uint32_t bits; /* 0 for a plain column, else bits per index */
 } ingot_column_;
 
+/* An Elias-Fano sequence (format version 3). */
+typedef struct {
+	uint64_t n;         /* values */
+	uint32_t low_bits;  /* L */
+	const unsigned char *low, *high, *samples;
+	uint64_t low_words, high_words;
+} ingot_sequence_;
+
 typedef struct {
 	uint64_t count;                     /* n_k */
-	const unsigned char *last_words;    /* u32 x n_k, orders 2..N */
-	const unsigned char *child_starts;  /* u32 x (n_k + 1), orders 1..N-1 */
+	uint32_t key_encoding;              /* last words: 0 plain ids, 2 coded ids, 3 coded successor ranks */
+	const unsigned char *last_words;    /* u32 x n_k, orders 2..N (encoding 0) */
+	ingot_sequence_ keys;               /* orders 2..N (encodings 2 and 3) */
+	const unsigned char *child_starts;  /* u32 x (n_k + 1), orders 1..N-1 (versions 1 and 2) */
+	ingot_sequence_ context_starts;     /* m_k + 1 child starts (version 3) */
+	const unsigned char *context_bits;  /* one bit per entry (version 3) */
+	const unsigned char *context_counts;/* rank directory (version 3) */
+	uint64_t contexts;                  /* m_k (version 3) */
 	ingot_column_ probabilities;
 	ingot_column_ backoffs;             /* orders 1..N-1 */
 } ingot_level_;
@@ -89,6 +104,8 @@ typedef struct {
 	const unsigned char *word_starts; /* u32 x (V + 1) */
 	const unsigned char *word_text;
 	uint64_t word_text_length;
+	const unsigned char *word_slots;  /* version 3: the word hash's slots */
+	uint32_t word_slot_count;
 	ingot_level_ levels[INGOT_MAX_ORDER];
 } ingot_model;
 

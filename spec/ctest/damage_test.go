@@ -49,7 +49,7 @@ func parseTallies(t *testing.T, out string) map[string]tally {
 
 // Every single-bit flip of the whole file (header, directory, every
 // section, padding) and every truncation of the corruption matrix's models
-// and of the golden model is refused, at open or by ingot_check; and every
+// and of the golden models are refused, at open or by ingot_check; and every
 // damaged copy that opens, checks or not, is used (every word looked up,
 // text scored) under the address and undefined-behaviour sanitizers
 // without a report. So are random 32-bit overwrites inside sections, also
@@ -65,7 +65,10 @@ func parseTallies(t *testing.T, out string) map[string]tally {
 func TestDamagedCopies(t *testing.T) {
 	p := tools(t)
 	text := demoHeldOut(t, 6)
-	models := append(demoModels(t), testModel{"golden", filepath.Join(p.root, "spec/golden/tiny.ingot"), nil})
+	models := demoModels(t)
+	for model := range goldenModels(t) {
+		models = append(models, testModel{filepath.Base(model), model, nil})
+	}
 	for i, m := range models {
 		t.Run(m.name, func(t *testing.T) {
 			r := run(t, text, true, p.driverASan, "damage", m.path, fmt.Sprint(i+1))

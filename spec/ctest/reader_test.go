@@ -60,14 +60,41 @@ type goldenQuery struct {
 	Log10   *float64 `json:"log10"`
 }
 
-// The golden vectors of spec/FORMAT.md section 9: a reader that follows
-// section 7 reproduces every value exactly (the spec says so: same
-// additions in the same order, in double precision), from a mapped file
-// and from a buffer, with and without the sanitizers.
+// goldenModels lists the golden model files of spec/golden and the
+// expected answers of each: NAME.ingot and NAME.vK.ingot are answered by
+// NAME.expected.jsonl (spec/FORMAT.md section 9).
+func goldenModels(t *testing.T) map[string]string {
+	t.Helper()
+	root := tools(t).root
+	files, err := filepath.Glob(filepath.Join(root, "spec/golden/*.ingot"))
+	if err != nil || len(files) == 0 {
+		t.Fatalf("no golden models (%v)", err)
+	}
+	out := map[string]string{}
+	for _, f := range files {
+		name := strings.TrimSuffix(filepath.Base(f), ".ingot")
+		if i := strings.LastIndex(name, ".v"); i > 0 {
+			name = name[:i]
+		}
+		out[f] = filepath.Join(root, "spec/golden", name+".expected.jsonl")
+	}
+	return out
+}
+
+// The golden vectors of spec/FORMAT.md section 9, for every golden model
+// (versions 1 and, where present, 3): a reader that follows section 7
+// reproduces every value exactly (the spec says so: same additions in the
+// same order, in double precision), from a mapped file and from a buffer,
+// with and without the sanitizers.
 func TestGoldenVectors(t *testing.T) {
 	p := tools(t)
-	model := filepath.Join(p.root, "spec/golden/tiny.ingot")
-	f, err := os.Open(filepath.Join(p.root, "spec/golden/tiny.expected.jsonl"))
+	for model, expected := range goldenModels(t) {
+		t.Run(filepath.Base(model), func(t *testing.T) { goldenVectors(t, p, model, expected) })
+	}
+}
+
+func goldenVectors(t *testing.T, p programs, model, expected string) {
+	f, err := os.Open(expected)
 	if err != nil {
 		t.Fatal(err)
 	}
