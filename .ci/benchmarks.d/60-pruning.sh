@@ -3,8 +3,9 @@
 # the Union text, pruned to 1/2, 1/4, 1/16 and 1/64 of the unpruned 8-bit
 # Kneser-Ney file, 8-bit, two ways (a finished model pruned by relative
 # entropy; compile --max-size from the counts). Writes the table here and the
-# chart to testdata/sotu/pruning-5gram.svg (and .csv). About an hour on 2
-# busy cores.
+# chart to testdata/sotu/pruning-5gram.svg (and .csv). Long: on 2 cores
+# shared with other work (load 30) it took 15 minutes to reach the first
+# budget; it has not yet been run to the end.
 set -euo pipefail
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT

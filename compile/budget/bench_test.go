@@ -48,8 +48,8 @@ type row struct {
 // The held-out sentences are split in two: even ones (DEV) choose the order,
 // odd ones (TEST) give every perplexity reported. With INGOT_PRUNING_OUT set
 // to a directory it writes pruning.md (the table), pruning.csv and
-// pruning.svg (one curve per method) there. About an hour on 2 busy cores;
-// run it alone:
+// pruning.svg (one curve per method) there. Long (on 2 cores shared with
+// other work it took 15 minutes to reach the first budget); run it alone:
 //
 //	INGOT_PRUNING_OUT=/tmp/p go test -run '^$' -bench PruningPaths -benchtime 1x -timeout 3h ./compile/budget
 func BenchmarkPruningPaths(b *testing.B) {
