@@ -8,6 +8,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"ingot/compile/budget"
 	"ingot/compile/input"
 	"ingot/compile/prune"
 	"ingot/compile/tables"
@@ -51,10 +52,10 @@ held-out text.`,
 			if hasT && !(threshold >= 0) {
 				return fmt.Errorf("prune: --drop-below %v must be a number >= 0", threshold)
 			}
-			var budget int64
+			var maxBytes int64
 			var err error
 			if hasS {
-				if budget, err = parseSize(maxSize); err != nil {
+				if maxBytes, err = parseSize(maxSize); err != nil {
 					return fmt.Errorf("prune: --max-size: %w", err)
 				}
 			}
@@ -81,27 +82,21 @@ held-out text.`,
 					"pruned by relative entropy below %.6g nats (kept %s n-grams per order)", threshold, joinInts(prune.Kept(keep))))
 				return p
 			}
-			var keep [][]bool
-			pr.step("choosing the threshold")
+			var (
+				keep [][]bool
+				p    *tables.Tables
+			)
 			if hasS {
-				threshold, keep, _, err = prune.Fit(t, scores, budget, func(th float64, kp [][]bool) (int64, error) {
-					if qopt.Bits != 0 {
-						return format.Size(quantize.Placeholder(pruned(th, kp), qopt))
-					}
-					return format.Size(pruned(th, kp))
-				})
+				pr.step("choosing the threshold and building the model")
+				p, threshold, keep, _, err = budget.FitFinished(t, scores, maxBytes, qopt, pruned,
+					func(th float64, kp [][]bool) (*tables.Tables, error) { return budget.Finish(pruned(th, kp), qopt) })
 				if err != nil {
 					return checkFailed{fmt.Errorf("prune: %w", err)}
 				}
 			} else {
+				pr.step("recomputing back-off weights and quantizing")
 				keep = prune.Keep(t, scores, threshold)
-			}
-			pr.step("recomputing back-off weights")
-			p := pruned(threshold, keep)
-			prune.Renormalize(p)
-			if qopt.Bits != 0 {
-				pr.step("quantizing")
-				if p, _, err = quantize.Model(p, qopt); err != nil {
+				if p, err = budget.Finish(pruned(threshold, keep), qopt); err != nil {
 					return err
 				}
 			}

@@ -248,47 +248,70 @@ func (b *Builder) fitOrder(n int, maxBytes int64) (*tables.Tables, *estimate.Rep
 		p.Info.History = append(slices.Clip(p.Info.History), history(method, opt.Ranking, th, keep))
 		return p
 	}
-	// The quantizer may widen a back-off codebook beyond what the sizing
-	// assumed (so that every context still sums to one); then the file is
-	// measured and the target lowered by the excess, a few times at most.
-	target := maxBytes
-	var (
-		m    *tables.Tables
-		th   float64
-		keep [][]bool
-		size int64
-	)
-	for attempt := 1; ; attempt++ {
-		step("choosing the threshold for %d bytes", target)
-		th, keep, _, err = prune.Fit(t, scores, target, func(th float64, kp [][]bool) (int64, error) {
-			p := shaped(th, kp, t)
-			if opt.Quantize.Bits != 0 {
-				p = quantize.Placeholder(p, opt.Quantize)
-			}
-			return format.Size(p)
+	step("choosing the threshold for %d bytes", maxBytes)
+	m, th, keep, size, err := FitFinished(t, scores, maxBytes, opt.Quantize,
+		func(th float64, kp [][]bool) *tables.Tables { return shaped(th, kp, t) },
+		func(th float64, kp [][]bool) (*tables.Tables, error) {
+			return build(c, eo, t, kp, func(p *tables.Tables) *tables.Tables { return shaped(th, kp, p) }, describe, opt.Quantize, step)
 		})
-		if err != nil {
-			return nil, nil, Candidate{}, fmt.Errorf("order %d: %w", n, err)
-		}
-		if m, err = build(c, eo, t, keep, func(p *tables.Tables) *tables.Tables { return shaped(th, keep, p) }, describe, opt.Quantize, step); err != nil {
-			return nil, nil, Candidate{}, err
-		}
-		if size, err = format.Size(m); err != nil {
-			return nil, nil, Candidate{}, err
-		}
-		if size <= maxBytes {
-			break
-		}
-		if attempt == maxAttempts {
-			return nil, nil, Candidate{}, fmt.Errorf("order %d: after %d attempts the model still takes %d bytes, over the budget of %d", n, attempt, size, maxBytes)
-		}
-		target -= size - maxBytes
+	if err != nil {
+		return nil, nil, Candidate{}, fmt.Errorf("order %d: %w", n, err)
 	}
 	kept := prune.Kept(keep)
 	for k := range rep.Orders {
 		rep.Orders[k].Kept = kept[k]
 	}
 	return m, rep, Candidate{Order: n, Threshold: th, NGrams: kept, FileBytes: size}, nil
+}
+
+// FitFinished finds the least relative-entropy pruning of t (ranked by
+// scores) whose finished model fits maxBytes. shaped gives the tables the
+// pruning keeps, as they will be written before quantization (their size
+// is measured, through quantize.Placeholder when q.Bits is set); finish
+// builds the model to write. The quantizer may widen a back-off codebook
+// beyond what the sizing assumed (so that every context still sums to
+// one); then the finished file is measured and the target lowered by the
+// excess, a few times at most.
+func FitFinished(t *tables.Tables, scores prune.Scores, maxBytes int64, q quantize.Options,
+	shaped func(th float64, keep [][]bool) *tables.Tables,
+	finish func(th float64, keep [][]bool) (*tables.Tables, error)) (m *tables.Tables, th float64, keep [][]bool, size int64, err error) {
+	target := maxBytes
+	for attempt := 1; ; attempt++ {
+		th, keep, _, err = prune.Fit(t, scores, target, func(th float64, kp [][]bool) (int64, error) {
+			p := shaped(th, kp)
+			if q.Bits != 0 {
+				p = quantize.Placeholder(p, q)
+			}
+			return format.Size(p)
+		})
+		if err != nil {
+			return nil, 0, nil, 0, err
+		}
+		if m, err = finish(th, keep); err != nil {
+			return nil, 0, nil, 0, err
+		}
+		if size, err = format.Size(m); err != nil {
+			return nil, 0, nil, 0, err
+		}
+		if size <= maxBytes {
+			return m, th, keep, size, nil
+		}
+		if attempt == maxAttempts {
+			return nil, 0, nil, 0, fmt.Errorf("after %d attempts the model still takes %d bytes, over the budget of %d", attempt, size, maxBytes)
+		}
+		target -= size - maxBytes
+	}
+}
+
+// Finish recomputes the back-off weights of a pruned model and quantizes
+// it when q.Bits is set.
+func Finish(p *tables.Tables, q quantize.Options) (*tables.Tables, error) {
+	prune.Renormalize(p)
+	if q.Bits == 0 {
+		return p, nil
+	}
+	m, _, err := quantize.Model(p, q)
+	return m, err
 }
 
 // maxAttempts bounds the re-fits after a quantized file came out larger
@@ -311,17 +334,8 @@ func build(c *counts.Counts, eo estimate.Options, t *tables.Tables, keep [][]boo
 			return nil, err
 		}
 	}
-	step("recomputing back-off weights")
-	m := shaped(t)
-	prune.Renormalize(m)
-	if q.Bits != 0 {
-		step("quantizing")
-		var err error
-		if m, _, err = quantize.Model(m, q); err != nil {
-			return nil, err
-		}
-	}
-	return m, nil
+	step("recomputing back-off weights and quantizing")
+	return Finish(shaped(t), q)
 }
 
 func history(method, ranking estimate.Method, th float64, keep [][]bool) string {

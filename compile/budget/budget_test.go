@@ -223,3 +223,28 @@ func TestTooSmallABudgetSaysWhatFits(t *testing.T) {
 		t.Fatalf("got %v, want an error naming the smallest model's size", err)
 	}
 }
+
+// When the finished model comes out larger than its sizing (the quantizer
+// widening a back-off codebook does that), FitFinished lowers its target
+// until the finished file fits. Here finishing adds 3000 bytes of build
+// notes that the sizing does not see.
+func TestFitFinishedRefitsWhenTheFinishedFileIsLarger(t *testing.T) {
+	c, _ := slice(t, 800, 3)
+	m, full := unpruned(t, c, estimate.Options{Method: estimate.Katz, Order: 3}, quantize.Options{})
+	budget := full / 2
+	shaped := func(_ float64, kp [][]bool) *tables.Tables { return prune.Select(m, kp) }
+	calls := 0
+	out, _, _, size, err := FitFinished(m, prune.EntropyScores(m), budget, quantize.Options{}, shaped,
+		func(th float64, kp [][]bool) (*tables.Tables, error) {
+			calls++
+			p, err := Finish(shaped(th, kp), quantize.Options{})
+			p.Info.History = append(p.Info.History, strings.Repeat("x", 3000))
+			return p, err
+		})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := sizeOf(t, out); got != size || size > budget || calls < 2 {
+		t.Errorf("file %d bytes (reported %d), budget %d, %d builds", got, size, budget, calls)
+	}
+}
