@@ -86,9 +86,37 @@ func (m *Model) wordBytes(id uint32) []byte {
 // to word: for each suffix of the last (at most N-1) words, the entry that
 // stores it, if any. The zero State is the empty context. States are small
 // values; copy them freely.
+//
+// For a decoder that recombines hypotheses: two States of one model that
+// are equal (==) predict every continuation alike, since the model's answer
+// depends only on which suffixes of the context are stored. The converse
+// does not hold for ==: contexts that differ only in words no stored
+// n-gram reaches, or that keep different numbers of words, can be unequal
+// States that still predict alike. Model.SameFuture tells exactly when two
+// States predict alike.
 type State struct {
 	n    int                         // context length kept
 	node [tables.MaxOrder - 1]uint32 // node[j-1]: entry of order j storing the length-j suffix, or noNode
+}
+
+// SameFuture reports whether the States a and b give every continuation
+// the same probability, now and after any further words: the same entry,
+// or none, stores each suffix of their contexts. Hypotheses whose States
+// have the same future can be recombined.
+func (m *Model) SameFuture(a, b State) bool {
+	for j := 1; j < max(m.order, 1); j++ {
+		na, nb := uint32(noNode), uint32(noNode)
+		if j <= a.n {
+			na = a.node[j-1]
+		}
+		if j <= b.n {
+			nb = b.node[j-1]
+		}
+		if na != nb {
+			return false
+		}
+	}
+	return true
 }
 
 // Len returns the number of context words the state keeps.

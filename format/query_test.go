@@ -280,3 +280,57 @@ func TestNextAllocatesNothing(t *testing.T) {
 		t.Errorf("Next allocates %.1f times per sentence, want 0", allocs)
 	}
 }
+
+// Two States that SameFuture calls alike give every continuation the same
+// log10 and stay alike; equal States are always alike; and the pairs it
+// finds include unequal States (different context lengths, or words no
+// stored n-gram reaches), which is why decoders need it rather than ==.
+func TestSameFuture(t *testing.T) {
+	for _, c := range models(t) {
+		t.Run(c.name, func(t *testing.T) {
+			m := mustOpen(t, mustMarshal(t, c.tb))
+			rng := rand.New(rand.NewPCG(5, 8))
+			V := uint32(len(c.tb.Vocab))
+			var states []State
+			for range 60 {
+				s := State{}
+				if rng.IntN(2) == 0 {
+					s = m.StartState()
+				}
+				for range rng.IntN(6) {
+					m.Next(&s, rng.Uint32N(V))
+					states = append(states, s)
+				}
+			}
+			alikeButUnequal := 0
+			for i := range states {
+				for j := range states {
+					a, b := states[i], states[j]
+					same := m.SameFuture(a, b)
+					if a == b && !same {
+						t.Fatalf("equal States %+v not alike", a)
+					}
+					if !same {
+						continue
+					}
+					if a != b {
+						alikeButUnequal++
+					}
+					for range 3 {
+						w := rng.Uint32N(V)
+						la, lb := m.Next(&a, w), m.Next(&b, w)
+						if la != lb && !(math.IsInf(la, -1) && math.IsInf(lb, -1)) {
+							t.Fatalf("alike States give %d log10 %v and %v", w, la, lb)
+						}
+						if !m.SameFuture(a, b) {
+							t.Fatalf("alike States differ after word %d", w)
+						}
+					}
+				}
+			}
+			if c.tb.Order() > 2 && alikeButUnequal == 0 {
+				t.Errorf("no pair of unequal States was alike; the test does not exercise SameFuture")
+			}
+		})
+	}
+}
