@@ -10,6 +10,7 @@ import (
 
 	"ingot/compile/counts"
 	"ingot/compile/input"
+	"ingot/compile/tables"
 )
 
 func newCountCmd() *cobra.Command {
@@ -20,6 +21,7 @@ func newCountCmd() *cobra.Command {
 		wordList string
 		asText   bool
 		asJSON   bool
+		run      runFlags
 	)
 	cmd := &cobra.Command{
 		Use:   "count --order N [-o OUT] [TEXT...]",
@@ -36,6 +38,14 @@ increasing order. compile reads either, told apart by their first bytes.
 Invalid UTF-8 or a marker (<s>, </s>, <unk>) inside the text is an error
 naming the file and line, and no output file is left behind.
 
+Counting runs on every core (GOMAXPROCS workers). Its n-gram tables stay
+within --memory (default: a quarter of physical memory); beyond it, sorted
+runs spill to a private directory under --tmp and are merged at the end.
+The directory is removed on success, on failure and on SIGINT or SIGTERM.
+The output is the same, byte for byte, whatever the cores and the budget.
+A progress bar is drawn when stderr is a terminal (not with --quiet);
+--log-level info logs the spills and the merge.
+
 With --vocabulary FILE (one word per line) every word outside the list
 counts as <unk>, a literal <unk> in the text included; give compile the same
 --vocabulary so that listed words never seen stay predictable.`,
@@ -47,9 +57,8 @@ counts as <unk>, a literal <unk> in the text included; give compile the same
 			if asJSON && (out == "" || out == "-") {
 				return fmt.Errorf("--json needs -o FILE: standard output carries the counts")
 			}
-			c, err := counts.NewCounter(order)
-			if err != nil {
-				return fmt.Errorf("count: --order: %w", err)
+			if order < 1 || order > tables.MaxOrder {
+				return fmt.Errorf("count: --order: order %d outside 1..%d", order, tables.MaxOrder)
 			}
 			if wordList != "" && minCount > 1 {
 				return fmt.Errorf("count: --min-word-count and --vocabulary exclude each other (the word list fixes the vocabulary)")
@@ -58,36 +67,53 @@ counts as <unk>, a literal <unk> in the text included; give compile the same
 			if err != nil {
 				return err
 			}
-			if list != nil {
-				c.UseVocabulary(list)
+			memory, err := run.budget("count")
+			if err != nil {
+				return err
+			}
+			log, err := run.logger("count", cmd.ErrOrStderr())
+			if err != nil {
+				return err
 			}
 			if len(args) == 0 {
 				args = []string{input.Stdin}
 			}
-			pr := newProgress(cmd.ErrOrStderr())
-			defer pr.done()
+			var inputs []counts.Input
 			for _, name := range args {
-				pr.step("counting %s", name)
-				if err := addText(c, name); err != nil {
-					return err
+				r, err := input.Open(name)
+				if err != nil {
+					return fmt.Errorf("count: %w", err)
 				}
+				defer r.Close()
+				shown := name
+				if name == input.Stdin {
+					shown = "stdin"
+				}
+				inputs = append(inputs, counts.Input{Name: shown, R: r})
 			}
-			pr.step("sorting the n-grams")
-			res := c.Counts(minCount)
-			if total(res) == 0 {
-				return fmt.Errorf("count: no sentences in %s", strings.Join(args, ", "))
-			}
+			pb := run.newBar(cmd.ErrOrStderr(), inputSize(args), "counting")
+			defer pb.finish()
+			var rep *counts.Report
 			err = writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
-				if asText {
-					_, err := res.WriteTo(w)
+				var err error
+				rep, err = counts.Count(cmd.Context(), counts.Options{
+					Order: order, MinWordCount: minCount, Vocabulary: list,
+					Memory: memory, TempDir: run.tmp, Text: asText,
+					Progress: pb.progress, Log: log, Temp: pendingFrom(cmd.Context()),
+				}, inputs, w)
+				if err != nil {
 					return err
 				}
-				return res.WriteBinary(w)
+				if rep.Sentences == 0 {
+					return fmt.Errorf("count: no sentences in %s", strings.Join(args, ", "))
+				}
+				log.Info("counted", "sentences", rep.Sentences, "tokens", rep.Tokens, "entries", rep.Entries, "runs", rep.Runs, "spilled_bytes", rep.Spilled)
+				return nil
 			})
 			if err != nil || !asJSON {
 				return err
 			}
-			return reportCount(cmd.OutOrStdout(), out, res)
+			return reportCount(cmd.OutOrStdout(), out, rep)
 		},
 	}
 	f := cmd.Flags()
@@ -97,49 +123,26 @@ counts as <unk>, a literal <unk> in the text included; give compile the same
 	f.Uint64Var(&minCount, "min-word-count", 1, "replace words seen fewer times than this by <unk>")
 	f.StringVar(&wordList, "vocabulary", "", "fixed word list, one word per line: count every other word as <unk>")
 	f.BoolVar(&asJSON, "json", false, "report what was written as JSON (needs -o)")
+	run.add(f)
 	cmd.MarkFlagRequired("order")
 	return cmd
 }
 
 // reportCount prints count's JSON report: the file written, its size, and
-// the n-grams per order.
-func reportCount(w io.Writer, out string, res *counts.Counts) error {
+// the n-grams per order (for order 1, every word of the vocabulary).
+func reportCount(w io.Writer, out string, rep *counts.Report) error {
 	fi, err := os.Stat(out)
 	if err != nil {
 		return err
 	}
-	per := make([]int, res.Order())
-	for k := range per {
-		per[k] = res.Len(k + 1)
-	}
+	per := make([]uint64, len(rep.Entries))
+	copy(per, rep.Entries)
+	per[0] = uint64(rep.Words)
 	return writeJSON(w, struct {
-		Counts         string `json:"counts"`
-		FileBytes      int64  `json:"file_bytes"`
-		Order          int    `json:"order"`
-		NGramsPerOrder []int  `json:"ngrams_per_order"`
-	}{out, fi.Size(), res.Order(), per})
+		Counts         string   `json:"counts"`
+		FileBytes      int64    `json:"file_bytes"`
+		Order          int      `json:"order"`
+		NGramsPerOrder []uint64 `json:"ngrams_per_order"`
+	}{out, fi.Size(), len(per), per})
 }
 
-func total(c *counts.Counts) uint64 {
-	var n uint64
-	for _, x := range c.Levels[0].Counts {
-		n += x
-	}
-	return n
-}
-
-func addText(c *counts.Counter, name string) error {
-	r, err := input.Open(name)
-	if err != nil {
-		return fmt.Errorf("count: %w", err)
-	}
-	defer r.Close()
-	shown := name
-	if name == input.Stdin {
-		shown = "stdin"
-	}
-	if err := c.AddText(shown, r); err != nil {
-		return err
-	}
-	return nil
-}

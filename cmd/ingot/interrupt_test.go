@@ -117,3 +117,79 @@ func assertNothingWritten(t *testing.T, dir, base string) {
 		t.Errorf("%d temporary files of %s left behind", n, base)
 	}
 }
+
+// count with a small budget spills sorted runs into a private directory
+// under --tmp; the directory is gone after success, after a failure (a bad
+// line near the end) and after SIGINT, and the counts equal those counted
+// in memory.
+func TestCountSpillDirectoryIsRemoved(t *testing.T) {
+	bin := buildIngot(t)
+	dir, tmp := t.TempDir(), t.TempDir()
+	text := filepath.Join(dir, "train.txt")
+	f, _ := os.Create(text)
+	corpus.Generate(f, 5, 25000, 50000)
+	f.Close()
+	spillDirs := func() []string {
+		entries, _ := os.ReadDir(tmp)
+		var names []string
+		for _, e := range entries {
+			names = append(names, e.Name())
+		}
+		return names
+	}
+
+	// Success, compared with the unbounded run.
+	small, big := filepath.Join(dir, "small.bin"), filepath.Join(dir, "big.bin")
+	if out, err := exec.Command(bin, "count", "--order", "4", "--memory", "16MiB", "--tmp", tmp, "--log-level", "info", "-o", small, text).CombinedOutput(); err != nil {
+		t.Fatalf("count --memory 16MiB: %v\n%s", err, out)
+	} else if !strings.Contains(string(out), "runs=") || strings.Contains(string(out), "runs=0 ") {
+		t.Errorf("the 16 MiB run did not spill:\n%s", out)
+	}
+	if out, err := exec.Command(bin, "count", "--order", "4", "-o", big, text).CombinedOutput(); err != nil {
+		t.Fatalf("count: %v\n%s", err, out)
+	}
+	a, _ := os.ReadFile(small)
+	b, _ := os.ReadFile(big)
+	if len(a) == 0 || string(a) != string(b) {
+		t.Errorf("counts with --memory 16MiB differ from the unbounded run (%d vs %d bytes)", len(a), len(b))
+	}
+	if left := spillDirs(); len(left) > 0 {
+		t.Errorf("after success: %v left in --tmp", left)
+	}
+
+	// Failure: a marker on the last line, found after the spills.
+	bad := filepath.Join(dir, "bad.txt")
+	data, _ := os.ReadFile(text)
+	os.WriteFile(bad, append(data, "a <unk> here\n"...), 0o644)
+	out, err := exec.Command(bin, "count", "--order", "4", "--memory", "16MiB", "--tmp", tmp, "-o", filepath.Join(dir, "x.bin"), bad).CombinedOutput()
+	if err == nil || !strings.Contains(string(out), "bad.txt:25001: marker <unk> inside raw text") {
+		t.Errorf("bad line: %v\n%s", err, out)
+	}
+	if left := spillDirs(); len(left) > 0 {
+		t.Errorf("after failure: %v left in --tmp", left)
+	}
+
+	// SIGINT while the runs are on disk.
+	cmd := exec.Command(bin, "count", "--order", "4", "--memory", "16MiB", "--tmp", tmp, "-o", filepath.Join(dir, "y.bin"), text)
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	deadline := time.Now().Add(60 * time.Second)
+	for time.Now().Before(deadline) {
+		if names := spillDirs(); len(names) > 0 {
+			runs, _ := os.ReadDir(filepath.Join(tmp, names[0]))
+			if len(runs) > 0 {
+				break
+			}
+		}
+		time.Sleep(time.Millisecond)
+	}
+	cmd.Process.Signal(syscall.SIGINT)
+	err = cmd.Wait()
+	if ee, ok := err.(*exec.ExitError); !ok || ee.ExitCode() != 130 {
+		t.Errorf("count after SIGINT: %v, want exit 130", err)
+	}
+	if left := spillDirs(); len(left) > 0 {
+		t.Errorf("after SIGINT: %v left in --tmp", left)
+	}
+}

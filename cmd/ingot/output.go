@@ -125,6 +125,27 @@ func (p *pendingOutputs) createTemp(dir, pattern string) (*os.File, error) {
 	return f, err
 }
 
+// MkdirTemp makes a temporary directory (spill runs) and records it, under
+// the same lock; removeAll removes it with everything in it.
+func (p *pendingOutputs) MkdirTemp(dir, pattern string) (string, error) {
+	if p == nil {
+		return os.MkdirTemp(dir, pattern)
+	}
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	if p.stopped {
+		return "", fmt.Errorf("interrupted")
+	}
+	d, err := os.MkdirTemp(dir, pattern)
+	if err == nil {
+		p.files[d] = true
+	}
+	return d, err
+}
+
+// Forget drops a directory its owner removed.
+func (p *pendingOutputs) Forget(dir string) { p.remove(dir) }
+
 func (p *pendingOutputs) remove(name string) {
 	if p == nil {
 		return
@@ -134,13 +155,13 @@ func (p *pendingOutputs) remove(name string) {
 	delete(p.files, name)
 }
 
-// removeAll deletes every pending temporary file.
+// removeAll deletes every pending temporary file and directory.
 func (p *pendingOutputs) removeAll() {
 	p.mu.Lock()
 	defer p.mu.Unlock()
 	p.stopped = true
 	for name := range p.files {
-		os.Remove(name)
+		os.RemoveAll(name)
 		delete(p.files, name)
 	}
 }

@@ -99,6 +99,12 @@ type Writer struct {
 // Writer for its entries. The word list must be sorted bytewise without
 // duplicates; words must be valid UTF-8 without white space.
 func NewWriter(w io.Writer, h Header) (*Writer, error) {
+	return newWriterLevel(w, h, zstd.SpeedDefault)
+}
+
+// newWriterLevel is NewWriter with a compression level (spill runs favour
+// speed).
+func newWriterLevel(w io.Writer, h Header, level zstd.EncoderLevel) (*Writer, error) {
 	if h.Order < 1 || h.Order > tables.MaxOrder {
 		return nil, fmt.Errorf("count file: order %d outside 1..%d", h.Order, tables.MaxOrder)
 	}
@@ -116,7 +122,7 @@ func NewWriter(w io.Writer, h Header) (*Writer, error) {
 	if len(list) > maxVocabRaw {
 		return nil, fmt.Errorf("count file: word list of %d bytes exceeds %d", len(list), maxVocabRaw)
 	}
-	enc, err := zstd.NewWriter(nil, zstd.WithEncoderConcurrency(1), zstd.WithEncoderCRC(false))
+	enc, err := zstd.NewWriter(nil, zstd.WithEncoderConcurrency(1), zstd.WithEncoderCRC(false), zstd.WithEncoderLevel(level))
 	if err != nil {
 		return nil, err
 	}

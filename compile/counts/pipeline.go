@@ -1,0 +1,521 @@
+package counts
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"log/slog"
+	"os"
+	"runtime"
+	"runtime/debug"
+	"slices"
+	"sync"
+
+	"ingot/compile/tables"
+	"ingot/compile/text"
+	"ingot/compile/vocab"
+)
+
+// Options configures Count.
+type Options struct {
+	Order int
+	// MinWordCount > 1 replaces every word seen fewer times by <unk>.
+	MinWordCount uint64
+	// Vocabulary, when not nil, maps every token outside it to <unk> while
+	// counting (see Counter.UseVocabulary).
+	Vocabulary *vocab.List
+	// Memory is the budget in bytes for the n-gram tables of all workers
+	// together; beyond it, sorted runs spill to TempDir. 0: no limit.
+	Memory int64
+	// TempDir is where a private directory for spill runs is made ("": the
+	// system's temporary directory). It is removed before Count returns.
+	TempDir string
+	// Workers is how many goroutines count (0: GOMAXPROCS).
+	Workers int
+	// Text writes the text form instead of the binary form.
+	Text bool
+	// Progress, when not nil, is called with the input bytes consumed
+	// since the previous call, and with the phase when it changes.
+	Progress func(phase string, bytes int64)
+	// Log receives what a long run does (runs spilled, merge); nil: none.
+	Log *slog.Logger
+	// Temp, when not nil, makes the spill directory and is told when it is
+	// gone, so that an interrupted process can remove it before exiting.
+	Temp TempTracker
+}
+
+// TempTracker makes temporary directories and keeps a record of them.
+type TempTracker interface {
+	// MkdirTemp is os.MkdirTemp, recording the directory it makes.
+	MkdirTemp(dir, pattern string) (string, error)
+	// Forget drops a directory that was removed from the record.
+	Forget(dir string)
+}
+
+// Input is one text to count.
+type Input struct {
+	Name string
+	R    io.Reader
+}
+
+// Report says what Count did.
+type Report struct {
+	Sentences uint64
+	Tokens    uint64   // tokens of the text (without the markers)
+	Entries   []uint64 // entries written per order
+	Words     int      // words in the file's vocabulary (markers included)
+	Runs      int      // sorted runs spilled to disk
+	Spilled   int64    // bytes of those runs
+}
+
+// chunkSize is how much text a worker takes at a time.
+const chunkSize = 1 << 20
+
+type chunk struct {
+	seq   int
+	name  string
+	line  int // number of the chunk's first line
+	data  []byte
+	bytes int64
+}
+
+// Count counts the n-grams of the inputs with opt.Workers goroutines, in
+// memory up to opt.Memory and in sorted runs on disk beyond it, and writes
+// them to out as one count file. The file is the same, byte for byte,
+// whatever the number of workers and the budget. Errors in the text name
+// the file and line (the earliest one when several workers find one).
+func Count(ctx context.Context, opt Options, inputs []Input, out io.Writer) (*Report, error) {
+	if opt.Order < 1 || opt.Order > tables.MaxOrder {
+		return nil, fmt.Errorf("order %d outside 1..%d", opt.Order, tables.MaxOrder)
+	}
+	workers := opt.Workers
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	log := opt.Log
+	if log == nil {
+		log = slog.New(slog.DiscardHandler)
+	}
+	progress := opt.Progress
+	if progress == nil {
+		progress = func(string, int64) {}
+	}
+	var dir string
+	if opt.Memory > 0 {
+		mkdir := os.MkdirTemp
+		if opt.Temp != nil {
+			mkdir = opt.Temp.MkdirTemp
+		}
+		var err error
+		if dir, err = mkdir(opt.TempDir, "ingot-spill-"); err != nil {
+			return nil, fmt.Errorf("spill directory: %w", err)
+		}
+		defer func() {
+			os.RemoveAll(dir)
+			if opt.Temp != nil {
+				opt.Temp.Forget(dir)
+			}
+		}()
+	}
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+
+	// Workers share three quarters of the budget for their tables; the
+	// rest covers word lists, buffers and the merge.
+	perWorker := opt.Memory * 3 / 4 / int64(workers)
+	ws := make([]*worker, workers)
+	for i := range ws {
+		ws[i] = newWorker(opt, perWorker, dir, fmt.Sprintf("w%d", i))
+	}
+	chunks := make(chan chunk, workers)
+	var mu sync.Mutex
+	var firstErr error
+	errSeq := -1
+	fail := func(seq int, err error) {
+		mu.Lock()
+		defer mu.Unlock()
+		if errSeq < 0 || seq < errSeq {
+			firstErr, errSeq = err, seq
+		}
+		cancel()
+	}
+	var wg sync.WaitGroup
+	for _, w := range ws {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for c := range chunks {
+				if err := w.count(c); err != nil {
+					fail(c.seq, err)
+				}
+				progress("counting", c.bytes)
+			}
+		}()
+	}
+	seq, readErr := splitChunks(ctx, inputs, chunks)
+	close(chunks)
+	wg.Wait()
+	if firstErr != nil {
+		return nil, firstErr
+	}
+	if readErr != nil {
+		if ctx.Err() != nil && errors.Is(readErr, context.Canceled) {
+			return nil, context.Cause(ctx)
+		}
+		return nil, readErr
+	}
+	rep := &Report{}
+	for _, w := range ws {
+		rep.Sentences += w.sentences
+		rep.Tokens += w.tokens
+	}
+	log.Debug("counted", "chunks", seq, "sentences", rep.Sentences, "tokens", rep.Tokens)
+	if rep.Sentences == 0 {
+		return rep, nil
+	}
+
+	// If any worker spilled, every worker spills what it holds, so that the
+	// merge reads runs only and the tables' memory is free for it.
+	spilled := false
+	for _, w := range ws {
+		spilled = spilled || len(w.sorter.runs) > 0
+	}
+	var streams []stream
+	var lists [][]string
+	var closers []func()
+	defer func() {
+		for _, c := range closers {
+			c()
+		}
+	}()
+	for _, w := range ws {
+		if spilled && w.sorter.set.len() > 0 {
+			progress("spilling", 0)
+			if err := w.sorter.spill(); err != nil {
+				return nil, err
+			}
+		}
+		st, ls, closeRuns, err := w.sorter.streams()
+		if err != nil {
+			return nil, err
+		}
+		closers = append(closers, closeRuns)
+		streams = append(streams, st...)
+		lists = append(lists, ls...)
+		rep.Runs += len(w.sorter.runs)
+		rep.Spilled += w.sorter.spilt
+	}
+	if spilled {
+		ws = nil
+		debug.FreeOSMemory() // the tables' memory goes back before the merge
+	}
+	log.Info("merging", "streams", len(streams), "runs", rep.Runs, "spilled_bytes", rep.Spilled)
+	progress("merging", 0)
+	if opt.Vocabulary != nil {
+		lists = append(lists, opt.Vocabulary.Words())
+	}
+	vocab, remaps := unionVocab(lists)
+	for i, st := range streams {
+		st.(interface{ setRemap([]uint32) }).setRemap(remaps[i])
+	}
+	m, err := newMerger(streams)
+	if err != nil {
+		return nil, err
+	}
+	if opt.MinWordCount > 1 && opt.Vocabulary == nil {
+		rep.Entries, rep.Words, err = writeMinCount(opt, dir, vocab, m, out)
+	} else {
+		rep.Entries, err = writeMerged(opt.Order, vocab, m, opt.Text, out)
+		rep.Words = len(vocab)
+	}
+	if err != nil {
+		return nil, err
+	}
+	return rep, nil
+}
+
+// splitChunks reads the inputs into chunks of whole lines and sends them
+// until the inputs end or ctx is cancelled. It returns how many it sent.
+func splitChunks(ctx context.Context, inputs []Input, out chan<- chunk) (int, error) {
+	seq := 0
+	for _, in := range inputs {
+		line := 1
+		var carry []byte
+		for eof := false; !eof; {
+			buf := make([]byte, len(carry), max(chunkSize, 2*len(carry)))
+			copy(buf, carry)
+			n, err := io.ReadFull(in.R, buf[len(carry):cap(buf)])
+			buf = buf[:len(carry)+n]
+			switch {
+			case err == io.EOF || err == io.ErrUnexpectedEOF:
+				eof = true
+			case err != nil:
+				return seq, fmt.Errorf("%s: %w", in.Name, err)
+			}
+			cut := len(buf)
+			if !eof {
+				cut = bytes.LastIndexByte(buf, '\n') + 1
+				if cut == 0 { // a line longer than the buffer: read on
+					carry = buf
+					continue
+				}
+			}
+			carry = slices.Clone(buf[cut:])
+			c := chunk{seq: seq, name: in.Name, line: line, data: buf[:cut], bytes: int64(n)}
+			line += bytes.Count(c.data, []byte{'\n'})
+			select {
+			case out <- c:
+			case <-ctx.Done():
+				return seq, ctx.Err()
+			}
+			seq++
+		}
+	}
+	return seq, nil
+}
+
+// worker counts chunks into its own word list and sorter.
+type worker struct {
+	order     int
+	list      *vocab.List
+	ids       map[string]uint32
+	words     []string
+	sorter    *sorter
+	sent      []uint32
+	sentences uint64
+	tokens    uint64
+}
+
+func newWorker(opt Options, budget int64, dir, name string) *worker {
+	w := &worker{order: opt.Order, list: opt.Vocabulary, ids: map[string]uint32{}}
+	for _, m := range []string{tables.SentenceStart, tables.SentenceEnd, tables.Unknown} {
+		w.id(m)
+	}
+	w.sorter = newSorter(opt.Order, &w.words, w.ids[tables.SentenceStart], budget, dir, name)
+	return w
+}
+
+func (w *worker) id(t string) uint32 {
+	if id, ok := w.ids[t]; ok {
+		return id
+	}
+	id := uint32(len(w.words))
+	t = string(append([]byte(nil), t...))
+	w.ids[t] = id
+	w.words = append(w.words, t)
+	return id
+}
+
+func (w *worker) count(c chunk) error {
+	err := text.Sentences(c.name, bytes.NewReader(c.data), w.list != nil, func(toks []string, line int) error {
+		s := append(w.sent[:0], 0)
+		s[0] = w.ids[tables.SentenceStart]
+		for _, t := range toks {
+			if w.list != nil {
+				if t == tables.SentenceStart || t == tables.SentenceEnd {
+					return &text.Error{File: c.name, Line: line, Msg: fmt.Sprintf("marker %s inside raw text", t)}
+				}
+				t = w.list.Map(t)
+			}
+			s = append(s, w.id(t))
+		}
+		s = append(s, w.ids[tables.SentenceEnd])
+		w.sent = s
+		w.sentences++
+		w.tokens += uint64(len(toks))
+		for i := 1; i < len(s); i++ {
+			for k := 1; k <= w.order && k <= i+1; k++ {
+				if err := w.sorter.add(s[i+1-k:i+1], 1); err != nil {
+					return err
+				}
+			}
+		}
+		return nil
+	})
+	var te *text.Error
+	if errors.As(err, &te) {
+		te.Line += c.line - 1
+	}
+	return err
+}
+
+// sink writes entries of a count file in either form.
+type sink struct {
+	vocab   []string
+	bin     *Writer
+	text    io.Writer
+	line    []byte
+	entries []uint64
+}
+
+func newSink(order int, vocab []string, asText bool, out io.Writer) (*sink, error) {
+	s := &sink{vocab: vocab, entries: make([]uint64, order)}
+	if asText {
+		s.text = out
+		return s, nil
+	}
+	w, err := NewWriter(out, Header{Order: order, Vocab: vocab})
+	if err != nil {
+		return nil, err
+	}
+	s.bin = w
+	return s, nil
+}
+
+func (s *sink) add(g []uint32, n uint64) error {
+	s.entries[len(g)-1]++
+	if s.bin != nil {
+		return s.bin.Add(g, n)
+	}
+	s.line = appendTextLine(s.line[:0], s.vocab, g, n)
+	_, err := s.text.Write(s.line)
+	return err
+}
+
+func (s *sink) close() error {
+	if s.bin != nil {
+		return s.bin.Close()
+	}
+	return nil
+}
+
+// writeMerged writes the merged streams as they come.
+func writeMerged(order int, vocab []string, m *merger, asText bool, out io.Writer) ([]uint64, error) {
+	s, err := newSink(order, vocab, asText, out)
+	if err != nil {
+		return nil, err
+	}
+	var g []uint32
+	for {
+		var n uint64
+		g, n, _, err = m.next(g)
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return nil, err
+		}
+		if err := s.add(g, n); err != nil {
+			return nil, err
+		}
+	}
+	return s.entries, s.close()
+}
+
+// writeMinCount writes the merged streams with every word seen fewer than
+// opt.MinWordCount times replaced by <unk>. The unigrams come first in the
+// merge and decide the replacement; the longer n-grams, whose order the
+// replacement changes, go through a second sorter (spilling within the
+// same budget).
+func writeMinCount(opt Options, dir string, vocab []string, m *merger, out io.Writer) ([]uint64, int, error) {
+	freq := make([]uint64, len(vocab))
+	var g []uint32
+	var pending []uint32
+	var pendingN uint64
+	for {
+		var n uint64
+		var err error
+		g, n, _, err = m.next(g)
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return nil, 0, err
+		}
+		if len(g) > 1 {
+			pending, pendingN = slices.Clone(g), n
+			break
+		}
+		freq[g[0]] = n
+	}
+	final := []string{tables.SentenceStart, tables.SentenceEnd, tables.Unknown}
+	for id, w := range vocab {
+		if text.IsMarker(w) || freq[id] >= opt.MinWordCount {
+			final = append(final, w)
+		}
+	}
+	slices.Sort(final)
+	final = slices.Compact(final)
+	unk, _ := find(final, tables.Unknown)
+	to := make([]uint32, len(vocab))
+	for id, w := range vocab {
+		if i, ok := find(final, w); ok && (text.IsMarker(w) || freq[id] >= opt.MinWordCount) {
+			to[id] = i
+		} else {
+			to[id] = unk
+		}
+	}
+	uni := make([]uint64, len(final))
+	for id, n := range freq {
+		uni[to[id]] += n
+	}
+	s, err := newSink(opt.Order, final, opt.Text, out)
+	if err != nil {
+		return nil, 0, err
+	}
+	start, _ := find(final, tables.SentenceStart)
+	for id, n := range uni {
+		if n > 0 && uint32(id) != start {
+			if err := s.add([]uint32{uint32(id)}, n); err != nil {
+				return nil, 0, err
+			}
+		}
+	}
+	words := final
+	so := newSorter(opt.Order, &words, start, opt.Memory*3/4, dir, "min")
+	mapped := make([]uint32, 0, tables.MaxOrder)
+	add := func(g []uint32, n uint64) error {
+		mapped = mapped[:0]
+		for _, id := range g {
+			mapped = append(mapped, to[id])
+		}
+		return so.add(mapped, n)
+	}
+	if pending != nil {
+		if err := add(pending, pendingN); err != nil {
+			return nil, 0, err
+		}
+		for {
+			var n uint64
+			g, n, _, err = m.next(g)
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				return nil, 0, err
+			}
+			if err := add(g, n); err != nil {
+				return nil, 0, err
+			}
+		}
+	}
+	streams, lists, closeRuns, err := so.streams()
+	if err != nil {
+		return nil, 0, err
+	}
+	defer closeRuns()
+	_, remaps := unionVocab(append(lists, final))
+	for i, st := range streams {
+		st.(interface{ setRemap([]uint32) }).setRemap(remaps[i])
+	}
+	m2, err := newMerger(streams)
+	if err != nil {
+		return nil, 0, err
+	}
+	for {
+		var n uint64
+		g, n, _, err = m2.next(g)
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return nil, 0, err
+		}
+		if err := s.add(g, n); err != nil {
+			return nil, 0, err
+		}
+	}
+	return s.entries, len(final), s.close()
+}
