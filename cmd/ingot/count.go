@@ -145,4 +145,3 @@ func reportCount(w io.Writer, out string, rep *counts.Report) error {
 		NGramsPerOrder []uint64 `json:"ngrams_per_order"`
 	}{out, fi.Size(), len(per), per})
 }
-
