@@ -96,12 +96,19 @@ func (m *Model) Signed() (keyID [32]byte, ok bool) {
 }
 
 func (m *Model) signature() ([]byte, bool) {
+	b, _, ok := m.signatureSection()
+	return b, ok
+}
+
+// signatureSection returns the signature section's bytes and its offset
+// in the file.
+func (m *Model) signatureSection() ([]byte, int64, bool) {
 	for _, s := range m.sections {
 		if s.Kind == KindSignature {
-			return m.data[s.Offset : s.Offset+s.Length], true
+			return m.data[s.Offset : s.Offset+s.Length], s.Offset, true
 		}
 	}
-	return nil, false
+	return nil, 0, false
 }
 
 // CheckSignature checks that the model is signed by pub and that its
@@ -113,21 +120,21 @@ func (m *Model) CheckSignature(pub ed25519.PublicKey) error {
 	if len(pub) != ed25519.PublicKeySize {
 		return errors.New("not an Ed25519 public key")
 	}
-	b, ok := m.signature()
+	b, at, ok := m.signatureSection()
 	if !ok {
 		return ErrUnsigned
 	}
 	if len(b) != signatureSize || u32(b) != signatureScheme {
-		return m.withPath(formatErr("signature", 0, "signature section of %d bytes, scheme %d: expected %d bytes, scheme %d", len(b), schemeOf(b), signatureSize, signatureScheme))
+		return m.withPath(formatErr("signature", at, "signature section of %d bytes, scheme %d: expected %d bytes, scheme %d", len(b), schemeOf(b), signatureSize, signatureScheme))
 	}
 	if id := KeyID(pub); !bytes.Equal(b[8:40], id[:]) {
-		return fmt.Errorf("signed by another key (key id %x…, this key is %x…)", b[8:16], id[:8])
+		return m.withPath(formatErr("signature", at+8, "signed by another key (key id %x…, this key is %x…)", b[8:16], id[:8]))
 	}
 	if err := m.VerifyChecksums(); err != nil {
 		return err
 	}
 	if !ed25519.Verify(pub, SignedMessage(m.digest), b[40:]) {
-		return errors.New("signature does not match the content digest: the model was changed after signing, or the signature is damaged")
+		return m.withPath(formatErr("signature", at+40, "signature does not match the content digest: the model was changed after signing, or the signature is damaged"))
 	}
 	return nil
 }

@@ -201,7 +201,15 @@ func signatureCheck(model string, pub ed25519.PublicKey) verify.Check {
 		if errors.Is(err, format.ErrUnsigned) {
 			return fail("the model is not signed")
 		}
-		return fail(err.Error())
+		c = fail(err.Error())
+		// A defect of the file is reported where it lies: the signature
+		// section's key id or signature bytes, or a damaged section.
+		var fe *format.FormatError
+		if errors.As(err, &fe) {
+			c.Detail = fe.Msg
+			c.Problems = []verify.Problem{{Section: fe.Section, Offset: fe.Offset, Msg: fe.Msg}}
+		}
+		return c
 	}
 	id, _ := m.Signed()
 	c.Detail = fmt.Sprintf("signed by key id %x, content digest matches", id[:8])
