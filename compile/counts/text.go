@@ -29,14 +29,7 @@ func NewCounter(order int) (*Counter, error) {
 // UTF-8 or a marker inside the text is an error naming the file and line;
 // with a word list (UseVocabulary), <unk> is an ordinary word outside it.
 func (c *Counter) AddText(name string, r io.Reader) error {
-	return text.Sentences(name, r, c.vocab != nil, func(toks []string, line int) error {
-		if c.vocab != nil {
-			for _, t := range toks {
-				if t == tables.SentenceStart || t == tables.SentenceEnd {
-					return &text.Error{File: name, Line: line, Msg: fmt.Sprintf("marker %s inside raw text", t)}
-				}
-			}
-		}
+	return Sentences(name, r, c.vocab, func(toks []string) error {
 		c.AddSentence(toks)
 		return nil
 	})
@@ -54,11 +47,7 @@ func (c *Counter) AddSentence(toks []string) {
 	}
 	s = append(s, b.ids[tables.SentenceEnd])
 	c.sent = s
-	for i := 1; i < len(s); i++ {
-		for k := 1; k <= b.order && k <= i+1; k++ {
-			b.add(s[i+1-k:i+1], 1, -1, 0)
-		}
-	}
+	eachSpan(len(s), b.order, func(lo, hi int) { b.add(s[lo:hi], 1, -1, 0) })
 }
 
 // Counts returns the counts gathered so far. With minWordCount > 1, every
