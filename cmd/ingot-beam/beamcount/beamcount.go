@@ -189,6 +189,16 @@ func (fn *rareFn) ProcessElement(w string, n int64, emit func(string)) {
 	}
 }
 
+// What the pipeline measures of itself (Beam metrics, reported by every
+// runner): the words read, and the records and bytes that the n-gram counts
+// hand to the shuffle, as Beam's coders encode them (a length-prefixed
+// string and a varint).
+var (
+	wordsRead       = beam.NewCounter("ingot", "words_read")
+	shuffledRecords = beam.NewCounter("ingot", "shuffled_records")
+	shuffledBytes   = beam.NewCounter("ingot", "shuffled_bytes")
+)
+
 // gramFn emits the n-grams of orders 1..Order of a file with their counts
 // in the file, rare words (the side input) replaced by <unk>.
 type gramFn struct {
@@ -214,7 +224,13 @@ func (fn *gramFn) ProcessElement(ctx context.Context, f fileio.ReadableFile, rar
 	}
 	m := sums{}
 	var b strings.Builder
+	out := func(gram string, n int64) {
+		shuffledRecords.Inc(ctx, 1)
+		shuffledBytes.Inc(ctx, int64(uvarintLen(uint64(len(gram)))+len(gram)+uvarintLen(uint64(n))))
+		emit(gram, n)
+	}
 	err := readSentences(ctx, f, fn.list, func(toks []string) {
+		wordsRead.Inc(ctx, int64(len(toks)))
 		for i, t := range toks {
 			if rare[t] {
 				toks[i] = tables.Unknown
@@ -231,11 +247,19 @@ func (fn *gramFn) ProcessElement(ctx context.Context, f fileio.ReadableFile, rar
 			m[b.String()]++
 		})
 		if len(m) >= flushAt {
-			m.flush(emit)
+			m.flush(out)
 		}
 	})
-	m.flush(emit)
+	m.flush(out)
 	return err
+}
+
+func uvarintLen(x uint64) int {
+	n := 1
+	for ; x >= 0x80; x >>= 7 {
+		n++
+	}
+	return n
 }
 
 // shardFn keys an n-gram by its shard: a hash of its context (all words but

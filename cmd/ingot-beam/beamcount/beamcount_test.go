@@ -25,7 +25,7 @@ func TestMain(m *testing.M) { ptest.Main(m) }
 
 // sotu returns the first n sentences of the bundled State of the Union
 // corpus (testdata/sotu at the root of the main module).
-func sotu(t *testing.T, n int) []string {
+func sotu(t testing.TB, n int) []string {
 	t.Helper()
 	f, err := os.Open(filepath.Join("..", "..", "..", "testdata", "sotu", "sotu.txt.zst"))
 	if err != nil {
@@ -50,7 +50,7 @@ func sotu(t *testing.T, n int) []string {
 
 // writeParts splits the sentences into three files of the kinds a user
 // feeds the pipeline: plain text, gzip and zstd.
-func writeParts(t *testing.T, dir string, lines []string) []string {
+func writeParts(t testing.TB, dir string, lines []string) []string {
 	t.Helper()
 	third := len(lines) / 3
 	parts := [][]string{lines[:third], lines[third : 2*third], lines[2*third:]}
@@ -81,7 +81,7 @@ func writeParts(t *testing.T, dir string, lines []string) []string {
 }
 
 // oneMachine counts the files as 'ingot count' does.
-func oneMachine(t *testing.T, order int, minWordCount uint64, l *vocab.List, paths []string) *counts.Counts {
+func oneMachine(t testing.TB, order int, minWordCount uint64, l *vocab.List, paths []string) *counts.Counts {
 	t.Helper()
 	c, err := counts.NewCounter(order)
 	if err != nil {
@@ -104,7 +104,7 @@ func oneMachine(t *testing.T, order int, minWordCount uint64, l *vocab.List, pat
 }
 
 // runPipeline runs the pipeline and loads the shards it wrote.
-func runPipeline(t *testing.T, o Options) *counts.Counts {
+func runPipeline(t testing.TB, o Options) *counts.Counts {
 	t.Helper()
 	if err := o.Check(); err != nil {
 		t.Fatal(err)
@@ -138,7 +138,7 @@ func runPipeline(t *testing.T, o Options) *counts.Counts {
 }
 
 // model compiles counts into model bytes the way 'ingot compile' does.
-func model(t *testing.T, c *counts.Counts, order int, method estimate.Method) []byte {
+func model(t testing.TB, c *counts.Counts, order int, method estimate.Method) []byte {
 	t.Helper()
 	tab, _, err := estimate.Estimate(c, estimate.Options{Method: method, Order: order})
 	if err != nil {
@@ -151,7 +151,7 @@ func model(t *testing.T, c *counts.Counts, order int, method estimate.Method) []
 	return b
 }
 
-func sameModels(t *testing.T, got, want *counts.Counts, order int) {
+func sameModels(t testing.TB, got, want *counts.Counts, order int) {
 	t.Helper()
 	if d := cmp.Diff(want, got); d != "" {
 		t.Fatalf("pipeline counts differ from one machine's (-one machine +pipeline):\n%.3000s", d)
