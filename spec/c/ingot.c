@@ -453,9 +453,18 @@ static unsigned ctz64(uint64_t x)
  * than r ones. */
 static unsigned select64(uint64_t x, unsigned r)
 {
+	unsigned pos = 0, c = popcount64(x & 0xFFFFFFFFu);
+	if (r >= c)
+		r -= c, x >>= 32, pos += 32;
+	c = popcount64(x & 0xFFFF);
+	if (r >= c)
+		r -= c, x >>= 16, pos += 16;
+	c = popcount64(x & 0xFF);
+	if (r >= c)
+		r -= c, x >>= 8, pos += 8;
 	while (r-- > 0)
 		x &= x - 1;
-	return ctz64(x);
+	return pos + ctz64(x);
 }
 
 #define NO_POSITION ((uint64_t)-1)
@@ -533,14 +542,15 @@ static int ef_get(const ingot_sequence_ *q, uint64_t i, uint64_t *x)
 	return ef_value(q, i, ef_position(q, i), x);
 }
 
-/* ef_find returns the e in [s, t) with x_e = target, or INGOT_NONE. The
+/* ef_find returns the e in [s, t) with x_e = target, or INGOT_NONE; ps is
+ * the position of the one of index s (p_s). The
  * values ascend strictly over the range in an intact file; a damaged one
  * gives a wrong answer, never a read outside the sequence. */
-static uint32_t ef_find(const ingot_sequence_ *q, uint64_t s, uint64_t t, uint64_t target)
+static uint32_t ef_find(const ingot_sequence_ *q, uint64_t s, uint64_t t, uint64_t target, uint64_t ps)
 {
 	uint64_t x;
 	if (t - s <= 16) {
-		uint64_t p = ef_position(q, s), e;
+		uint64_t p = ps, e;
 		for (e = s; e < t; e++) {
 			if (e > s)
 				p = ef_next_position(q, p);
@@ -1270,8 +1280,13 @@ static double next_version3(const ingot_model *m, ingot_state *s, uint32_t w)
 		rank[j] = NO_POSITION;
 		if (e >= lv->count || !context_rank(lv, e, &rank[j]))
 			continue; /* not stored, or stored without children */
-		if (!ef_get(&lv->context_starts, rank[j], &a) || !ef_get(&lv->context_starts, rank[j] + 1, &b))
-			continue;
+		{
+			/* Two neighbouring values: one select, then the next one. */
+			uint64_t p = ef_position(&lv->context_starts, rank[j]);
+			if (!ef_value(&lv->context_starts, rank[j], p, &a) ||
+			    !ef_value(&lv->context_starts, rank[j] + 1, ef_next_position(&lv->context_starts, p), &b))
+				continue;
+		}
 		if (b > next->count)
 			b = next->count;
 		if (a >= b)
@@ -1283,10 +1298,16 @@ static double next_version3(const ingot_model *m, ingot_state *s, uint32_t w)
 		} else
 			key = w;
 		{
-			uint64_t base = 0;
-			if (a > 0 && !ef_get(&next->keys, a - 1, &base))
-				continue;
-			found[j] = ef_find(&next->keys, a, b, base + key);
+			/* The keys under h_j are offsets from x_{a-1}. */
+			uint64_t base = 0, pa;
+			if (a > 0) {
+				uint64_t p = ef_position(&next->keys, a - 1);
+				if (!ef_value(&next->keys, a - 1, p, &base))
+					continue;
+				pa = ef_next_position(&next->keys, p);
+			} else
+				pa = ef_position(&next->keys, 0);
+			found[j] = ef_find(&next->keys, a, b, base + key, pa);
 		}
 		first[j] = a;
 	}
