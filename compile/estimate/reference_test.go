@@ -24,20 +24,20 @@ import (
 )
 
 type refModel struct {
-	N      int
-	method string
-	D      float64 // absolute: fixed discount; 0 with auto
-	auto   bool
-	K      int            // katz threshold
-	count  map[string]int // "w1 w2 ... wk" -> c
-	vocab  []string       // V: every predictable word
-	byOrd  [][]string     // keys of each order k (index k-1)
-	adj    map[string]int // kneser-ney adjusted counts
+	N                 int
+	method            string
+	D                 float64 // absolute: fixed discount; 0 with auto
+	auto              bool
+	K                 int            // katz threshold
+	count             map[string]int // "w1 w2 ... wk" -> c
+	vocab             []string       // V: every predictable word
+	byOrd             [][]string     // keys of each order k (index k-1)
+	adj               map[string]int // kneser-ney adjusted counts
 	probMemo, bowMemo map[string]float64
 	succMemo          map[string][]string
 	ctxMemo           map[string]*refCtx
-	orderD [][]float64 // per order: discount parameters, see discounts
-	katzOK []bool      // per order: Good-Turing discounts usable
+	orderD            [][]float64 // per order: discount parameters, see discounts
+	katzOK            []bool      // per order: Good-Turing discounts usable
 }
 
 const (
