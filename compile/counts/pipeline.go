@@ -309,16 +309,10 @@ func (w *worker) id(t string) uint32 {
 }
 
 func (w *worker) count(c chunk) error {
-	err := text.Sentences(c.name, bytes.NewReader(c.data), w.list != nil, func(toks []string, line int) error {
+	err := Sentences(c.name, bytes.NewReader(c.data), w.list, func(toks []string) error {
 		s := append(w.sent[:0], 0)
 		s[0] = w.ids[tables.SentenceStart]
 		for _, t := range toks {
-			if w.list != nil {
-				if t == tables.SentenceStart || t == tables.SentenceEnd {
-					return &text.Error{File: c.name, Line: line, Msg: fmt.Sprintf("marker %s inside raw text", t)}
-				}
-				t = w.list.Map(t)
-			}
 			s = append(s, w.id(t))
 		}
 		s = append(s, w.ids[tables.SentenceEnd])
