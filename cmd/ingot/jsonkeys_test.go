@@ -95,7 +95,7 @@ func TestEveryJSONKeyIsDocumented(t *testing.T) {
 		{"keygen", []string{"keygen", "--json", "-o", p("other")}},
 		{"verify", []string{"verify", "--json", "--public-key", p("other.pub"), p("q.ingot")}}, // fails: signed by another key
 		{"interpolate", []string{"interpolate", "--json", "--fit", held, "--heldout", held, "-o", p("i.ingot"), p("m.ingot"), p("k.ingot")}},
-		{"tradeoff", []string{"tradeoff", "--json", "--heldout", held, "--drop-below", "0,1e-6", "--bits", "0,8", "-o", p("chart"), p("m.ingot")}},
+		{"tradeoff", []string{"tradeoff", "--json", "--heldout", held, "--drop-below", "0,1e-6", "--bits", "0,8", "--budget", "12KB", "-o", p("chart"), p("m.ingot"), p("k.ingot")}},
 	}
 	seen := map[string]map[string]bool{}
 	if os.Getenv("LIST_KEYS") != "" {

@@ -24,19 +24,22 @@ func newTradeoffCmd() *cobra.Command {
 		trainer    string
 		out        string
 		asJSON     bool
+		budgetFlag string
 	)
 	cmd := &cobra.Command{
-		Use:   "tradeoff --heldout TEXT [--drop-below NATS,...] [--bits B,...] -o DIR IN",
+		Use:   "tradeoff --heldout TEXT [--drop-below NATS,...] [--bits B,...] [--budget SIZE] -o DIR MODEL...",
 		Short: "Chart file size against held-out perplexity for pruning and quantization settings",
 		Long: `Build, in memory, the model for every pair of a relative-entropy pruning
 threshold and a quantization bit width, and measure its file size and its
 perplexity on held-out text. Writes DIR/tradeoff.csv, DIR/tradeoff.json and
 DIR/tradeoff.svg (size against perplexity, one line per bit width), so you can
 see the curve and pick a point for your device. A threshold of 0 means no
-pruning; a bit width of 0 means 32-bit floats.`,
+pruning; a bit width of 0 means 32-bit floats. Several models share one
+chart, each in its own colour; --budget draws the device's size limit.`,
 		Example: `  ingot tradeoff --heldout dev.txt -o chart field.ingot
+  ingot tradeoff --heldout dev.txt --budget 16KB -o chart kneser-ney.ingot katz.ingot
   ingot tradeoff --heldout dev.txt --drop-below 0,1e-8,1e-7,1e-6 --bits 0,8,4 -o chart field.ingot`,
-		Args: cobra.ExactArgs(1),
+		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			ths, err := parseFloats(thresholds)
 			if err != nil {
@@ -59,29 +62,46 @@ pruning; a bit width of 0 means 32-bit floats.`,
 			if err != nil {
 				return err
 			}
-			t, err := readUnquantized("tradeoff", args[0])
-			if err != nil {
-				return err
+			var budget int64
+			if budgetFlag != "" {
+				if budget, err = parseSize(budgetFlag); err != nil {
+					return fmt.Errorf("tradeoff: --budget: %w", err)
+				}
 			}
 			stderr := cmd.ErrOrStderr()
-			points, err := tradeoff.Run(t, held, tradeoff.Options{Thresholds: ths, Bits: bs, Trainer: tr,
-				Progress: func(done, total int, p tradeoff.Point) {
-					fmt.Fprintf(stderr, "\r[%d/%d] threshold %g, %d bits: %s, perplexity %.2f   ", done, total, p.Threshold, p.Bits, humanSize(p.FileBytes), p.Perplexity)
-					if done == total {
-						fmt.Fprintln(stderr)
-					}
-				}})
-			if err != nil {
-				return fmt.Errorf("tradeoff: %w", err)
+			var points []tradeoff.Point
+			for _, model := range args {
+				t, err := readUnquantized("tradeoff", model)
+				if err != nil {
+					return err
+				}
+				ps, err := tradeoff.Run(t, held, tradeoff.Options{Thresholds: ths, Bits: bs, Trainer: tr,
+					Progress: func(done, total int, p tradeoff.Point) {
+						fmt.Fprintf(stderr, "\r%s [%d/%d] threshold %g, %d bits: %s, perplexity %.2f   ", filepath.Base(model), done, total, p.Threshold, p.Bits, humanSize(p.FileBytes), p.Perplexity)
+						if done == total {
+							fmt.Fprintln(stderr)
+						}
+					}})
+				if err != nil {
+					return fmt.Errorf("tradeoff: %s: %w", model, err)
+				}
+				for i := range ps {
+					ps[i].Model = model
+				}
+				points = append(points, ps...)
 			}
 			if err := os.MkdirAll(out, 0o755); err != nil {
 				return fmt.Errorf("tradeoff: %w", err)
 			}
-			title := fmt.Sprintf("%s: size against perplexity", filepath.Base(args[0]))
+			names := make([]string, len(args))
+			for i, a := range args {
+				names[i] = filepath.Base(a)
+			}
+			title := fmt.Sprintf("%s: size against perplexity", strings.Join(names, ", "))
 			for name, write := range map[string]func(io.Writer) error{
 				"tradeoff.csv":  func(w io.Writer) error { return tradeoff.WriteCSV(w, points) },
 				"tradeoff.json": func(w io.Writer) error { return tradeoff.WriteJSON(w, points) },
-				"tradeoff.svg":  func(w io.Writer) error { return tradeoff.WriteSVG(w, title, points) },
+				"tradeoff.svg":  func(w io.Writer) error { return tradeoff.WriteSVG(w, title, points, budget) },
 			} {
 				if err := writeOutput(cmd.Context(), filepath.Join(out, name), nil, write); err != nil {
 					return err
@@ -90,14 +110,14 @@ pruning; a bit width of 0 means 32-bit floats.`,
 			w := cmd.OutOrStdout()
 			if asJSON {
 				return writeJSON(w, struct {
-					Model  string           `json:"model"`
+					Models []string         `json:"models"`
 					Output string           `json:"output"`
 					Points []tradeoff.Point `json:"points"`
-				}{args[0], out, points})
+				}{args, out, points})
 			}
-			fmt.Fprintf(w, "%-10s %5s %12s %11s\n", "threshold", "bits", "file", "perplexity")
+			fmt.Fprintf(w, "%-20s %-10s %5s %12s %11s\n", "model", "threshold", "bits", "file", "perplexity")
 			for _, p := range points {
-				fmt.Fprintf(w, "%-10g %5d %12s %11.3f\n", p.Threshold, p.Bits, humanSize(p.FileBytes), p.Perplexity)
+				fmt.Fprintf(w, "%-20s %-10g %5d %12s %11.3f\n", filepath.Base(p.Model), p.Threshold, p.Bits, humanSize(p.FileBytes), p.Perplexity)
 			}
 			fmt.Fprintf(w, "wrote %s/tradeoff.csv, tradeoff.json, tradeoff.svg\n", out)
 			return nil
@@ -110,6 +130,7 @@ pruning; a bit width of 0 means 32-bit floats.`,
 	f.StringVar(&trainer, "trainer", string(quantize.LeastSquares), "codebook trainer: least-squares or equal-mass")
 	f.StringVarP(&out, "output", "o", "", "directory for tradeoff.csv, tradeoff.json and tradeoff.svg (required)")
 	f.BoolVar(&asJSON, "json", false, "print the grid's points as JSON")
+	f.StringVar(&budgetFlag, "budget", "", "draw a file-size budget line in the chart (e.g. 8MiB)")
 	cmd.MarkFlagRequired("heldout")
 	cmd.MarkFlagRequired("output")
 	return cmd

@@ -21,6 +21,9 @@ import (
 
 // Point is one model of the grid.
 type Point struct {
+	// Model names the model the grid was built from (set by the caller;
+	// a chart of several models draws each its own lines).
+	Model      string  `json:"model"`
 	Threshold  float64 `json:"threshold"`
 	Bits       int     `json:"bits"` // 0: not quantized (32-bit floats)
 	NGrams     []int   `json:"ngrams_per_order"`
@@ -81,14 +84,14 @@ func Run(t *tables.Tables, heldout [][]string, opt Options) ([]Point, error) {
 // WriteCSV writes the points as CSV with a header row.
 func WriteCSV(w io.Writer, points []Point) error {
 	cw := csv.NewWriter(w)
-	cw.Write([]string{"threshold", "bits", "ngrams", "file_bytes", "perplexity"})
+	cw.Write([]string{"model", "threshold", "bits", "ngrams", "file_bytes", "perplexity"})
 	for _, p := range points {
 		ng := make([]string, len(p.NGrams))
 		for i, n := range p.NGrams {
 			ng[i] = strconv.Itoa(n)
 		}
 		cw.Write([]string{
-			strconv.FormatFloat(p.Threshold, 'g', -1, 64), strconv.Itoa(p.Bits), strings.Join(ng, "/"),
+			p.Model, strconv.FormatFloat(p.Threshold, 'g', -1, 64), strconv.Itoa(p.Bits), strings.Join(ng, "/"),
 			strconv.FormatInt(p.FileBytes, 10), strconv.FormatFloat(p.Perplexity, 'f', 4, 64),
 		})
 	}

@@ -51,7 +51,7 @@ func TestGridIsMonotoneInSize(t *testing.T) {
 	if err := WriteCSV(&csvOut, points); err != nil || strings.Count(csvOut.String(), "\n") != 7 {
 		t.Errorf("csv: %v\n%s", err, csvOut.String())
 	}
-	if err := WriteSVG(&svgOut, "test", points); err != nil || !strings.Contains(svgOut.String(), "<svg") {
+	if err := WriteSVG(&svgOut, "test", points, 0); err != nil || !strings.Contains(svgOut.String(), "<svg") {
 		t.Errorf("svg: %v", err)
 	}
 }
