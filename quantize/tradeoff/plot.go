@@ -6,8 +6,8 @@ import (
 	"io"
 	"path/filepath"
 	"slices"
-	"strings"
 	"sort"
+	"strings"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
