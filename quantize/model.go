@@ -483,14 +483,6 @@ func (c *compensator) move(out []float32, sum, target float64) float64 {
 	return math.Abs(sum - target)
 }
 
-// compensate moves values (log10 probabilities, each a level of cb) by one
-// level at a time, largest first, while that brings the sum of their
-// probabilities closer to target; it returns the remaining |sum - target|.
-func compensate(values []float32, cb Codebook, target float64) float64 {
-	c := newCompensator(cb)
-	return c.move(values, c.start(values), target)
-}
-
 // Placeholder returns tables shaped like the output of Model(t, opt) but
 // holding no real values, for measuring file sizes cheaply: codebooks of the
 // largest size the options allow and build information at least as long as
