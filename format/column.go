@@ -65,6 +65,21 @@ func (m *Model) Index(k, i int, backoff bool) (index int, ok bool) {
 	c := &m.levels[k-1].probs
 	if backoff {
 		c = &m.levels[k-1].backoffs
+		if m.version >= 3 && k < m.order {
+			marked, r := m.levels[k-1].marks.rank(uint64(i))
+			if c.packed == nil {
+				return 0, false
+			}
+			if !marked { // weight 1: the codebook's level +0.0, if it has one
+				for j := 0; 4*j+4 <= len(c.codebook); j++ {
+					if u32(c.codebook[4*j:]) == 0 {
+						return j, true
+					}
+				}
+				return 0, false
+			}
+			return c.index(int(r)), true
+		}
 	}
 	if c.packed == nil {
 		return 0, false

@@ -42,7 +42,7 @@ func TestQuantizedColumnsRoundTrip(t *testing.T) {
 	for _, step := range []float64{0.5, 0.05, 0.001, 1e-5} {
 		tb := randomTables(7, 300, []int{2000, 3000, 1000})
 		quantizeByRounding(tb, step, 2)
-		data := mustMarshal(t, tb)
+		data := mustMarshalTables(t, tb)
 		if v := binary.LittleEndian.Uint32(data[offVersion:]); v != 2 {
 			t.Fatalf("quantized model written as version %d", v)
 		}
@@ -73,7 +73,7 @@ func TestQuantizedColumnsRoundTrip(t *testing.T) {
 }
 
 func TestUnquantizedModelsStayVersionOne(t *testing.T) {
-	data := mustMarshal(t, randomTables(3, 50, []int{100}))
+	data := mustMarshalTables(t, randomTables(3, 50, []int{100}))
 	if v := binary.LittleEndian.Uint32(data[offVersion:]); v != 1 {
 		t.Errorf("plain model written as version %d", v)
 	}
@@ -106,7 +106,7 @@ func TestPackedIndexesAtEveryWidth(t *testing.T) {
 func TestPackedRefusedInVersionOne(t *testing.T) {
 	tb := randomTables(5, 40, []int{60})
 	quantizeByRounding(tb, 0.1, 2)
-	data := mustMarshal(t, tb)
+	data := mustMarshalTables(t, tb)
 	binary.LittleEndian.PutUint32(data[offVersion:], 1)
 	reseal(data)
 	_, err := FromBytes(data)

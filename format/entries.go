@@ -17,7 +17,7 @@ func (m *Model) WordAt(k, i int) uint32 {
 	if k == 1 {
 		return uint32(i)
 	}
-	if b := m.levels[k-1].lastWords; 4*i+4 <= len(b) {
+	if _, b, _ := m.trie(k); 4*i+4 <= len(b) {
 		return u32(b[4*i:])
 	}
 	return noNode
@@ -41,7 +41,18 @@ func (m *Model) LogBackoffAt(k, i int) float32 {
 	if k < 1 || k > m.order {
 		return float32(math.NaN())
 	}
-	return m.levels[k-1].backoffs.at(i)
+	lv := &m.levels[k-1]
+	if m.version >= 3 && k < m.order {
+		marked, r := lv.marks.rank(uint64(i))
+		switch {
+		case i < 0 || i >= m.Count(k):
+			return float32(math.NaN())
+		case !marked:
+			return 0
+		}
+		return lv.backoffs.at(int(r))
+	}
+	return lv.backoffs.at(i)
 }
 
 func floatAt(b []byte, i int) float32 {
@@ -57,6 +68,10 @@ func floatAt(b []byte, i int) float32 {
 func (m *Model) ChildRange(k, i int) (start, end int) {
 	if k < 1 || k >= m.order || i < 0 || i >= m.Count(k) {
 		return 0, 0
+	}
+	if m.version >= 3 {
+		a, b := m.childRange3(k, uint32(i))
+		return int(a), int(b)
 	}
 	b := m.levels[k-1].starts
 	if 4*i+8 > len(b) {
@@ -76,6 +91,19 @@ func (m *Model) Find(gram []uint32) (int, bool) {
 	k := len(gram)
 	if k == 0 || k > m.order || uint64(gram[0]) >= uint64(m.vocabSize) {
 		return -1, false
+	}
+	if m.version >= 3 {
+		// Keys may be ranks that depend on the suffixes: walk the words as
+		// running text, which finds every stored suffix on the way.
+		var s State
+		for _, w := range gram[:k-1] {
+			m.Next(&s, w)
+		}
+		var child [tables.MaxOrder]uint32
+		if n := m.extensions(&s, gram[k-1], &child); n < k-1 || child[k-1] == noNode {
+			return -1, false
+		}
+		return int(child[k-1]), true
 	}
 	node := gram[0]
 	for j := 1; j < k; j++ {
@@ -198,4 +226,25 @@ func ToTables(m *Model) (*tables.Tables, error) {
 		return nil, fmt.Errorf("%s: read back: %w", m.label(), err)
 	}
 	return t, nil
+}
+
+// TrieColumns returns the child starts of order k (n_k+1 values, for k < N)
+// and the last words of order k (n_k word ids, for k >= 2), each as
+// little-endian uint32 values: the file's own bytes in versions 1 and 2,
+// decoded once (and checked: every Elias-Fano sequence well formed, keys
+// ascending under each parent, word ids and ranks in range) in version 3.
+// The slices are shared; treat them as read-only. The error is a
+// *FormatError naming the first damage found.
+func (m *Model) TrieColumns(k int) (childStarts, lastWords []byte, err error) {
+	s, w, err := m.trie(k)
+	if err != nil {
+		return nil, nil, m.withPath(err)
+	}
+	if k >= m.order {
+		s = nil
+	}
+	if k < 2 {
+		w = nil
+	}
+	return s, w, nil
 }

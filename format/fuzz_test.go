@@ -280,7 +280,7 @@ func hugeCountCases() []hugeCountCase {
 func TestHugeCountsAreBounded(t *testing.T) {
 	for _, c := range hugeCountCases() {
 		t.Run(c.name, func(t *testing.T) {
-			data := c.damage(t, mustMarshal(t, tinyModel(t)))
+			data := c.damage(t, mustMarshalTables(t, tinyModel(t)))
 			m, err := openBounded(t, data)
 			if c.refused != "" {
 				var fe *FormatError

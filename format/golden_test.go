@@ -125,7 +125,7 @@ func readQueries(t *testing.T, path string) []goldenQuery {
 // expected answer. Run with -update to rewrite both files.
 func TestGolden(t *testing.T) {
 	tb := tinyModel(t)
-	data := mustMarshal(t, tb)
+	data := mustMarshalTables(t, tb)
 	queries := marshalQueries(t, goldenQueries(tb))
 	if *update {
 		if err := os.WriteFile(goldenModel, data, 0o644); err != nil {

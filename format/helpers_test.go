@@ -222,3 +222,14 @@ func mustOpen(t testing.TB, data []byte) *Model {
 func same(a, b float64) bool {
 	return a == b || (math.IsNaN(a) && math.IsNaN(b))
 }
+
+// mustMarshalTables encodes tb in the tables layout of versions 1 and 2
+// (version 1 unless a column is quantized), for tests of that layout.
+func mustMarshalTables(t testing.TB, tb *tables.Tables) []byte {
+	t.Helper()
+	b, err := MarshalVersion(tb, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
+}

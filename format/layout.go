@@ -6,10 +6,12 @@ import (
 	"hash/crc32"
 )
 
-// Version is the newest format version this package writes and reads.
-// Version 2 adds quantized columns (codebooks and packed indexes); a model
-// without them is written as version 1, so older readers still read it.
-const Version = 2
+// Version is the newest format version this package writes and reads, and
+// the one Write writes. Version 2 added quantized columns (codebooks and
+// packed indexes); version 3 stores the trie succinctly (Elias-Fano child
+// starts and last-word keys, back-off weights only where marked, a word
+// hash). WriteVersion still writes versions 1 and 2.
+const Version = 3
 
 // oldestVersion is the oldest format version this package reads.
 const oldestVersion = 1
@@ -81,6 +83,13 @@ const (
 	KindProbCodebook SectionKind = 10
 	// KindBackoffCodebook is the same for the back-off weights.
 	KindBackoffCodebook SectionKind = 11
+	// KindContexts (version 3, per order below the top) marks the
+	// entries that are contexts (have children, or a back-off weight other
+	// than +0.0), with a rank directory: only they have child starts and
+	// back-off weights stored.
+	KindContexts SectionKind = 12
+	// KindWordHash (version 3) is a hash table from words to ids.
+	KindWordHash SectionKind = 13
 )
 
 // String returns the kind's name as used in error messages and the
@@ -109,6 +118,10 @@ func (k SectionKind) String() string {
 		return "probability codebook"
 	case KindBackoffCodebook:
 		return "back-off codebook"
+	case KindContexts:
+		return "contexts"
+	case KindWordHash:
+		return "word hash"
 	}
 	return fmt.Sprintf("kind %d", uint32(k))
 }
@@ -116,7 +129,7 @@ func (k SectionKind) String() string {
 // perOrder reports whether sections of kind k belong to one order.
 func (k SectionKind) perOrder() bool {
 	return k == KindLastWords || k == KindProbabilities || k == KindBackoffs || k == KindChildStarts ||
-		k == KindProbCodebook || k == KindBackoffCodebook
+		k == KindProbCodebook || k == KindBackoffCodebook || k == KindContexts
 }
 
 // Encoding says how a section's values are laid out.
@@ -131,6 +144,14 @@ const (
 	// a uint32 0, then the indexes packed least significant bit first, entry
 	// i in bits [i*B, (i+1)*B) of the little-endian bit stream.
 	Packed Encoding = 1
+	// EliasFano (version 3, child starts and last words) stores a
+	// non-decreasing sequence in Elias-Fano form; last words are then word
+	// ids under each parent.
+	EliasFano Encoding = 2
+	// EliasFanoRanks (version 3, last words of orders 3 and up) is
+	// EliasFano whose keys are ranks among the successors of the parent's
+	// suffix.
+	EliasFanoRanks Encoding = 3
 )
 
 // String returns the encoding's name.
@@ -140,6 +161,10 @@ func (e Encoding) String() string {
 		return "plain"
 	case Packed:
 		return "packed codebook indexes"
+	case EliasFano:
+		return "Elias-Fano"
+	case EliasFanoRanks:
+		return "Elias-Fano successor ranks"
 	}
 	return fmt.Sprintf("encoding %d", uint32(e))
 }

@@ -46,9 +46,13 @@ func (m *Model) Count(k int) int {
 	return m.counts[k-1]
 }
 
-// ID returns the id of word and whether the vocabulary holds it. The search
-// reads the mapped word list directly.
+// ID returns the id of word and whether the vocabulary holds it: a lookup
+// in the file's word hash (version 3), or a binary search of the mapped
+// word list (versions 1 and 2).
 func (m *Model) ID(word string) (uint32, bool) {
+	if m.wordHash != nil {
+		return m.hashID(word)
+	}
 	lo, hi := 0, m.vocabSize
 	for lo < hi {
 		mid := int(uint(lo+hi) >> 1)
@@ -192,6 +196,9 @@ func (m *Model) NextMatched(s *State, w uint32) (logProb float64, matchedOrder i
 // Every model is prefix-closed: when a suffix is not stored, no extension of
 // it is, so one child search per stored suffix finds them all.
 func (m *Model) extensions(s *State, w uint32, child *[tables.MaxOrder]uint32) int {
+	if m.version >= 3 {
+		return m.extensions3(s, w, child)
+	}
 	n := min(max(s.n, 0), max(m.order-1, 0))
 	child[0] = noNode
 	if uint64(w) < uint64(m.vocabSize) {

@@ -4,6 +4,8 @@ import (
 	"encoding/binary"
 	"fmt"
 	"math"
+	"slices"
+	"strings"
 
 	"ingot/compile/tables"
 )
@@ -30,7 +32,9 @@ type Model struct {
 
 	wordStarts []byte
 	wordText   []byte
+	wordHash   []byte // version 3: the word hash's slots
 	levels     [tables.MaxOrder]level
+	decoded    *decodedTrie // version 3: plain child starts and last words, decoded on first use
 }
 
 // level holds the columns of one order, as slices of the file's bytes.
@@ -39,6 +43,12 @@ type level struct {
 	probs     column // n log10 probabilities
 	backoffs  column // orders below the top: n log10 back-off weights
 	starts    []byte // orders below the top: n+1 uint32
+
+	// Version 3.
+	childStarts eliasFano // orders below the top: n+1 child starts
+	keys        eliasFano // orders >= 2: last-word keys, shifted per sibling list
+	ranked      bool      // keys are successor ranks (EliasFanoRanks)
+	marks       marks     // orders below the top: entries with a back-off weight
 }
 
 // Close releases the file mapping. After Close the Model answers every query
@@ -70,6 +80,14 @@ func FromBytes(data []byte) (*Model, error) {
 	}
 	if err := m.readVocabulary(); err != nil {
 		return nil, err
+	}
+	if m.version >= 3 {
+		err := m.readLevels3()
+		if err != nil {
+			return nil, err
+		}
+		m.decoded = &decodedTrie{}
+		return m, nil
 	}
 	if err := m.readLevels(); err != nil {
 		return nil, err
@@ -162,6 +180,12 @@ func (m *Model) find(kind SectionKind, order int) (Section, bool, error) {
 // need returns the bytes of a required plain section whose length must be
 // wantLen (or any length when wantLen < 0).
 func (m *Model) need(kind SectionKind, order int, wantLen int64) (Section, []byte, error) {
+	return m.needEncoded(kind, order, wantLen, Plain)
+}
+
+// needEncoded is need for a section that must have one of the encodings
+// given.
+func (m *Model) needEncoded(kind SectionKind, order int, wantLen int64, encodings ...Encoding) (Section, []byte, error) {
 	s, ok, err := m.find(kind, order)
 	if err != nil {
 		return s, nil, err
@@ -170,8 +194,8 @@ func (m *Model) need(kind SectionKind, order int, wantLen int64) (Section, []byt
 		name := Section{Kind: kind, Order: order}.Name()
 		return s, nil, formatErr(name, headerSize, "required section is missing from the directory")
 	}
-	if s.Encoding != Plain {
-		return s, nil, formatErr(s.Name(), s.Offset, "section has %s; only %s is allowed here", s.Encoding, Plain)
+	if !slices.Contains(encodings, s.Encoding) {
+		return s, nil, formatErr(s.Name(), s.Offset, "section has %s; only %s is allowed here", s.Encoding, encodingList(encodings))
 	}
 	if wantLen >= 0 && s.Length != wantLen {
 		return s, nil, formatErr(s.Name(), s.Offset, "section is %d bytes, expected %d for the counts in the summary", s.Length, wantLen)
@@ -384,6 +408,19 @@ func (m *Model) expected(s Section) bool {
 		return s.Order >= 1 && s.Order < m.order
 	case KindProbCodebook:
 		return s.Order >= 1 && s.Order <= m.order
+	case KindContexts:
+		return m.version >= 3 && s.Order >= 1 && s.Order < m.order
+	case KindWordHash:
+		return m.version >= 3 && s.Order == 0
 	}
 	return true
+}
+
+// encodingList names encodings for messages: "plain", "plain or Elias-Fano".
+func encodingList(encodings []Encoding) string {
+	names := make([]string, len(encodings))
+	for i, e := range encodings {
+		names[i] = e.String()
+	}
+	return strings.Join(names, " or ")
 }

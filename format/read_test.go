@@ -180,7 +180,7 @@ func entryAt(t *testing.T, b []byte, kind SectionKind, order int) []byte {
 }
 
 func TestOpenRefusesDamage(t *testing.T) {
-	good := mustMarshal(t, tinyModel(t))
+	good := mustMarshalTables(t, tinyModel(t))
 	tests := []struct {
 		name   string
 		damage func(t *testing.T, b []byte) []byte
@@ -192,9 +192,9 @@ func TestOpenRefusesDamage(t *testing.T) {
 			return append(append(append([]byte{}, b[:6]...), '\n'), b[8:]...)
 		}, "bad magic"},
 		{"other version", func(t *testing.T, b []byte) []byte {
-			binary.LittleEndian.PutUint32(b[offVersion:], 3)
+			binary.LittleEndian.PutUint32(b[offVersion:], 4)
 			return b
-		}, "file is format version 3; this reader reads versions 1 to 2"},
+		}, "file is format version 4; this reader reads versions 1 to 3"},
 		{"truncated in the directory", func(t *testing.T, b []byte) []byte { return b[:100] }, "too short for a directory"},
 		{"truncated in the sections", func(t *testing.T, b []byte) []byte { return b[:len(b)-16] }, "truncated"},
 		{"extended", func(t *testing.T, b []byte) []byte { return append(b, make([]byte, 8)...) }, "header records"},
@@ -275,8 +275,8 @@ func TestOpenRefusesDamage(t *testing.T) {
 }
 
 func TestOpenNamesThePath(t *testing.T) {
-	b := mustMarshal(t, tinyModel(t))
-	binary.LittleEndian.PutUint32(b[offVersion:], 3)
+	b := mustMarshalTables(t, tinyModel(t))
+	binary.LittleEndian.PutUint32(b[offVersion:], 4)
 	path := filepath.Join(t.TempDir(), "future.ingot")
 	if err := os.WriteFile(path, b, 0o644); err != nil {
 		t.Fatal(err)
@@ -291,7 +291,7 @@ func TestOpenNamesThePath(t *testing.T) {
 // TestVerifyFindsDamageOpenSkips damages a large column: Open does not read
 // it, Verify names it.
 func TestVerifyFindsDamageOpenSkips(t *testing.T) {
-	good := mustMarshal(t, tinyModel(t))
+	good := mustMarshalTables(t, tinyModel(t))
 	tests := []struct {
 		name   string
 		damage func(t *testing.T, b []byte)
@@ -335,7 +335,7 @@ func TestVerifyFindsDamageOpenSkips(t *testing.T) {
 // TestVerifyStructure damages values that checksums alone would not catch
 // (the checksum is recomputed), so the structural checks must.
 func TestVerifyStructure(t *testing.T) {
-	good := mustMarshal(t, tinyModel(t))
+	good := mustMarshalTables(t, tinyModel(t))
 	patch := func(b []byte, kind SectionKind, order, at int, v uint32) {
 		e := entryAt(t, b, kind, order)
 		off, n := binary.LittleEndian.Uint64(e[16:]), binary.LittleEndian.Uint64(e[24:])

@@ -21,6 +21,14 @@ func (m *Model) Verify() error {
 	if err := m.verifyVocabulary(); err != nil {
 		return m.withPath(err)
 	}
+	if m.version >= 3 {
+		if err := m.checkWordHash(); err != nil {
+			return m.withPath(err)
+		}
+		if err := m.decodeErr(); err != nil {
+			return err
+		}
+	}
 	for k := 1; k <= m.order; k++ {
 		if err := m.verifyOrder(k); err != nil {
 			return m.withPath(err)
@@ -141,15 +149,22 @@ func (m *Model) verifyOrder(k int) error {
 	if k == m.order {
 		return nil
 	}
-	for i := 0; i < n; i++ {
+	for i := 0; i < lv.backoffs.n; i++ {
 		if b := float64(lv.backoffs.at(i)); math.IsNaN(b) || math.IsInf(b, 1) {
 			name, at := m.sectionOffset(KindBackoffs, k, 4*i)
 			return formatErr(name, at, "entry %d has log10 back-off %v", i, b)
 		}
 	}
-	words := m.levels[k].lastWords
+	starts, _, err := m.trie(k)
+	if err != nil {
+		return err
+	}
+	_, words, err := m.trie(k + 1)
+	if err != nil {
+		return err
+	}
 	for i := 0; i < n; i++ {
-		a, b := u32(lv.starts[4*i:]), u32(lv.starts[4*i+4:])
+		a, b := u32(starts[4*i:]), u32(starts[4*i+4:])
 		if a > b {
 			name, at := m.sectionOffset(KindChildStarts, k, 4*i+4)
 			return formatErr(name, at, "child start %d of entry %d is below the previous one, %d", b, i+1, a)
@@ -158,7 +173,7 @@ func (m *Model) verifyOrder(k int) error {
 	// Open checked that the last start is the number of entries of order
 	// k+1, so ascending starts stay inside the last-words column.
 	for i := 0; i < n; i++ {
-		a, b := u32(lv.starts[4*i:]), u32(lv.starts[4*i+4:])
+		a, b := u32(starts[4*i:]), u32(starts[4*i+4:])
 		for c := a; c < b; c++ {
 			id := u32(words[4*c:])
 			if uint64(id) >= uint64(m.vocabSize) {

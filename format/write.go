@@ -24,7 +24,14 @@ type section struct {
 // Tables.Check), that hold NaN or +Inf log10 values, words that are not
 // valid UTF-8, or more entries than 32-bit ids and offsets can address.
 func Write(w io.Writer, t *tables.Tables) error {
-	header, sections, err := encode(t)
+	return WriteVersion(w, t, Version)
+}
+
+// WriteVersion is Write in an older layout: version 1 or 2 (the tables
+// layout; 1 is written when no column is quantized, 2 otherwise, whichever
+// of the two is asked for) or 3. Tools that feed older readers use it.
+func WriteVersion(w io.Writer, t *tables.Tables, version int) error {
+	header, sections, err := encode(t, version)
 	if err != nil {
 		return err
 	}
@@ -57,8 +64,14 @@ func writeFile(w io.Writer, header []byte, sections []section) error {
 
 // Marshal returns the model file for t as bytes; see Write.
 func Marshal(t *tables.Tables) ([]byte, error) {
+	return MarshalVersion(t, Version)
+}
+
+// MarshalVersion returns the model file for t in the given format version;
+// see WriteVersion.
+func MarshalVersion(t *tables.Tables, version int) ([]byte, error) {
 	var b bytes.Buffer
-	if err := Write(&b, t); err != nil {
+	if err := WriteVersion(&b, t, version); err != nil {
 		return nil, err
 	}
 	return b.Bytes(), nil
@@ -66,9 +79,19 @@ func Marshal(t *tables.Tables) ([]byte, error) {
 
 // encode builds the header with its directory, and the sections with their
 // offsets, checksums and digest filled in.
-func encode(t *tables.Tables) ([]byte, []section, error) {
+func encode(t *tables.Tables, v int) ([]byte, []section, error) {
+	if v < oldestVersion || v > Version {
+		return nil, nil, fmt.Errorf("ingot model: cannot write format version %d; this writer writes %d to %d", v, oldestVersion, Version)
+	}
 	if err := checkWritable(t); err != nil {
 		return nil, nil, err
+	}
+	if v == 3 {
+		sections, err := buildSections3(t)
+		if err != nil {
+			return nil, nil, err
+		}
+		return assemble(sections, 3), sections, nil
 	}
 	sections, err := buildSections(t)
 	if err != nil {

@@ -79,12 +79,12 @@ func TestSummarizeGoldenMatchesSpecTable(t *testing.T) {
 
 func TestSummarizeQuantizedAndSigned(t *testing.T) {
 	plain, quantized := demoModels(t)
-	if s := Summarize(plain); s.Quantization != nil || s.FormatVersion != 1 || s.Method != "kneser-ney" || len(s.Discounts) != 3 {
+	if s := Summarize(plain); s.Quantization != nil || s.FormatVersion != 3 || s.Method != "kneser-ney" || len(s.Discounts) != 3 {
 		t.Errorf("plain model: version %d, method %q, %d discount orders, quantization %+v",
 			s.FormatVersion, s.Method, len(s.Discounts), s.Quantization)
 	}
 	s := Summarize(quantized)
-	if s.FormatVersion != 2 || s.Quantization == nil {
+	if s.FormatVersion != 3 || s.Quantization == nil {
 		t.Fatalf("quantized model: version %d, quantization %v", s.FormatVersion, s.Quantization)
 	}
 	q := s.Quantization

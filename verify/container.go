@@ -156,7 +156,7 @@ func (v *verifier) checkDirectory() {
 // knownKind reports whether the kind is one the format defines; readers
 // ignore the others.
 func knownKind(k format.SectionKind) bool {
-	return k >= format.KindSummary && k <= format.KindBackoffCodebook
+	return k >= format.KindSummary && k <= format.KindWordHash
 }
 
 // checkChecksums compares the CRC-32C of every section with its directory

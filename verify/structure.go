@@ -50,7 +50,10 @@ func (v *verifier) span(kind format.SectionKind, order int) span {
 	return span{b: v.data[e.Offset : e.Offset+e.Length], off: e.Offset, name: e.Name()}
 }
 
-func (v *verifier) columns() *columns {
+// columns finds the trie's columns. In version 3 they are decoded by the
+// format reader, which checks the succinct structures as it goes; its
+// first finding is returned as the error.
+func (v *verifier) columns() (*columns, error) {
 	c := &columns{
 		wordStarts: v.span(format.KindWordStarts, 0),
 		wordText:   v.span(format.KindWordText, 0),
@@ -65,8 +68,15 @@ func (v *verifier) columns() *columns {
 			c.words[k-1] = v.span(format.KindLastWords, k)
 		}
 		c.probs[k-1], _ = v.section(format.KindProbabilities, k)
+		if v.m.Version() >= 3 {
+			starts, words, err := v.m.TrieColumns(k)
+			if err != nil {
+				return c, err
+			}
+			c.starts[k-1].b, c.words[k-1].b = starts, words
+		}
 	}
-	return c
+	return c, nil
 }
 
 // valueOffset returns the file offset of the value of entry i in a

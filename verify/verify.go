@@ -197,7 +197,21 @@ func (v *verifier) run() error {
 	for k := 1; k <= v.m.Order(); k++ {
 		v.rep.Counts = append(v.rep.Counts, v.m.Count(k))
 	}
-	cols := v.columns()
+	cols, err := v.columns()
+	if err != nil {
+		c := Check{Name: CheckPrefixClosure, Status: Pass}
+		var fe *format.FormatError
+		if errors.As(err, &fe) {
+			c.problem(fe.Section, fe.Offset, "%s", fe.Msg)
+		} else {
+			c.problem("file", 0, "%v", err)
+		}
+		c.Detail = "the trie's structures are damaged"
+		v.checkVocabulary(cols)
+		v.add(c)
+		v.notRun("needs a sound trie", CheckIDs, CheckOrder, CheckValues, CheckSuffixClosure, CheckNormalisation)
+		return nil
+	}
 	v.checkVocabulary(cols)
 	v.checkPrefixClosure(cols)
 	v.checkIDs(cols)

@@ -45,7 +45,7 @@ var badInputTable = []badInputCase{
 	{"word list with a rare-word cutoff", []string{"count", "--order", "2", "--vocabulary", "$D/twice.txt", "--min-word-count", "2", "-o", "$D/out", "$D/train.txt"}, "--min-word-count and --vocabulary exclude each other"},
 	{"model missing", []string{"score", "$D/absent.ingot"}, "absent.ingot: no such file or directory"},
 	{"not a model", []string{"score", "$D/train.txt"}, "not an ingot model file"},
-	{"model of an unknown version", []string{"score", "$D/future.ingot"}, "file is format version 9; this reader reads versions 1 to 2"},
+	{"model of an unknown version", []string{"score", "$D/future.ingot"}, "file is format version 9; this reader reads versions 1 to 3"},
 	{"truncated model", []string{"explain", "$D/truncated.ingot", "a b"}, "truncated"},
 	{"explain without words", []string{"explain", "$M", " "}, "no words given"},
 	{"prune without a rule", []string{"prune", "-o", "$D/out", "$M"}, "exactly one of --drop-below and --max-size"},

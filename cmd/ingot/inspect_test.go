@@ -41,10 +41,10 @@ func TestInspectSummary(t *testing.T) {
 		model string
 		want  []string
 	}{
-		{plain, []string{"magic ok, format version 1", "kneser-ney", "discounts", "order 3: D1=",
+		{plain, []string{"magic ok, format version 3", "kneser-ney", "discounts", "order 3: D1=",
 			"rules applied", "suffix-closed   yes", "quantization    none", "signature       unsigned",
 			"child starts", "CRC-32C"}},
-		{quantized, []string{"format version 2", "trainer least-squares, 8-bit probabilities", "probability codebook",
+		{quantized, []string{"format version 3", "trainer least-squares, 8-bit probabilities", "probability codebook",
 			"packed codebook indexes", "quantized: probabilities 8 bits"}},
 	} {
 		code, out, e := ingot(t, "inspect", tc.model)

@@ -1,0 +1,407 @@
+package format
+
+import (
+	"encoding/binary"
+	"fmt"
+	"math/bits"
+)
+
+// Elias-Fano coding of a non-decreasing sequence of n integers
+// x_0 <= ... <= x_{n-1} (P. Elias, "Efficient storage and retrieval by
+// content and address of static files", J. ACM 21(2), 1974; R. M. Fano,
+// "On the number of bits required to implement an associative memory",
+// MIT Project MAC memo 61, 1971). Each value is split into L low bits,
+// stored verbatim, and a high part x_i >> L, stored in unary: bit
+// (x_i >> L) + i of the high bit vector is set. The whole sequence takes
+// about n (2 + log2(U/n)) bits for a largest value U, whatever the
+// distribution. Every efSample-th set bit's position is sampled, so value i
+// is found by one sample and a short scan (spec/FORMAT.md §4.9).
+
+// efHeader is the size of an Elias-Fano section's fixed fields.
+const efHeader = 24
+
+// efSample is the distance, in values, between two samples of the high bit
+// vector.
+const efSample = 256
+
+// efMaxLow is the largest low-bit width a file may use: values are below
+// 2^64 and a writer's sequences keep U/n below 2^32.
+const efMaxLow = 32
+
+// efLowBits returns L for n values whose largest is last: the largest L
+// with 2^L <= (last+1)/n, or 0 when that quotient is 0.
+func efLowBits(n, last uint64) uint {
+	if n == 0 {
+		return 0
+	}
+	q := last/n + boolU64((last%n)+1 == n) // (last+1)/n without overflow
+	if q == 0 {
+		return 0
+	}
+	return uint(bits.Len64(q) - 1)
+}
+
+func boolU64(b bool) uint64 {
+	if b {
+		return 1
+	}
+	return 0
+}
+
+// efSizes returns the 64-bit word counts of the low bits, the high bits and
+// the samples of an Elias-Fano section.
+func efSizes(n, last uint64, l uint) (low, high, samples uint64) {
+	low = (n*uint64(l) + 63) / 64
+	high = ((last >> l) + n + 63) / 64
+	samples = (n + efSample - 1) / efSample
+	return
+}
+
+// encodeEliasFano returns the section bytes of the non-decreasing values.
+func encodeEliasFano(x []uint64) []byte {
+	n := uint64(len(x))
+	var last uint64
+	if n > 0 {
+		last = x[n-1]
+	}
+	l := efLowBits(n, last)
+	lowW, highW, sampW := efSizes(n, last, l)
+	out := make([]byte, efHeader+8*(lowW+highW+sampW))
+	le := binary.LittleEndian
+	le.PutUint64(out[0:], n)
+	le.PutUint64(out[8:], last)
+	le.PutUint32(out[16:], uint32(l))
+	low := make([]uint64, lowW)
+	high := make([]uint64, highW)
+	samples := make([]uint64, sampW)
+	mask := uint64(1)<<l - 1
+	for i, v := range x {
+		if l > 0 {
+			bit := uint64(i) * uint64(l)
+			low[bit/64] |= (v & mask) << (bit % 64)
+			if bit%64+uint64(l) > 64 {
+				low[bit/64+1] |= (v & mask) >> (64 - bit%64)
+			}
+		}
+		p := v>>l + uint64(i)
+		high[p/64] |= 1 << (p % 64)
+		if i%efSample == 0 {
+			samples[i/efSample] = p
+		}
+	}
+	at := efHeader
+	for _, ws := range [][]uint64{low, high, samples} {
+		for _, w := range ws {
+			le.PutUint64(out[at:], w)
+			at += 8
+		}
+	}
+	return out
+}
+
+// eliasFano reads an Elias-Fano section in place. Its methods bounds-check
+// every stored value: a damaged section gives wrong values, never a panic.
+type eliasFano struct {
+	n       uint64
+	last    uint64
+	l       uint
+	low     []byte
+	high    []byte
+	samples []byte
+}
+
+// parseEliasFano checks an Elias-Fano section's fixed fields and sizes
+// against the value count the summary implies (want), and returns a reader.
+// It reads nothing proportional to n.
+func parseEliasFano(b []byte, want uint64) (eliasFano, error) {
+	if len(b) < efHeader {
+		return eliasFano{}, fmt.Errorf("section is %d bytes, shorter than its %d-byte header", len(b), efHeader)
+	}
+	le := binary.LittleEndian
+	n, last, l := le.Uint64(b), le.Uint64(b[8:]), le.Uint32(b[16:])
+	if n != want {
+		return eliasFano{}, fmt.Errorf("holds %d values, expected %d for the counts in the summary", n, want)
+	}
+	if r := le.Uint32(b[20:]); r != 0 {
+		return eliasFano{}, fmt.Errorf("reserved field is %08x, expected 0", r)
+	}
+	if n > 0 && last/n >= 1<<efMaxLow {
+		return eliasFano{}, fmt.Errorf("largest value %d is too large for %d values", last, n)
+	}
+	if wantL := efLowBits(n, last); uint(l) != wantL {
+		return eliasFano{}, fmt.Errorf("low bits are %d wide; %d values up to %d need %d", l, n, last, wantL)
+	}
+	lowW, highW, sampW := efSizes(n, last, uint(l))
+	if size := efHeader + 8*(lowW+highW+sampW); uint64(len(b)) != size {
+		return eliasFano{}, fmt.Errorf("section is %d bytes, expected %d for %d values up to %d", len(b), size, n, last)
+	}
+	at := uint64(efHeader)
+	e := eliasFano{n: n, last: last, l: uint(l)}
+	e.low = b[at : at+8*lowW]
+	at += 8 * lowW
+	e.high = b[at : at+8*highW]
+	at += 8 * highW
+	e.samples = b[at : at+8*sampW]
+	return e, nil
+}
+
+// highWord returns 64-bit word w of the high bit vector, 0 past its end.
+func (e *eliasFano) highWord(w uint64) uint64 {
+	if w >= uint64(len(e.high)/8) {
+		return 0
+	}
+	return binary.LittleEndian.Uint64(e.high[8*w:])
+}
+
+// lowAt returns the low bits of value i.
+func (e *eliasFano) lowAt(i uint64) uint64 {
+	if e.l == 0 {
+		return 0
+	}
+	bit := i * uint64(e.l)
+	at := bit >> 3
+	var word uint64
+	if at+8 <= uint64(len(e.low)) {
+		word = binary.LittleEndian.Uint64(e.low[at:])
+	} else {
+		for j := uint64(0); at+j < uint64(len(e.low)) && j < 8; j++ {
+			word |= uint64(e.low[at+j]) << (8 * j)
+		}
+	}
+	return (word >> (bit & 7)) & (1<<e.l - 1)
+}
+
+// efCursor walks an Elias-Fano sequence from one position onwards.
+type efCursor struct {
+	e    *eliasFano
+	i    uint64 // index of the current value
+	pos  uint64 // its set bit in the high vector
+	word uint64 // the high word holding pos, bits up to pos cleared
+	ok   bool
+}
+
+// seek returns a cursor on value i: the sampled set bit at or before it,
+// then a scan. ok is false when i is out of range or the bits are damaged.
+func (e *eliasFano) seek(i uint64) efCursor {
+	c := efCursor{e: e}
+	if i >= e.n || 8*(i/efSample)+8 > uint64(len(e.samples)) {
+		return c
+	}
+	pos := binary.LittleEndian.Uint64(e.samples[8*(i/efSample):])
+	w := pos / 64
+	if w >= uint64(len(e.high)/8) {
+		return c
+	}
+	word := e.highWord(w) &^ (1<<(pos%64) - 1) // set bits from pos on
+	r := i % efSample                          // set bits to skip after the sampled one
+	limit := uint64(len(e.high) / 8)
+	for {
+		if word == 0 {
+			w++
+			if w >= limit {
+				return c
+			}
+			word = e.highWord(w)
+			continue
+		}
+		cnt := uint64(bits.OnesCount64(word))
+		if r < cnt {
+			b := selectInWord(word, uint(r))
+			c.i, c.pos, c.ok = i, 64*w+uint64(b), true
+			c.word = word &^ (2<<b - 1)
+			return c
+		}
+		r -= cnt
+		w++
+		if w >= limit {
+			return c
+		}
+		word = e.highWord(w)
+	}
+}
+
+// value returns the cursor's current value.
+func (c *efCursor) value() uint64 {
+	return (c.pos-c.i)<<c.e.l | c.e.lowAt(c.i)
+}
+
+// next moves the cursor to the following value; false at the end.
+func (c *efCursor) next() bool {
+	if !c.ok || c.i+1 >= c.e.n {
+		c.ok = false
+		return false
+	}
+	w := c.pos / 64
+	word := c.word
+	limit := uint64(len(c.e.high) / 8)
+	for word == 0 {
+		w++
+		if w >= limit {
+			c.ok = false
+			return false
+		}
+		word = c.e.highWord(w)
+	}
+	c.i++
+	c.pos = 64*w + uint64(bits.TrailingZeros64(word))
+	c.word = word & (word - 1)
+	return true
+}
+
+// get returns value i, or false when it cannot be read.
+func (e *eliasFano) get(i uint64) (uint64, bool) {
+	c := e.seek(i)
+	if !c.ok {
+		return 0, false
+	}
+	return c.value(), true
+}
+
+// pair returns values i and i+1.
+func (e *eliasFano) pair(i uint64) (a, b uint64, ok bool) {
+	c := e.seek(i)
+	if !c.ok {
+		return 0, 0, false
+	}
+	a = c.value()
+	if !c.next() {
+		return 0, 0, false
+	}
+	return a, c.value(), true
+}
+
+// decodeAll decodes every value into out (len n) and checks the section's
+// structure: exactly n set bits, every sample pointing at the right one, no
+// bits past the last value, values not above the recorded largest. It
+// returns a description of the first defect.
+func (e *eliasFano) decodeAll(out []uint64) error {
+	var i uint64
+	words := uint64(len(e.high) / 8)
+	for w := uint64(0); w < words; w++ {
+		word := e.highWord(w)
+		for word != 0 {
+			pos := 64*w + uint64(bits.TrailingZeros64(word))
+			word &= word - 1
+			if i >= e.n {
+				return fmt.Errorf("high bits hold more than the %d values recorded (extra bit %d)", e.n, pos)
+			}
+			if i%efSample == 0 {
+				if s := binary.LittleEndian.Uint64(e.samples[8*(i/efSample):]); s != pos {
+					return fmt.Errorf("sample %d records bit %d, but value %d is at bit %d", i/efSample, s, i, pos)
+				}
+			}
+			if pos < i {
+				return fmt.Errorf("value %d: high bit %d is impossible", i, pos)
+			}
+			out[i] = (pos-i)<<e.l | e.lowAt(i)
+			if i > 0 && out[i] < out[i-1] {
+				return fmt.Errorf("value %d (%d) is below value %d (%d)", i, out[i], i-1, out[i-1])
+			}
+			i++
+		}
+	}
+	if i != e.n {
+		return fmt.Errorf("high bits hold %d values, %d recorded", i, e.n)
+	}
+	if e.n > 0 && out[e.n-1] != e.last {
+		return fmt.Errorf("last value is %d, %d recorded", out[e.n-1], e.last)
+	}
+	if e.l > 0 {
+		if used := e.n * uint64(e.l); used%64 != 0 {
+			if tail := binary.LittleEndian.Uint64(e.low[len(e.low)-8:]) >> (used % 64); tail != 0 {
+				return fmt.Errorf("unused low bits are not zero")
+			}
+		}
+	}
+	return nil
+}
+
+// selectInByte[b*8+r] is the position of the r-th set bit (from 0) of the
+// byte b.
+var selectInByte = func() (t [256 * 8]uint8) {
+	for b := 0; b < 256; b++ {
+		r := 0
+		for i := 0; i < 8; i++ {
+			if b>>i&1 != 0 {
+				t[b*8+r] = uint8(i)
+				r++
+			}
+		}
+	}
+	return t
+}()
+
+// selectInWord returns the position of the r-th set bit (from 0) of word,
+// which has more than r set bits.
+func selectInWord(word uint64, r uint) uint {
+	for shift := uint(0); shift < 64; shift += 8 {
+		b := uint(word>>shift) & 0xff
+		if c := uint(bits.OnesCount8(uint8(b))); r >= c {
+			r -= c
+			continue
+		}
+		return shift + uint(selectInByte[b*8+r])
+	}
+	return 64
+}
+
+// nextAtLeast moves the cursor forward, at most to the value before index
+// limit, to the first value >= want, and reports whether it found one
+// below limit. It skips whole runs of the high bit vector by counting their
+// zeros, so its cost grows with the distance in value, 64 high bits at a
+// time, not with a binary search's probes.
+func (c *efCursor) nextAtLeast(want, limit uint64) bool {
+	if !c.ok || c.i >= limit {
+		return false
+	}
+	e := c.e
+	hw := want >> e.l
+	if high := c.pos - c.i; high < hw {
+		// Pass need more zeros (each raises the high part by one); the
+		// values after them have high parts of at least hw.
+		need := hw - high
+		w := c.pos / 64
+		word := ^e.highWord(w) &^ (2<<(c.pos%64) - 1)
+		limitW := uint64(len(e.high) / 8)
+		for {
+			z := uint64(bits.OnesCount64(word))
+			if need <= z {
+				break
+			}
+			need -= z
+			w++
+			if w >= limitW {
+				c.ok = false
+				return false
+			}
+			word = ^e.highWord(w)
+		}
+		zpos := 64*w + uint64(selectInWord(word, uint(need-1)))
+		// The ones between the cursor and that zero are the values passed.
+		i := c.i + (zpos - c.pos) - (hw - high) + 1
+		if i >= limit || i >= e.n {
+			c.ok = false
+			return false
+		}
+		// The value i is the first set bit after zpos.
+		word = e.highWord(zpos/64) &^ (2<<(zpos%64) - 1)
+		w = zpos / 64
+		for word == 0 {
+			w++
+			if w >= limitW {
+				c.ok = false
+				return false
+			}
+			word = e.highWord(w)
+		}
+		c.i, c.pos = i, 64*w+uint64(bits.TrailingZeros64(word))
+		c.word = word & (word - 1)
+	}
+	for c.value() < want {
+		if c.i+1 >= limit || !c.next() {
+			c.ok = false
+			return false
+		}
+	}
+	return true
+}

@@ -1,0 +1,328 @@
+package format
+
+import (
+	"encoding/binary"
+	"sync"
+
+	"ingot/compile/tables"
+)
+
+// readLevels3 finds the sections of a version-3 model and checks their
+// fixed fields and sizes against the summary, reading nothing proportional
+// to the number of n-grams.
+func (m *Model) readLevels3() error {
+	s, b, err := m.needEncoded(KindWordHash, 0, -1, Plain)
+	if err != nil {
+		return err
+	}
+	if m.wordHash, err = parseWordHash(b, m.vocabSize); err != nil {
+		return formatErr(s.Name(), s.Offset, "%v", err)
+	}
+	for k := 1; k <= m.order; k++ {
+		n := uint64(m.counts[k-1])
+		lv := &m.levels[k-1]
+		if k >= 2 {
+			encodings := []Encoding{EliasFano}
+			if k >= 3 {
+				encodings = append(encodings, EliasFanoRanks)
+			}
+			s, b, err := m.needEncoded(KindLastWords, k, -1, encodings...)
+			if err != nil {
+				return err
+			}
+			if lv.keys, err = parseEliasFano(b, n); err != nil {
+				return formatErr(s.Name(), s.Offset, "%v", err)
+			}
+			lv.ranked = s.Encoding == EliasFanoRanks
+		}
+		if lv.probs, err = m.readColumn(KindProbabilities, KindProbCodebook, k, int64(n)); err != nil {
+			return err
+		}
+		if k == m.order {
+			break
+		}
+		s, b, err := m.needEncoded(KindContexts, k, -1, Plain)
+		if err != nil {
+			return err
+		}
+		if lv.marks, err = parseMarks(b, n); err != nil {
+			return formatErr(s.Name(), s.Offset, "%v", err)
+		}
+		if lv.backoffs, err = m.readColumn(KindBackoffs, KindBackoffCodebook, k, int64(lv.marks.count)); err != nil {
+			return err
+		}
+		if s, b, err = m.needEncoded(KindChildStarts, k, -1, EliasFano); err != nil {
+			return err
+		}
+		if lv.childStarts, err = parseEliasFano(b, lv.marks.count+1); err != nil {
+			return formatErr(s.Name(), s.Offset, "%v", err)
+		}
+		if first, ok := lv.childStarts.get(0); !ok || first != 0 {
+			return formatErr(s.Name(), s.Offset, "first child start is %d, expected 0", first)
+		}
+		if last := lv.childStarts.last; last != uint64(m.counts[k]) {
+			return formatErr(s.Name(), s.Offset, "last child start is %d, expected the %d entries of order %d", last, m.counts[k], k+1)
+		}
+	}
+	for _, s := range m.sections {
+		if !m.expected(s) {
+			return formatErr(s.Name(), s.Offset, "section has no place in a model of order %d", m.order)
+		}
+	}
+	return nil
+}
+
+// childRange3 returns the children [lo, hi) at order k+1 of entry i of
+// order k, clipped to the entries that exist.
+func (m *Model) childRange3(k int, i uint32) (lo, hi uint64) {
+	if k < 1 || k >= m.order {
+		return 0, 0
+	}
+	lv := &m.levels[k-1]
+	marked, r := lv.marks.rank(uint64(i))
+	if !marked {
+		return 0, 0
+	}
+	a, b, ok := lv.childStarts.pair(r)
+	if !ok {
+		return 0, 0
+	}
+	b = min(b, uint64(m.counts[k]))
+	return min(a, b), b
+}
+
+// searchKeys returns the entry in [lo, hi) of order k whose key is key, or
+// noNode. Keys ascend within the range, each stored as the range's base
+// (the value before lo) plus the key.
+func (m *Model) searchKeys(k int, lo, hi uint64, key uint64) uint32 {
+	if lo >= hi || k < 2 || k > m.order {
+		return noNode
+	}
+	e := &m.levels[k-1].keys
+	var base uint64
+	var c efCursor
+	if lo > 0 {
+		c = e.seek(lo - 1)
+		if !c.ok {
+			return noNode
+		}
+		base = c.value()
+		if !c.next() {
+			return noNode
+		}
+	} else if c = e.seek(0); !c.ok {
+		return noNode
+	}
+	if !c.nextAtLeast(base+key, hi) || c.value() != base+key {
+		return noNode
+	}
+	return uint32(c.i)
+}
+
+// extensions3 is extensions for version 3. Child ranges depend only on the
+// state, so they are looked up first, independently of each other; at a
+// ranked order the key of w under h_j is the position of h_{j-1} w among
+// the successors of h_{j-1}, found one order below.
+func (m *Model) extensions3(s *State, w uint32, child *[tables.MaxOrder]uint32) int {
+	n := min(max(s.n, 0), max(m.order-1, 0))
+	child[0] = noNode
+	if uint64(w) < uint64(m.vocabSize) {
+		child[0] = w
+	}
+	var lo, hi [tables.MaxOrder]uint64
+	for j := 1; j <= n; j++ {
+		if p := s.node[j-1]; p != noNode {
+			lo[j], hi[j] = m.childRange3(j, p)
+		}
+	}
+	for j := 1; j <= n; j++ {
+		child[j] = noNode
+		if s.node[j-1] == noNode || lo[j] >= hi[j] {
+			continue
+		}
+		key := uint64(w)
+		if m.levels[j].ranked {
+			below := child[j-1]
+			if below == noNode || j < 2 || s.node[j-2] == noNode {
+				continue // h_{j-1} w is not stored, so neither is h_j w
+			}
+			key = uint64(below) - lo[j-1]
+		} else if child[0] == noNode {
+			continue
+		}
+		child[j] = m.searchKeys(j+1, lo[j], hi[j], key)
+	}
+	return n
+}
+
+// decodedTrie holds, for a version-3 model, the child starts and last
+// words of every order as plain little-endian uint32 columns (the layout of
+// versions 1 and 2), decoded on first use by the tools that walk the whole
+// trie: Entries, WordAt, ToTables, Verify. Queries never need it.
+type decodedTrie struct {
+	once   sync.Once
+	starts [tables.MaxOrder][]byte // [k-1]: n_k+1 child starts of order k < N
+	words  [tables.MaxOrder][]byte // [k-1]: last word ids of order k >= 2
+	err    error
+}
+
+// trie returns the child starts of order k and the last words of order k,
+// as plain uint32 columns: in place for versions 1 and 2, decoded once for
+// version 3 (nil with an error when the file is damaged).
+func (m *Model) trie(k int) (starts, words []byte, err error) {
+	if k < 1 || k > m.order {
+		return nil, nil, nil
+	}
+	if m.decoded == nil {
+		return m.levels[k-1].starts, m.levels[k-1].lastWords, nil
+	}
+	d := m.decoded
+	d.once.Do(func() { d.err = m.decodeTrie(d) })
+	if d.err != nil {
+		return nil, nil, d.err
+	}
+	return d.starts[k-1], d.words[k-1], nil
+}
+
+// decodeTrie decodes every Elias-Fano section into plain columns, checking
+// the structure as it goes: each sequence well formed, child starts
+// ascending from 0 to the next order's count, keys strictly ascending under
+// each parent, word ids inside the vocabulary, ranks inside the successors
+// of the parent's suffix. The first defect is returned.
+func (m *Model) decodeTrie(d *decodedTrie) error {
+	le := binary.LittleEndian
+	// suffix[e]: the entry of order k-1 storing the suffix of entry e of
+	// order k (or noNode), for the previous order k; for order 1 the
+	// suffix is the empty context.
+	var suffix []uint32
+	var startsVals [tables.MaxOrder][]uint64
+	for k := 1; k <= m.order; k++ {
+		n := uint64(m.counts[k-1])
+		lv := &m.levels[k-1]
+		if k < m.order {
+			if err := lv.marks.check(); err != nil {
+				name, at := m.sectionOffset(KindContexts, k, 0)
+				return formatErr(name, at, "%v", err)
+			}
+			ctx := make([]uint64, lv.marks.count+1)
+			if err := lv.childStarts.decodeAll(ctx); err != nil {
+				name, at := m.sectionOffset(KindChildStarts, k, 0)
+				return formatErr(name, at, "%v", err)
+			}
+			if ctx[0] != 0 || ctx[len(ctx)-1] != uint64(m.counts[k]) {
+				name, at := m.sectionOffset(KindChildStarts, k, 0)
+				return formatErr(name, at, "child starts run from %d to %d, expected 0 to %d", ctx[0], ctx[len(ctx)-1], m.counts[k])
+			}
+			// Every entry's start is that of the first context at or after it.
+			vals := make([]uint64, n+1)
+			var r uint64
+			for i := uint64(0); i < n; i++ {
+				vals[i] = ctx[r]
+				if marked, _ := lv.marks.rank(i); marked {
+					r++
+				}
+			}
+			vals[n] = ctx[r]
+			startsVals[k-1] = vals
+			b := make([]byte, 4*(n+1))
+			for i, v := range vals {
+				le.PutUint32(b[4*i:], uint32(v))
+			}
+			d.starts[k-1] = b
+		}
+		if k == 1 {
+			continue
+		}
+		x := make([]uint64, n)
+		if err := lv.keys.decodeAll(x); err != nil {
+			name, at := m.sectionOffset(KindLastWords, k, 0)
+			return formatErr(name, at, "%v", err)
+		}
+		words := make([]byte, 4*n)
+		next := make([]uint32, n)
+		parents := startsVals[k-2]
+		var prevWords []byte
+		if k >= 3 {
+			prevWords = d.words[k-2]
+		}
+		for p := 0; p+1 < len(parents); p++ {
+			lo, hi := parents[p], parents[p+1]
+			var base uint64
+			if lo > 0 {
+				base = x[lo-1]
+			}
+			for e := lo; e < hi; e++ {
+				key := x[e] - base
+				if e > lo && x[e] == x[e-1] {
+					name, at := m.sectionOffset(KindLastWords, k, 0)
+					return formatErr(name, at, "entry %d repeats the key of its sibling", e)
+				}
+				var word, suf uint32
+				switch {
+				case lv.ranked:
+					// The successors of the parent's suffix h' at order k-1.
+					h := suffix[p]
+					if h == noNode {
+						name, at := m.sectionOffset(KindLastWords, k, 0)
+						return formatErr(name, at, "entry %d is keyed by rank, but its parent's suffix is not stored", e)
+					}
+					a, b := startsVals[k-3][h], startsVals[k-3][h+1]
+					if key >= b-a {
+						name, at := m.sectionOffset(KindLastWords, k, 0)
+						return formatErr(name, at, "entry %d holds rank %d, but its parent's suffix has %d successors", e, key, b-a)
+					}
+					suf = uint32(a + key)
+					word = le.Uint32(prevWords[4*suf:])
+				default:
+					if key >= uint64(m.vocabSize) {
+						name, at := m.sectionOffset(KindLastWords, k, 0)
+						return formatErr(name, at, "entry %d holds word id %d, outside the vocabulary of %d words", e, key, m.vocabSize)
+					}
+					word = uint32(key)
+					suf = word // order 2: the suffix is the unigram
+					if k >= 3 {
+						suf = noNode
+						if h := suffix[p]; h != noNode {
+							suf = findIn(prevWords, startsVals[k-3][h], startsVals[k-3][h+1], word)
+						}
+					}
+				}
+				le.PutUint32(words[4*e:], word)
+				next[e] = suf
+			}
+		}
+		d.words[k-1] = words
+		suffix = next
+	}
+	return nil
+}
+
+// findIn binary-searches word among the uint32 words [lo, hi) of a plain
+// column, returning its index or noNode.
+func findIn(words []byte, lo, hi uint64, word uint32) uint32 {
+	for lo < hi {
+		mid := lo + (hi-lo)/2
+		if binary.LittleEndian.Uint32(words[4*mid:]) < word {
+			lo = mid + 1
+		} else {
+			hi = mid
+		}
+	}
+	if 4*lo+4 <= uint64(len(words)) && binary.LittleEndian.Uint32(words[4*lo:]) == word {
+		return uint32(lo)
+	}
+	return noNode
+}
+
+// decodeErr reports the damage found by the first decode of a version-3
+// trie, or nil.
+func (m *Model) decodeErr() error {
+	if m.decoded == nil {
+		return nil
+	}
+	_, _, err := m.trie(1)
+	if err != nil {
+		return m.withPath(err)
+	}
+	return nil
+}

@@ -1,0 +1,147 @@
+package format
+
+import (
+	"fmt"
+	"math"
+
+	"ingot/compile/tables"
+)
+
+// Version 3 stores the trie succinctly (spec/FORMAT.md §4.8 to §4.11):
+//
+//   - child starts of each order in Elias-Fano;
+//   - the last word of each entry of order k >= 2 as a key under its
+//     parent: the word id itself, or, at an order k >= 3 where every entry's
+//     suffix h'w is stored, the rank of w among the successors of h' (its
+//     parent's suffix), which is far smaller (G. E. Pibiri and R. Venturini,
+//     "Efficient data structures for massive n-gram datasets", SIGIR 2017).
+//     Keys are made one non-decreasing sequence per order by adding to each
+//     sibling list the last value of the list before, and stored in
+//     Elias-Fano;
+//   - a mark per entry of each order below the top saying whether it is a
+//     context: it has children, or a back-off weight other than +0.0
+//     (weight 1). Child starts and back-off weights are stored for the
+//     contexts only, found by the rank of the entry among them;
+//   - a hash table of the words, so that Model.ID costs a few reads.
+
+// buildSections3 lays out the sections of a version-3 file: summary, build
+// info, word starts, word text, word hash, then per order its last words
+// (k >= 2), probabilities, contexts, back-offs and child starts
+// (k < N).
+func buildSections3(t *tables.Tables) ([]section, error) {
+	n := t.Order()
+	info, err := marshalInfo(t.Info)
+	if err != nil {
+		return nil, fmt.Errorf("ingot model: cannot write build info: %w", err)
+	}
+	if len(info) > MaxBuildInfo {
+		return nil, fmt.Errorf("ingot model: cannot write: build info of %d bytes exceeds %d (too many history lines or options?)", len(info), MaxBuildInfo)
+	}
+	if wordHashSlots(len(t.Vocab)) > 1<<32-1 {
+		return nil, fmt.Errorf("ingot model: cannot write: a vocabulary of %d words is too large for the word hash", len(t.Vocab))
+	}
+	starts, text := vocabularyBytes(t.Vocab)
+	out := []section{
+		{Section: Section{Kind: KindSummary}, data: summaryBytes(t)},
+		{Section: Section{Kind: KindBuildInfo}, data: info},
+		{Section: Section{Kind: KindWordStarts}, data: starts},
+		{Section: Section{Kind: KindWordText}, data: text},
+		{Section: Section{Kind: KindWordHash}, data: encodeWordHash(t.Vocab)},
+	}
+	childStarts := make([][]uint32, n) // [k-1]: n_k+1 starts of order k < N
+	for k := 1; k < n; k++ {
+		childStarts[k-1] = childStartValues(t, k)
+	}
+	for k := 1; k <= n; k++ {
+		lv := &t.Levels[k-1]
+		if k >= 2 {
+			data, enc := lastWordKeys(t, k, childStarts)
+			out = append(out, section{Section: Section{Kind: KindLastWords, Order: k, Encoding: enc}, data: data})
+		}
+		out = append(out, columnSections(KindProbabilities, KindProbCodebook, k, lv.LogProb, lv.ProbCodebook)...)
+		if k < n {
+			starts := childStarts[k-1]
+			isContext := func(i int) bool { return starts[i+1] > starts[i] || hasBackoff(lv.LogBackoff[i]) }
+			out = append(out, section{Section: Section{Kind: KindContexts, Order: k}, data: encodeMarks(len(lv.LogBackoff), isContext)})
+			var kept []float32
+			var x []uint64
+			for i, b := range lv.LogBackoff {
+				if isContext(i) {
+					kept = append(kept, b)
+					x = append(x, uint64(starts[i]))
+				}
+			}
+			x = append(x, uint64(starts[len(starts)-1]))
+			out = append(out, columnSections(KindBackoffs, KindBackoffCodebook, k, kept, lv.BackoffCodebook)...)
+			out = append(out, section{Section: Section{Kind: KindChildStarts, Order: k, Encoding: EliasFano}, data: encodeEliasFano(x)})
+		}
+	}
+	return out, nil
+}
+
+// hasBackoff reports whether a log10 back-off weight is stored in version
+// 3: every value but +0.0 (weight 1), which unmarked entries read as.
+func hasBackoff(b float32) bool { return math.Float32bits(b) != 0 }
+
+// childStartValues returns the n_k+1 child starts of order k (see
+// childStarts).
+func childStartValues(t *tables.Tables, k int) []uint32 {
+	nk, next := t.Len(k), t.Len(k+1)
+	out := make([]uint32, nk+1)
+	parent := 0
+	for e := 0; e < next; e++ {
+		prefix := t.Gram(k+1, e)[:k]
+		for parent < nk && tables.Compare(t.Gram(k, parent), prefix) < 0 {
+			parent++
+		}
+		out[parent+1]++ // Check guarantees the prefix is stored
+	}
+	for i := 1; i <= nk; i++ {
+		out[i] += out[i-1]
+	}
+	return out
+}
+
+// lastWordKeys encodes the last words of order k >= 2 as keys under their
+// parents: ranks among the successors of the parent's suffix when every
+// entry's suffix is stored and k >= 3 (encoding EliasFanoRanks), word ids
+// otherwise (EliasFano).
+func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32) ([]byte, Encoding) {
+	n := t.Len(k)
+	keys := make([]uint64, n)
+	enc := EliasFano
+	for e := 0; e < n; e++ {
+		keys[e] = uint64(t.Gram(k, e)[k-1])
+	}
+	if k >= 3 {
+		ranks := make([]uint64, n)
+		ok := true
+		for e := 0; e < n && ok; e++ {
+			g := t.Gram(k, e)
+			suffix := t.Find(g[1:])       // h'w, order k-1
+			context := t.Find(g[1 : k-1]) // h', order k-2
+			if suffix < 0 || context < 0 {
+				ok = false
+				break
+			}
+			ranks[e] = uint64(suffix) - uint64(childStarts[k-3][context])
+		}
+		if ok {
+			keys, enc = ranks, EliasFanoRanks
+		}
+	}
+	// One non-decreasing sequence: each sibling list is shifted by the last
+	// value of the list before it.
+	x := make([]uint64, n)
+	starts := childStarts[k-2]
+	for p := 0; p+1 < len(starts); p++ {
+		var base uint64
+		if s := starts[p]; s > 0 {
+			base = x[s-1]
+		}
+		for e := starts[p]; e < starts[p+1]; e++ {
+			x[e] = base + keys[e]
+		}
+	}
+	return encodeEliasFano(x), enc
+}
