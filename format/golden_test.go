@@ -6,7 +6,9 @@ import (
 	"encoding/json"
 	"flag"
 	"os"
+	"fmt"
 	"path/filepath"
+	"slices"
 	"testing"
 
 	"ingot/compile/tables"
@@ -17,7 +19,58 @@ var update = flag.Bool("update", false, "rewrite the golden vectors in ../spec/g
 var (
 	goldenModel    = filepath.Join("..", "spec", "golden", "tiny.ingot")
 	goldenExpected = filepath.Join("..", "spec", "golden", "tiny.expected.jsonl")
+	// Version 3: the same model, and a variant that is not suffix-closed
+	// and is quantized (so order 3 keys are word ids, some entries are not
+	// contexts, and back-offs are packed indexes over the contexts).
+	goldenModel3      = filepath.Join("..", "spec", "golden", "tiny.v3.ingot")
+	goldenCutModel3   = filepath.Join("..", "spec", "golden", "tiny-cut.v3.ingot")
+	goldenCutExpected = filepath.Join("..", "spec", "golden", "tiny-cut.expected.jsonl")
 )
+
+// cutTiny returns the tiny model without the bigrams that are the suffix of
+// a stored trigram but the context of none (so it is no longer
+// suffix-closed), with lossless codebooks for every column of orders 2 and
+// up.
+func cutTiny(t testing.TB) *tables.Tables {
+	tb := tinyModel(t)
+	contexts := map[string]bool{}
+	suffixes := map[string]bool{}
+	for e := 0; e < tb.Len(3); e++ {
+		g := tb.Gram(3, e)
+		contexts[fmt.Sprint(g[:2])] = true
+		suffixes[fmt.Sprint(g[1:])] = true
+	}
+	old := tb.Levels[1]
+	lv := tables.Level{}
+	for i := 0; i < tb.Len(2); i++ {
+		g := tb.Gram(2, i)
+		if key := fmt.Sprint(g); suffixes[key] && !contexts[key] {
+			continue
+		}
+		lv.Words = append(lv.Words, g...)
+		lv.LogProb = append(lv.LogProb, old.LogProb[i])
+		lv.LogBackoff = append(lv.LogBackoff, old.LogBackoff[i])
+	}
+	tb.Levels[1] = lv
+	for k := 2; k <= tb.Order(); k++ {
+		lv := &tb.Levels[k-1]
+		lv.ProbCodebook = distinctValues(lv.LogProb)
+		if lv.LogBackoff != nil {
+			lv.BackoffCodebook = distinctValues(lv.LogBackoff)
+		}
+	}
+	tb.Info.History = append(tb.Info.History, "golden vector: bigrams that are only suffixes removed; lossless codebooks")
+	if err := tb.Check(); err != nil {
+		t.Fatal(err)
+	}
+	return tb
+}
+
+func distinctValues(v []float32) []float32 {
+	s := slices.Clone(v)
+	slices.Sort(s)
+	return slices.Compact(s)
+}
 
 // goldenQuery is one line of tiny.expected.jsonl.
 type goldenQuery struct {
@@ -120,36 +173,73 @@ func readQueries(t *testing.T, path string) []goldenQuery {
 	return out
 }
 
-// TestGolden checks that the committed golden model is exactly what Write
-// produces for the hand-built model, and that the reader gives every
-// expected answer. Run with -update to rewrite both files.
+// TestGolden checks that the committed golden models are exactly what
+// Write produces for the hand-built models (tiny.ingot in the tables
+// layout of version 1, the others in version 3), and that the reader gives
+// every expected answer. Run with -update to rewrite the files.
 func TestGolden(t *testing.T) {
-	tb := tinyModel(t)
-	data := mustMarshalTables(t, tb)
-	queries := marshalQueries(t, goldenQueries(tb))
-	if *update {
-		if err := os.WriteFile(goldenModel, data, 0o644); err != nil {
-			t.Fatal(err)
-		}
-		if err := os.WriteFile(goldenExpected, queries, 0o644); err != nil {
-			t.Fatal(err)
-		}
+	tiny, cut := tinyModel(t), cutTiny(t)
+	for _, c := range []struct {
+		model, expected string
+		tb              *tables.Tables
+		version         int
+	}{
+		{goldenModel, goldenExpected, tiny, 1},
+		{goldenModel3, goldenExpected, tiny, 3},
+		{goldenCutModel3, goldenCutExpected, cut, 3},
+	} {
+		checkGolden(t, c.model, c.expected, c.tb, c.version)
 	}
-	committed, err := os.ReadFile(goldenModel)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if !bytes.Equal(committed, data) {
-		t.Fatalf("%s differs from what Write produces now (run go test -run TestGolden -update if the change is intended)", goldenModel)
-	}
-	if committed, err := os.ReadFile(goldenExpected); err != nil || !bytes.Equal(committed, queries) {
-		t.Fatalf("%s differs from the reference answers (err %v)", goldenExpected, err)
-	}
-	m, err := Open(goldenModel)
+	m, err := Open(goldenCutModel3)
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer m.Close()
+	if m.SuffixClosed() || m.levels[2].ranked || m.levels[1].marks.count == uint64(m.Count(2)) {
+		t.Errorf("%s does not exercise word-id keys at order 3 and entries that are not contexts", goldenCutModel3)
+	}
+	m3, err := Open(goldenModel3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer m3.Close()
+	if !m3.levels[2].ranked {
+		t.Errorf("%s does not exercise successor ranks", goldenModel3)
+	}
+}
+
+func checkGolden(t *testing.T, model, expected string, tb *tables.Tables, version int) {
+	data, err := MarshalVersion(tb, version)
+	if err != nil {
+		t.Fatal(err)
+	}
+	queries := marshalQueries(t, goldenQueries(tb))
+	if *update {
+		if err := os.WriteFile(model, data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(expected, queries, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	committed, err := os.ReadFile(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(committed, data) {
+		t.Fatalf("%s differs from what Write produces now (run go test -run TestGolden -update if the change is intended)", model)
+	}
+	if committed, err := os.ReadFile(expected); err != nil || !bytes.Equal(committed, queries) {
+		t.Fatalf("%s differs from the reference answers (err %v)", expected, err)
+	}
+	m, err := Open(model)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer m.Close()
+	if m.Version() != version {
+		t.Errorf("%s: version %d, expected %d", model, m.Version(), version)
+	}
 	if err := m.Verify(); err != nil {
 		t.Fatal(err)
 	}
@@ -159,13 +249,13 @@ func TestGolden(t *testing.T) {
 		}
 		return m.UnknownID()
 	}
-	for _, q := range readQueries(t, goldenExpected) {
+	for _, q := range readQueries(t, expected) {
 		context := make([]uint32, len(q.Context))
 		for i, w := range q.Context {
 			context[i] = toID(w)
 		}
 		if got := m.LogProb(context, toID(q.Word)); got != q.Log10 {
-			t.Errorf("log10 P(%s | %v) = %v, expected %v", q.Word, q.Context, got, q.Log10)
+			t.Errorf("%s: log10 P(%s | %v) = %v, expected %v", model, q.Word, q.Context, got, q.Log10)
 		}
 	}
 }

@@ -1,0 +1,294 @@
+package format_test
+
+import (
+	"bufio"
+	"bytes"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/json"
+	"fmt"
+	"hash/crc32"
+	"math"
+	"math/bits"
+	"os"
+	"path/filepath"
+	"testing"
+)
+
+// TestSpecificationAloneVersion3 reads the version-3 golden models the way
+// spec/FORMAT.md (§3, §4.8, §7) tells a reader in another language to,
+// using nothing of this package: container, Elias-Fano sequences, contexts
+// and their ranks, successor-rank keys, packed values and the word hash;
+// it rebuilds every n-gram and applies the back-off rule literally.
+func TestSpecificationAloneVersion3(t *testing.T) {
+	for _, c := range []struct{ model, expected string }{
+		{"tiny.v3.ingot", "tiny.expected.jsonl"},
+		{"tiny-cut.v3.ingot", "tiny-cut.expected.jsonl"},
+	} {
+		t.Run(c.model, func(t *testing.T) { specAlone3(t, c.model, c.expected) })
+	}
+}
+
+type secKey struct{ kind, order uint32 }
+
+type specSection struct {
+	enc  uint32
+	data []byte
+}
+
+func specAlone3(t *testing.T, model, expected string) {
+	f, err := os.ReadFile(filepath.Join("..", "spec", "golden", model))
+	if err != nil {
+		t.Fatal(err)
+	}
+	le := binary.LittleEndian
+	castagnoli := crc32.MakeTable(crc32.Castagnoli)
+	if string(f[:8]) != "\x89INGOT\r\n" || le.Uint32(f[8:]) != 3 || le.Uint64(f[16:]) != uint64(len(f)) {
+		t.Fatalf("magic, version or length wrong: % x", f[:24])
+	}
+	count := int(le.Uint32(f[12:]))
+	dirEnd := 64 + 32*count
+	if crc32.Update(crc32.Checksum(f[:60], castagnoli), castagnoli, f[64:dirEnd]) != le.Uint32(f[60:]) {
+		t.Fatal("header checksum")
+	}
+	sections := map[secKey]specSection{}
+	digest := sha256.New()
+	for i := 0; i < count; i++ {
+		e := f[64+32*i:]
+		kind, enc, order, sum := le.Uint32(e), le.Uint32(e[4:]), le.Uint32(e[8:]), le.Uint32(e[12:])
+		off, n := le.Uint64(e[16:]), le.Uint64(e[24:])
+		b := f[off : off+n]
+		if off%8 != 0 || crc32.Checksum(b, castagnoli) != sum {
+			t.Fatalf("entry %d: offset %d or checksum wrong", i, off)
+		}
+		var rec [20]byte
+		le.PutUint32(rec[0:], kind)
+		le.PutUint32(rec[4:], enc)
+		le.PutUint32(rec[8:], order)
+		le.PutUint64(rec[12:], n)
+		digest.Write(rec[:])
+		digest.Write(b)
+		sections[secKey{kind, order}] = specSection{enc, b}
+	}
+	if !bytes.Equal(digest.Sum(nil), f[24:56]) {
+		t.Fatal("content digest")
+	}
+	sec := func(kind, order int) specSection {
+		s, ok := sections[secKey{uint32(kind), uint32(order)}]
+		if !ok {
+			t.Fatalf("no section of kind %d order %d", kind, order)
+		}
+		return s
+	}
+
+	// Summary and vocabulary (§4.1, §4.3); the word hash (§4.8.4).
+	sum := sec(1, 0).data
+	order, V := int(le.Uint32(sum)), int(le.Uint32(sum[4:]))
+	unk := le.Uint32(sum[16:])
+	counts := make([]uint64, order+1)
+	for k := 1; k <= order; k++ {
+		counts[k] = le.Uint64(sum[24+8*(k-1):])
+	}
+	starts, text := sec(3, 0).data, sec(4, 0).data
+	vocab := make([]string, V)
+	for i := range vocab {
+		vocab[i] = string(text[le.Uint32(starts[4*i:]):le.Uint32(starts[4*i+4:])])
+	}
+	hash := sec(13, 0).data
+	P := uint64(le.Uint32(hash))
+	if P != uint64(V+V/4+1) {
+		t.Fatalf("word hash has %d slots", P)
+	}
+	lookup := func(w string) (uint32, bool) {
+		h := uint64(14695981039346656037)
+		for i := 0; i < len(w); i++ {
+			h = (h ^ uint64(w[i])) * 1099511628211
+		}
+		for s, probes := h%P, uint64(0); probes < P; s, probes = (s+1)%P, probes+1 {
+			id := le.Uint32(hash[8+4*s:])
+			if id == 0xFFFFFFFF {
+				return 0, false
+			}
+			if vocab[id] == w {
+				return id, true
+			}
+		}
+		return 0, false
+	}
+	for id, w := range vocab {
+		if got, ok := lookup(w); !ok || got != uint32(id) {
+			t.Fatalf("word hash: %q -> %d, %v", w, got, ok)
+		}
+	}
+
+	// Elias-Fano (§4.8.1), decoded value by value through the samples.
+	ef := func(b []byte) []uint64 {
+		n, last, L := le.Uint64(b), le.Uint64(b[8:]), uint64(le.Uint32(b[16:]))
+		lowW := (n*L + 63) / 64
+		highW := ((last >> L) + n + 63) / 64
+		low, high, samples := b[24:], b[24+8*lowW:], b[24+8*(lowW+highW):]
+		bit := func(stream []byte, j uint64) uint64 { return uint64(stream[j/8]>>(j%8)) & 1 }
+		out := make([]uint64, n)
+		for i := uint64(0); i < n; i++ {
+			p := le.Uint64(samples[8*(i/256):])
+			for skip := i % 256; skip > 0; {
+				p++
+				if bit(high, p) == 1 {
+					skip--
+				}
+			}
+			var lo uint64
+			for j := uint64(0); j < L; j++ {
+				lo |= bit(low, i*L+j) << j
+			}
+			out[i] = (p-i)<<L | lo
+		}
+		if n > 0 && out[n-1] != last {
+			t.Fatalf("Elias-Fano: last value %d, recorded %d", out[n-1], last)
+		}
+		return out
+	}
+	// A column value (§4.5): plain f32, or packed index into a codebook.
+	value := func(kind, cbKind, k int, i uint64) float64 {
+		s := sec(kind, k)
+		if s.enc == 0 {
+			return float64(math.Float32frombits(le.Uint32(s.data[4*i:])))
+		}
+		B := uint64(le.Uint32(s.data))
+		var idx uint64
+		for j := uint64(0); j < B; j++ {
+			p := i*B + j
+			idx |= uint64(s.data[8+p/8]>>(p%8)) & 1 << j
+		}
+		return float64(math.Float32frombits(le.Uint32(sec(cbKind, k).data[4*idx:])))
+	}
+
+	// The trie (§4.8.2, §4.8.3): for each order, every entry's words, and
+	// each entry's children range.
+	type node struct {
+		words    []string
+		lo, hi   uint64 // children at the order above
+		backoff  float64
+		isParent bool
+	}
+	levels := make([][]node, order+1)
+	levels[1] = make([]node, V)
+	for i := range levels[1] {
+		levels[1][i].words = []string{vocab[i]}
+	}
+	index := map[string]uint64{} // n-gram -> entry index in its order
+	for k := 1; k <= order; k++ {
+		if k < order {
+			ctx := sec(12, k).data
+			m := le.Uint64(ctx[8:])
+			W := (counts[k] + 63) / 64
+			counters := ctx[16+8*W:]
+			c := ef(sec(8, k).data)
+			if uint64(len(c)) != m+1 || c[0] != 0 || c[m] != counts[k+1] {
+				t.Fatalf("child starts of order %d", k)
+			}
+			for i := uint64(0); i < counts[k]; i++ {
+				r := uint64(le.Uint32(counters[4*(i/512):]))
+				for w := 8 * (i / 512); w < i/64; w++ {
+					r += uint64(bits.OnesCount64(le.Uint64(ctx[16+8*w:])))
+				}
+				word := le.Uint64(ctx[16+8*(i/64):])
+				r += uint64(bits.OnesCount64(word & (1<<(i%64) - 1)))
+				nd := &levels[k][i]
+				nd.backoff = 0
+				if word>>(i%64)&1 == 1 {
+					nd.lo, nd.hi, nd.isParent = c[r], c[r+1], true
+					nd.backoff = value(7, 11, k, r)
+				}
+			}
+		}
+		for i := range levels[k] {
+			index[fmt.Sprint(levels[k][i].words)] = uint64(i)
+		}
+		if k == order {
+			break
+		}
+		s := sec(5, k+1)
+		x := ef(s.data)
+		next := make([]node, counts[k+1])
+		for p := range levels[k] {
+			parent := levels[k][p]
+			if !parent.isParent {
+				continue
+			}
+			var base uint64
+			if parent.lo > 0 {
+				base = x[parent.lo-1]
+			}
+			for e := parent.lo; e < parent.hi; e++ {
+				key := x[e] - base
+				var w string
+				if s.enc == 2 {
+					w = vocab[key]
+				} else { // successor rank among the children of the parent's suffix
+					h := parent.words[1:]
+					hn := levels[k-1][index[fmt.Sprint(h)]]
+					w = levels[k][hn.lo+key].words[k-1]
+				}
+				next[e].words = append(append([]string{}, parent.words...), w)
+			}
+		}
+		levels[k+1] = next
+	}
+	prob, backoff := map[string]float64{}, map[string]float64{}
+	for k := 1; k <= order; k++ {
+		for i, nd := range levels[k] {
+			name := fmt.Sprint(nd.words)
+			prob[name] = value(6, 10, k, uint64(i))
+			if k < order {
+				backoff[name] = nd.backoff
+			}
+		}
+	}
+
+	// The back-off rule (§7).
+	logProb := func(context []string, w string) float64 {
+		g := append(append([]string{}, context...), w)
+		for i, x := range g {
+			if _, ok := lookup(x); !ok {
+				g[i] = vocab[unk]
+			}
+		}
+		if len(g) > order {
+			g = g[len(g)-order:]
+		}
+		bow := 0.0
+		for s := 0; s < len(g); s++ {
+			if p, ok := prob[fmt.Sprint(g[s:])]; ok {
+				return bow + p
+			}
+			if b, ok := backoff[fmt.Sprint(g[s:len(g)-1])]; ok && s < len(g)-1 {
+				bow += b
+			}
+		}
+		return math.Inf(-1)
+	}
+	data, err := os.ReadFile(filepath.Join("..", "spec", "golden", expected))
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc := bufio.NewScanner(bytes.NewReader(data))
+	n := 0
+	for sc.Scan() {
+		var q struct {
+			Context []string `json:"context"`
+			Word    string   `json:"word"`
+			Log10   float64  `json:"log10"`
+		}
+		if err := json.Unmarshal(sc.Bytes(), &q); err != nil {
+			t.Fatal(err)
+		}
+		if got := logProb(q.Context, q.Word); got != q.Log10 && !(math.IsInf(got, -1) && math.IsInf(q.Log10, -1)) {
+			t.Errorf("log10 P(%s | %v) = %v by the specification, expected %v", q.Word, q.Context, got, q.Log10)
+		}
+		n++
+	}
+	if n < 100 {
+		t.Fatalf("only %d expected answers", n)
+	}
+}
