@@ -1,6 +1,5 @@
 package format
 
-
 // ReadVersions returns the oldest and the newest format version Open reads.
 func ReadVersions() (oldest, newest int) { return oldestVersion, Version }
 

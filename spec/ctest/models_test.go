@@ -95,7 +95,8 @@ func corpusModels(t testing.TB) ([]testModel, string) {
 				name string
 				tb   *tables.Tables
 			}{{"float", tb}, {"8-bit", q8}, {"pruned 4-bit", p4}} {
-				data, err := format.Marshal(m.tb)
+				// The C reader reads the tables layout (versions 1 and 2) so far.
+				data, err := format.MarshalVersion(m.tb, 2)
 				if err != nil {
 					return err
 				}
@@ -225,7 +226,7 @@ func demoModels(t *testing.T) []testModel {
 	if err != nil {
 		t.Fatal(err)
 	}
-	plain, err := format.Marshal(tb)
+	plain, err := format.MarshalVersion(tb, 2)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -233,7 +234,7 @@ func demoModels(t *testing.T) []testModel {
 	if err != nil {
 		t.Fatal(err)
 	}
-	quantized, err := format.Marshal(q)
+	quantized, err := format.MarshalVersion(q, 2)
 	if err != nil {
 		t.Fatal(err)
 	}
