@@ -268,7 +268,7 @@ func TestCodebookIndexOutOfRange(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	data, err := format.Marshal(q)
+	data, err := format.MarshalVersion(q, 2)
 	if err != nil {
 		t.Fatal(err)
 	}
