@@ -104,7 +104,7 @@ func BenchmarkNextCAgainstGo(b *testing.B) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		if err := format.WriteVersion(f, mod.tb, 2); err != nil {
+		if err := format.Write(f, mod.tb); err != nil {
 			b.Fatal(err)
 		}
 		if err := f.Close(); err != nil {

@@ -268,7 +268,7 @@ func TestCodebookIndexOutOfRange(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	data, err := format.MarshalVersion(q, 2)
+	data, err := format.Marshal(q)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -95,8 +95,7 @@ func corpusModels(t testing.TB) ([]testModel, string) {
 				name string
 				tb   *tables.Tables
 			}{{"float", tb}, {"8-bit", q8}, {"pruned 4-bit", p4}} {
-				// The C reader reads the tables layout (versions 1 and 2) so far.
-				data, err := format.MarshalVersion(m.tb, 2)
+				data, err := format.Marshal(m.tb)
 				if err != nil {
 					return err
 				}
@@ -199,7 +198,7 @@ func TestScoresEqualGoReader(t *testing.T) {
 		}
 	}
 	// The models really are of three kinds.
-	for i, want := range []uint32{1, 2, 2} {
+	for i, want := range []uint32{3, 3, 3} { // what Write writes: version 3
 		if v := le32(models[i].data[8:]); v != want {
 			t.Errorf("%s model: format version %d, want %d", models[i].name, v, want)
 		}
@@ -212,8 +211,9 @@ func le32(b []byte) uint32 {
 
 // demoModels are the corruption matrix's models (as in verify's tests): a
 // 3-gram Kneser-Ney model of the first 40 sentences of the invented demo
-// text, plain (version 1), 4-bit quantized with both kinds of codebook
-// (version 2), and signed.
+// text, plain and 4-bit quantized with both kinds of codebook, each in
+// version 3 (what Write writes) and in the tables layout (versions 1 and
+// 2), and signed.
 func demoModels(t *testing.T) []testModel {
 	t.Helper()
 	p := tools(t)
@@ -226,7 +226,7 @@ func demoModels(t *testing.T) []testModel {
 	if err != nil {
 		t.Fatal(err)
 	}
-	plain, err := format.MarshalVersion(tb, 2)
+	plain, err := format.Marshal(tb)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -234,7 +234,7 @@ func demoModels(t *testing.T) []testModel {
 	if err != nil {
 		t.Fatal(err)
 	}
-	quantized, err := format.MarshalVersion(q, 2)
+	quantized, err := format.Marshal(q)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -243,8 +243,17 @@ func demoModels(t *testing.T) []testModel {
 		t.Fatal(err)
 	}
 	dir := t.TempDir()
+	plain1, err := format.MarshalVersion(tb, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	quantized2, err := format.MarshalVersion(q, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
 	var out []testModel
-	for _, m := range []testModel{{"plain", "", plain}, {"quantized", "", quantized}, {"signed", "", signed}} {
+	for _, m := range []testModel{{"plain", "", plain}, {"quantized", "", quantized}, {"signed", "", signed},
+		{"plain-v1", "", plain1}, {"quantized-v2", "", quantized2}} {
 		m.path = filepath.Join(dir, m.name+".ingot")
 		if err := os.WriteFile(m.path, m.data, 0o644); err != nil {
 			t.Fatal(err)
