@@ -12,7 +12,13 @@ import (
 	"math/bits"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
+
+	"ingot/compile/corpus"
+	"ingot/compile/counts"
+	"ingot/compile/estimate"
+	"ingot/format"
 )
 
 // TestSpecificationAloneVersion3 reads the version-3 golden models the way
@@ -41,6 +47,74 @@ func specAlone3(t *testing.T, model, expected string) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	data, err := os.ReadFile(filepath.Join("..", "spec", "golden", expected))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var queries []specQuery
+	sc := bufio.NewScanner(bytes.NewReader(data))
+	for sc.Scan() {
+		var q specQuery
+		if err := json.Unmarshal(sc.Bytes(), &q); err != nil {
+			t.Fatal(err)
+		}
+		queries = append(queries, q)
+	}
+	if len(queries) < 100 {
+		t.Fatalf("only %d expected answers", len(queries))
+	}
+	specDecode3(t, f, queries)
+}
+
+type specQuery struct {
+	Context []string `json:"context"`
+	Word    string   `json:"word"`
+	Log10   float64  `json:"log10"`
+}
+
+// TestSpecificationAloneVersion3Large decodes, by the document alone, a
+// model large enough for several Elias-Fano samples and rank counters per
+// section (the golden models fit in one of each), and compares every
+// n-gram's answer with the estimator's tables.
+func TestSpecificationAloneVersion3Large(t *testing.T) {
+	all, err := corpus.SOTU()
+	if err != nil {
+		t.Fatal(err)
+	}
+	c, err := counts.NewCounter(3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, s := range all[:1500] {
+		c.AddSentence(strings.Fields(s))
+	}
+	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	f, err := format.Marshal(tb)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var queries []specQuery
+	for k := 1; k <= 3; k++ {
+		for i := 0; i < tb.Len(k); i += 7 {
+			g := tb.Gram(k, i)
+			q := specQuery{Log10: tb.LogProb(g)}
+			for _, id := range g[:k-1] {
+				q.Context = append(q.Context, tb.Vocab[id])
+			}
+			q.Word = tb.Vocab[g[k-1]]
+			queries = append(queries, q)
+		}
+	}
+	if tb.Len(3) < 4*512 {
+		t.Fatalf("only %d trigrams", tb.Len(3))
+	}
+	specDecode3(t, f, queries)
+}
+
+func specDecode3(t *testing.T, f []byte, queries []specQuery) {
 	le := binary.LittleEndian
 	castagnoli := crc32.MakeTable(crc32.Castagnoli)
 	if string(f[:8]) != "\x89INGOT\r\n" || le.Uint32(f[8:]) != 3 || le.Uint64(f[16:]) != uint64(len(f)) {
@@ -126,6 +200,9 @@ func specAlone3(t *testing.T, model, expected string) {
 		n, last, L := le.Uint64(b), le.Uint64(b[8:]), uint64(le.Uint32(b[16:]))
 		lowW := (n*L + 63) / 64
 		highW := ((last >> L) + n + 63) / 64
+		if uint64(len(b)) != 24+8*(lowW+highW+(n+255)/256) {
+			t.Fatalf("Elias-Fano section is %d bytes, the specification says %d", len(b), 24+8*(lowW+highW+(n+255)/256))
+		}
 		low, high, samples := b[24:], b[24+8*lowW:], b[24+8*(lowW+highW):]
 		bit := func(stream []byte, j uint64) uint64 { return uint64(stream[j/8]>>(j%8)) & 1 }
 		out := make([]uint64, n)
@@ -182,6 +259,9 @@ func specAlone3(t *testing.T, model, expected string) {
 			ctx := sec(12, k).data
 			m := le.Uint64(ctx[8:])
 			W := (counts[k] + 63) / 64
+			if uint64(len(ctx)) != 16+8*W+4*((W+7)/8) {
+				t.Fatalf("contexts of order %d: %d bytes, the specification says %d", k, len(ctx), 16+8*W+4*((W+7)/8))
+			}
 			counters := ctx[16+8*W:]
 			c := ef(sec(8, k).data)
 			if uint64(len(c)) != m+1 || c[0] != 0 || c[m] != counts[k+1] {
@@ -268,27 +348,9 @@ func specAlone3(t *testing.T, model, expected string) {
 		}
 		return math.Inf(-1)
 	}
-	data, err := os.ReadFile(filepath.Join("..", "spec", "golden", expected))
-	if err != nil {
-		t.Fatal(err)
-	}
-	sc := bufio.NewScanner(bytes.NewReader(data))
-	n := 0
-	for sc.Scan() {
-		var q struct {
-			Context []string `json:"context"`
-			Word    string   `json:"word"`
-			Log10   float64  `json:"log10"`
-		}
-		if err := json.Unmarshal(sc.Bytes(), &q); err != nil {
-			t.Fatal(err)
-		}
+	for _, q := range queries {
 		if got := logProb(q.Context, q.Word); got != q.Log10 && !(math.IsInf(got, -1) && math.IsInf(q.Log10, -1)) {
 			t.Errorf("log10 P(%s | %v) = %v by the specification, expected %v", q.Word, q.Context, got, q.Log10)
 		}
-		n++
-	}
-	if n < 100 {
-		t.Fatalf("only %d expected answers", n)
 	}
 }
