@@ -19,7 +19,7 @@ timed "$work/t-small" "$work/ingot" count --order 5 --quiet --memory 48MiB --tmp
 runs=$(grep -o 'runs=[0-9]*' "$work/t-small" | tail -1 | cut -d= -f2)
 same_counts=no
 cmp -s "$work/full.bin" "$work/small.bin" && same_counts=yes
-ngrams=$("$work/ingot" inspect --json "$work/full.bin" | awk '/"entries"/ {gsub(/,/, ""); s += $2} END {print s}')
+ngrams=$("$work/ingot" inspect --json "$work/full.bin" | grep -o '"entries": *[0-9]*' | awk -F: '{s += $2} END {print s}')
 tokens=$(wc -w <"$work/text.txt")
 timed "$work/c-full" "$work/ingot" compile --method kneser-ney --order 5 -o "$work/full.ingot" "$work/full.bin"
 timed "$work/c-small" "$work/ingot" compile --method kneser-ney --order 5 -o "$work/small.ingot" "$work/small.bin"
