@@ -20,6 +20,7 @@ import (
 // input text.
 //
 //	cd cmd/ingot-beam && go test -run '^$' -bench PipelineAgainstCount -benchtime 1x ./beamcount
+//
 // benchSentences is a slice, not the whole corpus: the Prism runner keeps
 // every element of a stage in memory (about 12 GB, still running after 23
 // minutes, on the whole corpus at order 5 on this machine).
