@@ -11,21 +11,19 @@ import (
 	"github.com/apache/beam/sdks/v2/go/pkg/beam"
 )
 
-// BenchmarkPipelineAgainstCount counts the first benchSentences sentences of
-// the bundled corpus (split in four plain-text files) at order 5 twice in
-// one process: with the counter
-// 'ingot count' uses, then with the pipeline on the in-process Prism runner
-// (four shards). It reports both throughputs in words of text per second,
-// their ratio, and the bytes the pipeline hands to its shuffle per byte of
-// input text.
-//
-//	cd cmd/ingot-beam && go test -run '^$' -bench PipelineAgainstCount -benchtime 1x ./beamcount
-//
 // benchSentences is a slice, not the whole corpus: the Prism runner keeps
 // every element of a stage in memory (about 12 GB, still running after 23
 // minutes, on the whole corpus at order 5 on this machine).
 const benchSentences = 8000
 
+// BenchmarkPipelineAgainstCount counts the first benchSentences sentences of
+// the bundled corpus (split in four plain-text files) at order 5 twice in
+// one process: with the counter 'ingot count' uses, then with the pipeline
+// on the in-process Prism runner (four shards). It reports both throughputs in words of text per second,
+// their ratio, and the bytes the pipeline hands to its shuffle per byte of
+// input text.
+//
+//	cd cmd/ingot-beam && go test -run '^$' -bench PipelineAgainstCount -benchtime 1x ./beamcount
 func BenchmarkPipelineAgainstCount(b *testing.B) {
 	lines := sotu(b, benchSentences)
 	dir := b.TempDir()
