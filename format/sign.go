@@ -24,6 +24,12 @@ const (
 	signatureSize   = 104
 )
 
+// SignatureSpace is the number of bytes signing adds to an unsigned model
+// file: a directory entry and the signature section (both multiples of the
+// section alignment, so no padding changes). A file fitted to a budget
+// leaves this much room so that it still fits once signed.
+const SignatureSpace = directoryEntry + signatureSize
+
 // signaturePrefix is prepended to the digest in the signed message, so that
 // a signature over a model file cannot be mistaken for one over anything
 // else signed with the same key.

@@ -3,8 +3,10 @@ package inspect
 import (
 	"container/heap"
 	"errors"
+	"fmt"
 	"math"
 
+	"ingot/compile/tables"
 	"ingot/format"
 )
 
@@ -40,9 +42,10 @@ type Prediction struct {
 // Next scores every word of the vocabulary but <s> after the context
 // through the model's own query path (format.Model.Next), and returns the
 // top most probable. Context words outside the vocabulary are looked up as
-// <unk>; <s> may only be the first word (elsewhere it is looked up as
-// <unk> too). The cost is one query per word of the vocabulary, and memory
-// grows with top only.
+// <unk>. The markers are read as count reads them: <s> may only be the
+// first word and </s> may not be in a context at all (nothing follows the
+// end of a sentence); either elsewhere is an error. The cost is one query
+// per word of the vocabulary, and memory grows with top only.
 func Next(m *format.Model, context []string, top int) (*NextWords, error) {
 	if top < 1 {
 		return nil, errors.New("the number of words to show must be at least 1")
@@ -50,8 +53,14 @@ func Next(m *format.Model, context []string, top int) (*NextWords, error) {
 	ids := make([]uint32, 0, len(context))
 	out := &NextWords{Context: []string{}, Unknown: []string{}, Predictions: []Prediction{}}
 	for i, w := range context {
+		switch {
+		case w == tables.SentenceStart && i > 0:
+			return nil, fmt.Errorf("context word %d is %s, which only begins a sentence: give it first or not at all", i+1, w)
+		case w == tables.SentenceEnd:
+			return nil, fmt.Errorf("context word %d is %s, which ends a sentence: no word follows it", i+1, w)
+		}
 		id, ok := m.ID(w)
-		if !ok || (id == m.StartID() && i > 0) {
+		if !ok {
 			out.Unknown = append(out.Unknown, w)
 			id = m.UnknownID()
 		}

@@ -75,7 +75,7 @@ func TestNextTopAndContext(t *testing.T) {
 		wantUnknown []string
 	}{
 		{"<s> turn", 3, []string{"<s>", "turn"}, nil},
-		{"navigate <s> turn", 1, []string{"<unk>", "turn"}, []string{"<s>"}}, // <s> only first; N-1 = 2 words count
+		{"navigate the turn", 1, []string{"the", "turn"}, nil}, // N-1 = 2 words count
 		{"to zebra", 5, []string{"to", "<unk>"}, []string{"zebra"}},
 		{"", 2, []string{}, nil},
 	} {
@@ -103,6 +103,17 @@ func TestNextTopAndContext(t *testing.T) {
 	}
 	if _, err := Next(m, nil, 0); err == nil {
 		t.Error("top 0 accepted")
+	}
+	// Markers as count reads them: <s> only first, </s> never in a context.
+	for context, want := range map[string]string{
+		"<unk> <s>":       "context word 2 is <s>, which only begins a sentence",
+		"navigate <s> to": "context word 2 is <s>",
+		"turn </s>":       "context word 2 is </s>, which ends a sentence",
+		"</s>":            "context word 1 is </s>",
+	} {
+		if _, err := Next(m, strings.Fields(context), 3); err == nil || !strings.Contains(err.Error(), want) {
+			t.Errorf("%q: %v, want %q", context, err, want)
+		}
 	}
 }
 

@@ -19,6 +19,7 @@ import (
 	"ingot/compile/tables"
 	"ingot/compile/vocab"
 	"ingot/format"
+	"ingot/format/files"
 )
 
 func newCompileCmd() *cobra.Command {
@@ -32,6 +33,7 @@ func newCompileCmd() *cobra.Command {
 		asJSON    bool
 		wordList  string
 		bf        budgetFlags
+		repeats   bool
 	)
 	cmd := &cobra.Command{
 		Use:   "compile --method M --order N -o MODEL COUNTS...",
@@ -74,6 +76,12 @@ perplexity, listing what it compared.`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			opt := estimate.Options{Method: estimate.Method(method), Order: order, KatzThreshold: threshold}
+			if err := optionsApply(cmd, opt.Method); err != nil {
+				return err
+			}
+			if threshold < 1 || threshold > estimate.MaxKatzThreshold {
+				return fmt.Errorf("compile: --katz-threshold %d outside 1..%d", threshold, estimate.MaxKatzThreshold)
+			}
 			if err := parseDiscount(discount, &opt); err != nil {
 				return err
 			}
@@ -125,10 +133,29 @@ perplexity, listing what it compared.`,
 			}
 			pr := newProgress(cmd.ErrOrStderr())
 			defer pr.done()
+			if err := checkOutput("compile", out, append([]string{wordList}, args...)...); err != nil {
+				return err
+			}
+			if i, j, ok := files.FirstRepeat(args); ok && !repeats {
+				return fmt.Errorf("compile: %s and %s are the same file: its counts would be added twice (give --allow-repeats to weight it so on purpose)", args[i], args[j])
+			}
 			pr.step("reading counts")
 			c, err := loadCounts(order, args)
 			if err != nil {
 				return err
+			}
+			var note string
+			if c.Order() < order {
+				// Every n-gram of the highest order present is a whole
+				// sentence: the text has none longer to count.
+				note = fmt.Sprintf("the counts hold no n-gram above order %d (every %d-gram is a whole sentence, <s> to </s>): built a model of order %d, the most they allow", c.Order(), c.Order(), c.Order())
+				fmt.Fprintf(cmd.ErrOrStderr(), "ingot: compile: %s\n", note)
+				order, opt.Order = c.Order(), c.Order()
+				for k := range cutoffs {
+					if k > order {
+						delete(cutoffs, k)
+					}
+				}
 			}
 			if list != nil {
 				c = c.MapVocabulary(list)
@@ -162,6 +189,9 @@ perplexity, listing what it compared.`,
 					rep.Orders[k].Cut, rep.Orders[k].Kept = true, t.Len(k+1)
 				}
 			}
+			if note != "" {
+				t.Info.History = append(t.Info.History, note)
+			}
 			if err := stamp(&t.Info); err != nil {
 				return err
 			}
@@ -188,10 +218,22 @@ perplexity, listing what it compared.`,
 	f.StringVar(&bf.heldout, "heldout", "", "with --max-size: compare every lower order at the same budget on this text and keep the best")
 	f.StringVar(&bf.rankWith, "rank-with", "", "with --max-size: method whose model ranks n-grams for removal (default: katz for kneser-ney, else the method itself)")
 	bf.qf.register(cmd, false)
+	f.BoolVar(&repeats, "allow-repeats", false, "accept a count file named more than once, its counts added once per naming (deliberate weighting)")
 	cmd.MarkFlagRequired("method")
 	cmd.MarkFlagRequired("order")
 	cmd.MarkFlagRequired("output")
 	return cmd
+}
+
+// optionsApply refuses an option of one method given with another: it would
+// be ignored without a word.
+func optionsApply(cmd *cobra.Command, method estimate.Method) error {
+	for flag, only := range map[string]estimate.Method{"discount": estimate.Absolute, "katz-threshold": estimate.Katz} {
+		if cmd.Flags().Changed(flag) && method != only {
+			return fmt.Errorf("compile: --%s applies to --method %s only, not %s", flag, only, method)
+		}
+	}
+	return nil
 }
 
 func parseDiscount(s string, opt *estimate.Options) error {
@@ -260,7 +302,7 @@ func loadWordList(command, path string) (*vocab.List, error) {
 func loadCounts(order int, names []string) (*counts.Counts, error) {
 	var sources []counts.Source
 	for _, name := range names {
-		r, err := input.Open(name)
+		r, err := input.OpenRegular(name)
 		if err != nil {
 			return nil, fmt.Errorf("compile: %w", err)
 		}

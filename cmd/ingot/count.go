@@ -78,6 +78,9 @@ counts as <unk>, a literal <unk> in the text included; give compile the same
 			if len(args) == 0 {
 				args = []string{input.Stdin}
 			}
+			if err := checkOutput("count", out, append([]string{wordList}, args...)...); err != nil {
+				return err
+			}
 			var inputs []counts.Input
 			for _, name := range args {
 				r, err := input.Open(name)

@@ -16,6 +16,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"ingot/compile/input"
 	"ingot/format"
 )
 
@@ -125,8 +126,32 @@ internal error (a bug), 134 (SIGABRT) a fatal runtime error.`,
 		newDemoCmd(),
 	)
 	root.AddCommand(testCommands...)
+	for _, c := range root.Commands() {
+		if readsLines[c.Name()] {
+			addMaxLineFlag(c)
+		}
+	}
 	inOurVoice(root)
 	return root
+}
+
+// readsLines names the commands that read text or count files, which take
+// --max-line.
+var readsLines = map[string]bool{"count": true, "compile": true, "score": true, "prune": true, "verify": true, "tradeoff": true}
+
+// addMaxLineFlag gives cmd the --max-line option, the line-length cap of
+// package input, applied before the command runs.
+func addMaxLineFlag(cmd *cobra.Command) {
+	limit := cmd.Flags().String("max-line", "16MiB", "longest line read from text, count and word-list files (a size: 16MiB, 100KB, ...)")
+	run := cmd.RunE
+	cmd.RunE = func(c *cobra.Command, args []string) error {
+		n, err := parseSize(*limit)
+		if err != nil {
+			return fmt.Errorf("%s: --max-line: %w", c.Name(), err)
+		}
+		input.SetMaxLine(n)
+		return run(c, args)
+	}
 }
 
 // testCommands are added to the root by tests (a command that panics, to

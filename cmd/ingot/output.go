@@ -14,6 +14,8 @@ import (
 
 	"github.com/klauspost/compress/gzip"
 	"github.com/klauspost/compress/zstd"
+
+	"ingot/format/files"
 )
 
 // writeOutput writes a command's output file atomically: into a temporary
@@ -21,12 +23,17 @@ import (
 // ending in .gz or .zst is compressed accordingly. On any
 // error the temporary file is removed and nothing appears at path. The path
 // "-" (or "") writes to stdout instead.
+//
+// A new file gets mode 0666 as the umask leaves it; a file replaced keeps
+// its mode. A path that is a symbolic link writes the file it points to.
 func writeOutput(ctx context.Context, path string, stdout io.Writer, fn func(w io.Writer) error) error {
-	return writeOutputMode(ctx, path, 0o644, stdout, fn)
+	return writeOutputMode(ctx, path, 0o666, false, stdout, fn)
 }
 
-// writeOutputMode is writeOutput with the file's permissions.
-func writeOutputMode(ctx context.Context, path string, mode os.FileMode, stdout io.Writer, fn func(w io.Writer) error) error {
+// writeOutputMode is writeOutput with the new file's permissions (before
+// the umask), and with exclusive set, refusing to replace an existing file
+// even one that appears while the output is written.
+func writeOutputMode(ctx context.Context, path string, mode os.FileMode, exclusive bool, stdout io.Writer, fn func(w io.Writer) error) error {
 	if path == "" || path == "-" {
 		bw := bufio.NewWriterSize(stdout, 1<<16)
 		if err := fn(bw); err != nil {
@@ -34,12 +41,15 @@ func writeOutputMode(ctx context.Context, path string, mode os.FileMode, stdout 
 		}
 		return bw.Flush()
 	}
+	if real, err := filepath.EvalSymlinks(path); err == nil {
+		path = real
+	}
 	dir, base := filepath.Split(path)
 	if dir == "" {
 		dir = "."
 	}
 	pending := pendingFrom(ctx)
-	tmp, err := pending.createTemp(dir, "."+base+".tmp-*")
+	tmp, err := pending.createTemp(dir, "."+base+".tmp-", mode)
 	if err != nil {
 		return fmt.Errorf("cannot write %s: %w", path, err)
 	}
@@ -71,8 +81,15 @@ func writeOutputMode(ctx context.Context, path string, mode os.FileMode, stdout 
 	if err := tmp.Close(); err != nil {
 		return fmt.Errorf("closing %s: %w", path, err)
 	}
-	if err := os.Chmod(tmp.Name(), mode); err != nil {
-		return err
+	if exclusive {
+		if err := files.PublishExclusive(tmp.Name(), path); err != nil {
+			return fmt.Errorf("cannot write %s: %w", path, err)
+		}
+		ok = true
+		return nil
+	}
+	if err := files.KeepMode(tmp.Name(), path); err != nil {
+		return fmt.Errorf("cannot write %s: %w", path, err)
 	}
 	if err := os.Rename(tmp.Name(), path); err != nil {
 		return fmt.Errorf("cannot write %s: %w", path, err)
@@ -109,16 +126,16 @@ type pendingOutputs struct {
 
 // createTemp creates a temporary file and records it, under the lock that
 // removeAll takes: an interrupt that arrives meanwhile removes it too.
-func (p *pendingOutputs) createTemp(dir, pattern string) (*os.File, error) {
+func (p *pendingOutputs) createTemp(dir, prefix string, perm os.FileMode) (*os.File, error) {
 	if p == nil {
-		return os.CreateTemp(dir, pattern)
+		return files.CreateTemp(dir, prefix, perm)
 	}
 	p.mu.Lock()
 	defer p.mu.Unlock()
 	if p.stopped {
 		return nil, fmt.Errorf("interrupted")
 	}
-	f, err := os.CreateTemp(dir, pattern)
+	f, err := files.CreateTemp(dir, prefix, perm)
 	if err == nil {
 		p.files[f.Name()] = true
 	}

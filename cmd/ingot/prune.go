@@ -60,10 +60,21 @@ held-out text.`,
 				}
 			}
 			var qopt quantize.Options
+			for _, flag := range []string{"bow-bits", "trainer"} {
+				if qf.bits == 0 && cmd.Flags().Changed(flag) {
+					return fmt.Errorf("prune: --%s applies only with --bits", flag)
+				}
+			}
 			if qf.bits != 0 {
 				if qopt, err = qf.options("prune"); err != nil {
 					return err
 				}
+			}
+			if err := checkOutput("prune", out, args[0], heldout); err != nil {
+				return err
+			}
+			if err := checkHeldout("prune", heldout); err != nil {
+				return err
 			}
 			t, err := readUnquantized("prune", args[0])
 			if err != nil {

@@ -71,6 +71,12 @@ back-off codebook is widened where that needs it); 'ingot verify' allows
 			if err != nil {
 				return err
 			}
+			if err := checkOutput("quantize", out, args[0], heldout); err != nil {
+				return err
+			}
+			if err := checkHeldout("quantize", heldout); err != nil {
+				return err
+			}
 			t, err := readUnquantized("quantize", args[0])
 			if err != nil {
 				return err

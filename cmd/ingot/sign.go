@@ -33,8 +33,11 @@ artifacts you ship. An existing key is never overwritten.`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
 			for _, p := range []string{name + ".key", name + ".pub"} {
-				if _, err := os.Stat(p); err == nil {
+				if _, err := os.Lstat(p); err == nil {
 					return fmt.Errorf("keygen: %s exists; not overwriting a key", p)
+				}
+				if err := files.CheckOutput(p); err != nil {
+					return fmt.Errorf("keygen: %w", err)
 				}
 			}
 			pub, priv, err := ed25519.GenerateKey(rand.Reader)
@@ -49,16 +52,20 @@ artifacts you ship. An existing key is never overwritten.`,
 			if err != nil {
 				return fmt.Errorf("keygen: %w", err)
 			}
+			// Both files are created exclusively: of several keygens racing
+			// for one NAME, one wins both files and the others fail and
+			// leave nothing of theirs, so NAME.key and NAME.pub always match.
 			ctx := cmd.Context()
-			if err := writeOutputMode(ctx, name+".key", 0o600, nil, func(w io.Writer) error {
+			if err := writeOutputMode(ctx, name+".key", 0o600, true, nil, func(w io.Writer) error {
 				return pem.Encode(w, &pem.Block{Type: "PRIVATE KEY", Bytes: privDER})
 			}); err != nil {
-				return err
+				return fmt.Errorf("keygen: %w", err)
 			}
-			if err := writeOutput(ctx, name+".pub", nil, func(w io.Writer) error {
+			if err := writeOutputMode(ctx, name+".pub", 0o666, true, nil, func(w io.Writer) error {
 				return pem.Encode(w, &pem.Block{Type: "PUBLIC KEY", Bytes: pubDER})
 			}); err != nil {
-				return err
+				os.Remove(name + ".key")
+				return fmt.Errorf("keygen: %w (%s.key removed)", err, name)
 			}
 			id := format.KeyID(pub)
 			if asJSON {

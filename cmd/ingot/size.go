@@ -30,6 +30,9 @@ func parseSize(s string) (int64, error) {
 	if err != nil || !(v > 0) || v*mult > 1<<62 {
 		return 0, fmt.Errorf("size %q is not a positive number of bytes (units: B, KB, MB, GB, KiB, MiB, GiB)", s)
 	}
+	if v*mult < 1 {
+		return 0, fmt.Errorf("size %q is less than one byte", s)
+	}
 	return int64(v * mult), nil
 }
 

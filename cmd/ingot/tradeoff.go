@@ -58,6 +58,9 @@ chart, each in its own colour; --budget draws the device's size limit.`,
 			if err != nil {
 				return fmt.Errorf("tradeoff: --trainer: %w", err)
 			}
+			if err := checkOutputDir("tradeoff", out, []string{"tradeoff.csv", "tradeoff.json", "tradeoff.svg"}, append([]string{heldout}, args...)...); err != nil {
+				return err
+			}
 			held, err := readSentences(heldout)
 			if err != nil {
 				return err
@@ -68,7 +71,10 @@ chart, each in its own colour; --budget draws the device's size limit.`,
 					return fmt.Errorf("tradeoff: --budget: %w", err)
 				}
 			}
-			stderr := cmd.ErrOrStderr()
+			stderr := io.Discard // progress only on a terminal
+			if newProgress(cmd.ErrOrStderr()).w != nil {
+				stderr = cmd.ErrOrStderr()
+			}
 			var points []tradeoff.Point
 			for _, model := range args {
 				t, err := readUnquantized("tradeoff", model)
@@ -168,12 +174,12 @@ func readSentences(name string) ([][]string, error) {
 	}
 	defer r.Close()
 	var out [][]string
-	err = text.Sentences(name, r, true, func(toks []string, _ int) error {
+	err = text.HeldOut(name, r, func(toks []string, _ int) error {
 		out = append(out, append([]string(nil), toks...))
 		return nil
 	})
-	if err == nil && len(out) == 0 {
-		err = fmt.Errorf("--heldout %s: no sentences", name)
+	if err != nil {
+		return nil, fmt.Errorf("--heldout: %w", err)
 	}
-	return out, err
+	return out, nil
 }

@@ -26,6 +26,11 @@ type Source struct {
 // is implicit). N-grams longer than order are skipped. The first offending
 // line of a text file is reported as a *text.Error with file and line
 // number; a problem in a binary file names the file and the byte offset.
+//
+// Text counts whose highest order M is below order are refused, unless
+// every M-gram is a whole sentence (<s> ... </s>): then no longer n-gram
+// can exist whatever order the text was counted at, and Load returns counts
+// of order M (Order() tells; the caller says so).
 func Load(order int, sources []Source) (*Counts, error) {
 	if order < 1 || order > tables.MaxOrder {
 		return nil, fmt.Errorf("order %d outside 1..%d", order, tables.MaxOrder)
@@ -60,7 +65,7 @@ func (b *builder) result(order, maxSeen int, sources []Source) (*Counts, error) 
 	if maxSeen == 0 {
 		return nil, fmt.Errorf("no n-grams in %s", names(sources))
 	}
-	if maxSeen < order {
+	if maxSeen < order && !b.wholeSentences(maxSeen) {
 		return nil, fmt.Errorf("counts hold orders up to %d, order %d asked", maxSeen, order)
 	}
 	if err := b.checkClosure(sources); err != nil {
@@ -69,7 +74,25 @@ func (b *builder) result(order, maxSeen int, sources []Source) (*Counts, error) 
 	if b.grams[0].len() == 0 {
 		return nil, fmt.Errorf("no unigram counts in %s", names(sources))
 	}
-	return b.finish(nil, nil), nil
+	c := b.finish(nil, nil)
+	c.Truncate(maxSeen)
+	return c, nil
+}
+
+// wholeSentences reports whether every k-gram (k >= 2) begins with <s> and
+// ends with </s>.
+func (b *builder) wholeSentences(k int) bool {
+	if k < 2 {
+		return false
+	}
+	start, end := b.ids[tables.SentenceStart], b.ids[tables.SentenceEnd]
+	t := &b.grams[k-1]
+	for i := 0; i < t.len(); i++ {
+		if g := t.gram(i); g[0] != start || g[k-1] != end {
+			return false
+		}
+	}
+	return true
 }
 
 // addTextFile reads one count file in the text form into b and returns the
@@ -131,10 +154,7 @@ func (b *builder) addTextFile(order, fi int, name string, r io.Reader) (int, err
 		return nil
 	})
 	if err != nil {
-		if _, ok := err.(*text.Error); ok {
-			return 0, err
-		}
-		return 0, fmt.Errorf("%s: %w", name, err)
+		return 0, input.Named(name, err)
 	}
 	return maxSeen, nil
 }

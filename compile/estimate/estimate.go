@@ -55,6 +55,10 @@ var Methods = []Method{Katz, Absolute, WittenBell, KneserNey}
 const (
 	DefaultDiscount      = 0.5 // absolute discounting: a common rule of thumb
 	DefaultKatzThreshold = 5   // Katz (1987): counts above 5 are reliable
+	// MaxKatzThreshold bounds K, which sizes the count-of-counts tables
+	// (K+2 values per order); Good-Turing estimates of counts this high
+	// are noise in any corpus.
+	MaxKatzThreshold = 10000
 )
 
 // Options selects the estimator and its parameters.
@@ -121,8 +125,8 @@ func (o *Options) Validate() error {
 	if o.KatzThreshold == 0 {
 		o.KatzThreshold = DefaultKatzThreshold
 	}
-	if o.KatzThreshold < 1 {
-		return fmt.Errorf("katz threshold %d must be at least 1", o.KatzThreshold)
+	if o.KatzThreshold < 1 || o.KatzThreshold > MaxKatzThreshold {
+		return fmt.Errorf("katz threshold %d outside 1..%d", o.KatzThreshold, MaxKatzThreshold)
 	}
 	return nil
 }

@@ -17,13 +17,7 @@ import (
 )
 
 // Error reports bad input with the file and line where it was found.
-type Error struct {
-	File string
-	Line int
-	Msg  string
-}
-
-func (e *Error) Error() string { return fmt.Sprintf("%s:%d: %s", e.File, e.Line, e.Msg) }
+type Error = input.Error
 
 // IsMarker reports whether tok is one of <s>, </s>, <unk>.
 func IsMarker(tok string) bool {
@@ -37,7 +31,7 @@ func Sentences(name string, r io.Reader, allowMarkers bool, fn func(tokens []str
 	var toks []string
 	err := input.Lines(r, func(b []byte, n int) error {
 		if !utf8.Valid(b) {
-			return &Error{name, n, "invalid UTF-8"}
+			return &Error{File: name, Line: n, Msg: "invalid UTF-8"}
 		}
 		toks = appendFields(toks[:0], string(b))
 		if len(toks) == 0 {
@@ -46,21 +40,34 @@ func Sentences(name string, r io.Reader, allowMarkers bool, fn func(tokens []str
 		if !allowMarkers {
 			for _, t := range toks {
 				if IsMarker(t) {
-					return &Error{name, n, fmt.Sprintf("marker %s inside raw text", t)}
+					return &Error{File: name, Line: n, Msg: fmt.Sprintf("marker %s inside raw text", t)}
 				}
 			}
 		}
 		return fn(toks, n)
 	})
-	if err != nil {
-		if _, ok := err.(*Error); ok {
-			return err
-		}
-		return fmt.Errorf("%s: %w", name, err)
-	}
-	return nil
+	return input.Named(name, err)
 }
 
 func appendFields(dst []string, s string) []string {
 	return append(dst, strings.Fields(s)...)
 }
+
+// HeldOut reads held-out text (text to score or to measure perplexity on)
+// exactly as training text is read: a marker inside it is an error naming
+// the file and line, as count reports it. Text without a sentence is an
+// error too, the same one everywhere, rather than a perplexity of NaN.
+func HeldOut(name string, r io.Reader, fn func(tokens []string, line int) error) error {
+	seen := false
+	err := Sentences(name, r, false, func(toks []string, line int) error {
+		seen = true
+		return fn(toks, line)
+	})
+	if err == nil && !seen {
+		err = NoSentences(name)
+	}
+	return err
+}
+
+// NoSentences is the error for text that holds no sentence.
+func NoSentences(name string) error { return fmt.Errorf("no sentences in %s", name) }

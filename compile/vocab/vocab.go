@@ -66,10 +66,7 @@ func Read(name string, r io.Reader) (*List, error) {
 		return nil
 	})
 	if err != nil {
-		if _, ok := err.(*text.Error); ok {
-			return nil, err
-		}
-		return nil, fmt.Errorf("%s: %w", name, err)
+		return nil, input.Named(name, err)
 	}
 	if len(first) == 0 {
 		return nil, fmt.Errorf("%s: no words in the word list", name)

@@ -113,3 +113,26 @@ func ReadExactly(f *os.File, size int64) ([]byte, error) {
 	}
 	return b, nil
 }
+
+// FirstRepeat returns the positions of the first two paths that name the
+// same file (the same device and inode: links and different spellings of a
+// path resolved). Paths that do not exist, and "-", are left out.
+func FirstRepeat(paths []string) (i, j int, ok bool) {
+	infos := make([]fs.FileInfo, len(paths))
+	for k, p := range paths {
+		if p == "-" {
+			continue
+		}
+		if st, err := os.Stat(p); err == nil {
+			infos[k] = st
+		}
+	}
+	for j := range infos {
+		for i := range j {
+			if infos[i] != nil && infos[j] != nil && os.SameFile(infos[i], infos[j]) {
+				return i, j, true
+			}
+		}
+	}
+	return 0, 0, false
+}

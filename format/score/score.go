@@ -11,6 +11,7 @@ package score
 import (
 	"io"
 	"math"
+	"slices"
 
 	"ingot/compile/tables"
 	"ingot/compile/text"
@@ -117,18 +118,32 @@ func (sc *Scorer) Score(tokens []string) *Sentence {
 }
 
 // Text scores every sentence of r (named name in errors), calling fn with
-// each, and returns the summary.
+// each, and returns the summary. The whole text is read and checked first,
+// as held-out text (text.HeldOut: markers and empty text are errors), so
+// that fn sees no sentence of an input that turns out to be bad; the text's
+// tokens are held in memory meanwhile.
 func Text(m *format.Model, name string, r io.Reader, fn func(*Sentence) error) (Summary, error) {
-	sc := NewScorer(m)
-	var sum Summary
-	err := text.Sentences(name, r, true, func(toks []string, line int) error {
-		s := sc.Score(toks)
-		s.Line = line
-		sum.Add(s)
-		if fn != nil {
-			return fn(s)
-		}
+	var sentences [][]string
+	var lines []int
+	err := text.HeldOut(name, r, func(toks []string, line int) error {
+		sentences = append(sentences, slices.Clone(toks))
+		lines = append(lines, line)
 		return nil
 	})
-	return sum, err
+	if err != nil {
+		return Summary{}, err
+	}
+	sc := NewScorer(m)
+	var sum Summary
+	for i, toks := range sentences {
+		s := sc.Score(toks)
+		s.Line = lines[i]
+		sum.Add(s)
+		if fn != nil {
+			if err := fn(s); err != nil {
+				return sum, err
+			}
+		}
+	}
+	return sum, nil
 }

@@ -34,7 +34,7 @@ func TestUniformModelHasPerplexityV(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	text := "turn the beacon on\nturn the zebra off now\n<s> on\n"
+	text := "turn the beacon on\nturn the zebra off now\nlighthouse on\n"
 	sum, err := Text(m, "t", strings.NewReader(text), nil)
 	if err != nil {
 		t.Fatal(err)
@@ -90,5 +90,31 @@ func TestScorerMatchedOrder(t *testing.T) {
 	s = NewScorer(m).Score([]string{"a"})
 	if fmt.Sprint(s.MatchedOrder) != "[2 2]" {
 		t.Errorf("\"a\": matched orders %v, want [2 2]", s.MatchedOrder)
+	}
+}
+
+// Held-out text is read as count reads training text: a marker inside it is
+// an error naming the line, and no sentence at all is an error, not NaN.
+// Nothing is scored of a text that turns out to be bad.
+func TestTextRefusesWhatCountRefuses(t *testing.T) {
+	vocab := []string{"</s>", "<s>", "<unk>", "a"}
+	tb := &tables.Tables{Vocab: vocab, Levels: []tables.Level{{Words: []uint32{0, 1, 2, 3}, LogProb: []float32{-0.5, tables.NoProb, -1, -0.3}}}}
+	data, _ := format.Marshal(tb)
+	m, _ := format.FromBytes(data)
+	for text, want := range map[string]string{
+		"a a\n<s> a\n":  "t:2: marker <s> inside raw text",
+		"a\na </s> a\n": "t:2: marker </s> inside raw text",
+		"a\n<unk>\n":    "t:2: marker <unk> inside raw text",
+		"":              "no sentences in t",
+		"\n  \n":        "no sentences in t",
+	} {
+		called := 0
+		_, err := Text(m, "t", strings.NewReader(text), func(*Sentence) error { called++; return nil })
+		if err == nil || err.Error() != want {
+			t.Errorf("%q: %v, want %q", text, err, want)
+		}
+		if called > 0 {
+			t.Errorf("%q: %d sentences passed on before the error", text, called)
+		}
 	}
 }

@@ -108,7 +108,7 @@ func CompareWithProgress(candidate, baseline *format.Model, name string, heldout
 	sc, sb := score.NewScorer(candidate), score.NewScorer(baseline)
 	var sumC, sumB score.Summary
 	var kl float64
-	err = text.Sentences(name, heldout, true, func(tokens []string, _ int) error {
+	err = text.HeldOut(name, heldout, func(tokens []string, _ int) error {
 		sumC.Add(sc.Score(tokens))
 		sumB.Add(sb.Score(tokens))
 		kl += div.Sentence(tokens)
