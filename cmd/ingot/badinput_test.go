@@ -91,6 +91,7 @@ func TestBadInputEverywhere(t *testing.T) {
 	for name, text := range files {
 		writeFile(t, dir, name, text)
 	}
+	hardeningFiles(t, dir)
 	good, _ := os.ReadFile(model)
 	os.WriteFile(filepath.Join(dir, "truncated.ingot"), good[:len(good)/2], 0o644)
 	future := append([]byte(nil), good...)

@@ -56,6 +56,9 @@ the written model on --heldout TEXT (default: the --fit text).`,
 			if heldout == "" {
 				heldout = fit
 			}
+			if err := checkOutput("interpolate", out, append([]string{fit, heldout}, args...)...); err != nil {
+				return err
+			}
 			// Read every input before writing anything.
 			var fitText, evalText [][]string
 			if fit != "" {

@@ -137,7 +137,7 @@ internal error (a bug), 134 (SIGABRT) a fatal runtime error.`,
 
 // readsLines names the commands that read text or count files, which take
 // --max-line.
-var readsLines = map[string]bool{"count": true, "compile": true, "score": true, "prune": true, "verify": true, "tradeoff": true}
+var readsLines = map[string]bool{"count": true, "compile": true, "score": true, "prune": true, "verify": true, "tradeoff": true, "interpolate": true}
 
 // addMaxLineFlag gives cmd the --max-line option, the line-length cap of
 // package input, applied before the command runs.

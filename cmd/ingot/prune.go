@@ -60,7 +60,7 @@ held-out text.`,
 				}
 			}
 			var qopt quantize.Options
-			for _, flag := range []string{"bow-bits", "trainer"} {
+			for _, flag := range []string{"backoff-bits", "trainer"} {
 				if qf.bits == 0 && cmd.Flags().Changed(flag) {
 					return fmt.Errorf("prune: --%s applies only with --bits", flag)
 				}

@@ -46,9 +46,18 @@ probability was used: 1 for a unigram, 0 for a word outside the vocabulary.
 			}
 			w := bufio.NewWriter(cmd.OutOrStdout())
 			defer w.Flush()
-			var all score.Summary
+			// Every input is read and checked before anything is printed.
+			var held []*score.HeldOut
 			for _, name := range texts {
-				sum, err := scoreFile(w, m, name, asJSON, summaryOnly)
+				h, err := readHeldOut(name)
+				if err != nil {
+					return err
+				}
+				held = append(held, h)
+			}
+			var all score.Summary
+			for _, h := range held {
+				sum, err := scoreFile(w, m, h, asJSON, summaryOnly)
 				if err != nil {
 					return err
 				}
@@ -91,18 +100,24 @@ type sentenceJSON struct {
 	SentencePerplexityNoUnk inspect.Number   `json:"sentence_perplexity_without_unk"`
 }
 
-func scoreFile(w io.Writer, m *format.Model, name string, asJSON, summaryOnly bool) (score.Summary, error) {
+// readHeldOut reads and checks one text to score ("-": standard input).
+func readHeldOut(name string) (*score.HeldOut, error) {
 	r, err := input.Open(name)
 	if err != nil {
-		return score.Summary{}, fmt.Errorf("score: %w", err)
+		return nil, fmt.Errorf("score: %w", err)
 	}
 	defer r.Close()
 	shown := name
 	if name == input.Stdin {
 		shown = "stdin"
 	}
+	return score.ReadHeldOut(shown, r)
+}
+
+func scoreFile(w io.Writer, m *format.Model, h *score.HeldOut, asJSON, summaryOnly bool) (score.Summary, error) {
+	shown := h.Name
 	enc := newEncoder(w)
-	return score.Text(m, shown, r, func(s *score.Sentence) error {
+	return h.Score(m, func(s *score.Sentence) error {
 		if summaryOnly {
 			return nil
 		}

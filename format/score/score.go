@@ -123,21 +123,45 @@ func (sc *Scorer) Score(tokens []string) *Sentence {
 // that fn sees no sentence of an input that turns out to be bad; the text's
 // tokens are held in memory meanwhile.
 func Text(m *format.Model, name string, r io.Reader, fn func(*Sentence) error) (Summary, error) {
-	var sentences [][]string
-	var lines []int
-	err := text.HeldOut(name, r, func(toks []string, line int) error {
-		sentences = append(sentences, slices.Clone(toks))
-		lines = append(lines, line)
-		return nil
-	})
+	h, err := ReadHeldOut(name, r)
 	if err != nil {
 		return Summary{}, err
 	}
+	return h.Score(m, fn)
+}
+
+// HeldOut is held-out text read and checked whole, ready to score.
+type HeldOut struct {
+	Name      string
+	sentences [][]string
+	lines     []int
+}
+
+// ReadHeldOut reads and checks the held-out text of r (named name in
+// errors) as text.HeldOut does, holding its tokens in memory. A program
+// that scores several inputs reads them all first, so that a bad one is
+// refused before any result is printed.
+func ReadHeldOut(name string, r io.Reader) (*HeldOut, error) {
+	h := &HeldOut{Name: name}
+	err := text.HeldOut(name, r, func(toks []string, line int) error {
+		h.sentences = append(h.sentences, slices.Clone(toks))
+		h.lines = append(h.lines, line)
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	return h, nil
+}
+
+// Score scores every sentence with m, calling fn (when not nil) with each,
+// and returns the summary.
+func (h *HeldOut) Score(m *format.Model, fn func(*Sentence) error) (Summary, error) {
 	sc := NewScorer(m)
 	var sum Summary
-	for i, toks := range sentences {
+	for i, toks := range h.sentences {
 		s := sc.Score(toks)
-		s.Line = lines[i]
+		s.Line = h.lines[i]
 		sum.Add(s)
 		if fn != nil {
 			if err := fn(s); err != nil {
