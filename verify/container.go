@@ -244,9 +244,12 @@ func (v *verifier) checkPadding() {
 		zeros(v.data[pos:e.Offset], "padding before "+e.Name(), pos)
 		pos = e.Offset + e.Length
 	}
-	zeros(v.data[pos:], "padding at the end of the file", pos)
+	// The length is checked before the bytes: an extended (or sparse)
+	// file is refused without reading its whole tail.
 	if tail := int64(len(v.data)) - pos; tail >= alignment {
 		c.problem("end of file", pos, "%d bytes follow the last section; at most %d bytes of padding may", tail, alignment-1)
+	} else {
+		zeros(v.data[pos:], "padding at the end of the file", pos)
 	}
 	c.Detail = "zero"
 }
