@@ -146,9 +146,9 @@ perplexity, listing what it compared.`,
 			}
 			var note string
 			if c.Order() < order {
-				// Every n-gram of the highest order present is a whole
-				// sentence: the text has none longer to count.
-				note = fmt.Sprintf("the counts hold no n-gram above order %d (every %d-gram is a whole sentence, <s> to </s>): built a model of order %d, the most they allow", c.Order(), c.Order(), c.Order())
+				// The counts show that the text has no longer n-gram
+				// (counts.Load refuses counts merely cut short).
+				note = fmt.Sprintf("the counts hold no n-gram above order %d (the text has no longer one): built a model of order %d, the most they allow", c.Order(), c.Order())
 				fmt.Fprintf(cmd.ErrOrStderr(), "ingot: compile: %s\n", note)
 				order, opt.Order = c.Order(), c.Order()
 				for k := range cutoffs {

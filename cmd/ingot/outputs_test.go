@@ -147,17 +147,35 @@ func TestKeygenRace(t *testing.T) {
 	}
 }
 
-// Counts of order 10 from sentences too short for 10-grams (every n-gram of
-// the highest order present is a whole sentence) build the highest order
-// they hold, and compile says so; counts cut off at a lower order are still
-// refused (see "order above the counts" in the bad-input table).
+// Counts of order 10 from sentences too short for 10-grams build the
+// highest order they hold, and compile says so: binary counts record the
+// order they were counted at, and in text counts every n-gram of the
+// highest order present is a whole sentence. Counts cut off at a lower
+// order are still refused (see "order above the counts" in the bad-input
+// table).
 func TestCompileBuildsTheOrderTheCountsAllow(t *testing.T) {
 	dir := t.TempDir()
 	text := writeFile(t, dir, "short.txt", "turn on\nturn off\nturn the beacon on\n")
-	counts := filepath.Join(dir, "c.tsv")
-	if code, _, e := ingot(t, "count", "--order", "10", "-o", counts, text); code != 0 {
+	for _, form := range []string{"--text", "--text=false"} {
+		counts := filepath.Join(dir, "c"+form)
+		if code, _, e := ingot(t, "count", "--order", "10", form, "-o", counts, text); code != 0 {
+			t.Fatal(e)
+		}
+		compileShortCounts(t, dir, counts)
+	}
+	// Text counts of order 3 from the same sentences are cut short: their
+	// 3-grams are not whole sentences.
+	cut := filepath.Join(dir, "cut.txt")
+	if code, _, e := ingot(t, "count", "--order", "3", "--text", "-o", cut, text); code != 0 {
 		t.Fatal(e)
 	}
+	if code, _, e := ingot(t, "compile", "--method", "witten-bell", "--order", "10", "-o", filepath.Join(dir, "x.ingot"), cut); code != exitBadInput || !strings.Contains(e, "counts hold orders up to 3, order 10 asked") {
+		t.Errorf("counts cut at order 3: exit %d, %q", code, e)
+	}
+}
+
+func compileShortCounts(t *testing.T, dir, counts string) {
+	t.Helper()
 	model := filepath.Join(dir, "m.ingot")
 	code, _, stderr := ingot(t, "compile", "--method", "witten-bell", "--order", "10", "-o", model, counts)
 	if code != 0 {
@@ -210,11 +228,11 @@ func TestGzipOnStandardInput(t *testing.T) {
 	os.Stdin = r
 	defer func() { os.Stdin = saved }()
 	out := filepath.Join(dir, "c.tsv")
-	if code, _, e := ingot(t, "count", "--order", "2", "-o", out); code != 0 {
+	if code, _, e := ingot(t, "count", "--order", "2", "--text", "-o", out); code != 0 {
 		t.Fatalf("count from gzip on stdin: %s", e)
 	}
 	b, _ := os.ReadFile(out)
-	if !strings.Contains(string(b), "turn the\t1\n") {
+	if !strings.Contains(string(b), "1\tturn the\n") {
 		t.Errorf("counts:\n%s", b)
 	}
 }

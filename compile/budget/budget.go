@@ -50,7 +50,8 @@ import (
 type Options struct {
 	// Estimate is the method, the order and the method's parameters.
 	Estimate estimate.Options
-	// MaxBytes is the budget: the written file's size in bytes.
+	// MaxBytes is the budget: the written file's size in bytes, once signed
+	// (format.SignatureSpace bytes are left for a signature).
 	MaxBytes int64
 	// Quantize, when Bits is not 0, quantizes the pruned model; the budget
 	// applies to the quantized file.
@@ -278,6 +279,8 @@ func (b *Builder) fitOrder(n int, maxBytes int64) (*tables.Tables, *estimate.Rep
 func FitFinished(t *tables.Tables, scores prune.Scores, maxBytes int64, q quantize.Options,
 	shaped func(th float64, keep [][]bool) *tables.Tables,
 	finish func(th float64, keep [][]bool) (*tables.Tables, error)) (m *tables.Tables, th float64, keep [][]bool, size int64, err error) {
+	// Every size compared counts the signature the file may get
+	// (format.SignatureSpace), so that a signed model still fits.
 	target := maxBytes
 	for attempt := 1; ; attempt++ {
 		th, keep, _, err = prune.Fit(t, scores, target, func(th float64, kp [][]bool) (int64, error) {
@@ -285,7 +288,8 @@ func FitFinished(t *tables.Tables, scores prune.Scores, maxBytes int64, q quanti
 			if q.Bits != 0 {
 				p = quantize.Placeholder(p, q)
 			}
-			return format.Size(p)
+			n, err := format.Size(p)
+			return n + format.SignatureSpace, err
 		})
 		if err != nil {
 			return nil, 0, nil, 0, err
@@ -296,13 +300,14 @@ func FitFinished(t *tables.Tables, scores prune.Scores, maxBytes int64, q quanti
 		if size, err = format.Size(m); err != nil {
 			return nil, 0, nil, 0, err
 		}
-		if size <= maxBytes {
+		signed := size + format.SignatureSpace
+		if signed <= maxBytes {
 			return m, th, keep, size, nil
 		}
 		if attempt == maxAttempts {
-			return nil, 0, nil, 0, fmt.Errorf("after %d attempts the model still takes %d bytes, over the budget of %d", attempt, size, maxBytes)
+			return nil, 0, nil, 0, fmt.Errorf("after %d attempts the model still takes %d bytes once signed, over the budget of %d", attempt, signed, maxBytes)
 		}
-		target -= size - maxBytes
+		target -= signed - maxBytes
 	}
 }
 

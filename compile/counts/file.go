@@ -27,10 +27,11 @@ type Source struct {
 // line of a text file is reported as a *text.Error with file and line
 // number; a problem in a binary file names the file and the byte offset.
 //
-// Text counts whose highest order M is below order are refused, unless
-// every M-gram is a whole sentence (<s> ... </s>): then no longer n-gram
-// can exist whatever order the text was counted at, and Load returns counts
-// of order M (Order() tells; the caller says so).
+// Counts whose highest order M is below order are refused, unless they
+// cannot hold more: every M-gram is a whole sentence (<s> ... </s>), so no
+// longer n-gram exists whatever order the text was counted at, or every
+// file is binary and records that it was counted at order or above. Then
+// Load returns counts of order M (Order() tells; the caller says so).
 func Load(order int, sources []Source) (*Counts, error) {
 	if order < 1 || order > tables.MaxOrder {
 		return nil, fmt.Errorf("order %d outside 1..%d", order, tables.MaxOrder)
@@ -207,4 +208,20 @@ func (b *builder) join(g []uint32) string {
 		s[i] = b.words[id]
 	}
 	return strings.Join(s, " ")
+}
+
+// wholeSentences reports whether every entry of order k (k >= 2) begins
+// with <s> and ends with </s>.
+func (c *Counts) wholeSentences(k int) bool {
+	start, ok1 := c.ID(tables.SentenceStart)
+	end, ok2 := c.ID(tables.SentenceEnd)
+	if k < 2 || k > len(c.Levels) || !ok1 || !ok2 {
+		return false
+	}
+	for i := 0; i < c.Len(k); i++ {
+		if g := c.Gram(k, i); g[0] != start || g[k-1] != end {
+			return false
+		}
+	}
+	return true
 }

@@ -292,7 +292,17 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 		return nil, fmt.Errorf("no n-grams in %s", names(sources))
 	}
 	if maxSeen < order {
-		return nil, fmt.Errorf("counts hold orders up to %d, order %d asked", maxSeen, order)
+		// Binary files record the order they were counted at: counted at
+		// order or above, the missing orders have no n-gram to hold. So
+		// when every n-gram of the top order is a whole sentence.
+		counted := textCounts == nil
+		for _, s := range bins {
+			counted = counted && s.r.Header().Order >= order
+		}
+		if !counted && !c.wholeSentences(maxSeen) {
+			return nil, fmt.Errorf("counts hold orders up to %d, order %d asked", maxSeen, order)
+		}
+		c.Truncate(maxSeen)
 	}
 	for _, n := range c.Levels[0].Counts {
 		if n > 0 {
