@@ -5,6 +5,7 @@ package main
 import (
 	"bytes"
 	"crypto/ed25519"
+	"encoding/json"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -185,8 +186,9 @@ func compileShortCounts(t *testing.T, dir, counts string) {
 		t.Errorf("compile did not say what it built: %q", stderr)
 	}
 	code, out, _ := ingot(t, "inspect", "--json", model)
-	if code != 0 || !strings.Contains(out, `"order": 6`) {
-		t.Errorf("inspect: exit %d, model is not of order 6:\n%.400s", code, out)
+	var summary struct{ Order int }
+	if err := json.Unmarshal([]byte(out), &summary); code != 0 || err != nil || summary.Order != 6 {
+		t.Errorf("inspect: exit %d, %v, order %d, want 6", code, err, summary.Order)
 	}
 	if code, _, e := ingot(t, "verify", model); code != 0 {
 		t.Errorf("verify: %s", e)

@@ -70,7 +70,9 @@ held-out text.`,
 					return err
 				}
 			}
-			if err := checkOutput("prune", out, args[0], heldout); err != nil {
+			// -o may name the model itself (it is read whole first and
+			// replaced atomically), never the held-out text.
+			if err := checkOutput("prune", out, heldout); err != nil {
 				return err
 			}
 			if err := checkHeldout("prune", heldout); err != nil {

@@ -71,7 +71,9 @@ back-off codebook is widened where that needs it); 'ingot verify' allows
 			if err != nil {
 				return err
 			}
-			if err := checkOutput("quantize", out, args[0], heldout); err != nil {
+			// -o may name the model itself (it is read whole first and
+			// replaced atomically), never the held-out text.
+			if err := checkOutput("quantize", out, heldout); err != nil {
 				return err
 			}
 			if err := checkHeldout("quantize", heldout); err != nil {
