@@ -14,10 +14,12 @@ import (
 // of bits.
 //
 // A roaring bitmap (its portable serialization is a published format) was
-// measured for the same job: on the marks of a 5-gram model its bitmap
-// containers take the same bit per entry, and its serialization keeps no
-// running counts, so a rank must add up the cardinalities of every
-// container before the entry's, a cost that grows with the model.
+// considered for the same job, on design grounds only (not measured): where
+// almost every entry is a context, as in the 5-gram models tried, its
+// bitmap containers would take the same bit per entry, and its
+// serialization keeps no running counts, so a rank would have to add up the
+// cardinalities of every container before the entry's, a cost that grows
+// with the model.
 
 // marksHeader is the size of a marks section's fixed fields.
 const marksHeader = 16
