@@ -325,26 +325,14 @@ func floatBytes(v []float32) []byte {
 	return b
 }
 
-// childStarts returns the n_k+1 child-start values of order k: entry i's
-// children at order k+1 are [start[i], start[i+1]). Entries of order k+1 are
-// sorted, and their (k)-word prefixes are stored at order k in the same
-// order, so one merge pass finds every parent.
+// childStarts returns the n_k+1 child-start values of order k
+// (childStartValues) as the little-endian 32-bit column of versions 1 and 2:
+// entry i's children at order k+1 are [start[i], start[i+1]).
 func childStarts(t *tables.Tables, k int) []byte {
-	nk, next := t.Len(k), t.Len(k+1)
-	counts := make([]uint32, nk+1)
-	parent := 0
-	for e := 0; e < next; e++ {
-		prefix := t.Gram(k+1, e)[:k]
-		for parent < nk && tables.Compare(t.Gram(k, parent), prefix) < 0 {
-			parent++
-		}
-		counts[parent+1]++ // Check guarantees the prefix is stored
-	}
-	b := make([]byte, 4*(nk+1))
-	var sum uint32
-	for i := 0; i <= nk; i++ {
-		sum += counts[i]
-		putU32(b[4*i:], sum)
+	starts := childStartValues(t, k)
+	b := make([]byte, 4*len(starts))
+	for i, v := range starts {
+		putU32(b[4*i:], v)
 	}
 	return b
 }

@@ -83,8 +83,10 @@ func buildSections3(t *tables.Tables) ([]section, error) {
 // 3: every value but +0.0 (weight 1), which unmarked entries read as.
 func hasBackoff(b float32) bool { return math.Float32bits(b) != 0 }
 
-// childStartValues returns the n_k+1 child starts of order k (see
-// childStarts).
+// childStartValues returns the n_k+1 child starts of order k: entry i's
+// children at order k+1 are [start[i], start[i+1]). Entries of order k+1 are
+// sorted, and their k-word prefixes are stored at order k in the same order,
+// so one merge pass finds every parent.
 func childStartValues(t *tables.Tables, k int) []uint32 {
 	nk, next := t.Len(k), t.Len(k+1)
 	out := make([]uint32, nk+1)
