@@ -23,6 +23,7 @@ type buildInfo struct {
 	ToolVersion            string               `json:"tool_version,omitempty"`
 	BuildTime              string               `json:"build_time,omitempty"`
 	History                []string             `json:"history,omitempty"`
+	Commands               []tables.Command     `json:"commands,omitempty"`
 	Quantization           *tables.Quantization `json:"quantization,omitempty"`
 }
 
@@ -77,6 +78,7 @@ func marshalInfo(info tables.Info) ([]byte, error) {
 		ToolVersion:            info.ToolVersion,
 		BuildTime:              info.BuildTime,
 		History:                info.History,
+		Commands:               info.Commands,
 		Quantization:           info.Quantization,
 	}
 	if info.Discounts != nil {
@@ -114,6 +116,7 @@ func unmarshalInfo(data []byte) (tables.Info, error) {
 		ToolVersion:            b.ToolVersion,
 		BuildTime:              b.BuildTime,
 		History:                b.History,
+		Commands:               b.Commands,
 		Quantization:           b.Quantization,
 	}
 	if b.Discounts != nil {

@@ -39,6 +39,9 @@ type Summary struct {
 	// History lists the steps applied after estimation (cutoffs, pruning,
 	// quantization), oldest first.
 	History []string `json:"history"`
+	// Commands lists, oldest first, the commands that wrote the model:
+	// command line, size budget and SHA-256 digests of their inputs.
+	Commands []tables.Command `json:"commands"`
 	// Quantization describes the codebooks; nil when no column is quantized.
 	Quantization *Quantization `json:"quantization"`
 	// EmptyContextLog10Backoff is log10 of the weight of the uniform
@@ -129,6 +132,7 @@ func Summarize(m *format.Model) Summary {
 		RulesApplied:             nonNil(info.Fallbacks),
 		BuildOptions:             info.Options,
 		History:                  nonNil(info.History),
+		Commands:                 nonNil(info.Commands),
 		EmptyContextLog10Backoff: Number(info.EmptyContextLogBackoff),
 		ToolVersion:              info.ToolVersion,
 		SuffixClosed:             m.SuffixClosed(),
@@ -229,9 +233,9 @@ func recordedOrNaN(v float64, ok bool) Number {
 }
 
 // nonNil returns s, or an empty slice for nil, so that JSON shows [].
-func nonNil(s []string) []string {
+func nonNil[T any](s []T) []T {
 	if s == nil {
-		return []string{}
+		return []T{}
 	}
 	return s
 }

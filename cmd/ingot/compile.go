@@ -4,19 +4,13 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"os"
-	"strconv"
 	"strings"
 	"text/tabwriter"
-	"time"
 
 	"github.com/spf13/cobra"
 
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
-	"ingot/compile/input"
-	"ingot/compile/prune"
-	"ingot/compile/tables"
+	"ingot/compile/pipeline"
 	"ingot/compile/vocab"
 	"ingot/format"
 	"ingot/format/files"
@@ -82,8 +76,8 @@ perplexity, listing what it compared.`,
 			if threshold < 1 || threshold > estimate.MaxKatzThreshold {
 				return fmt.Errorf("compile: --katz-threshold %d outside 1..%d", threshold, estimate.MaxKatzThreshold)
 			}
-			if err := parseDiscount(discount, &opt); err != nil {
-				return err
+			if err := pipeline.ParseDiscount(discount, &opt); err != nil {
+				return fmt.Errorf("compile: %w", err)
 			}
 			if err := opt.Validate(); err != nil {
 				return fmt.Errorf("compile: %w", err)
@@ -91,9 +85,9 @@ perplexity, listing what it compared.`,
 			if out == "" {
 				return fmt.Errorf("compile: -o MODEL is required")
 			}
-			cutoffs, err := parseCutoffs(minCounts, order)
+			cutoffs, err := pipeline.ParseCutoffs(minCounts, order)
 			if err != nil {
-				return err
+				return fmt.Errorf("compile: %w", err)
 			}
 			list, err := loadWordList("compile", wordList)
 			if err != nil {
@@ -105,32 +99,6 @@ perplexity, listing what it compared.`,
 			if bf.set() && len(cutoffs) > 0 {
 				return fmt.Errorf("compile: give --max-size or --min-count, not both")
 			}
-			stamp := func(info *tables.Info) error {
-				info.ToolVersion = version
-				var err error
-				if info.BuildTime, err = buildTime(); err != nil {
-					return err
-				}
-				info.Options = map[string]string{
-					"method": method, "order": strconv.Itoa(order),
-				}
-				if opt.Method == estimate.Absolute {
-					info.Options["discount"] = discount
-				}
-				if opt.Method == estimate.Katz {
-					info.Options["katz-threshold"] = strconv.Itoa(opt.KatzThreshold)
-				}
-				if minCounts != "" {
-					info.Options["min-count"] = minCounts
-				}
-				if list != nil {
-					info.Options["vocabulary"] = fmt.Sprintf("%d words, sha256 %s", list.Len(), list.Digest())
-				}
-				if bf.set() {
-					info.Options["max-size"] = bf.maxSize
-				}
-				return nil
-			}
 			pr := newProgress(cmd.ErrOrStderr())
 			defer pr.done()
 			if err := checkOutput("compile", out, append([]string{wordList}, args...)...); err != nil {
@@ -139,70 +107,45 @@ perplexity, listing what it compared.`,
 			if i, j, ok := files.FirstRepeat(args); ok && !repeats {
 				return fmt.Errorf("compile: %s and %s are the same file: its counts would be added twice (give --allow-repeats to weight it so on purpose)", args[i], args[j])
 			}
-			pr.step("reading counts")
-			c, err := loadCounts(order, args)
-			if err != nil {
-				return err
+			run := pipeline.Compile{
+				Estimate: opt, Discount: discount, MinCount: minCounts, Vocabulary: list,
+				MaxSize: bf.maxSize, ToolVersion: version,
+				Progress: func(s string) { pr.step("%s", s) },
+				Warn:     func(s string) { fmt.Fprintf(cmd.ErrOrStderr(), "ingot: compile: %s\n", s) },
 			}
-			var note string
-			if c.Order() < order {
-				// The counts show that the text has no longer n-gram
-				// (counts.Load refuses counts merely cut short).
-				note = fmt.Sprintf("the counts hold no n-gram above order %d (the text has no longer one): built a model of order %d, the most they allow", c.Order(), c.Order())
-				fmt.Fprintf(cmd.ErrOrStderr(), "ingot: compile: %s\n", note)
-				order, opt.Order = c.Order(), c.Order()
-				for k := range cutoffs {
-					if k > order {
-						delete(cutoffs, k)
-					}
-				}
-			}
-			if list != nil {
-				c = c.MapVocabulary(list)
+			if run.BuildTime, err = pipeline.BuildTime(); err != nil {
+				return fmt.Errorf("compile: %w", err)
 			}
 			if bf.set() {
-				return compileToBudget(commandIO{cmd.Context(), cmd.OutOrStdout()}, c, opt, bf, out, pr,
-					stamp, asJSON)
+				if run.Budget, err = bf.options(); err != nil {
+					return err
+				}
 			}
-			pr.step("estimating %s, order %d", method, order)
-			t, rep, err := estimate.Estimate(c, opt)
-			var oe *estimate.OptionError
-			if errors.As(err, &oe) {
-				return fmt.Errorf("compile: --%s %v: %w", oe.Option, oe.Value, oe.Err)
+			pr.step("reading counts")
+			c, inputs, err := pipeline.LoadCounts(order, args)
+			if err != nil {
+				return fmt.Errorf("compile: %w", err)
+			}
+			run.Command = pipeline.Record(commandWords(cmd), bf.maxSize, inputs...)
+			res, err := run.Run(c)
+			var be *pipeline.BudgetError
+			if errors.As(err, &be) {
+				return checkFailed{fmt.Errorf("compile: %w", err)}
 			}
 			if err != nil {
 				return fmt.Errorf("compile: %w", err)
 			}
-			if len(cutoffs) > 0 {
-				raw := make([][]uint64, order)
-				for k := range raw {
-					raw[k] = c.Levels[k].Counts
-				}
-				keep, err := prune.Cutoffs(t, raw, cutoffs)
-				if err != nil {
-					return fmt.Errorf("compile: --min-count: %w", err)
-				}
-				t = prune.Apply(t, keep)
-				t.Info.History = append(t.Info.History, fmt.Sprintf(
-					"count cutoffs %s (kept %s n-grams per order)", minCounts, joinInts(prune.Kept(keep))))
-				for k := range rep.Orders {
-					rep.Orders[k].Cut, rep.Orders[k].Kept = true, t.Len(k+1)
-				}
-			}
-			if note != "" {
-				t.Info.History = append(t.Info.History, note)
-			}
-			if err := stamp(&t.Info); err != nil {
-				return err
-			}
 			pr.step("writing %s", out)
 			if err := writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
-				return format.Write(w, t)
+				return format.Write(w, res.Model)
 			}); err != nil {
 				return err
 			}
 			pr.done()
-			return printReport(cmd.OutOrStdout(), rep, out, asJSON)
+			if res.Fit != nil {
+				return printBudgetReport(cmd.OutOrStdout(), res.Fit, run.Budget.MaxBytes, res.Estimate.Method, res.Estimate.Order, out, asJSON)
+			}
+			return printReport(cmd.OutOrStdout(), res.Report, out, asJSON)
 		},
 	}
 	f := cmd.Flags()
@@ -236,56 +179,6 @@ func optionsApply(cmd *cobra.Command, method estimate.Method) error {
 	return nil
 }
 
-func parseDiscount(s string, opt *estimate.Options) error {
-	if s == "auto" {
-		opt.AutoDiscount = true
-		return nil
-	}
-	d, err := strconv.ParseFloat(s, 64)
-	if err != nil || !(d > 0 && d < 1) {
-		return fmt.Errorf("compile: --discount %q must be a number in (0, 1) or auto", s)
-	}
-	opt.Discount = d
-	return nil
-}
-
-// buildTime returns the build time that SOURCE_DATE_EPOCH fixes (seconds
-// since 1970, the reproducible-builds convention), or "" when it is unset:
-// models record no time of their own, so the same inputs give the same
-// bytes.
-func buildTime() (string, error) {
-	s, ok := os.LookupEnv("SOURCE_DATE_EPOCH")
-	if !ok || s == "" {
-		return "", nil
-	}
-	sec, err := strconv.ParseInt(s, 10, 64)
-	if err != nil || sec < 0 {
-		return "", fmt.Errorf("compile: SOURCE_DATE_EPOCH=%q is not a number of seconds since 1970", s)
-	}
-	return time.Unix(sec, 0).UTC().Format(time.RFC3339), nil
-}
-
-// parseCutoffs reads "K=M[,K=M...]".
-func parseCutoffs(s string, order int) (map[int]uint64, error) {
-	if s == "" {
-		return nil, nil
-	}
-	out := map[int]uint64{}
-	for _, part := range strings.Split(s, ",") {
-		ks, ms, ok := strings.Cut(strings.TrimSpace(part), "=")
-		k, err1 := strconv.Atoi(ks)
-		m, err2 := strconv.ParseUint(ms, 10, 64)
-		if !ok || err1 != nil || err2 != nil || m < 1 {
-			return nil, fmt.Errorf("compile: --min-count %q: want K=M pairs such as 3=2,4=2", s)
-		}
-		if k < 2 || k > order {
-			return nil, fmt.Errorf("compile: --min-count: order %d cannot be cut (orders 2..%d; for rare words use count --min-word-count)", k, order)
-		}
-		out[k] = m
-	}
-	return out, nil
-}
-
 // loadWordList reads the --vocabulary file, or returns nil when none is
 // given.
 func loadWordList(command, path string) (*vocab.List, error) {
@@ -297,27 +190,6 @@ func loadWordList(command, path string) (*vocab.List, error) {
 		return nil, fmt.Errorf("%s: --vocabulary: %w", command, err)
 	}
 	return l, nil
-}
-
-func loadCounts(order int, names []string) (*counts.Counts, error) {
-	var sources []counts.Source
-	for _, name := range names {
-		r, err := input.OpenRegular(name)
-		if err != nil {
-			return nil, fmt.Errorf("compile: %w", err)
-		}
-		defer r.Close()
-		shown := name
-		if name == input.Stdin {
-			shown = "stdin"
-		}
-		sources = append(sources, counts.Source{Name: shown, R: r})
-	}
-	c, err := counts.Load(order, sources)
-	if err != nil {
-		return nil, fmt.Errorf("compile: %w", err)
-	}
-	return c, nil
 }
 
 type orderJSON struct {

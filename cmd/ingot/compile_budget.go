@@ -1,7 +1,6 @@
 package main
 
 import (
-	"context"
 	"fmt"
 	"io"
 	"slices"
@@ -9,10 +8,7 @@ import (
 	"text/tabwriter"
 
 	"ingot/compile/budget"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
-	"ingot/compile/tables"
-	"ingot/format"
 )
 
 // budgetFlags are compile's options for writing a model pruned to a size.
@@ -47,48 +43,31 @@ func (b *budgetFlags) check() error {
 	return nil
 }
 
-// compileToBudget runs budget.Fit and writes the chosen model.
-func compileToBudget(cmd commandIO, c *counts.Counts, opt estimate.Options, b budgetFlags, out string, pr *progress, stamp func(*tables.Info) error, asJSON bool) error {
-	bo := budget.Options{Estimate: opt, Ranking: estimate.Method(b.rankWith)}
+// options returns the budget's options (all but the estimate).
+func (b *budgetFlags) options() (budget.Options, error) {
+	bo := budget.Options{Ranking: estimate.Method(b.rankWith)}
 	var err error
 	if bo.MaxBytes, err = parseSize(b.maxSize); err != nil {
-		return fmt.Errorf("compile: --max-size: %w", err)
+		return bo, fmt.Errorf("compile: --max-size: %w", err)
 	}
 	if b.qf.bits != 0 {
 		if bo.Quantize, err = b.qf.options("compile"); err != nil {
-			return err
+			return bo, err
 		}
 	}
 	if b.heldout != "" {
 		if bo.Heldout, err = readSentences(b.heldout); err != nil {
-			return fmt.Errorf("compile: %w", err)
+			return bo, fmt.Errorf("compile: %w", err)
 		}
 	}
-	bo.Progress = func(s string) { pr.step("%s", s) }
-	bo.Describe = stamp
-	res, err := budget.Fit(c, bo)
-	if err != nil {
-		return checkFailed{fmt.Errorf("compile: --max-size %s: %w", b.maxSize, err)}
-	}
-	pr.step("writing %s", out)
-	if err := writeOutput(cmd.ctx, out, cmd.stdout, func(w io.Writer) error { return format.Write(w, res.Model) }); err != nil {
-		return err
-	}
-	pr.done()
-	return printBudgetReport(cmd.stdout, res, bo, out, asJSON)
+	return bo, nil
 }
 
-// commandIO is what compileToBudget needs of the cobra command.
-type commandIO struct {
-	ctx    context.Context
-	stdout io.Writer
-}
-
-func printBudgetReport(w io.Writer, res *budget.Result, bo budget.Options, out string, asJSON bool) error {
+func printBudgetReport(w io.Writer, res *budget.Result, maxBytes int64, method estimate.Method, order int, out string, asJSON bool) error {
 	if asJSON {
 		v := map[string]any{
-			"model": out, "method": string(bo.Estimate.Method), "order": res.Chosen.Order,
-			"max_bytes": bo.MaxBytes, "file_bytes": res.Chosen.FileBytes, "ranked_by": string(res.Ranking),
+			"model": out, "method": string(method), "order": res.Chosen.Order,
+			"max_bytes": maxBytes, "file_bytes": res.Chosen.FileBytes, "ranked_by": string(res.Ranking),
 			"threshold": res.Chosen.Threshold, "ngrams_per_order": res.Chosen.NGrams, "orders_compared": res.Candidates,
 		}
 		if res.Chosen.Perplexity > 0 {
@@ -96,8 +75,8 @@ func printBudgetReport(w io.Writer, res *budget.Result, bo budget.Options, out s
 		}
 		return writeJSON(w, v)
 	}
-	fmt.Fprintf(w, "wrote %s (%s, order %d): %s, budget %s\n", out, bo.Estimate.Method, res.Chosen.Order,
-		humanSize(res.Chosen.FileBytes), humanSize(bo.MaxBytes))
+	fmt.Fprintf(w, "wrote %s (%s, order %d): %s, budget %s\n", out, method, res.Chosen.Order,
+		humanSize(res.Chosen.FileBytes), humanSize(maxBytes))
 	fmt.Fprintf(w, "n-grams ranked by relative entropy on the %s model; threshold %.6g nats\n", res.Ranking, res.Chosen.Threshold)
 	for k, n := range res.Chosen.NGrams {
 		fmt.Fprintf(w, "  order %d: kept %d of %d n-grams\n", k+1, n, res.Report.Orders[k].NGrams)
@@ -118,9 +97,9 @@ func printBudgetReport(w io.Writer, res *budget.Result, bo budget.Options, out s
 			fmt.Fprintf(tw, "%d\t%s\t%s\t%s\t\n", c.Order, humanSize(c.FileBytes), strconv.FormatFloat(c.Perplexity, 'f', 3, 64), mark)
 		}
 		tw.Flush()
-		if res.Chosen.Order < bo.Estimate.Order {
+		if res.Chosen.Order < order {
 			fmt.Fprintf(w, "a model of order %d fits %s better than order %d: wrote order %d\n",
-				res.Chosen.Order, humanSize(bo.MaxBytes), bo.Estimate.Order, res.Chosen.Order)
+				res.Chosen.Order, humanSize(maxBytes), order, res.Chosen.Order)
 		}
 	}
 	return nil

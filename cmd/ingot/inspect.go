@@ -186,6 +186,7 @@ func printInspectSummary(w io.Writer, path string, s inspect.Summary, asJSON boo
 	sort.Strings(options)
 	row("build options", "%s", inspectOrNone(strings.Join(options, " ")))
 	inspectList(row, more, "history", s.History)
+	inspectCommands(row, more, s.Commands)
 	if q := s.Quantization; q == nil {
 		row("quantization", "none: every value is a 32-bit float")
 	} else {
@@ -218,6 +219,28 @@ func printInspectSummary(w io.Writer, path string, s inspect.Summary, asJSON boo
 		fmt.Fprintf(tw, "%d\t%d\t%s\t%d\t%s\t%d\t%d\t%s\n", sec.Index, sec.Kind, sec.KindName, sec.Order, sec.Encoding, sec.Offset, sec.Length, sec.Checksum)
 	}
 	return tw.Flush()
+}
+
+// inspectCommands prints the provenance: each command that wrote the
+// model, its budget and the files it read with their SHA-256 digests.
+func inspectCommands(row func(string, string, ...any), more func(string, ...any), cmds []tables.Command) {
+	if len(cmds) == 0 {
+		row("commands", "none recorded")
+		return
+	}
+	for i, c := range cmds {
+		name := ""
+		if i == 0 {
+			name = "commands"
+		}
+		row(name, "%s", c.Line)
+		if c.MaxSize != "" {
+			more("  budget %s", c.MaxSize)
+		}
+		for _, in := range c.Inputs {
+			more("  read %s: %d bytes, sha256 %s", in.Name, in.Bytes, in.SHA256)
+		}
+	}
 }
 
 // list prints a list under a heading, one item a line, or "none".

@@ -9,6 +9,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"ingot/compile/interpolate"
+	"ingot/compile/pipeline"
 	"ingot/compile/tables"
 	"ingot/format"
 	"ingot/format/score"
@@ -116,8 +117,8 @@ the written model on --heldout TEXT (default: the --fit text).`,
 				return fmt.Errorf("interpolate: %w", err)
 			}
 			t.Info.ToolVersion = version
-			if t.Info.BuildTime, err = buildTime(); err != nil {
-				return err
+			if t.Info.BuildTime, err = pipeline.BuildTime(); err != nil {
+				return fmt.Errorf("interpolate: %w", err)
 			}
 			pr.step("writing %s", out)
 			if err := writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(wr io.Writer) error {

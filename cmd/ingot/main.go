@@ -69,6 +69,7 @@ func runContext(ctx context.Context, args []string, stdout, stderr io.Writer) (c
 	}()
 	root := newRoot(stdout, stderr)
 	root.SetArgs(args)
+	ctx = context.WithValue(ctx, commandLineKey{}, append([]string{"ingot"}, args...))
 	var cmd *cobra.Command
 	err := format.Guard(func() (err error) {
 		cmd, err = root.ExecuteContextC(ctx)
@@ -157,6 +158,18 @@ func addMaxLineFlag(cmd *cobra.Command) {
 // testCommands are added to the root by tests (a command that panics, to
 // check the exit code of a bug); empty in the program.
 var testCommands []*cobra.Command
+
+// commandLineKey carries the command line in a command's context, for the
+// provenance recorded in the models it writes.
+type commandLineKey struct{}
+
+// commandWords returns the command line that runs cmd, "ingot" first.
+func commandWords(cmd *cobra.Command) []string {
+	if w, ok := cmd.Context().Value(commandLineKey{}).([]string); ok {
+		return w
+	}
+	return []string{"ingot", cmd.Name()}
+}
 
 // newEncoder returns a JSON encoder that leaves <, > and & as they are
 // (the markers <s>, </s> and <unk> read better unescaped).

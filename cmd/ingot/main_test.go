@@ -8,6 +8,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"ingot/format"
 )
 
 // ingot runs one command line in-process and returns its exit code, stdout
@@ -151,4 +153,22 @@ func TestDemoRuns(t *testing.T) {
 	if code, _, e := ingot(t, "demo", dir); code != 0 {
 		t.Fatalf("second demo run: exit %d: %s", code, e)
 	}
+}
+
+// withoutProvenance returns the model file's bytes as written again with
+// its provenance (the commands that wrote it: their command lines and input
+// digests) left out, so that models built from different files that hold
+// the same counts compare equal.
+func withoutProvenance(t *testing.T, path string) []byte {
+	t.Helper()
+	tb, err := readTables(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tb.Info.Commands = nil
+	var b bytes.Buffer
+	if err := format.Write(&b, tb); err != nil {
+		t.Fatal(err)
+	}
+	return b.Bytes()
 }

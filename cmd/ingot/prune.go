@@ -1,15 +1,14 @@
 package main
 
 import (
+	"errors"
 	"fmt"
 	"io"
-	"slices"
-	"strings"
 
 	"github.com/spf13/cobra"
 
-	"ingot/compile/budget"
 	"ingot/compile/input"
+	"ingot/compile/pipeline"
 	"ingot/compile/prune"
 	"ingot/compile/tables"
 	"ingot/format"
@@ -85,34 +84,25 @@ held-out text.`,
 			if advice := prune.Advice(t.Info.Method); advice != "" {
 				fmt.Fprintf(cmd.ErrOrStderr(), "ingot: prune: warning: %s\n", advice)
 			}
+			in, err := pipeline.DigestFile(args[0])
+			if err != nil {
+				return fmt.Errorf("prune: %w", err)
+			}
 			pr := newProgress(cmd.ErrOrStderr())
 			defer pr.done()
-			pr.step("scoring every n-gram by relative entropy")
-			scores := prune.EntropyScores(t)
-			pruned := func(threshold float64, keep [][]bool) *tables.Tables {
-				p := prune.Select(t, keep)
-				p.Info.History = append(slices.Clip(p.Info.History), fmt.Sprintf(
-					"pruned by relative entropy below %.6g nats (kept %s n-grams per order)", threshold, joinInts(prune.Kept(keep))))
-				return p
+			res, err := pipeline.Prune{
+				DropBelow: threshold, MaxBytes: maxBytes, MaxSize: maxSize, Quantize: qopt,
+				Command:  pipeline.Record(commandWords(cmd), maxSize, in),
+				Progress: func(s string) { pr.step("%s", s) },
+			}.Run(t)
+			var be *pipeline.BudgetError
+			if errors.As(err, &be) {
+				return checkFailed{fmt.Errorf("prune: %w", be.Err)}
 			}
-			var (
-				keep [][]bool
-				p    *tables.Tables
-			)
-			if hasS {
-				pr.step("choosing the threshold and building the model")
-				p, threshold, keep, _, err = budget.FitFinished(t, scores, maxBytes, qopt, pruned,
-					func(th float64, kp [][]bool) (*tables.Tables, error) { return budget.Finish(pruned(th, kp), qopt) })
-				if err != nil {
-					return checkFailed{fmt.Errorf("prune: %w", err)}
-				}
-			} else {
-				pr.step("recomputing back-off weights and quantizing")
-				keep = prune.Keep(t, scores, threshold)
-				if p, err = budget.Finish(pruned(threshold, keep), qopt); err != nil {
-					return err
-				}
+			if err != nil {
+				return err
 			}
+			p, threshold := res.Model, res.Threshold
 			measured, err := measureInput(args[0], heldout)
 			if err != nil {
 				return err
@@ -133,14 +123,6 @@ held-out text.`,
 	qf.register(cmd, false)
 	cmd.MarkFlagRequired("output")
 	return cmd
-}
-
-func joinInts(xs []int) string {
-	s := make([]string, len(xs))
-	for i, x := range xs {
-		s[i] = fmt.Sprint(x)
-	}
-	return strings.Join(s, "/")
 }
 
 func ngramsPerOrder(t *tables.Tables) []int {

@@ -6,6 +6,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"ingot/compile/pipeline"
 	"ingot/format"
 	"ingot/quantize"
 )
@@ -85,7 +86,12 @@ back-off codebook is widened where that needs it); 'ingot verify' allows
 			}
 			pr := newProgress(cmd.ErrOrStderr())
 			pr.step("training codebooks and quantizing")
-			q, reports, err := quantize.Model(t, opt)
+			in, err := pipeline.DigestFile(args[0])
+			if err != nil {
+				pr.done()
+				return fmt.Errorf("quantize: %w", err)
+			}
+			q, reports, err := pipeline.Quantize(t, opt, pipeline.Record(commandWords(cmd), "", in))
 			pr.done()
 			if err != nil {
 				return err

@@ -1,10 +1,12 @@
 package main
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"os"
 
+	"ingot/compile/pipeline"
 	"ingot/compile/tables"
 	"ingot/inspect"
 )
@@ -17,7 +19,7 @@ func readUnquantized(command, path string) (*tables.Tables, error) {
 	if err != nil {
 		return nil, err
 	}
-	if t.Info.Quantization != nil {
+	if errors.Is(pipeline.Unquantized(t), pipeline.ErrQuantized) {
 		return nil, fmt.Errorf("%s: %s is quantized already; %s the unquantized model", command, path, command)
 	}
 	return t, nil

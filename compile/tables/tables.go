@@ -97,8 +97,34 @@ type Info struct {
 	// History lists, oldest first, the steps applied after estimation
 	// (count cutoffs, pruning, quantization), each as one line.
 	History []string `json:"history,omitempty"`
+	// Commands records, oldest first, every command that wrote the model
+	// (the one that built it, then each that rewrote it): its command line,
+	// the size budget it was given and the digests of the files it read.
+	Commands []Command `json:"commands,omitempty"`
 	// Quantization describes the codebooks, when the model is quantized.
 	Quantization *Quantization `json:"quantization,omitempty"`
+}
+
+// Command is the provenance of one step that wrote a model.
+type Command struct {
+	// Line is the command line, its words quoted as a POSIX shell reads
+	// them back.
+	Line string `json:"line"`
+	// MaxSize is the size budget as given (--max-size), or empty.
+	MaxSize string `json:"max_size"`
+	// Inputs are the files the command read, in the order given.
+	Inputs []Input `json:"inputs"`
+}
+
+// Input identifies one file a command read by its bytes as stored (before
+// any decompression).
+type Input struct {
+	// Name is the file as named on the command line ("stdin" for "-").
+	Name string `json:"name"`
+	// Bytes is its length.
+	Bytes int64 `json:"bytes"`
+	// SHA256 is the hex SHA-256 digest of its bytes.
+	SHA256 string `json:"sha256"`
 }
 
 // Quantization records how a model was quantized.
