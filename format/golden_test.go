@@ -9,9 +9,13 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
+	"strings"
 	"testing"
 
+	"ingot/compile/counts"
+	"ingot/compile/estimate"
 	"ingot/compile/tables"
+	"ingot/quantize"
 )
 
 var update = flag.Bool("update", false, "rewrite the golden vectors in ../spec/golden from the hand-built model")
@@ -25,7 +29,98 @@ var (
 	goldenModel3      = filepath.Join("..", "spec", "golden", "tiny.v3.ingot")
 	goldenCutModel3   = filepath.Join("..", "spec", "golden", "tiny-cut.v3.ingot")
 	goldenCutExpected = filepath.Join("..", "spec", "golden", "tiny-cut.expected.jsonl")
+	// The Marrowfen models: estimated from the first 120 commands of the
+	// invented demo scenario (marrowfen.txt), in 32-bit floats (version 3)
+	// and quantized by package quantize at --bits 8 and --bits 4 (back-off
+	// weights 8 bits), each in versions 2 and 3, so that every version
+	// and variant Write produces has a golden vector.
+	goldenDemoText = filepath.Join("..", "spec", "golden", "marrowfen.txt")
 )
+
+func goldenPath(name string) string { return filepath.Join("..", "spec", "golden", name) }
+
+// demoModels returns the float Kneser-Ney order-3 model of marrowfen.txt
+// and its 8-bit and 4-bit quantizations (least-squares codebooks, the
+// command line's default trainer).
+func demoModels(t testing.TB) (float, q8, q4 *tables.Tables) {
+	data, err := os.ReadFile(goldenDemoText)
+	if err != nil {
+		t.Fatal(err)
+	}
+	c, err := counts.NewCounter(3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, s := range strings.Split(strings.TrimSpace(string(data)), "\n") {
+		c.AddSentence(strings.Fields(s))
+	}
+	float, _, err = estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	quant := func(bits int) *tables.Tables {
+		q, _, err := quantize.Model(float, quantize.Options{Bits: bits, Trainer: quantize.LeastSquares})
+		if err != nil {
+			t.Fatal(err)
+		}
+		return q
+	}
+	return float, quant(8), quant(4)
+}
+
+// demoQueries lists the expected answers of a Marrowfen model: every
+// stored n-gram given its context, then, after the empty context, every
+// stored context and a few contexts that are not stored, the end of
+// sentence, one common word and one word outside the vocabulary (most of
+// which the model answers by backing off).
+func demoQueries(tb *tables.Tables) []goldenQuery {
+	unk, _ := tb.ID(tables.Unknown)
+	toID := func(w string) uint32 {
+		if id, ok := tb.ID(w); ok {
+			return id
+		}
+		return unk
+	}
+	words := func(ids []uint32) []string {
+		out := make([]string, len(ids))
+		for i, id := range ids {
+			out[i] = tb.Vocab[id]
+		}
+		return out
+	}
+	query := func(c []string, w string) goldenQuery {
+		g := make([]uint32, 0, len(c)+1)
+		for _, x := range c {
+			g = append(g, toID(x))
+		}
+		return goldenQuery{Context: c, Word: w, Log10: tb.LogProb(append(g, toID(w)))}
+	}
+	var out []goldenQuery
+	contexts := [][]string{{}}
+	for k := 1; k <= tb.Order(); k++ {
+		for e := 0; e < tb.Len(k); e++ {
+			g := tb.Gram(k, e)
+			if tb.Vocab[g[k-1]] == tables.SentenceStart {
+				continue
+			}
+			out = append(out, query(words(g[:k-1]), tb.Vocab[g[k-1]]))
+			if k < tb.Order() {
+				contexts = append(contexts, words(g))
+			}
+		}
+	}
+	contexts = append(contexts,
+		[]string{"<s>", "call", "the", "warden"}, // longer than the model looks
+		[]string{"otter", "beacon"},              // not stored
+		[]string{"marsh", "harrier"},             // outside the vocabulary
+	)
+	for _, c := range contexts {
+		for _, w := range []string{tables.SentenceEnd, "the", "lantern"} {
+			out = append(out, query(c, w))
+		}
+	}
+	return out
+}
 
 // cutTiny returns the tiny model without the bigrams that are the suffix of
 // a stored trigram but the context of none (so it is no longer
@@ -208,12 +303,62 @@ func TestGolden(t *testing.T) {
 	}
 }
 
+// TestGoldenMarrowfen checks the Marrowfen golden models like TestGolden:
+// a float model in version 3, and quantized models (packed indexes of 4 to
+// 8 bits into codebooks) in versions 2 and 3. Run with -update to rewrite
+// them.
+func TestGoldenMarrowfen(t *testing.T) {
+	float, q8, q4 := demoModels(t)
+	for _, c := range []struct {
+		model, expected string
+		tb              *tables.Tables
+		version         int
+	}{
+		{"marrowfen.v3.ingot", "marrowfen.expected.jsonl", float, 3},
+		{"marrowfen.q8.v2.ingot", "marrowfen.q8.expected.jsonl", q8, 2},
+		{"marrowfen.q8.v3.ingot", "marrowfen.q8.expected.jsonl", q8, 3},
+		{"marrowfen.q4.v2.ingot", "marrowfen.q4.expected.jsonl", q4, 2},
+		{"marrowfen.q4.v3.ingot", "marrowfen.q4.expected.jsonl", q4, 3},
+	} {
+		t.Run(c.model, func(t *testing.T) {
+			checkGoldenQueries(t, goldenPath(c.model), goldenPath(c.expected), c.tb, c.version, demoQueries(c.tb))
+		})
+	}
+	// The quantized files cover packed widths that are whole bytes, that
+	// divide a byte and that straddle bytes, in both versions.
+	widths := map[int]bool{}
+	for _, tb := range []*tables.Tables{q8, q4} {
+		for _, lv := range tb.Levels {
+			for _, cb := range [][]float32{lv.ProbCodebook, lv.BackoffCodebook} {
+				if cb != nil {
+					widths[indexBits(len(cb))] = true
+				}
+			}
+		}
+	}
+	if !widths[8] || !widths[4] || !(widths[5] || widths[6] || widths[7]) {
+		t.Errorf("the quantized golden models use index widths %v; want 8, 4 and one that straddles bytes", widths)
+	}
+}
+
+func indexBits(levels int) int {
+	b := 1
+	for 1<<b < levels {
+		b++
+	}
+	return b
+}
+
 func checkGolden(t *testing.T, model, expected string, tb *tables.Tables, version int) {
+	checkGoldenQueries(t, model, expected, tb, version, goldenQueries(tb))
+}
+
+func checkGoldenQueries(t *testing.T, model, expected string, tb *tables.Tables, version int, qs []goldenQuery) {
 	data, err := MarshalVersion(tb, version)
 	if err != nil {
 		t.Fatal(err)
 	}
-	queries := marshalQueries(t, goldenQueries(tb))
+	queries := marshalQueries(t, qs)
 	if *update {
 		if err := os.WriteFile(model, data, 0o644); err != nil {
 			t.Fatal(err)

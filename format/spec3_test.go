@@ -27,11 +27,18 @@ import (
 // and their ranks, successor-rank keys, packed values and the word hash;
 // it rebuilds every n-gram and applies the back-off rule literally.
 func TestSpecificationAloneVersion3(t *testing.T) {
-	for _, c := range []struct{ model, expected string }{
-		{"tiny.v3.ingot", "tiny.expected.jsonl"},
-		{"tiny-cut.v3.ingot", "tiny-cut.expected.jsonl"},
+	for _, c := range []struct {
+		model, expected string
+		tolerance       float64 // of the sums of the laws of probability; 0: not normalised
+	}{
+		{"tiny.v3.ingot", "tiny.expected.jsonl", floatTolerance},
+		// Cut without renormalising: it tests reading, not sums.
+		{"tiny-cut.v3.ingot", "tiny-cut.expected.jsonl", 0},
+		{"marrowfen.v3.ingot", "marrowfen.expected.jsonl", floatTolerance},
+		{"marrowfen.q8.v3.ingot", "marrowfen.q8.expected.jsonl", quantizedTolerance},
+		{"marrowfen.q4.v3.ingot", "marrowfen.q4.expected.jsonl", quantizedTolerance},
 	} {
-		t.Run(c.model, func(t *testing.T) { specAlone3(t, c.model, c.expected) })
+		t.Run(c.model, func(t *testing.T) { specAlone3(t, c.model, c.expected, c.tolerance) })
 	}
 }
 
@@ -42,7 +49,7 @@ type specSection struct {
 	data []byte
 }
 
-func specAlone3(t *testing.T, model, expected string) {
+func specAlone3(t *testing.T, model, expected string, tolerance float64) {
 	f, err := os.ReadFile(filepath.Join("..", "spec", "golden", model))
 	if err != nil {
 		t.Fatal(err)
@@ -63,7 +70,7 @@ func specAlone3(t *testing.T, model, expected string) {
 	if len(queries) < 100 {
 		t.Fatalf("only %d expected answers", len(queries))
 	}
-	specDecode3(t, f, queries)
+	specDecode3(t, f, queries, tolerance)
 }
 
 type specQuery struct {
@@ -111,10 +118,13 @@ func TestSpecificationAloneVersion3Large(t *testing.T) {
 	if tb.Len(3) < 4*512 {
 		t.Fatalf("only %d trigrams", tb.Len(3))
 	}
-	specDecode3(t, f, queries)
+	specDecode3(t, f, queries, 0)
 }
 
-func specDecode3(t *testing.T, f []byte, queries []specQuery) {
+// specDecode3 decodes a version-3 file by the document, compares the
+// queries' answers exactly and, when tolerance > 0, checks the sums of
+// every context (specSums).
+func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64) {
 	le := binary.LittleEndian
 	castagnoli := crc32.MakeTable(crc32.Castagnoli)
 	if string(f[:8]) != "\x89INGOT\r\n" || le.Uint32(f[8:]) != 3 || le.Uint64(f[16:]) != uint64(len(f)) {
@@ -225,17 +235,25 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery) {
 		}
 		return out
 	}
-	// A column value (§4.5): plain f32, or packed index into a codebook.
+	// A column value (§4.5): plain f32, or packed index into a codebook,
+	// read bit by bit.
 	value := func(kind, cbKind, k int, i uint64) float64 {
 		s := sec(kind, k)
 		if s.enc == 0 {
 			return float64(math.Float32frombits(le.Uint32(s.data[4*i:])))
 		}
 		B := uint64(le.Uint32(s.data))
+		L := uint64(len(sec(cbKind, k).data) / 4)
+		if L < 1 || 1<<B < L || (B > 1 && 1<<(B-1) >= L) || le.Uint32(s.data[4:]) != 0 {
+			t.Fatalf("kind %d order %d: B = %d for a codebook of %d levels", kind, k, B, L)
+		}
 		var idx uint64
 		for j := uint64(0); j < B; j++ {
 			p := i*B + j
 			idx |= uint64(s.data[8+p/8]>>(p%8)) & 1 << j
+		}
+		if idx >= L {
+			t.Fatalf("kind %d order %d entry %d: index %d of %d levels", kind, k, i, idx, L)
 		}
 		return float64(math.Float32frombits(le.Uint32(sec(cbKind, k).data[4*idx:])))
 	}
@@ -352,5 +370,14 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery) {
 		if got := logProb(q.Context, q.Word); got != q.Log10 && !(math.IsInf(got, -1) && math.IsInf(q.Log10, -1)) {
 			t.Errorf("log10 P(%s | %v) = %v by the specification, expected %v", q.Word, q.Context, got, q.Log10)
 		}
+	}
+	if tolerance > 0 {
+		var all [][]string
+		for k := 1; k <= order; k++ {
+			for _, nd := range levels[k] {
+				all = append(all, nd.words)
+			}
+		}
+		specSums(t, vocab, order, all, logProb, tolerance)
 	}
 }
