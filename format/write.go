@@ -337,18 +337,8 @@ func childStarts(t *tables.Tables, k int) []byte {
 	return b
 }
 
-// Size returns the number of bytes Write would produce for t.
+// Size returns the number of bytes Write would produce for t: FileSize with
+// no plan.
 func Size(t *tables.Tables) (int64, error) {
-	var c byteCounter
-	if err := Write(&c, t); err != nil {
-		return 0, err
-	}
-	return int64(c), nil
-}
-
-type byteCounter int64
-
-func (c *byteCounter) Write(p []byte) (int, error) {
-	*c += byteCounter(len(p))
-	return len(p), nil
+	return FileSize(t, Planned{})
 }

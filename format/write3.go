@@ -105,36 +105,12 @@ func childStartValues(t *tables.Tables, k int) []uint32 {
 }
 
 // lastWordKeys encodes the last words of order k >= 2 as keys under their
-// parents: ranks among the successors of the parent's suffix when every
-// entry's suffix is stored and k >= 3 (encoding EliasFanoRanks), word ids
-// otherwise (EliasFano).
+// parents (wordKeys), one non-decreasing sequence per order.
 func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32) ([]byte, Encoding) {
-	n := t.Len(k)
-	keys := make([]uint64, n)
-	enc := EliasFano
-	for e := 0; e < n; e++ {
-		keys[e] = uint64(t.Gram(k, e)[k-1])
-	}
-	if k >= 3 {
-		ranks := make([]uint64, n)
-		ok := true
-		for e := 0; e < n && ok; e++ {
-			g := t.Gram(k, e)
-			suffix := t.Find(g[1:])       // h'w, order k-1
-			context := t.Find(g[1 : k-1]) // h', order k-2
-			if suffix < 0 || context < 0 {
-				ok = false
-				break
-			}
-			ranks[e] = uint64(suffix) - uint64(childStarts[k-3][context])
-		}
-		if ok {
-			keys, enc = ranks, EliasFanoRanks
-		}
-	}
+	keys, enc := wordKeys(t, k, childStarts)
 	// One non-decreasing sequence: each sibling list is shifted by the last
 	// value of the list before it.
-	x := make([]uint64, n)
+	x := make([]uint64, len(keys))
 	starts := childStarts[k-2]
 	for p := 0; p+1 < len(starts); p++ {
 		var base uint64
@@ -146,4 +122,30 @@ func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32) ([]byte, Enco
 		}
 	}
 	return encodeEliasFano(x), enc
+}
+
+// wordKeys returns the keys of the last words of order k >= 2 under their
+// parents: ranks among the successors of the parent's suffix when every
+// entry's suffix is stored and k >= 3 (encoding EliasFanoRanks), word ids
+// otherwise (EliasFano).
+func wordKeys(t *tables.Tables, k int, childStarts [][]uint32) ([]uint64, Encoding) {
+	n := t.Len(k)
+	keys := make([]uint64, n)
+	for e := 0; e < n; e++ {
+		keys[e] = uint64(t.Gram(k, e)[k-1])
+	}
+	if k >= 3 {
+		ranks := make([]uint64, n)
+		for e := 0; e < n; e++ {
+			g := t.Gram(k, e)
+			suffix := t.Find(g[1:])       // h'w, order k-1
+			context := t.Find(g[1 : k-1]) // h', order k-2
+			if suffix < 0 || context < 0 {
+				return keys, EliasFano
+			}
+			ranks[e] = uint64(suffix) - uint64(childStarts[k-3][context])
+		}
+		return ranks, EliasFanoRanks
+	}
+	return keys, EliasFano
 }

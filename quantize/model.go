@@ -486,24 +486,15 @@ func (c *compensator) move(out []float32, sum, target float64) float64 {
 // Placeholder returns tables shaped like the output of Model(t, opt) but
 // holding no real values, for measuring file sizes cheaply: codebooks of the
 // largest size the options allow and build information at least as long as
-// Model writes, so that the file it gives is at least as large as the real
-// quantized file.
+// Model writes (PlaceholderInfo), so that the file it gives is at least as
+// large as the real quantized file. format.FileSize with a plan gives its
+// size without building it (budget.PlannedSize).
 func Placeholder(t *tables.Tables, opt Options) *tables.Tables {
 	if opt.BackoffBits == 0 {
 		opt.BackoffBits = DefaultBackoffBits(opt.Bits)
 	}
 	N := t.Order()
-	q := &tables.Tables{Vocab: t.Vocab, Info: t.Info, Levels: make([]tables.Level, N)}
-	long := -1.2345678901234567e-123 // as long as a float64 gets in JSON
-	qi := &tables.Quantization{Trainer: string(opt.Trainer), Bits: opt.Bits, BackoffBits: opt.BackoffBits}
-	for range N {
-		qi.ProbMaxError = append(qi.ProbMaxError, long)
-		qi.BackoffMaxError = append(qi.BackoffMaxError, long)
-		qi.Residual = append(qi.Residual, long)
-	}
-	q.Info.Quantization = qi
-	q.Info.History = append(slices.Clip(t.Info.History), fmt.Sprintf("quantized: probabilities %d bits, back-off weights %d bits, %s codebooks",
-		opt.Bits, opt.BackoffBits, opt.Trainer))
+	q := &tables.Tables{Vocab: t.Vocab, Info: PlaceholderInfo(t.Info, N, opt), Levels: make([]tables.Level, N)}
 	book := func(bits int) []float32 {
 		cb := make([]float32, 1<<bits)
 		for i := range cb {
@@ -525,4 +516,24 @@ func Placeholder(t *tables.Tables, opt Options) *tables.Tables {
 		q.Levels[k-1] = lv
 	}
 	return q
+}
+
+// PlaceholderInfo returns the build information of a model of order n
+// quantized with opt, with every recorded error as long as a float64 gets
+// in JSON: at least as long as what Model records.
+func PlaceholderInfo(info tables.Info, n int, opt Options) tables.Info {
+	if opt.BackoffBits == 0 {
+		opt.BackoffBits = DefaultBackoffBits(opt.Bits)
+	}
+	long := -1.2345678901234567e-123 // as long as a float64 gets in JSON
+	qi := &tables.Quantization{Trainer: string(opt.Trainer), Bits: opt.Bits, BackoffBits: opt.BackoffBits}
+	for range n {
+		qi.ProbMaxError = append(qi.ProbMaxError, long)
+		qi.BackoffMaxError = append(qi.BackoffMaxError, long)
+		qi.Residual = append(qi.Residual, long)
+	}
+	info.Quantization = qi
+	info.History = append(slices.Clip(info.History), fmt.Sprintf("quantized: probabilities %d bits, back-off weights %d bits, %s codebooks",
+		opt.Bits, opt.BackoffBits, opt.Trainer))
+	return info
 }

@@ -271,8 +271,9 @@ func (b *Builder) fitOrder(n int, maxBytes int64) (*tables.Tables, *estimate.Rep
 // FitFinished finds the least relative-entropy pruning of t (ranked by
 // scores) whose finished model fits maxBytes. shaped gives the tables the
 // pruning keeps, as they will be written before quantization (their size
-// is measured, through quantize.Placeholder when q.Bits is set); finish
-// builds the model to write. The quantizer may widen a back-off codebook
+// is computed by format.FileSize, as PlannedSize counts it when
+// q.Bits is set, without writing or building anything); finish builds the
+// model to write. The quantizer may widen a back-off codebook
 // beyond what the sizing assumed (so that every context still sums to
 // one); then the finished file is measured and the target lowered by the
 // excess, a few times at most.
@@ -285,10 +286,12 @@ func FitFinished(t *tables.Tables, scores prune.Scores, maxBytes int64, q quanti
 	for attempt := 1; ; attempt++ {
 		th, keep, _, err = prune.Fit(t, scores, target, func(th float64, kp [][]bool) (int64, error) {
 			p := shaped(th, kp)
+			var n int64
 			if q.Bits != 0 {
-				p = quantize.Placeholder(p, q)
+				n, err = PlannedSize(p, q)
+			} else {
+				n, err = format.FileSize(p, format.Planned{})
 			}
-			n, err := format.Size(p)
 			return n + format.SignatureSpace, err
 		})
 		if err != nil {
@@ -297,7 +300,7 @@ func FitFinished(t *tables.Tables, scores prune.Scores, maxBytes int64, q quanti
 		if m, err = finish(th, keep); err != nil {
 			return nil, 0, nil, 0, err
 		}
-		if size, err = format.Size(m); err != nil {
+		if size, err = format.FileSize(m, format.Planned{}); err != nil {
 			return nil, 0, nil, 0, err
 		}
 		signed := size + format.SignatureSpace
@@ -309,6 +312,16 @@ func FitFinished(t *tables.Tables, scores prune.Scores, maxBytes int64, q quanti
 		}
 		target -= signed - maxBytes
 	}
+}
+
+// PlannedSize returns the size of the file of quantize.Placeholder(t, opt)
+// (format.FileSize with the placeholder's plan) without building it.
+func PlannedSize(t *tables.Tables, opt quantize.Options) (int64, error) {
+	if opt.BackoffBits == 0 {
+		opt.BackoffBits = quantize.DefaultBackoffBits(opt.Bits)
+	}
+	info := quantize.PlaceholderInfo(t.Info, t.Order(), opt)
+	return format.FileSize(t, format.Planned{ProbLevels: 1 << opt.Bits, BackoffLevels: 1 << opt.BackoffBits, Info: &info})
 }
 
 // Finish recomputes the back-off weights of a pruned model and quantizes

@@ -1,0 +1,110 @@
+package format
+
+import (
+	"ingot/compile/tables"
+)
+
+// Planned says how FileSize should count a model's columns when they are
+// to be quantized later: codebooks of ProbLevels levels for the
+// probabilities of orders 2 and up and of BackoffLevels for the back-off
+// weights of the orders below the top (0 for either: the column as the
+// tables hold it), and the build information the written file will carry
+// (nil: the tables' own). Counted so, an unquantized back-off weight is
+// stored only where the entry has children, as a quantized model whose
+// codebooks are not yet known is shaped.
+type Planned struct {
+	ProbLevels, BackoffLevels int
+	Info                      *tables.Info
+}
+
+// FileSize returns the number of bytes Write produces for t, computed from
+// the tables' shape without encoding a section: header and directory, each
+// section's length and the padding before it. With a zero Planned it is
+// exactly the written size; it refuses what Write refuses.
+func FileSize(t *tables.Tables, plan Planned) (int64, error) {
+	if err := checkWritable(t); err != nil {
+		return 0, err
+	}
+	info := t.Info
+	if plan.Info != nil {
+		info = *plan.Info
+	}
+	infoBytes, err := marshalInfo(info)
+	if err != nil {
+		return 0, err
+	}
+	text := 0
+	for _, w := range t.Vocab {
+		text += len(w)
+	}
+	n := t.Order()
+	lengths := []int64{
+		int64(summaryFixedSize + 8*n),
+		int64(len(infoBytes)),
+		int64(4 * (len(t.Vocab) + 1)),
+		int64(text),
+		wordHashHeader + 4*int64(wordHashSlots(len(t.Vocab))),
+	}
+	column := func(entries int, codebook []float32, planned int) {
+		levels := len(codebook)
+		if planned != 0 {
+			levels = planned
+		}
+		if levels == 0 {
+			lengths = append(lengths, 4*int64(entries))
+			return
+		}
+		lengths = append(lengths, 4*int64(levels), packedLen(entries, bitsFor(levels)))
+	}
+	childStarts := make([][]uint32, n)
+	for k := 1; k < n; k++ {
+		childStarts[k-1] = childStartValues(t, k)
+	}
+	for k := 1; k <= n; k++ {
+		lv := &t.Levels[k-1]
+		nk := t.Len(k)
+		if k >= 2 {
+			keys, _ := wordKeys(t, k, childStarts)
+			// The sequence's last value is the sum of every sibling list's
+			// last key (lastWordKeys shifts each list by the one before).
+			var last uint64
+			starts := childStarts[k-2]
+			for p := 0; p+1 < len(starts); p++ {
+				if starts[p+1] > starts[p] {
+					last += keys[starts[p+1]-1]
+				}
+			}
+			lengths = append(lengths, efLength(uint64(nk), last))
+		}
+		probLevels := 0
+		if k >= 2 {
+			probLevels = plan.ProbLevels
+		}
+		column(nk, lv.ProbCodebook, probLevels)
+		if k < n {
+			starts := childStarts[k-1]
+			words, counters := marksSizes(uint64(nk))
+			lengths = append(lengths, marksHeader+8*int64(words)+4*int64(counters))
+			contexts := 0
+			for i, b := range lv.LogBackoff {
+				if starts[i+1] > starts[i] || (plan.BackoffLevels == 0 && hasBackoff(b)) {
+					contexts++
+				}
+			}
+			column(contexts, lv.BackoffCodebook, plan.BackoffLevels)
+			lengths = append(lengths, efLength(uint64(contexts)+1, uint64(starts[len(starts)-1])))
+		}
+	}
+	pos := int64(headerSize + directoryEntry*len(lengths))
+	for _, l := range lengths {
+		pos = align(pos) + l
+	}
+	return align(pos), nil
+}
+
+// efLength is the length of an Elias-Fano section of n values whose largest
+// is last (encodeEliasFano).
+func efLength(n, last uint64) int64 {
+	low, high, samples := efSizes(n, last, efLowBits(n, last))
+	return efHeader + 8*int64(low+high+samples)
+}
