@@ -85,35 +85,6 @@ func (m *Model) ChildRange(k, i int) (start, end int) {
 	return start, end
 }
 
-// Find returns the index of the stored n-gram gram at order len(gram), by a
-// walk from its first word down the trie.
-func (m *Model) Find(gram []uint32) (int, bool) {
-	k := len(gram)
-	if k == 0 || k > m.order || uint64(gram[0]) >= uint64(m.vocabSize) {
-		return -1, false
-	}
-	if m.version >= 3 {
-		// Keys may be ranks that depend on the suffixes: walk the words as
-		// running text, which finds every stored suffix on the way.
-		var s State
-		for _, w := range gram[:k-1] {
-			m.Next(&s, w)
-		}
-		var child [tables.MaxOrder]uint32
-		if n := m.extensions(&s, gram[k-1], &child); n < k-1 || child[k-1] == noNode {
-			return -1, false
-		}
-		return int(child[k-1]), true
-	}
-	node := gram[0]
-	for j := 1; j < k; j++ {
-		if node = m.findChild(j, node, gram[j]); node == noNode {
-			return -1, false
-		}
-	}
-	return int(node), true
-}
-
 // Entries returns an iterator over the entries of order k in stored
 // (lexicographic) order, yielding each entry's full n-gram:
 //

@@ -1,7 +1,6 @@
 package format
 
 import (
-	"encoding/binary"
 	"math"
 
 	"ingot/compile/tables"
@@ -169,24 +168,36 @@ func (m *Model) Next(s *State, w uint32) float64 {
 func (m *Model) NextMatched(s *State, w uint32) (logProb float64, matchedOrder int) {
 	var child [tables.MaxOrder]uint32
 	n := m.extensions(s, w, &child)
-	lp := math.Inf(-1)
-	bow := 0.0
-	for j := n; j >= 0; j-- {
-		if c := child[j]; c != noNode {
-			lp = bow + float64(m.LogProbAt(j+1, int(c)))
-			matchedOrder = j + 1
-			break
-		}
-		if j > 0 {
-			if h := s.node[j-1]; h != noNode {
-				bow += float64(m.LogBackoffAt(j, int(h)))
-			}
-		}
-	}
+	logProb, matchedOrder = m.backOff(s, n, &child, nil)
 	keep := min(n+1, max(m.order-1, 0))
 	copy(s.node[:keep], child[:keep])
 	s.n = keep
-	return lp, matchedOrder
+	return logProb, matchedOrder
+}
+
+// backOff applies the back-off rule to the extensions that extensions
+// found for s and a word: the longest stored n-gram's probability, times
+// the back-off weight of every stored context suffix longer than it. It is
+// the one step both Next and Explain take; applied, when not nil, hears of
+// each weight used (the suffix's length j and its log10 weight), longest
+// first.
+func (m *Model) backOff(s *State, n int, child *[tables.MaxOrder]uint32, applied func(j int, logBackoff float64)) (logProb float64, matchedOrder int) {
+	bow := 0.0
+	for j := n; j >= 0; j-- {
+		if c := child[j]; c != noNode {
+			return bow + float64(m.LogProbAt(j+1, int(c))), j + 1
+		}
+		if j > 0 {
+			if h := s.node[j-1]; h != noNode {
+				b := float64(m.LogBackoffAt(j, int(h)))
+				if applied != nil {
+					applied(j, b)
+				}
+				bow += b
+			}
+		}
+	}
+	return math.Inf(-1), 0
 }
 
 // extensions fills child[j] with the entry of order j+1 that stores the
@@ -216,29 +227,7 @@ func (m *Model) findChild(k int, parent uint32, w uint32) uint32 {
 	if parent == noNode || k < 1 || k >= m.order {
 		return noNode
 	}
-	starts := m.levels[k-1].starts
-	p := int(parent)
-	if uint64(parent) >= uint64(len(starts)/4) || 4*p+8 > len(starts) {
-		return noNode
-	}
-	lo, hi := int(u32(starts[4*p:])), int(u32(starts[4*p+4:]))
-	words := m.levels[k].lastWords
-	if n := len(words) / 4; hi > n {
-		hi = n
-	}
-	end := hi
-	for lo < hi {
-		mid := int(uint(lo+hi) >> 1)
-		if binary.LittleEndian.Uint32(words[4*mid:]) < w {
-			lo = mid + 1
-		} else {
-			hi = mid
-		}
-	}
-	if lo < end && binary.LittleEndian.Uint32(words[4*lo:]) == w {
-		return uint32(lo)
-	}
-	return noNode
+	return plainChild(m.levels[k-1].starts, m.levels[k].lastWords, parent, w)
 }
 
 // LogProb returns log10 P(w | context) by the back-off rule of package
@@ -288,24 +277,14 @@ func (m *Model) Explain(context []uint32, w uint32) Explanation {
 	s := m.ContextState(context)
 	var child [tables.MaxOrder]uint32
 	n := m.extensions(&s, w, &child)
-	bow := 0.0
-	for j := n; j >= 0; j-- {
-		if c := child[j]; c != noNode {
-			ex.MatchedOrder = j + 1
-			ex.StoredLogProb = float64(m.LogProbAt(j+1, int(c)))
-			ex.LogProb = bow + ex.StoredLogProb
-			break
-		}
-		if j > 0 {
-			if h := s.node[j-1]; h != noNode {
-				b := float64(m.LogBackoffAt(j, int(h)))
-				ex.Backoffs = append(ex.Backoffs, Backoff{
-					Context:    append([]uint32{}, context[len(context)-j:]...),
-					LogBackoff: b,
-				})
-				bow += b
-			}
-		}
+	ex.LogProb, ex.MatchedOrder = m.backOff(&s, n, &child, func(j int, b float64) {
+		ex.Backoffs = append(ex.Backoffs, Backoff{
+			Context:    append([]uint32{}, context[len(context)-j:]...),
+			LogBackoff: b,
+		})
+	})
+	if k := ex.MatchedOrder; k > 0 {
+		ex.StoredLogProb = float64(m.LogProbAt(k, int(child[k-1])))
 	}
 	return ex
 }

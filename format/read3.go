@@ -3,6 +3,7 @@ package format
 import (
 	"encoding/binary"
 	"sync"
+	"sync/atomic"
 
 	"ingot/compile/tables"
 )
@@ -164,6 +165,7 @@ type decodedTrie struct {
 	starts [tables.MaxOrder][]byte // [k-1]: n_k+1 child starts of order k < N
 	words  [tables.MaxOrder][]byte // [k-1]: last word ids of order k >= 2
 	err    error
+	ready  atomic.Bool // decoded without error: Find may walk the plain columns
 }
 
 // trie returns the child starts of order k and the last words of order k,
@@ -177,7 +179,10 @@ func (m *Model) trie(k int) (starts, words []byte, err error) {
 		return m.levels[k-1].starts, m.levels[k-1].lastWords, nil
 	}
 	d := m.decoded
-	d.once.Do(func() { d.err = m.decodeTrie(d) })
+	d.once.Do(func() {
+		d.err = m.decodeTrie(d)
+		d.ready.Store(d.err == nil)
+	})
 	if d.err != nil {
 		return nil, nil, d.err
 	}
@@ -300,6 +305,7 @@ func (m *Model) decodeTrie(d *decodedTrie) error {
 // findIn binary-searches word among the uint32 words [lo, hi) of a plain
 // column, returning its index or noNode.
 func findIn(words []byte, lo, hi uint64, word uint32) uint32 {
+	end := hi
 	for lo < hi {
 		mid := lo + (hi-lo)/2
 		if binary.LittleEndian.Uint32(words[4*mid:]) < word {
@@ -308,7 +314,7 @@ func findIn(words []byte, lo, hi uint64, word uint32) uint32 {
 			hi = mid
 		}
 	}
-	if 4*lo+4 <= uint64(len(words)) && binary.LittleEndian.Uint32(words[4*lo:]) == word {
+	if lo < end && 4*lo+4 <= uint64(len(words)) && binary.LittleEndian.Uint32(words[4*lo:]) == word {
 		return uint32(lo)
 	}
 	return noNode

@@ -80,7 +80,9 @@ func BenchmarkVerify(b *testing.B) {
 
 // BenchmarkLookupEveryNGram looks each stored n-gram of the same model up
 // once, in stored order (the order in which lookups share the most cache):
-// "find" walks the trie to the n-gram with Model.Find; "logprob" asks
+// "find" walks the trie to the n-gram with Model.Find (after Entries has
+// decoded a version-3 trie), "find-fresh" the same on a model just opened;
+// "logprob" asks
 // Model.LogProb for the probability of its last word after the others, as
 // a decoder asks.
 func BenchmarkLookupEveryNGram(b *testing.B) {
@@ -108,6 +110,27 @@ func BenchmarkLookupEveryNGram(b *testing.B) {
 				}
 				at += k
 			}
+		}
+		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(n), "ns/ngram")
+	})
+	// A model no whole-trie walk has touched: in version 3 Find then takes
+	// the running-text step of Next at every word (see Model.Find).
+	b.Run("find-fresh", func(b *testing.B) {
+		for b.Loop() {
+			b.StopTimer()
+			fresh, err := format.Open(path)
+			if err != nil {
+				b.Fatal(err)
+			}
+			b.StartTimer()
+			at := 0
+			for _, k := range orders {
+				if _, ok := fresh.Find(grams[at : at+k]); !ok {
+					b.Fatalf("stored n-gram %v not found", grams[at:at+k])
+				}
+				at += k
+			}
+			fresh.Close()
 		}
 		b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(n), "ns/ngram")
 	})
