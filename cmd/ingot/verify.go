@@ -2,8 +2,6 @@ package main
 
 import (
 	"bufio"
-	"crypto/ed25519"
-	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -19,9 +17,6 @@ import (
 	"ingot/verify"
 	"ingot/verify/gate"
 )
-
-// checkReleaseGate names the release-gate check in verify's report.
-const checkReleaseGate = "release-gate"
 
 type verifyFlags struct {
 	publicKey   string
@@ -139,7 +134,7 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 		return fmt.Errorf("verify: %w", err)
 	}
 	if pub != nil {
-		rep.Checks = append(rep.Checks, signatureCheck(model, pub))
+		rep.Checks = append(rep.Checks, verify.Signature(model, pub))
 	}
 	var res *gate.Result
 	if gated {
@@ -151,12 +146,15 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 				fmt.Fprintf(tty, "\rrelease gate: %d held-out sentences scored and compared, %.0fs", sentences, time.Since(start).Seconds())
 			}
 		}
-		check, res, err = releaseGate(rep, model, base, f, text, progress)
+		check, res, err = verify.ReleaseGate(rep, model, verify.Gate{
+			Baseline: base, BaselineName: f.baseline, Heldout: text, HeldoutName: f.heldout,
+			MaxIncreasePercent: f.maxIncrease, Progress: progress,
+		})
 		if tty != nil {
 			fmt.Fprintf(tty, "\rrelease gate: %d held-out sentences scored and compared in %.1fs\n", done, time.Since(start).Seconds())
 		}
 		if err != nil {
-			return err
+			return fmt.Errorf("verify: %w", err)
 		}
 		rep.Checks = append(rep.Checks, check)
 	}
@@ -177,93 +175,6 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 		return checkFailed{fmt.Errorf("verify %s: %w", model, failed)}
 	}
 	return nil
-}
-
-// checkSignature names the signature check in verify's report.
-const checkSignature = "signature"
-
-// signatureCheck checks the model's Ed25519 signature against pub: a
-// missing signature, another key, or any changed byte fails it.
-func signatureCheck(model string, pub ed25519.PublicKey) verify.Check {
-	c := verify.Check{Name: checkSignature, Status: verify.Pass}
-	fail := func(msg string) verify.Check {
-		c.Status, c.Count = verify.Fail, 1
-		c.Detail = msg
-		c.Problems = []verify.Problem{{Section: "signature", Offset: -1, Msg: msg}}
-		return c
-	}
-	m, err := openModel(model)
-	if err != nil {
-		return fail("cannot check: the model does not open")
-	}
-	defer m.Close()
-	if err := m.CheckSignature(pub); err != nil {
-		if errors.Is(err, format.ErrUnsigned) {
-			return fail("the model is not signed")
-		}
-		c = fail(err.Error())
-		// A defect of the file is reported where it lies: the signature
-		// section's key id or signature bytes, or a damaged section.
-		var fe *format.FormatError
-		if errors.As(err, &fe) {
-			c.Detail = fe.Msg
-			c.Problems = []verify.Problem{{Section: fe.Section, Offset: fe.Offset, Msg: fe.Msg}}
-		}
-		return c
-	}
-	id, _ := m.Signed()
-	c.Detail = fmt.Sprintf("signed by key id %x, content digest matches", id[:8])
-	return c
-}
-
-// releaseGate runs the comparison with the baseline when the candidate's
-// structure allows it. Unreadable held-out text is bad input (an error);
-// a gate that does not hold is a failed check.
-func releaseGate(rep *verify.Report, model string, base *format.Model, f *verifyFlags, text io.Reader, progress func(sentences int)) (verify.Check, *gate.Result, error) {
-	c := verify.Check{Name: checkReleaseGate}
-	for _, name := range []string{verify.CheckOpens, verify.CheckVocabulary, verify.CheckPrefixClosure, verify.CheckIDs, verify.CheckOrder, verify.CheckValues} {
-		if ch := rep.Check(name); ch == nil || ch.Status != verify.Pass {
-			c.Status, c.Detail = verify.NotRun, "needs a model whose structure and values hold"
-			return c, nil, nil
-		}
-	}
-	if err := base.Verify(); err != nil {
-		c.Status = verify.Fail
-		c.Detail = fmt.Sprintf("the baseline %s fails verification", f.baseline)
-		c.Problems = []verify.Problem{baselineProblem(err)}
-		c.Count = 1
-		return c, nil, nil
-	}
-	cand, err := openModel(model)
-	if err != nil {
-		return c, nil, fmt.Errorf("verify: %w", err)
-	}
-	defer cand.Close()
-	res, err := gate.CompareWithProgress(cand, base, f.heldout, text, progress)
-	if err != nil {
-		return c, nil, fmt.Errorf("verify: --heldout %w", err)
-	}
-	c.Status = verify.Pass
-	c.Detail = fmt.Sprintf("perplexity %.3f against the baseline's %.3f: %+.2f%%, limit %+g%%",
-		res.Candidate.Perplexity, res.Baseline.Perplexity, res.IncreasePercent, f.maxIncrease)
-	if !res.Passes(f.maxIncrease) {
-		c.Status = verify.Fail
-		c.Count = 1
-		c.Problems = []verify.Problem{{Section: "perplexity on " + f.heldout, Offset: -1, Msg: fmt.Sprintf(
-			"the candidate's perplexity %.3f is %.2f%% above the baseline's %.3f; at most %g%% is allowed",
-			res.Candidate.Perplexity, res.IncreasePercent, res.Baseline.Perplexity, f.maxIncrease)}}
-	}
-	return c, res, nil
-}
-
-// baselineProblem turns the format reader's verdict on the baseline into a
-// problem of the release gate.
-func baselineProblem(err error) verify.Problem {
-	var fe *format.FormatError
-	if errors.As(err, &fe) {
-		return verify.Problem{Section: "baseline " + fe.Section, Offset: fe.Offset, Msg: fe.Msg}
-	}
-	return verify.Problem{Section: "baseline", Offset: -1, Msg: err.Error()}
 }
 
 // printVerifyText prints the report as aligned text.
