@@ -61,11 +61,7 @@ probability was used: 1 for a unigram, 0 for a word outside the vocabulary.
 				if err != nil {
 					return err
 				}
-				all.Sentences += sum.Sentences
-				all.Predictions += sum.Predictions
-				all.Unk += sum.Unk
-				all.Sum += sum.Sum
-				all.UnkSum += sum.UnkSum
+				all.Merge(sum)
 			}
 			return printSummary(w, args[0], &all, asJSON)
 		},

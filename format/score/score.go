@@ -58,6 +58,16 @@ func (t *Summary) Add(s *Sentence) {
 	t.UnkSum += s.UnkSum
 }
 
+// Merge adds the counts of another summary (of another text), so that the
+// perplexities are those of both texts together.
+func (t *Summary) Merge(o Summary) {
+	t.Sentences += o.Sentences
+	t.Predictions += o.Predictions
+	t.Unk += o.Unk
+	t.Sum += o.Sum
+	t.UnkSum += o.UnkSum
+}
+
 // Perplexity over all predictions.
 func (t *Summary) Perplexity() float64 { return perplexity(t.Sum, t.Predictions) }
 

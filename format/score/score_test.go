@@ -47,6 +47,38 @@ func TestUniformModelHasPerplexityV(t *testing.T) {
 	}
 }
 
+// Merging the summaries of two texts gives the summary of the texts read
+// as one: perplexity is the geometric mean over all predictions together.
+func TestMergeIsTheSummaryOfTheTextsTogether(t *testing.T) {
+	vocab := []string{"</s>", "<s>", "<unk>", "a", "b"}
+	tb := &tables.Tables{Vocab: vocab, Levels: []tables.Level{{}}}
+	for i, p := range []float64{0.5, 0, 0.1, 0.3, 0.1} {
+		tb.Levels[0].Words = append(tb.Levels[0].Words, uint32(i))
+		lp := float32(math.Log10(p))
+		if p == 0 {
+			lp = tables.NoProb
+		}
+		tb.Levels[0].LogProb = append(tb.Levels[0].LogProb, lp)
+	}
+	data, err := format.Marshal(tb)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m, err := format.FromBytes(data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	one, two := "a b\nzzz\n", "b a a\n"
+	s1, _ := Text(m, "1", strings.NewReader(one), nil)
+	s2, _ := Text(m, "2", strings.NewReader(two), nil)
+	both, _ := Text(m, "both", strings.NewReader(one+two), nil)
+	s1.Merge(s2)
+	if s1.Sentences != both.Sentences || s1.Predictions != both.Predictions || s1.Unk != both.Unk ||
+		math.Abs(s1.Perplexity()-both.Perplexity()) > 1e-9 || math.Abs(s1.PerplexityWithoutUnknown()-both.PerplexityWithoutUnknown()) > 1e-9 {
+		t.Errorf("merged %+v, together %+v", s1, both)
+	}
+}
+
 func TestScorerTokens(t *testing.T) {
 	vocab := []string{"</s>", "<s>", "<unk>", "a"}
 	tb := &tables.Tables{Vocab: vocab, Levels: []tables.Level{{Words: []uint32{0, 1, 2, 3}, LogProb: []float32{-0.5, tables.NoProb, -1, -0.3}}}}
