@@ -70,8 +70,8 @@ func printBudgetReport(w io.Writer, res *budget.Result, maxBytes int64, method e
 			"max_bytes": maxBytes, "file_bytes": res.Chosen.FileBytes, "ranked_by": string(res.Ranking),
 			"threshold": res.Chosen.Threshold, "ngrams_per_order": res.Chosen.NGrams, "orders_compared": res.Candidates,
 		}
-		if res.Chosen.Perplexity > 0 {
-			v["perplexity"] = res.Chosen.Perplexity
+		if res.Perplexity > 0 {
+			v["perplexity"] = res.Perplexity
 		}
 		return writeJSON(w, v)
 	}
@@ -82,7 +82,7 @@ func printBudgetReport(w io.Writer, res *budget.Result, maxBytes int64, method e
 		fmt.Fprintf(w, "  order %d: kept %d of %d n-grams\n", k+1, n, res.Report.Orders[k].NGrams)
 	}
 	if len(res.Candidates) > 1 {
-		fmt.Fprintln(w, "orders compared at this budget (held-out perplexity):")
+		fmt.Fprintln(w, "orders compared at this budget (held-out perplexity before quantization):")
 		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 		fmt.Fprintln(tw, "order\tfile size\tperplexity\t\t")
 		for _, c := range res.Candidates {
@@ -97,6 +97,7 @@ func printBudgetReport(w io.Writer, res *budget.Result, maxBytes int64, method e
 			fmt.Fprintf(tw, "%d\t%s\t%s\t%s\t\n", c.Order, humanSize(c.FileBytes), strconv.FormatFloat(c.Perplexity, 'f', 3, 64), mark)
 		}
 		tw.Flush()
+		fmt.Fprintf(w, "held-out perplexity of the written model: %s\n", strconv.FormatFloat(res.Perplexity, 'f', 3, 64))
 		if res.Chosen.Order < order {
 			fmt.Fprintf(w, "a model of order %d fits %s better than order %d: wrote order %d\n",
 				res.Chosen.Order, humanSize(maxBytes), order, res.Chosen.Order)

@@ -3,11 +3,14 @@ package budget
 import (
 	"fmt"
 	"image/color"
+	"math"
 	"os"
 	"path/filepath"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
+	"time"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -22,6 +25,7 @@ import (
 	"ingot/compile/tables"
 	"ingot/format"
 	"ingot/quantize"
+	"ingot/verify"
 )
 
 // row is one model of the pruning benchmark.
@@ -31,7 +35,19 @@ type row struct {
 	order        int
 	bytes        int64
 	perplexity   float64
+	verified     bool
 	problem      string
+	// quantCost is, for the compile path, the chosen model's DEV perplexity
+	// quantized over unquantized, minus one.
+	quantCost float64
+	seconds   float64
+}
+
+// floor is the smallest file a method can give: unigrams only, 8-bit.
+type floor struct {
+	method   string
+	bytes    int64
+	sections map[string]int64
 }
 
 // BenchmarkPruningPaths measures, on the 5-gram models of the full State of
@@ -46,10 +62,12 @@ type row struct {
 //     estimated again on the survivors, the order chosen on DEV.
 //
 // The held-out sentences are split in two: even ones (DEV) choose the order,
-// odd ones (TEST) give every perplexity reported. With INGOT_PRUNING_OUT set
-// to a directory it writes pruning.md (the table), pruning.csv and
-// pruning.svg (one curve per method) there. Long (on 2 cores shared with
-// other work it took 15 minutes to reach the first budget); run it alone:
+// odd ones (TEST) give every perplexity reported. Every pruned file is
+// checked by verify (ingot verify's checks). Each method's unpruned model,
+// its scores and the sizes measured are shared by the budgets and the two
+// paths (package prune's Search remembers sizes; Builder keeps each order's
+// estimate). With INGOT_PRUNING_OUT set to a directory it writes pruning.md
+// (the tables), pruning.csv and pruning.svg (one curve per method) there:
 //
 //	INGOT_PRUNING_OUT=/tmp/p go test -run '^$' -bench PruningPaths -benchtime 1x -timeout 3h ./compile/budget
 func BenchmarkPruningPaths(b *testing.B) {
@@ -57,7 +75,10 @@ func BenchmarkPruningPaths(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	train, held := corpus.Split(all, 0)
+	// INGOT_PRUNING_SENTENCES=N runs on the first N sentences only (to try
+	// the benchmark quickly; the figures reported use the whole text).
+	limit, _ := strconv.Atoi(os.Getenv("INGOT_PRUNING_SENTENCES"))
+	train, held := corpus.Split(all, limit)
 	cn, _ := counts.NewCounter(5)
 	for _, s := range train {
 		cn.AddSentence(strings.Fields(s))
@@ -75,53 +96,99 @@ func BenchmarkPruningPaths(b *testing.B) {
 	divisors := []int64{2, 4, 16, 64}
 	for range b.N {
 		var rows []row
+		var floors []floor
 		var base int64
-		for _, method := range []estimate.Method{estimate.KneserNey, estimate.Katz, estimate.Absolute, estimate.WittenBell} {
-			opt := estimate.Options{Method: method, Order: 5}
-			t, _, err := estimate.Estimate(c, opt)
+		finished := func(r *row, m *tables.Tables) {
+			data, err := format.Marshal(m)
 			if err != nil {
 				b.Fatal(err)
 			}
-			if base == 0 {
-				q, _, err := quantize.Model(t, q8)
-				if err != nil {
-					b.Fatal(err)
-				}
-				base = sizeOf(b, q)
-				rows = append(rows, row{method: string(method), path: "unpruned", divisor: 1, order: 5, bytes: base, perplexity: mustPerplexity(b, q, test)})
-				b.Logf("unpruned 8-bit kneser-ney: %d bytes", base)
+			rep, err := verify.Bytes(data, verify.Options{})
+			r.verified = err == nil && rep.OK()
+			if !r.verified {
+				b.Errorf("%s %s 1/%d: verify: %v %v", r.method, r.path, r.divisor, err, rep.Failed())
 			}
-			scores := prune.EntropyScores(t)
-			for _, d := range divisors {
-				r := row{method: string(method), path: "prune", divisor: d, order: 5}
-				_, keep, _, err := prune.Fit(t, scores, base/d, func(_ float64, kp [][]bool) (int64, error) {
-					return format.Size(quantize.Placeholder(prune.Select(t, kp), q8))
-				})
-				if err != nil {
-					r.problem = err.Error()
-				} else {
-					q, _, err := quantize.Model(prune.Apply(t, keep), q8)
-					if err != nil {
-						b.Fatal(err)
-					}
-					r.bytes, r.perplexity = sizeOf(b, q), mustPerplexity(b, q, test)
-				}
-				b.Logf("%+v", r)
-				rows = append(rows, r)
-			}
-			t, scores = nil, nil
+			r.bytes, r.perplexity = int64(len(data)), mustPerplexity(b, m, test)
+		}
+		for _, method := range []estimate.Method{estimate.KneserNey, estimate.Katz, estimate.Absolute, estimate.WittenBell} {
+			began := time.Now()
+			opt := estimate.Options{Method: method, Order: 5}
 			bld, err := NewBuilder(c, Options{Estimate: opt, Quantize: q8, Heldout: dev})
 			if err != nil {
 				b.Fatal(err)
 			}
+			pre, err := bld.prepare(5)
+			if err != nil {
+				b.Fatal(err)
+			}
+			t := pre.t
+			q, _, err := quantize.Model(t, q8)
+			if err != nil {
+				b.Fatal(err)
+			}
+			r := row{method: string(method), path: "unpruned", divisor: 1, order: 5}
+			finished(&r, q)
+			q = nil
+			if base == 0 {
+				base = r.bytes
+				b.Logf("unpruned 8-bit kneser-ney: %d bytes", base)
+			}
+			r.seconds = time.Since(began).Seconds()
+			rows = append(rows, r)
+			b.Logf("%+v", r)
+
+			// The finished model pruned as ingot prune --max-size does.
+			scores := pre.scores
+			if bld.opt.Ranking != method {
+				scores = prune.EntropyScores(t)
+			}
+			pruned := func(th float64, kp [][]bool) *tables.Tables {
+				p := prune.Select(t, kp)
+				p.Info.History = append(slices.Clip(p.Info.History), fmt.Sprintf(
+					"pruned by relative entropy below %.6g nats (kept %s n-grams per order)", th, joinInts(prune.Kept(kp))))
+				return p
+			}
+			search := prune.NewSearch(t, scores, sizer(q8, pruned))
 			for _, d := range divisors {
+				began := time.Now()
+				r := row{method: string(method), path: "prune", divisor: d, order: 5}
+				m, _, _, _, err := fitFinished(search, base/d, func(th float64, kp [][]bool) (*tables.Tables, error) {
+					return Finish(pruned(th, kp), q8)
+				})
+				if err != nil {
+					r.problem = err.Error()
+				} else {
+					finished(&r, m)
+				}
+				r.seconds = time.Since(began).Seconds()
+				b.Logf("%+v", r)
+				rows = append(rows, r)
+			}
+			// The floor: unigrams only (every prunable n-gram removed).
+			keep := prune.Keep(t, scores, math.Inf(1))
+			m, err := Finish(pruned(math.Inf(1), keep), q8)
+			if err != nil {
+				b.Fatal(err)
+			}
+			floors = append(floors, floorOf(b, string(method), m))
+			scores, search, m = nil, nil, nil
+
+			// From the counts, as ingot compile --max-size does.
+			for _, d := range divisors {
+				began := time.Now()
 				r := row{method: string(method), path: "compile", divisor: d}
 				res, err := bld.Fit(base / d)
 				if err != nil {
 					r.problem = err.Error()
 				} else {
-					r.order, r.bytes, r.perplexity = res.Chosen.Order, res.Chosen.FileBytes, mustPerplexity(b, res.Model, test)
+					r.order = res.Chosen.Order
+					r.quantCost = res.Perplexity/res.Chosen.Perplexity - 1
+					finished(&r, res.Model)
+					for _, cand := range res.Candidates {
+						b.Logf("  1/%d order %d: %+v", d, cand.Order, cand)
+					}
 				}
+				r.seconds = time.Since(began).Seconds()
 				b.Logf("%+v", r)
 				rows = append(rows, r)
 			}
@@ -132,11 +199,33 @@ func BenchmarkPruningPaths(b *testing.B) {
 			}
 		}
 		if dir := os.Getenv("INGOT_PRUNING_OUT"); dir != "" {
-			if err := writePruningResults(dir, rows); err != nil {
+			if err := writePruningResults(dir, rows, floors); err != nil {
 				b.Fatal(err)
 			}
 		}
 	}
+}
+
+// floorOf lists what the smallest file of a method holds, section by
+// section (directory and header under "header").
+func floorOf(b *testing.B, method string, m *tables.Tables) floor {
+	data, err := format.Marshal(m)
+	if err != nil {
+		b.Fatal(err)
+	}
+	f, err := format.FromBytes(data)
+	if err != nil {
+		b.Fatal(err)
+	}
+	fl := floor{method: method, bytes: int64(len(data)), sections: map[string]int64{}}
+	var inSections int64
+	for _, s := range f.Sections() {
+		name := s.Kind.String()
+		fl.sections[name] += s.Length
+		inSections += s.Length
+	}
+	fl.sections["header, directory and padding"] = fl.bytes - inSections
+	return fl
 }
 
 func mustPerplexity(b *testing.B, t *tables.Tables, s [][]string) float64 {
@@ -147,23 +236,99 @@ func mustPerplexity(b *testing.B, t *tables.Tables, s [][]string) float64 {
 	return p
 }
 
-func writePruningResults(dir string, rows []row) error {
+func writePruningResults(dir string, rows []row, floors []floor) error {
 	var md, csv strings.Builder
-	md.WriteString("| budget | method | path | order | file | held-out perplexity |\n| --- | --- | --- | ---: | ---: | ---: |\n")
-	csv.WriteString("method,path,budget_divisor,order,file_bytes,perplexity\n")
+	budgets := []int64{1, 2, 4, 16, 64}
+	label := func(d int64) string {
+		if d == 1 {
+			return "unpruned"
+		}
+		return fmt.Sprintf("1/%d", d)
+	}
+	find := func(method, path string, d int64) (row, bool) {
+		for _, r := range rows {
+			if r.method == method && r.divisor == d && (r.path == path || d == 1 && r.path == "unpruned") {
+				return r, true
+			}
+		}
+		return row{}, false
+	}
+	// The summary: perplexity per method and path, budgets across; the
+	// lowest of each budget in bold.
+	md.WriteString("| method | path |")
+	for _, d := range budgets {
+		fmt.Fprintf(&md, " %s |", label(d))
+	}
+	md.WriteString("\n| --- | --- |" + strings.Repeat(" ---: |", len(budgets)) + "\n")
+	best := map[int64]float64{}
+	for _, r := range rows {
+		if r.problem == "" && (best[r.divisor] == 0 || r.perplexity < best[r.divisor]) {
+			best[r.divisor] = r.perplexity
+		}
+	}
+	var methods []string
+	for _, r := range rows {
+		if !slices.Contains(methods, r.method) {
+			methods = append(methods, r.method)
+		}
+	}
+	for _, m := range methods {
+		for _, path := range []string{"compile", "prune"} {
+			fmt.Fprintf(&md, "| %s | %s |", m, path)
+			for _, d := range budgets {
+				r, ok := find(m, path, d)
+				switch {
+				case !ok || r.problem != "":
+					md.WriteString(" does not fit |")
+				case r.perplexity == best[d]:
+					fmt.Fprintf(&md, " **%.2f** |", r.perplexity)
+				default:
+					fmt.Fprintf(&md, " %.2f |", r.perplexity)
+				}
+			}
+			md.WriteString("\n")
+		}
+	}
+	md.WriteString("\nEvery model, budget by budget (\"order\" is the order written; seconds are this run's wall time for the model):\n\n")
+	md.WriteString("| budget | method | path | order | file bytes | held-out perplexity | cost of 8 bits (DEV) | verify | seconds |\n| --- | --- | --- | ---: | ---: | ---: | ---: | --- | ---: |\n")
+	csv.WriteString("method,path,budget_divisor,order,file_bytes,perplexity,verified\n")
 	sorted := slices.Clone(rows)
 	slices.SortStableFunc(sorted, func(a, b row) int { return int(a.divisor - b.divisor) })
 	for _, r := range sorted {
-		budget := "unpruned"
-		if r.divisor > 1 {
-			budget = fmt.Sprintf("1/%d", r.divisor)
-		}
 		if r.problem != "" {
-			fmt.Fprintf(&md, "| %s | %s | %s | - | - | does not fit: %s |\n", budget, r.method, r.path, r.problem)
+			fmt.Fprintf(&md, "| %s | %s | %s | - | - | does not fit: %s | - | - | %.0f |\n", label(r.divisor), r.method, r.path, r.problem, r.seconds)
 			continue
 		}
-		fmt.Fprintf(&md, "| %s | %s | %s | %d | %.2f MB | %.3f |\n", budget, r.method, r.path, r.order, float64(r.bytes)/1e6, r.perplexity)
-		fmt.Fprintf(&csv, "%s,%s,%d,%d,%d,%.4f\n", r.method, r.path, r.divisor, r.order, r.bytes, r.perplexity)
+		v := "pass"
+		if !r.verified {
+			v = "FAIL"
+		}
+		cost := "-"
+		if r.path == "compile" {
+			cost = fmt.Sprintf("%+.2f%%", 100*r.quantCost)
+		}
+		fmt.Fprintf(&md, "| %s | %s | %s | %d | %d | %.3f | %s | %s | %.0f |\n", label(r.divisor), r.method, r.path, r.order, r.bytes, r.perplexity, cost, v, r.seconds)
+		fmt.Fprintf(&csv, "%s,%s,%d,%d,%d,%.4f,%v\n", r.method, r.path, r.divisor, r.order, r.bytes, r.perplexity, r.verified)
+	}
+	if len(floors) > 0 {
+		md.WriteString("\nThe smallest file of each method (unigrams only, 8-bit), section by section, in bytes:\n\n")
+		var names []string
+		for n := range floors[0].sections {
+			names = append(names, n)
+		}
+		slices.SortFunc(names, func(a, b string) int { return int(floors[0].sections[b] - floors[0].sections[a]) })
+		md.WriteString("| method | file |")
+		for _, n := range names {
+			fmt.Fprintf(&md, " %s |", n)
+		}
+		md.WriteString("\n| --- | ---: |" + strings.Repeat(" ---: |", len(names)) + "\n")
+		for _, f := range floors {
+			fmt.Fprintf(&md, "| %s | %d |", f.method, f.bytes)
+			for _, n := range names {
+				fmt.Fprintf(&md, " %d |", f.sections[n])
+			}
+			md.WriteString("\n")
+		}
 	}
 	if err := os.WriteFile(filepath.Join(dir, "pruning.md"), []byte(md.String()), 0o644); err != nil {
 		return err
@@ -175,8 +340,11 @@ func writePruningResults(dir string, rows []row) error {
 	if err != nil {
 		return err
 	}
-	defer f.Close()
-	return pruningChart(f, rows)
+	if err := pruningChart(f, rows); err != nil {
+		f.Close()
+		return err
+	}
+	return f.Close()
 }
 
 // pruningChart draws file size against held-out perplexity, one curve per

@@ -87,11 +87,17 @@ func DefaultRanking(m estimate.Method) estimate.Method {
 
 // Candidate is one order's model fitted to the budget.
 type Candidate struct {
-	Order      int     `json:"order"`
-	Threshold  float64 `json:"threshold"`
-	NGrams     []int   `json:"ngrams_per_order"`
-	FileBytes  int64   `json:"file_bytes"`
-	Perplexity float64 `json:"perplexity,omitempty"` // 0 without held-out text
+	Order     int     `json:"order"`
+	Threshold float64 `json:"threshold"`
+	NGrams    []int   `json:"ngrams_per_order"`
+	// FileBytes is the written file's size for the chosen order; for the
+	// others it is their sizing (the quantized file's size through
+	// quantize.Placeholder, at least the real one).
+	FileBytes int64 `json:"file_bytes"`
+	// Perplexity is the held-out perplexity of the order's pruned model
+	// before quantization, the figure orders are compared on (0 without
+	// held-out text; Result.Perplexity is the written model's).
+	Perplexity float64 `json:"perplexity,omitempty"`
 	// Problem says why no model of this order fits (then the other fields
 	// but Order are zero).
 	Problem string `json:"problem,omitempty"`
@@ -111,6 +117,9 @@ type Result struct {
 	// highest first (only the asked order without held-out text).
 	Chosen     Candidate
 	Candidates []Candidate
+	// Perplexity is the written model's held-out perplexity (0 without
+	// held-out text).
+	Perplexity float64
 }
 
 // Fit builds the model opt asks for, pruned to fit opt.MaxBytes. It fails
@@ -137,6 +146,14 @@ type prepared struct {
 	t      *tables.Tables
 	rep    *estimate.Report
 	scores prune.Scores
+	// shaped gives the tables kept at a threshold, taken from the given
+	// model (t or its re-estimate), build description included.
+	shaped func(th float64, keep [][]bool, from *tables.Tables) *tables.Tables
+	// search remembers the sizes measured for this order across budgets.
+	search *prune.Search
+	// last is the pruned model built last, at threshold lastTh.
+	last   *tables.Tables
+	lastTh float64
 }
 
 // NewBuilder checks opt (but for MaxBytes) and returns a Builder.
@@ -154,21 +171,31 @@ func NewBuilder(c *counts.Counts, opt Options) (*Builder, error) {
 }
 
 // Fit builds the model fitted to maxBytes (see Options.Heldout for the
-// orders compared).
+// orders compared). Orders are compared on their pruned models before
+// quantization (each sized as the quantized file it would give, through
+// quantize.Placeholder); only the chosen one is quantized, and fitted
+// again if the quantized file comes out larger than its sizing.
 func (b *Builder) Fit(maxBytes int64) (*Result, error) {
 	if maxBytes <= 0 {
 		return nil, fmt.Errorf("budget %d bytes must be positive", maxBytes)
 	}
 	N := b.opt.Estimate.Order
-	low := N
-	if len(b.opt.Heldout) > 0 {
-		low = min(2, N)
+	if len(b.opt.Heldout) == 0 {
+		m, rep, cand, err := b.fitOrder(N, maxBytes)
+		if err != nil {
+			return nil, err
+		}
+		return &Result{Model: m, Report: rep, Ranking: b.opt.Ranking, Chosen: cand, Candidates: []Candidate{cand}}, nil
 	}
 	res := &Result{Ranking: b.opt.Ranking}
 	best := -1
 	var firstErr error
-	for n := N; n >= low; n-- {
-		m, rep, cand, err := b.fitOrder(n, maxBytes)
+	for n := N; n >= min(2, N); n-- {
+		m, cand, err := b.candidate(n, maxBytes)
+		if err == nil {
+			b.step("scoring the held-out text with the model of order %d", n)
+			cand.Perplexity, err = perplexity(m, b.opt.Heldout)
+		}
 		if err != nil {
 			if firstErr == nil {
 				firstErr = err
@@ -176,20 +203,28 @@ func (b *Builder) Fit(maxBytes int64) (*Result, error) {
 			res.Candidates = append(res.Candidates, Candidate{Order: n, Problem: err.Error()})
 			continue
 		}
-		if len(b.opt.Heldout) > 0 {
-			if cand.Perplexity, err = perplexity(m, b.opt.Heldout); err != nil {
-				return nil, err
-			}
-		}
 		res.Candidates = append(res.Candidates, cand)
-		if best < 0 || cand.Perplexity < res.Chosen.Perplexity {
+		if best < 0 || cand.Perplexity < res.Candidates[best].Perplexity {
 			best = len(res.Candidates) - 1
-			res.Model, res.Report, res.Chosen = m, rep, cand
 		}
 	}
 	if best < 0 {
 		return nil, firstErr
 	}
+	m, rep, cand, err := b.fitOrder(res.Candidates[best].Order, maxBytes)
+	if err != nil {
+		return nil, err
+	}
+	cand.Perplexity = res.Candidates[best].Perplexity
+	res.Perplexity = cand.Perplexity
+	if b.opt.Quantize.Bits != 0 {
+		b.step("scoring the held-out text with the quantized model")
+		if res.Perplexity, err = perplexity(m, b.opt.Heldout); err != nil {
+			return nil, err
+		}
+	}
+	res.Candidates[best] = cand
+	res.Model, res.Report, res.Chosen = m, rep, cand
 	return res, nil
 }
 
@@ -231,41 +266,93 @@ func (b *Builder) prepare(n int) (*prepared, error) {
 	}
 	b.step("scoring every n-gram of order %d by relative entropy", n)
 	p := &prepared{t: t, rep: rep, scores: prune.EntropyScores(ranker)}
+	method, ranking := eo.Method, b.opt.Ranking
+	p.shaped = func(th float64, keep [][]bool, from *tables.Tables) *tables.Tables {
+		s := prune.Select(from, keep)
+		s.Info.History = append(slices.Clip(s.Info.History), history(method, ranking, th, keep))
+		return s
+	}
+	p.search = prune.NewSearch(t, p.scores, sizer(b.opt.Quantize, func(th float64, kp [][]bool) *tables.Tables { return p.shaped(th, kp, t) }))
 	b.orders[n] = p
 	return p, nil
 }
 
-// fitOrder builds the model of order n fitted to maxBytes.
+// candidate returns the unquantized pruned model of order n sized to
+// maxBytes, to compare orders.
+func (b *Builder) candidate(n int, maxBytes int64) (*tables.Tables, Candidate, error) {
+	pre, err := b.prepare(n)
+	if err != nil {
+		return nil, Candidate{}, err
+	}
+	b.step("choosing the threshold of order %d for %d bytes", n, maxBytes)
+	th, keep, size, err := pre.search.Fit(maxBytes)
+	if err != nil {
+		return nil, Candidate{}, fmt.Errorf("order %d: %w", n, err)
+	}
+	m, err := b.pruned(pre, n, th, keep)
+	if err != nil {
+		return nil, Candidate{}, err
+	}
+	// size counts the signature's room; FileBytes, as for a finished file,
+	// does not.
+	return m, Candidate{Order: n, Threshold: th, NGrams: prune.Kept(keep), FileBytes: size - format.SignatureSpace}, nil
+}
+
+// fitOrder builds the model of order n fitted to maxBytes, finished.
 func (b *Builder) fitOrder(n int, maxBytes int64) (*tables.Tables, *estimate.Report, Candidate, error) {
 	pre, err := b.prepare(n)
 	if err != nil {
 		return nil, nil, Candidate{}, err
 	}
-	opt, c, t, step, describe := b.opt, b.c, pre.t, b.step, b.describe
-	scores := pre.scores
-	eo := opt.Estimate
-	eo.Order = n
-	method := eo.Method
-	rep := &estimate.Report{Method: pre.rep.Method, Orders: slices.Clone(pre.rep.Orders)}
-	shaped := func(th float64, keep [][]bool, from *tables.Tables) *tables.Tables {
-		p := prune.Select(from, keep)
-		p.Info.History = append(slices.Clip(p.Info.History), history(method, opt.Ranking, th, keep))
-		return p
-	}
-	step("choosing the threshold for %d bytes", maxBytes)
-	m, th, keep, size, err := FitFinished(t, scores, maxBytes, opt.Quantize,
-		func(th float64, kp [][]bool) *tables.Tables { return shaped(th, kp, t) },
-		func(th float64, kp [][]bool) (*tables.Tables, error) {
-			return build(c, eo, t, kp, func(p *tables.Tables) *tables.Tables { return shaped(th, kp, p) }, describe, opt.Quantize, step)
-		})
+	b.step("choosing the threshold of order %d for %d bytes", n, maxBytes)
+	m, th, keep, size, err := fitFinished(pre.search, maxBytes, func(th float64, kp [][]bool) (*tables.Tables, error) {
+		p, err := b.pruned(pre, n, th, kp)
+		if err != nil || b.opt.Quantize.Bits == 0 {
+			return p, err
+		}
+		b.step("quantizing")
+		q, _, err := quantize.Model(p, b.opt.Quantize)
+		return q, err
+	})
 	if err != nil {
 		return nil, nil, Candidate{}, fmt.Errorf("order %d: %w", n, err)
 	}
 	kept := prune.Kept(keep)
+	rep := &estimate.Report{Method: pre.rep.Method, Orders: slices.Clone(pre.rep.Orders)}
 	for k := range rep.Orders {
 		rep.Orders[k].Kept = kept[k]
 	}
 	return m, rep, Candidate{Order: n, Threshold: th, NGrams: kept, FileBytes: size}, nil
+}
+
+// pruned returns the unquantized model of order n that keeps the given
+// n-grams: Kneser-Ney estimated again on them, the others removed, back-off
+// weights recomputed. The last one built for each order is remembered (the
+// comparison of orders and the finishing of the chosen one ask for the same
+// model). The caller must not change it.
+func (b *Builder) pruned(pre *prepared, n int, th float64, keep [][]bool) (*tables.Tables, error) {
+	if pre.last != nil && pre.lastTh == th {
+		return pre.last, nil
+	}
+	t := pre.t
+	if b.opt.Estimate.Method == estimate.KneserNey {
+		b.step("estimating %s again on the survivors, order %d", b.opt.Estimate.Method, n)
+		eo := b.opt.Estimate
+		eo.Order = n
+		eo.Survivors = keep
+		var err error
+		if t, _, err = estimate.Estimate(b.c, eo); err != nil {
+			return nil, err
+		}
+		if err := b.describe(t); err != nil {
+			return nil, err
+		}
+	}
+	b.step("recomputing back-off weights")
+	p := pre.shaped(th, keep, t)
+	prune.Renormalize(p)
+	pre.last, pre.lastTh = p, th
+	return p, nil
 }
 
 // FitFinished finds the least relative-entropy pruning of t (ranked by
@@ -280,20 +367,33 @@ func (b *Builder) fitOrder(n int, maxBytes int64) (*tables.Tables, *estimate.Rep
 func FitFinished(t *tables.Tables, scores prune.Scores, maxBytes int64, q quantize.Options,
 	shaped func(th float64, keep [][]bool) *tables.Tables,
 	finish func(th float64, keep [][]bool) (*tables.Tables, error)) (m *tables.Tables, th float64, keep [][]bool, size int64, err error) {
-	// Every size compared counts the signature the file may get
-	// (format.SignatureSpace), so that a signed model still fits.
+	return fitFinished(prune.NewSearch(t, scores, sizer(q, shaped)), maxBytes, finish)
+}
+
+// sizer measures the file that shaped tables give, quantized (through
+// PlannedSize) when q.Bits is set. Every size counts the signature
+// the file may get (format.SignatureSpace), so that a signed model still
+// fits.
+func sizer(q quantize.Options, shaped func(th float64, keep [][]bool) *tables.Tables) func(float64, [][]bool) (int64, error) {
+	return func(th float64, kp [][]bool) (int64, error) {
+		p := shaped(th, kp)
+		var n int64
+		var err error
+		if q.Bits != 0 {
+			n, err = PlannedSize(p, q)
+		} else {
+			n, err = format.FileSize(p, format.Planned{})
+		}
+		return n + format.SignatureSpace, err
+	}
+}
+
+// fitFinished is FitFinished on a search that may already know sizes.
+func fitFinished(search *prune.Search, maxBytes int64,
+	finish func(th float64, keep [][]bool) (*tables.Tables, error)) (m *tables.Tables, th float64, keep [][]bool, size int64, err error) {
 	target := maxBytes
 	for attempt := 1; ; attempt++ {
-		th, keep, _, err = prune.Fit(t, scores, target, func(th float64, kp [][]bool) (int64, error) {
-			p := shaped(th, kp)
-			var n int64
-			if q.Bits != 0 {
-				n, err = PlannedSize(p, q)
-			} else {
-				n, err = format.FileSize(p, format.Planned{})
-			}
-			return n + format.SignatureSpace, err
-		})
+		th, keep, _, err = search.Fit(target)
 		if err != nil {
 			return nil, 0, nil, 0, err
 		}
@@ -338,26 +438,6 @@ func Finish(p *tables.Tables, q quantize.Options) (*tables.Tables, error) {
 // maxAttempts bounds the re-fits after a quantized file came out larger
 // than its sizing.
 const maxAttempts = 5
-
-// build makes the model that keeps the given n-grams of t: Kneser-Ney
-// estimated again on them, the others removed, back-off weights recomputed,
-// quantized if asked.
-func build(c *counts.Counts, eo estimate.Options, t *tables.Tables, keep [][]bool, shaped func(*tables.Tables) *tables.Tables,
-	describe func(*tables.Tables) error, q quantize.Options, step func(string, ...any)) (*tables.Tables, error) {
-	if eo.Method == estimate.KneserNey {
-		step("estimating %s again on the survivors", eo.Method)
-		eo.Survivors = keep
-		var err error
-		if t, _, err = estimate.Estimate(c, eo); err != nil {
-			return nil, err
-		}
-		if err := describe(t); err != nil {
-			return nil, err
-		}
-	}
-	step("recomputing back-off weights and quantizing")
-	return Finish(shaped(t), q)
-}
 
 func history(method, ranking estimate.Method, th float64, keep [][]bool) string {
 	s := fmt.Sprintf("pruned by relative entropy below %.6g nats on the %s model of the same counts", th, ranking)

@@ -216,8 +216,8 @@ func TestComparesOrdersOnHeldoutText(t *testing.T) {
 	if res.Model.Order() != res.Chosen.Order {
 		t.Errorf("model of order %d, chosen %d", res.Model.Order(), res.Chosen.Order)
 	}
-	if got, _ := perplexity(res.Model, held); got != res.Chosen.Perplexity {
-		t.Errorf("chosen model scores %v, reported %v", got, res.Chosen.Perplexity)
+	if got, _ := perplexity(res.Model, held); got != res.Perplexity {
+		t.Errorf("chosen model scores %v, reported %v", got, res.Perplexity)
 	}
 }
 

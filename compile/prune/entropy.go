@@ -116,7 +116,18 @@ func Select(t *tables.Tables, keep [][]bool) *tables.Tables {
 	out := &tables.Tables{Vocab: t.Vocab, Info: t.Info, Levels: make([]tables.Level, t.Order())}
 	for k := 1; k <= t.Order(); k++ {
 		src := &t.Levels[k-1]
-		var dst tables.Level
+		// Columns are never nil, even when nothing of an order is kept: a
+		// column present but empty is what an order without entries has.
+		n := 0
+		for _, ok := range keep[k-1] {
+			if ok {
+				n++
+			}
+		}
+		dst := tables.Level{Words: make([]uint32, 0, k*n), LogProb: make([]float32, 0, n)}
+		if src.LogBackoff != nil {
+			dst.LogBackoff = make([]float32, 0, n)
+		}
 		for i, ok := range keep[k-1] {
 			if !ok {
 				continue

@@ -2,6 +2,7 @@ package prune
 
 import (
 	"math"
+	"slices"
 	"strings"
 	"testing"
 
@@ -165,4 +166,69 @@ func TestCutoffOfUnigramsRefused(t *testing.T) {
 	if err == nil {
 		t.Error("a unigram cutoff was accepted")
 	}
+}
+
+// A Search answers every budget with the least pruning that fits, exactly
+// as the definition says (the smallest candidate threshold whose model
+// fits; the one just below it does not), whichever budgets it answered
+// before: checked against Least's bisection on the same sizes, with the
+// budgets asked in increasing, decreasing and mixed order on one Search.
+func TestSearchFindsTheLeastPruningWhateverItMeasuredBefore(t *testing.T) {
+	m, _ := model(t, 3, sotu(t, 400), estimate.Katz)
+	s := EntropyScores(m)
+	size := func(_ float64, kp [][]bool) (int64, error) {
+		var n int64
+		for k, c := range Kept(kp) {
+			n += int64((k + 1) * c) // a size that grows with the order, like a file's
+		}
+		return n, nil
+	}
+	full, _ := size(0, Keep(m, s, math.Inf(-1)))
+	smallest, _ := size(0, Keep(m, s, math.Inf(1)))
+	var budgets []int64
+	for i := int64(1); i < 40; i++ {
+		budgets = append(budgets, smallest+(full-smallest)*i*i/1600)
+	}
+	want := map[int64]float64{}
+	for _, b := range budgets {
+		th, _, err := Least(m, s, func(th float64, kp [][]bool) (bool, error) {
+			n, _ := size(th, kp)
+			return n <= b, nil
+		})
+		if err != nil {
+			t.Fatal(err)
+		}
+		want[b] = th
+	}
+	orders := [][]int64{budgets, reversed(budgets), mixed(budgets)}
+	for o, bs := range orders {
+		x := NewSearch(m, s, size)
+		for _, b := range bs {
+			th, kp, n, err := x.Fit(b)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if got, _ := size(th, kp); th != want[b] || n != got || n > b {
+				t.Fatalf("order %d, budget %d: threshold %v (size %d, reported %d), least is %v", o, b, th, got, n, want[b])
+			}
+		}
+		t.Logf("asked order %d: %d budgets, %d sizes measured", o, len(bs), x.Measured)
+	}
+	if _, _, _, err := NewSearch(m, s, size).Fit(smallest - 1); err == nil || !strings.Contains(err.Error(), "smallest model") {
+		t.Errorf("budget below the smallest model: got %v", err)
+	}
+}
+
+func reversed(xs []int64) []int64 {
+	out := slices.Clone(xs)
+	slices.Reverse(out)
+	return out
+}
+
+func mixed(xs []int64) []int64 {
+	var out []int64
+	for i := range xs {
+		out = append(out, xs[(i*17)%len(xs)])
+	}
+	return out
 }
