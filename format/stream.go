@@ -1,0 +1,680 @@
+package format
+
+import (
+	"bufio"
+	"crypto/sha256"
+	"encoding/binary"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"unicode/utf8"
+
+	"ingot/compile/tables"
+)
+
+// StreamWriter writes a version-3 model file from entries given one at a
+// time, order by order, without holding the model in memory: the bytes of
+// each section go to a file of their own in a temporary directory, and
+// Finish assembles them behind the header. What it holds in memory is the
+// vocabulary and, per order, one rank counter per 512 entries and one
+// Elias-Fano sample per 256 values; so a model larger than memory can be
+// written. For the same model it writes the same bytes as Write.
+//
+// The entries must be what the tables of package tables would hold, in
+// their order (unigrams first, every word of the vocabulary; then each
+// order sorted), and suffix-closed: every k-gram's (k-1)-word suffix is
+// stored, as in every model estimated from counts. The caller gives each
+// entry of order k >= 3 the rank of its last word among the successors of
+// its suffix's context (the key of encoding EliasFanoRanks), and each entry
+// below the top order its number of children at the next order.
+type StreamWriter struct {
+	dir    string
+	vocab  []string
+	counts []uint64
+	start  uint32
+	secs   []*streamSection // in file order (the first five are built at Finish)
+	k      int              // order being added (0 before the first Add)
+	n      uint64           // entries of order k added so far
+	prev   []uint32
+	// per-order state
+	keys        *valueSpill // last-word keys (k >= 2)
+	keyBase     uint64
+	lastKey     uint64
+	probs       *streamSection
+	marks       *markStream
+	backoffs    *streamSection
+	childStarts *valueSpill
+	childRun    uint64
+	err         error
+}
+
+// streamSection is a section whose bytes are in a file.
+type streamSection struct {
+	Section
+	path string
+	f    *os.File
+	w    *bufio.Writer
+	data []byte // or in memory
+}
+
+func (s *streamSection) write(b []byte) error {
+	_, err := s.w.Write(b)
+	s.Length += int64(len(b))
+	return err
+}
+
+func (s *streamSection) close() error {
+	if s.f == nil {
+		return nil
+	}
+	err := s.w.Flush()
+	if cerr := s.f.Close(); err == nil {
+		err = cerr
+	}
+	s.f = nil
+	return err
+}
+
+// NewStreamWriter starts a model of the given vocabulary (sorted bytewise,
+// holding the three markers) with counts[k-1] entries at order k. Its
+// section files go to a new directory under dir ("" for the system's
+// temporary directory), removed by Close.
+func NewStreamWriter(dir string, vocab []string, counts []uint64) (*StreamWriter, error) {
+	if len(counts) < 1 || len(counts) > tables.MaxOrder {
+		return nil, fmt.Errorf("ingot model: order %d outside 1..%d", len(counts), tables.MaxOrder)
+	}
+	if uint64(len(vocab)) >= uint64(noNode) || counts[0] != uint64(len(vocab)) {
+		return nil, fmt.Errorf("ingot model: %d unigrams for a vocabulary of %d words", counts[0], len(vocab))
+	}
+	text := 0
+	for id, w := range vocab {
+		if !utf8.ValidString(w) {
+			return nil, fmt.Errorf("cannot write the model: word id %d (%q) is not valid UTF-8", id, w)
+		}
+		if id > 0 && vocab[id-1] >= w {
+			return nil, fmt.Errorf("cannot write the model: vocabulary not sorted or duplicated at id %d (%q)", id, w)
+		}
+		text += len(w)
+	}
+	if uint64(text) > math.MaxUint32 {
+		return nil, fmt.Errorf("cannot write the model: vocabulary text of %d bytes exceeds 4 GiB", text)
+	}
+	if wordHashSlots(len(vocab)) > 1<<32-1 {
+		return nil, fmt.Errorf("ingot model: cannot write: a vocabulary of %d words is too large for the word hash", len(vocab))
+	}
+	for k, n := range counts {
+		if n > math.MaxUint32 {
+			return nil, fmt.Errorf("cannot write the model: order %d has %d entries, more than 32-bit offsets address", k+1, n)
+		}
+	}
+	probe := &tables.Tables{Vocab: vocab}
+	for _, m := range []string{tables.SentenceStart, tables.SentenceEnd, tables.Unknown} {
+		if _, ok := probe.ID(m); !ok {
+			return nil, fmt.Errorf("cannot write the model: vocabulary lacks %s", m)
+		}
+	}
+	start, _ := probe.ID(tables.SentenceStart)
+	d, err := os.MkdirTemp(dir, "ingot-model-")
+	if err != nil {
+		return nil, fmt.Errorf("model sections: %w", err)
+	}
+	return &StreamWriter{dir: d, vocab: vocab, counts: counts, start: start}, nil
+}
+
+// Dir returns the directory holding the section files.
+func (w *StreamWriter) Dir() string { return w.dir }
+
+// Close removes the section files. It is safe to call more than once, and
+// after Finish.
+func (w *StreamWriter) Close() error {
+	for _, s := range w.secs {
+		if s.f != nil {
+			s.f.Close()
+			s.f = nil
+		}
+	}
+	for _, v := range []*valueSpill{w.keys, w.childStarts} {
+		if v != nil {
+			v.close()
+		}
+	}
+	return os.RemoveAll(w.dir)
+}
+
+func (w *StreamWriter) newSection(kind SectionKind, enc Encoding, k int) (*streamSection, error) {
+	s := &streamSection{Section: Section{Kind: kind, Encoding: enc, Order: k}}
+	s.path = filepath.Join(w.dir, fmt.Sprintf("%02d-%03d", k, len(w.secs)))
+	f, err := os.Create(s.path)
+	if err != nil {
+		return nil, err
+	}
+	s.f, s.w = f, bufio.NewWriterSize(f, 1<<16)
+	w.secs = append(w.secs, s)
+	return s, nil
+}
+
+// Add appends the next entry: its word ids, the rank key (orders >= 3; see
+// StreamWriter), its log10 probability, and, below the top order, its log10
+// back-off weight and its number of children at the next order.
+func (w *StreamWriter) Add(ids []uint32, rank uint32, logProb, logBackoff float32, children uint64) error {
+	if w.err != nil {
+		return w.err
+	}
+	if err := w.add(ids, rank, logProb, logBackoff, children); err != nil {
+		w.err = err
+		return err
+	}
+	return nil
+}
+
+func (w *StreamWriter) add(ids []uint32, rank uint32, logProb, logBackoff float32, children uint64) error {
+	k := len(ids)
+	N := len(w.counts)
+	if w.k == 0 || w.n == w.counts[w.k-1] {
+		if err := w.endOrder(); err != nil {
+			return err
+		}
+		if k != w.k+1 {
+			return fmt.Errorf("ingot model: %d-gram given where order %d starts", k, w.k+1)
+		}
+		if err := w.startOrder(k); err != nil {
+			return err
+		}
+	}
+	if k != w.k {
+		return fmt.Errorf("ingot model: %d-gram given among the %d-grams (%d of %d given)", k, w.k, w.n, w.counts[w.k-1])
+	}
+	i := w.n
+	for _, id := range ids {
+		if int(id) >= len(w.vocab) {
+			return fmt.Errorf("cannot write the model: order %d entry %d: word id %d outside vocabulary of %d", k, i, id, len(w.vocab))
+		}
+	}
+	if k == 1 && uint64(ids[0]) != i {
+		return fmt.Errorf("cannot write the model: unigram %d holds word id %d", i, ids[0])
+	}
+	if k >= 2 && i > 0 && tables.Compare(w.prev, ids) >= 0 {
+		return fmt.Errorf("cannot write the model: order %d entry %d out of order or duplicated", k, i)
+	}
+	if !(k == 1 && ids[0] == w.start && math.IsInf(float64(logProb), -1)) && (math.IsNaN(float64(logProb)) || math.IsInf(float64(logProb), 0)) {
+		return fmt.Errorf("cannot write the model: order %d entry %d has log10 probability %v", k, i, logProb)
+	}
+	if k >= 2 {
+		newParent := i == 0 || tables.Compare(w.prev[:k-1], ids[:k-1]) != 0
+		if newParent && i > 0 {
+			w.keyBase = w.lastKey
+		}
+		key := uint64(ids[k-1])
+		if k >= 3 {
+			key = uint64(rank)
+		}
+		w.lastKey = w.keyBase + key
+		if err := w.keys.add(w.lastKey); err != nil {
+			return err
+		}
+	}
+	var b [4]byte
+	putU32(b[:], math.Float32bits(logProb))
+	if err := w.probs.write(b[:]); err != nil {
+		return err
+	}
+	if k < N {
+		if math.IsNaN(float64(logBackoff)) || math.IsInf(float64(logBackoff), 0) {
+			return fmt.Errorf("cannot write the model: order %d entry %d has log10 back-off %v", k, i, logBackoff)
+		}
+		isContext := children > 0 || hasBackoff(logBackoff)
+		if err := w.marks.add(isContext); err != nil {
+			return err
+		}
+		if isContext {
+			putU32(b[:], math.Float32bits(logBackoff))
+			if err := w.backoffs.write(b[:]); err != nil {
+				return err
+			}
+			if err := w.childStarts.add(w.childRun); err != nil {
+				return err
+			}
+		}
+		w.childRun += children
+	} else if children != 0 {
+		return fmt.Errorf("ingot model: an entry of the top order %d with children", k)
+	}
+	w.prev = append(w.prev[:0], ids...)
+	w.n++
+	return nil
+}
+
+func (w *StreamWriter) startOrder(k int) error {
+	N := len(w.counts)
+	w.k, w.n = k, 0
+	w.keyBase, w.lastKey, w.childRun = 0, 0, 0
+	var err error
+	if k >= 2 {
+		enc := EliasFano
+		if k >= 3 {
+			enc = EliasFanoRanks
+		}
+		s, err := w.newSection(KindLastWords, enc, k)
+		if err != nil {
+			return err
+		}
+		if w.keys, err = newValueSpill(w.dir, fmt.Sprintf("keys-%d", k), s); err != nil {
+			return err
+		}
+	}
+	if w.probs, err = w.newSection(KindProbabilities, Plain, k); err != nil {
+		return err
+	}
+	if k < N {
+		s, err := w.newSection(KindContexts, Plain, k)
+		if err != nil {
+			return err
+		}
+		w.marks = newMarkStream(s, w.counts[k-1])
+		if w.backoffs, err = w.newSection(KindBackoffs, Plain, k); err != nil {
+			return err
+		}
+		cs, err := w.newSection(KindChildStarts, EliasFano, k)
+		if err != nil {
+			return err
+		}
+		if w.childStarts, err = newValueSpill(w.dir, fmt.Sprintf("starts-%d", k), cs); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// endOrder completes the sections of the order being added.
+func (w *StreamWriter) endOrder() error {
+	if w.k == 0 {
+		return nil
+	}
+	if w.n != w.counts[w.k-1] {
+		return fmt.Errorf("ingot model: order %d has %d entries, %d announced", w.k, w.n, w.counts[w.k-1])
+	}
+	if w.keys != nil {
+		if err := w.keys.encode(); err != nil {
+			return err
+		}
+		w.keys = nil
+	}
+	if err := w.probs.close(); err != nil {
+		return err
+	}
+	if w.k < len(w.counts) {
+		if w.k < len(w.counts) && w.childRun != w.counts[w.k] {
+			return fmt.Errorf("ingot model: order %d entries have %d children, order %d has %d entries", w.k, w.childRun, w.k+1, w.counts[w.k])
+		}
+		if err := w.marks.finish(); err != nil {
+			return err
+		}
+		if err := w.backoffs.close(); err != nil {
+			return err
+		}
+		if err := w.childStarts.add(w.childRun); err != nil {
+			return err
+		}
+		if err := w.childStarts.encode(); err != nil {
+			return err
+		}
+		w.childStarts = nil
+	}
+	return nil
+}
+
+// Finish completes the last order and writes the model file to out, its
+// build information info. The summary records the model as suffix-closed.
+func (w *StreamWriter) Finish(out io.Writer, info tables.Info) error {
+	if w.err != nil {
+		return w.err
+	}
+	if w.k != len(w.counts) {
+		return fmt.Errorf("ingot model: finished at order %d of %d", w.k, len(w.counts))
+	}
+	if err := w.endOrder(); err != nil {
+		return err
+	}
+	infoBytes, err := marshalInfo(info)
+	if err != nil {
+		return fmt.Errorf("ingot model: cannot write build info: %w", err)
+	}
+	if len(infoBytes) > MaxBuildInfo {
+		return fmt.Errorf("ingot model: cannot write: build info of %d bytes exceeds %d (too many history lines or options?)", len(infoBytes), MaxBuildInfo)
+	}
+	N := len(w.counts)
+	summary := make([]byte, summaryFixedSize+8*N)
+	probe := &tables.Tables{Vocab: w.vocab}
+	end, _ := probe.ID(tables.SentenceEnd)
+	unk, _ := probe.ID(tables.Unknown)
+	putU32(summary[0:], uint32(N))
+	putU32(summary[4:], uint32(len(w.vocab)))
+	putU32(summary[8:], w.start)
+	putU32(summary[12:], end)
+	putU32(summary[16:], unk)
+	putU32(summary[20:], FlagSuffixClosed)
+	for k, n := range w.counts {
+		putU64(summary[summaryFixedSize+8*k:], n)
+	}
+	starts, text := vocabularyBytes(w.vocab)
+	head := []*streamSection{
+		{Section: Section{Kind: KindSummary}, data: summary},
+		{Section: Section{Kind: KindBuildInfo}, data: infoBytes},
+		{Section: Section{Kind: KindWordStarts}, data: starts},
+		{Section: Section{Kind: KindWordText}, data: text},
+		{Section: Section{Kind: KindWordHash}, data: encodeWordHash(w.vocab)},
+	}
+	secs := append(head, w.secs...)
+	// First pass: lengths, checksums and the digest; the header needs them
+	// all before the first section.
+	header := make([]byte, headerSize+directoryEntry*len(secs))
+	pos := int64(len(header))
+	digest := sha256.New()
+	for i, s := range secs {
+		crc := uint32(0)
+		var length int64
+		err := s.each(func(b []byte) {
+			crc = updateChecksum(crc, b)
+			length += int64(len(b))
+		})
+		if err != nil {
+			return err
+		}
+		s.Offset, s.Length, s.Checksum = align(pos), length, crc
+		pos = s.Offset + s.Length
+		digest.Write(digestRecord(s.Section))
+		if err := s.each(func(b []byte) { digest.Write(b) }); err != nil {
+			return err
+		}
+		e := header[headerSize+directoryEntry*i:]
+		putU32(e[0:], uint32(s.Kind))
+		putU32(e[4:], uint32(s.Encoding))
+		putU32(e[8:], uint32(s.Order))
+		putU32(e[12:], s.Checksum)
+		putU64(e[16:], uint64(s.Offset))
+		putU64(e[24:], uint64(s.Length))
+	}
+	copy(header, Magic)
+	putU32(header[offVersion:], 3)
+	putU32(header[offSectionCount:], uint32(len(secs)))
+	putU64(header[offFileLength:], uint64(align(pos)))
+	copy(header[offDigest:], digest.Sum(nil))
+	putU32(header[offHeaderCRC:], updateChecksum(checksum(header[:offHeaderCRC]), header[headerSize:]))
+	// Second pass: the bytes.
+	if _, err := out.Write(header); err != nil {
+		return fmt.Errorf("writing the model header: %w", err)
+	}
+	var pad [sectionAlignment]byte
+	pos = int64(len(header))
+	for _, s := range secs {
+		if _, err := out.Write(pad[:s.Offset-pos]); err != nil {
+			return fmt.Errorf("writing the model: padding before %s: %w", s.Name(), err)
+		}
+		var werr error
+		if err := s.each(func(b []byte) {
+			if werr == nil {
+				_, werr = out.Write(b)
+			}
+		}); err != nil {
+			return err
+		}
+		if werr != nil {
+			return fmt.Errorf("writing the model: %s: %w", s.Name(), werr)
+		}
+		pos = s.Offset + s.Length
+	}
+	if e := align(pos); e > pos {
+		if _, err := out.Write(pad[:e-pos]); err != nil {
+			return fmt.Errorf("writing the model: final padding: %w", err)
+		}
+	}
+	return nil
+}
+
+// each calls fn with the section's bytes, in pieces.
+func (s *streamSection) each(fn func([]byte)) error {
+	if s.path == "" {
+		fn(s.data)
+		return nil
+	}
+	f, err := os.Open(s.path)
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	buf := make([]byte, 1<<16)
+	for {
+		n, err := f.Read(buf)
+		if n > 0 {
+			fn(buf[:n])
+		}
+		if err == io.EOF {
+			return nil
+		}
+		if err != nil {
+			return err
+		}
+	}
+}
+
+// valueSpill collects a non-decreasing sequence in a file, then encodes it
+// as an Elias-Fano section (encodeEliasFano, streamed).
+type valueSpill struct {
+	path string
+	f    *os.File
+	w    *bufio.Writer
+	n    uint64
+	last uint64
+	sec  *streamSection
+}
+
+func newValueSpill(dir, name string, sec *streamSection) (*valueSpill, error) {
+	p := filepath.Join(dir, name)
+	f, err := os.Create(p)
+	if err != nil {
+		return nil, err
+	}
+	return &valueSpill{path: p, f: f, w: bufio.NewWriterSize(f, 1<<16), sec: sec}, nil
+}
+
+func (v *valueSpill) add(x uint64) error {
+	if v.n > 0 && x < v.last {
+		return errors.New("ingot model: Elias-Fano values decrease")
+	}
+	var b [8]byte
+	binary.LittleEndian.PutUint64(b[:], x)
+	_, err := v.w.Write(b[:])
+	v.n++
+	v.last = x
+	return err
+}
+
+func (v *valueSpill) close() {
+	if v.f != nil {
+		v.f.Close()
+		v.f = nil
+	}
+	os.Remove(v.path)
+}
+
+// values calls fn with every value in order.
+func (v *valueSpill) values(fn func(i, x uint64) error) error {
+	if _, err := v.f.Seek(0, io.SeekStart); err != nil {
+		return err
+	}
+	r := bufio.NewReaderSize(v.f, 1<<16)
+	var b [8]byte
+	for i := uint64(0); i < v.n; i++ {
+		if _, err := io.ReadFull(r, b[:]); err != nil {
+			return err
+		}
+		if err := fn(i, binary.LittleEndian.Uint64(b[:])); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// encode writes the Elias-Fano section of the values (the layout of
+// encodeEliasFano: header, low bits, high bits, samples) and removes the
+// value file.
+func (v *valueSpill) encode() error {
+	defer v.close()
+	if err := v.w.Flush(); err != nil {
+		return err
+	}
+	s := v.sec
+	n, last := v.n, v.last
+	l := efLowBits(n, last)
+	lowW, highW, sampW := efSizes(n, last, l)
+	var hdr [efHeader]byte
+	putU64(hdr[0:], n)
+	putU64(hdr[8:], last)
+	putU32(hdr[16:], uint32(l))
+	if err := s.write(hdr[:]); err != nil {
+		return err
+	}
+	var word [8]byte
+	emit := func(x uint64) error {
+		binary.LittleEndian.PutUint64(word[:], x)
+		return s.write(word[:])
+	}
+	// Low bits, L per value, packed from bit 0 of word 0.
+	var cur uint64
+	var written uint64
+	if l > 0 {
+		mask := uint64(1)<<l - 1
+		err := v.values(func(i, x uint64) error {
+			bit := i * uint64(l)
+			if bit/64 > written {
+				if err := emit(cur); err != nil {
+					return err
+				}
+				written++
+				cur = 0
+			}
+			cur |= (x & mask) << (bit % 64)
+			if bit%64+uint64(l) > 64 {
+				if err := emit(cur); err != nil {
+					return err
+				}
+				written++
+				cur = (x & mask) >> (64 - bit%64)
+			}
+			return nil
+		})
+		if err != nil {
+			return err
+		}
+	}
+	for ; written < lowW; written++ {
+		if err := emit(cur); err != nil {
+			return err
+		}
+		cur = 0
+	}
+	// High bits: bit (x >> L) + i set; positions increase.
+	samples := make([]uint64, 0, sampW)
+	cur, written = 0, 0
+	err := v.values(func(i, x uint64) error {
+		p := x>>l + i
+		for p/64 > written {
+			if err := emit(cur); err != nil {
+				return err
+			}
+			written++
+			cur = 0
+		}
+		cur |= 1 << (p % 64)
+		if i%efSample == 0 {
+			samples = append(samples, p)
+		}
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	for ; written < highW; written++ {
+		if err := emit(cur); err != nil {
+			return err
+		}
+		cur = 0
+	}
+	for _, p := range samples {
+		if err := emit(p); err != nil {
+			return err
+		}
+	}
+	return s.close()
+}
+
+// markStream writes a marks section (encodeMarks, streamed): the bits go
+// to the file as they come, the rank counters (one per 512 entries) are
+// kept and written after them, and the header's counts are filled in at
+// the end.
+type markStream struct {
+	s        *streamSection
+	n, i     uint64
+	count    uint64
+	word     uint64
+	counters []uint32
+}
+
+func newMarkStream(s *streamSection, n uint64) *markStream {
+	m := &markStream{s: s, n: n}
+	var hdr [marksHeader]byte
+	putU64(hdr[0:], n)
+	s.write(hdr[:]) // count filled in by finish
+	return m
+}
+
+func (m *markStream) add(mark bool) error {
+	if m.i%marksBlock == 0 {
+		m.counters = append(m.counters, uint32(m.count))
+	}
+	if mark {
+		m.word |= 1 << (m.i % 64)
+		m.count++
+	}
+	m.i++
+	if m.i%64 == 0 {
+		var b [8]byte
+		binary.LittleEndian.PutUint64(b[:], m.word)
+		m.word = 0
+		return m.s.write(b[:])
+	}
+	return nil
+}
+
+func (m *markStream) finish() error {
+	if m.i%64 != 0 {
+		var b [8]byte
+		binary.LittleEndian.PutUint64(b[:], m.word)
+		if err := m.s.write(b[:]); err != nil {
+			return err
+		}
+	}
+	_, counters := marksSizes(m.n)
+	if uint64(len(m.counters)) != counters {
+		return fmt.Errorf("ingot model: %d marks given, %d announced", m.i, m.n)
+	}
+	var b [4]byte
+	for _, c := range m.counters {
+		putU32(b[:], c)
+		if err := m.s.write(b[:]); err != nil {
+			return err
+		}
+	}
+	if err := m.s.w.Flush(); err != nil {
+		return err
+	}
+	var c [8]byte
+	putU64(c[:], m.count)
+	if _, err := m.s.f.WriteAt(c[:], 8); err != nil {
+		return err
+	}
+	return m.s.close()
+}
