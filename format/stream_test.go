@@ -228,4 +228,3 @@ func TestStreamWriterRefuses(t *testing.T) {
 		}
 	}
 }
-
