@@ -9,6 +9,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"ingot/compile/bounded"
 	"ingot/compile/estimate"
 	"ingot/compile/pipeline"
 	"ingot/compile/vocab"
@@ -28,6 +29,7 @@ func newCompileCmd() *cobra.Command {
 		wordList  string
 		bf        budgetFlags
 		repeats   bool
+		rf        runFlags
 	)
 	cmd := &cobra.Command{
 		Use:   "compile --method M --order N -o MODEL COUNTS...",
@@ -53,6 +55,20 @@ With --vocabulary FILE (one word per line) the model predicts exactly the
 listed words, </s> and <unk>: every other word of the counts becomes <unk>
 (counts of n-grams that become equal are summed), and listed words without
 counts get probability through the lower orders.
+
+Memory: compile keeps within --memory (default: a quarter of physical
+memory). When the counts would not fit in memory (about 200 bytes per
+n-gram: binary files are sized by the entries their end records announce,
+text files by their size; a compressed file or standard input is taken not
+to fit), they are merged into one sorted file per order in a private
+directory under --tmp and estimated in sorted passes: Kneser-Ney adjusted
+counts, count of counts, discounts, lower-order probabilities and back-off
+weights are found by sorting on disk (runs beyond half the budget) and
+merging, one order at a time, and the model is written section by section
+as it is produced. The model is the same, byte for byte, as the in-memory
+one. --vocabulary, --min-count and --max-size need the counts in memory.
+The directory is removed on success, on failure and on SIGINT or SIGTERM.
+--log-level info logs the passes and spills.
 
 --max-size writes the model pruned to fit SIZE (bytes, or 500KB, 8MiB), in
 one step from the counts: n-grams are ranked by relative entropy (Stolcke
@@ -99,7 +115,18 @@ perplexity, listing what it compared.`,
 			if bf.set() && len(cutoffs) > 0 {
 				return fmt.Errorf("compile: give --max-size or --min-count, not both")
 			}
+			memory, err := rf.budget("compile")
+			if err != nil {
+				return err
+			}
+			log, err := rf.logger("compile", cmd.ErrOrStderr())
+			if err != nil {
+				return err
+			}
 			pr := newProgress(cmd.ErrOrStderr())
+			if rf.quiet {
+				pr.w = nil
+			}
 			defer pr.done()
 			if err := checkOutput("compile", out, append([]string{wordList}, args...)...); err != nil {
 				return err
@@ -120,6 +147,27 @@ perplexity, listing what it compared.`,
 				if run.Budget, err = bf.options(); err != nil {
 					return err
 				}
+			}
+			if !bounded.InMemoryFits(args, memory) {
+				if !run.InMemoryOnly() {
+					run.Command = pipeline.Record(commandWords(cmd), bf.maxSize)
+					m, err := run.RunBounded(cmd.Context(), args, bounded.Options{
+						Memory: memory, TempDir: rf.tmp, Temp: pendingFrom(cmd.Context()), Log: log})
+					if err != nil {
+						return fmt.Errorf("compile: %w", err)
+					}
+					defer m.Close()
+					log.Info("estimated", "runs", m.Result.Runs, "spilled_bytes", m.Result.Bytes)
+					pr.step("writing %s", out)
+					if err := writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(w io.Writer) error {
+						return m.Write(w, m.Info)
+					}); err != nil {
+						return err
+					}
+					pr.done()
+					return printReport(cmd.OutOrStdout(), m.Result.Report, out, asJSON)
+				}
+				log.Warn("the counts may not fit --memory: --vocabulary, --min-count and --max-size hold them in memory", "memory", memory)
 			}
 			pr.step("reading counts")
 			c, inputs, err := pipeline.LoadCounts(order, args)
@@ -161,6 +209,7 @@ perplexity, listing what it compared.`,
 	f.StringVar(&bf.heldout, "heldout", "", "with --max-size: compare every lower order at the same budget on this text and keep the best")
 	f.StringVar(&bf.rankWith, "rank-with", "", "with --max-size: method whose model ranks n-grams for removal (default: katz for kneser-ney, else the method itself)")
 	bf.qf.register(cmd, false)
+	rf.add(f)
 	f.BoolVar(&repeats, "allow-repeats", false, "accept a count file named more than once, its counts added once per naming (deliberate weighting)")
 	cmd.MarkFlagRequired("method")
 	cmd.MarkFlagRequired("order")

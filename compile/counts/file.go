@@ -36,6 +36,19 @@ func Load(order int, sources []Source) (*Counts, error) {
 	if order < 1 || order > tables.MaxOrder {
 		return nil, fmt.Errorf("order %d outside 1..%d", order, tables.MaxOrder)
 	}
+	b, bins, maxSeen, err := readSources(order, sources)
+	if err != nil {
+		return nil, err
+	}
+	if len(bins) == 0 {
+		return b.result(order, maxSeen, sources)
+	}
+	return mergeSources(order, maxSeen, b, bins, sources)
+}
+
+// readSources reads the text sources into a builder and opens the binary
+// ones; maxSeen is the highest order the text sources held.
+func readSources(order int, sources []Source) (*builder, []binSource, int, error) {
 	b := newBuilder(order)
 	var bins []binSource
 	maxSeen := 0
@@ -44,21 +57,18 @@ func Load(order int, sources []Source) (*Counts, error) {
 		if head, _ := br.Peek(len(Magic)); IsBinary(head) {
 			r, err := NewReader(br)
 			if err != nil {
-				return nil, fmt.Errorf("%s: %w", src.Name, err)
+				return nil, nil, 0, fmt.Errorf("%s: %w", src.Name, err)
 			}
 			bins = append(bins, binSource{src: fi, r: r})
 			continue
 		}
 		seen, err := b.addTextFile(order, fi, src.Name, br)
 		if err != nil {
-			return nil, err
+			return nil, nil, 0, err
 		}
 		maxSeen = max(maxSeen, seen)
 	}
-	if len(bins) == 0 {
-		return b.result(order, maxSeen, sources)
-	}
-	return mergeSources(order, maxSeen, b, bins, sources)
+	return b, bins, maxSeen, nil
 }
 
 // result finishes a load of text files only.

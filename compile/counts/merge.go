@@ -204,42 +204,12 @@ func (m *merger) next(out []uint32) ([]uint32, uint64, int, error) {
 
 // mergeSources merges the text counts gathered in b with binary sources.
 func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []Source) (*Counts, error) {
-	var textCounts *Counts
-	lists := [][]string{}
-	if hasEntries(b) {
-		textCounts = b.finish(nil, nil)
-		lists = append(lists, textCounts.Vocab)
-	}
-	for _, s := range bins {
-		lists = append(lists, s.r.Header().Vocab)
-	}
-	vocab, remaps := unionVocab(lists)
-	start, _ := find(vocab, tables.SentenceStart)
-	var streams []stream
-	var srcOf []int // source index of each stream, -1 for the text counts
-	if textCounts != nil {
-		st, _ := textCounts.ID(tables.SentenceStart)
-		streams = append(streams, &countsStream{c: textCounts, remap: remaps[0], start: st, k: 1, ids: make([]uint32, tables.MaxOrder)})
-		srcOf = append(srcOf, -1)
-		remaps = remaps[1:]
-	}
-	for i, s := range bins {
-		streams = append(streams, &readerStream{r: s.r, remap: remaps[i], ids: make([]uint32, tables.MaxOrder)})
-		srcOf = append(srcOf, s.src)
-	}
-	streamErr := func(err error) error {
-		if es, ok := err.(*errStream); ok {
-			if src := srcOf[es.stream]; src >= 0 {
-				return fmt.Errorf("%s: %w", sources[src].Name, es.err)
-			}
-			return es.err
-		}
-		return err
-	}
-	m, err := newMerger(streams)
+	ms, err := openMerge(b, bins, sources)
 	if err != nil {
-		return nil, streamErr(err)
+		return nil, err
 	}
+	m, vocab, textCounts, streams, srcOf, streamErr := ms.m, ms.vocab, ms.textCounts, ms.streams, ms.srcOf, ms.streamErr
+	start, _ := find(vocab, tables.SentenceStart)
 	c := &Counts{Vocab: vocab, Levels: make([]Level, order)}
 	uni := Level{Words: make([]uint32, len(vocab)), Counts: make([]uint64, len(vocab))}
 	for i := range uni.Words {
@@ -250,6 +220,7 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 	for {
 		var n uint64
 		var from int
+		var err error
 		g, n, from, err = m.next(g)
 		if err == io.EOF {
 			break
@@ -344,4 +315,55 @@ func joinWords(vocab []string, g []uint32) string {
 		s += vocab[id]
 	}
 	return s
+}
+
+// merging is a k-way merge of count sources under their union vocabulary.
+type merging struct {
+	m          *merger
+	vocab      []string
+	textCounts *Counts // the text sources' counts, or nil
+	streams    []stream
+	srcOf      []int // source index of each stream, -1 for the text counts
+	streamErr  func(error) error
+}
+
+// openMerge starts the merge of the text counts gathered in b with the
+// binary sources.
+func openMerge(b *builder, bins []binSource, sources []Source) (*merging, error) {
+	ms := &merging{}
+	lists := [][]string{}
+	if hasEntries(b) {
+		ms.textCounts = b.finish(nil, nil)
+		lists = append(lists, ms.textCounts.Vocab)
+	}
+	for _, s := range bins {
+		lists = append(lists, s.r.Header().Vocab)
+	}
+	vocab, remaps := unionVocab(lists)
+	ms.vocab = vocab
+	if ms.textCounts != nil {
+		st, _ := ms.textCounts.ID(tables.SentenceStart)
+		ms.streams = append(ms.streams, &countsStream{c: ms.textCounts, remap: remaps[0], start: st, k: 1, ids: make([]uint32, tables.MaxOrder)})
+		ms.srcOf = append(ms.srcOf, -1)
+		remaps = remaps[1:]
+	}
+	for i, s := range bins {
+		ms.streams = append(ms.streams, &readerStream{r: s.r, remap: remaps[i], ids: make([]uint32, tables.MaxOrder)})
+		ms.srcOf = append(ms.srcOf, s.src)
+	}
+	ms.streamErr = func(err error) error {
+		if es, ok := err.(*errStream); ok {
+			if src := ms.srcOf[es.stream]; src >= 0 {
+				return fmt.Errorf("%s: %w", sources[src].Name, es.err)
+			}
+			return es.err
+		}
+		return err
+	}
+	m, err := newMerger(ms.streams)
+	if err != nil {
+		return nil, ms.streamErr(err)
+	}
+	ms.m = m
+	return ms, nil
 }

@@ -368,7 +368,7 @@ func (e *estimator) order(k int) error {
 	if e.opt.Method == KneserNey {
 		cnt = e.adj[k-1]
 	}
-	disc := e.discounter(k, cnt, &rep)
+	disc := e.opt.discounter(k, countOfCounts(cnt, e.opt.countOfCountsMax()), &rep)
 	e.prob[k-1] = make([]float64, len(cnt))
 	prob := e.prob[k-1]
 
@@ -429,21 +429,40 @@ func (e *estimator) order(k int) error {
 	return nil
 }
 
-func (e *estimator) discounter(k int, cnt []uint64, rep *OrderReport) discounter {
-	switch e.opt.Method {
+// countOfCountsMax returns the largest r whose count of counts n_r the
+// method's discounts use (0: none).
+func (o Options) countOfCountsMax() int {
+	switch o.Method {
+	case KneserNey:
+		return 4
+	case Absolute:
+		if o.AutoDiscount {
+			return 2
+		}
+		return 0
+	case Katz:
+		return o.KatzThreshold + 1
+	}
+	return 0
+}
+
+// discounter returns order k's discounting rule, its parameters computed
+// from the order's count of counts n (n[r] for r = 0..countOfCountsMax).
+func (o Options) discounter(k int, n []float64, rep *OrderReport) discounter {
+	switch o.Method {
 	case WittenBell:
 		return wittenBell
 	case KneserNey:
-		return e.kneserNey(k, cnt, rep)
+		return kneserNey(k, n, rep)
 	case Absolute:
-		D := e.opt.Discount
-		if e.opt.AutoDiscount {
-			D = absoluteAuto(countOfCounts(cnt, 2))
+		D := o.Discount
+		if o.AutoDiscount {
+			D = absoluteAuto(n)
 		}
 		rep.Discounts = []Param{{"D", D}}
 		return backoff(absolute(D), rep)
 	default:
-		return e.katz(k, cnt, rep)
+		return o.katz(k, n, rep)
 	}
 }
 
@@ -492,9 +511,8 @@ func absolute(D float64) func(cnt []uint64, total float64, p []float64) float64 
 // katz returns the Good-Turing discounting of Katz back-off for order k:
 // r* = (r+1) n_{r+1}/n_r and
 // d_r = (r*/r - (K+1) n_{K+1}/n_1) / (1 - (K+1) n_{K+1}/n_1) for r <= K.
-func (e *estimator) katz(k int, cnt []uint64, rep *OrderReport) discounter {
-	K := e.opt.KatzThreshold
-	n := countOfCounts(cnt, K+1)
+func (o Options) katz(k int, n []float64, rep *OrderReport) discounter {
+	K := o.KatzThreshold
 	Dabs := absoluteAuto(n)
 	d, why := katzDiscounts(n, K)
 	if why != "" {
@@ -617,8 +635,7 @@ func KneserNeyDiscounts(n []float64) (Y, D1, D2, D3 float64, why string) {
 	return Y, D1, D2, D3, ""
 }
 
-func (e *estimator) kneserNey(k int, adj []uint64, rep *OrderReport) discounter {
-	n := countOfCounts(adj, 4)
+func kneserNey(k int, n []float64, rep *OrderReport) discounter {
 	Y, D1, D2, D3, why := KneserNeyDiscounts(n)
 	if why != "" {
 		rep.Fallbacks = append(rep.Fallbacks, fmt.Sprintf(

@@ -1,0 +1,131 @@
+// Package bounded compiles counts into a model within a memory budget:
+// the counts are merged into one sorted file per order on disk
+// (counts.Spool), estimated in sorted passes (estimate.EstimateStreamed)
+// and the model is written section by section as it is produced
+// (format.StreamWriter). The model is byte for byte the one the in-memory
+// path writes. It also decides which path a compile takes.
+package bounded
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"log/slog"
+	"os"
+	"strings"
+
+	"ingot/compile/counts"
+	"ingot/compile/estimate"
+	"ingot/compile/tables"
+	"ingot/format"
+)
+
+// InMemoryBytesPerNGram is what the in-memory compiler takes per n-gram of
+// its counts (measured: see BENCHMARKS.md, the scale section), the figure
+// by which InMemoryFits predicts whether counts fit a budget.
+const InMemoryBytesPerNGram = 200
+
+// textBytesPerNGram is the size of one line of a text count file, about.
+const textBytesPerNGram = 20
+
+// InMemoryFits predicts whether compiling the named count files in memory
+// stays within budget bytes: binary files by the entries their end records
+// announce, plain text files by their size. A compressed file or standard
+// input, whose size says nothing, does not fit.
+func InMemoryFits(names []string, budget int64) bool {
+	var need int64
+	for _, name := range names {
+		if n, ok := counts.StatEntries(name); ok {
+			need += int64(n) * InMemoryBytesPerNGram
+			continue
+		}
+		fi, err := os.Stat(name)
+		if name == "-" || err != nil || !fi.Mode().IsRegular() || strings.HasSuffix(name, ".gz") || strings.HasSuffix(name, ".zst") {
+			return false
+		}
+		need += fi.Size() / textBytesPerNGram * InMemoryBytesPerNGram
+	}
+	return need <= budget
+}
+
+// Options bounds a compile.
+type Options struct {
+	// Memory is the budget in bytes; the sort buffers take half of it.
+	Memory int64
+	// TempDir is where a private directory for the spooled counts, sort
+	// runs and model sections is made ("": the system's temporary
+	// directory). Model.Close removes it.
+	TempDir string
+	// Temp, when not nil, makes that directory and is told when it is
+	// gone (so that an interrupted process removes it).
+	Temp counts.TempTracker
+	// Log receives the passes and spills; nil: none.
+	Log *slog.Logger
+}
+
+// Model is a model estimated on disk, ready to be written.
+type Model struct {
+	// Order is the order built: the one asked, or lower when the counts
+	// hold no longer n-gram (as with counts.Load).
+	Order  int
+	Result *estimate.StreamResult
+	sw     *format.StreamWriter
+	dir    string
+	temp   counts.TempTracker
+}
+
+// Estimate reads the count sources and estimates the model opt asks for
+// (opt.Order is lowered to the order the counts hold, see counts.Spool).
+// Close the Model to remove its files, also after an error.
+func Estimate(ctx context.Context, sources []counts.Source, opt estimate.Options, o Options) (*Model, error) {
+	mkdir := os.MkdirTemp
+	if o.Temp != nil {
+		mkdir = o.Temp.MkdirTemp
+	}
+	dir, err := mkdir(o.TempDir, "ingot-compile-")
+	if err != nil {
+		return nil, fmt.Errorf("spill directory: %w", err)
+	}
+	m := &Model{dir: dir, temp: o.Temp}
+	log := o.Log
+	if log == nil {
+		log = slog.New(slog.DiscardHandler)
+	}
+	sp, err := counts.Spool(opt.Order, sources, dir)
+	if err != nil {
+		m.Close()
+		return nil, err
+	}
+	log.Info("counts spooled", "orders", sp.Order(), "entries", sp.Entries)
+	m.Order = sp.Order()
+	opt.Order = sp.Order()
+	if m.sw, err = format.NewStreamWriter(dir, sp.Vocab, sp.Entries); err != nil {
+		m.Close()
+		return nil, err
+	}
+	res, err := estimate.EstimateStreamed(ctx, sp, opt, estimate.StreamOptions{Memory: o.Memory / 2, Dir: dir, Log: log}, m.sw)
+	if err != nil {
+		m.Close()
+		return nil, err
+	}
+	m.Result = res
+	return m, nil
+}
+
+// Write writes the model file with the build information info (the
+// estimator's, Result.Info, completed by the caller).
+func (m *Model) Write(w io.Writer, info tables.Info) error {
+	return m.sw.Finish(w, info)
+}
+
+// Close removes the model's files.
+func (m *Model) Close() error {
+	if m.sw != nil {
+		m.sw.Close()
+	}
+	err := os.RemoveAll(m.dir)
+	if m.temp != nil {
+		m.temp.Forget(m.dir)
+	}
+	return err
+}

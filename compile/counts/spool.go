@@ -1,0 +1,234 @@
+package counts
+
+import (
+	"bufio"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+
+	"github.com/klauspost/compress/zstd"
+
+	"ingot/compile/tables"
+)
+
+// Spooled is a set of count files merged (duplicates summed) into one
+// sorted binary file per order in a directory, for a reader that passes
+// over each order several times without holding it in memory: the
+// bounded-memory estimator. Unigram counts are kept in memory, dense over
+// the vocabulary as in Counts.
+type Spooled struct {
+	Vocab    []string
+	Unigrams []uint64 // count of each word (0 for <s>)
+	// Entries[k-1] is the number of entries of order k (len(Vocab) at
+	// order 1). len(Entries) is the order held.
+	Entries []uint64
+	paths   []string // paths[k-1] for k >= 2
+}
+
+// Order returns the highest order held.
+func (s *Spooled) Order() int { return len(s.Entries) }
+
+// Spool reads count files like Load, with the same rules for orders the
+// counts cannot hold, and writes the merged counts of each order k >= 2 to
+// a file in dir. Binary files are streamed; text files are read into
+// memory first (as Load reads them). Unlike Load it does not check that
+// every prefix and suffix is counted: the estimator that reads the files
+// checks that as it passes over them.
+func Spool(order int, sources []Source, dir string) (*Spooled, error) {
+	if order < 1 || order > tables.MaxOrder {
+		return nil, fmt.Errorf("order %d outside 1..%d", order, tables.MaxOrder)
+	}
+	b, bins, maxSeen, err := readSources(order, sources)
+	if err != nil {
+		return nil, err
+	}
+	ms, err := openMerge(b, bins, sources)
+	if err != nil {
+		return nil, err
+	}
+	b = nil
+	vocab := ms.vocab
+	sp := &Spooled{Vocab: vocab, Unigrams: make([]uint64, len(vocab)), paths: make([]string, order)}
+	type out struct {
+		f  *os.File
+		bw *bufio.Writer
+		w  *Writer
+	}
+	outs := make([]*out, order+1)
+	defer func() {
+		for _, o := range outs {
+			if o != nil && o.f != nil {
+				o.f.Close()
+			}
+		}
+	}()
+	var g []uint32
+	for {
+		var n uint64
+		g, n, _, err = ms.m.next(g)
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return nil, ms.streamErr(err)
+		}
+		k := len(g)
+		if k > order {
+			continue
+		}
+		maxSeen = max(maxSeen, k)
+		if k == 1 {
+			sp.Unigrams[g[0]] = n
+			continue
+		}
+		o := outs[k]
+		if o == nil {
+			p := filepath.Join(dir, fmt.Sprintf("order-%d.counts", k))
+			f, err := os.Create(p)
+			if err != nil {
+				return nil, fmt.Errorf("spooling counts: %w", err)
+			}
+			bw := bufio.NewWriterSize(f, 1<<16)
+			w, err := newWriterLevel(bw, Header{Order: k, Vocab: vocab}, zstd.SpeedFastest)
+			if err != nil {
+				return nil, err
+			}
+			o = &out{f: f, bw: bw, w: w}
+			outs[k] = o
+			sp.paths[k-1] = p
+		}
+		if err := o.w.Add(g, n); err != nil {
+			return nil, err
+		}
+	}
+	if maxSeen == 0 {
+		return nil, fmt.Errorf("no n-grams in %s", names(sources))
+	}
+	sp.Entries = make([]uint64, maxSeen)
+	sp.Entries[0] = uint64(len(vocab))
+	for k := 2; k <= maxSeen; k++ {
+		o := outs[k]
+		if o == nil {
+			return nil, fmt.Errorf("counts hold no %d-gram but some of order %d", k, maxSeen)
+		}
+		if err := o.w.Close(); err != nil {
+			return nil, err
+		}
+		if err := o.bw.Flush(); err != nil {
+			return nil, err
+		}
+		if err := o.f.Close(); err != nil {
+			return nil, err
+		}
+		o.f = nil
+		sp.Entries[k-1] = o.w.Totals().Entries[k-1]
+	}
+	sp.paths = sp.paths[:maxSeen]
+	if maxSeen < order {
+		counted := ms.textCounts == nil
+		for _, s := range bins {
+			counted = counted && s.r.Header().Order >= order
+		}
+		if !counted {
+			whole, err := sp.wholeSentences(maxSeen)
+			if err != nil {
+				return nil, err
+			}
+			if !whole {
+				return nil, fmt.Errorf("counts hold orders up to %d, order %d asked", maxSeen, order)
+			}
+		}
+	}
+	for _, n := range sp.Unigrams {
+		if n > 0 {
+			return sp, nil
+		}
+	}
+	return nil, fmt.Errorf("no unigram counts in %s", names(sources))
+}
+
+// wholeSentences reports whether every entry of order k (k >= 2) begins
+// with <s> and ends with </s>.
+func (s *Spooled) wholeSentences(k int) (bool, error) {
+	start, ok1 := find(s.Vocab, tables.SentenceStart)
+	end, ok2 := find(s.Vocab, tables.SentenceEnd)
+	if k < 2 || !ok1 || !ok2 {
+		return false, nil
+	}
+	r, err := s.Open(k)
+	if err != nil {
+		return false, err
+	}
+	defer r.Close()
+	for {
+		g, _, err := r.Next()
+		if err == io.EOF {
+			return true, nil
+		}
+		if err != nil {
+			return false, err
+		}
+		if g[0] != start || g[k-1] != end {
+			return false, nil
+		}
+	}
+}
+
+// SpoolReader reads the entries of one order of Spooled counts.
+type SpoolReader struct {
+	*Reader
+	f *os.File
+}
+
+// Close closes the file.
+func (r *SpoolReader) Close() error { return r.f.Close() }
+
+// Open returns a reader of the entries of order k >= 2, in order.
+func (s *Spooled) Open(k int) (*SpoolReader, error) {
+	if k < 2 || k > len(s.Entries) {
+		return nil, fmt.Errorf("spooled counts: no order %d", k)
+	}
+	f, err := os.Open(s.paths[k-1])
+	if err != nil {
+		return nil, err
+	}
+	r, err := NewReader(f)
+	if err != nil {
+		f.Close()
+		return nil, fmt.Errorf("%s: %w", s.paths[k-1], err)
+	}
+	return &SpoolReader{Reader: r, f: f}, nil
+}
+
+// StatEntries returns the number of entries that a binary count file
+// announces in its end record, reading only its header and end record; ok
+// is false for anything else (a text or compressed file, standard input,
+// a file that is not regular).
+func StatEntries(path string) (n uint64, ok bool) {
+	f, err := os.Open(path)
+	if err != nil {
+		return 0, false
+	}
+	defer f.Close()
+	fi, err := f.Stat()
+	if err != nil || !fi.Mode().IsRegular() {
+		return 0, false
+	}
+	var hdr [headerSize]byte
+	if _, err := io.ReadFull(f, hdr[:]); err != nil || !IsBinary(hdr[:]) {
+		return 0, false
+	}
+	order := int(hdr[12]) | int(hdr[13])<<8 | int(hdr[14])<<16 | int(hdr[15])<<24
+	if order < 1 || order > tables.MaxOrder {
+		return 0, false
+	}
+	t, err := ReadEnd(f, fi.Size(), order)
+	if err != nil {
+		return 0, false
+	}
+	for _, e := range t.Entries {
+		n += e
+	}
+	return n, true
+}

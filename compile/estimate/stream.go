@@ -1,0 +1,837 @@
+package estimate
+
+import (
+	"bufio"
+	"context"
+	"encoding/binary"
+	"fmt"
+	"io"
+	"log/slog"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+
+	"ingot/compile/counts"
+	"ingot/compile/extsort"
+	"ingot/compile/tables"
+)
+
+// Sink receives the model's entries as the streamed estimator finishes
+// them: order by order, each order in the sort order of package tables
+// (format.StreamWriter is one). rank is, for an entry of order k >= 3, the
+// position of its suffix among the entries sharing the suffix's context;
+// children is the number of entries of the next order extending it.
+type Sink interface {
+	Add(ids []uint32, rank uint32, logProb, logBackoff float32, children uint64) error
+}
+
+// StreamOptions bounds the streamed estimator.
+type StreamOptions struct {
+	// Memory is the budget in bytes for the sort buffers; beyond it sorted
+	// runs spill to Dir.
+	Memory int64
+	// Dir is an existing directory for the estimator's files (columns of
+	// values and sort runs). The caller removes it.
+	Dir string
+	// Log receives the passes and spills; nil: none.
+	Log *slog.Logger
+}
+
+// StreamResult is what the streamed estimator reports: the same Report as
+// Estimate, and the model's build information (method, discounts, rules
+// applied, the empty context's weight).
+type StreamResult struct {
+	Report *Report
+	Info   tables.Info
+	Runs   int   // sort runs spilled to disk
+	Bytes  int64 // bytes of those runs
+}
+
+// EstimateStreamed computes exactly the model Estimate computes (the same
+// float64 arithmetic in the same order, so the same bits), from spooled
+// counts, without holding any order in memory: every quantity that needs
+// one order's n-grams looked up from another's (Kneser-Ney adjusted
+// counts, lower-order probabilities, ranks of suffixes, prefixes' back-off
+// weights and children) is found by sorting one side on disk and merging
+// it with the other, sorted, side. Orders are estimated bottom-up as in
+// Estimate; the entries of order k-1 go to sink while order k is
+// estimated (their back-off weights are then final), order N's at the end.
+//
+// Memory: the vocabulary, its unigram values, the largest set of
+// successors of one context, and the sort buffers (about so.Memory).
+func EstimateStreamed(ctx context.Context, sp *counts.Spooled, opt Options, so StreamOptions, sink Sink) (*StreamResult, error) {
+	if err := opt.Validate(); err != nil {
+		return nil, err
+	}
+	if opt.Survivors != nil {
+		return nil, fmt.Errorf("the streamed estimator does not take survivors")
+	}
+	if sp.Order() != opt.Order {
+		return nil, fmt.Errorf("counts hold orders up to %d, order %d asked", sp.Order(), opt.Order)
+	}
+	log := so.Log
+	if log == nil {
+		log = slog.New(slog.DiscardHandler)
+	}
+	start, _ := slices.BinarySearch(sp.Vocab, tables.SentenceStart)
+	s := &streamer{ctx: ctx, sp: sp, opt: opt, so: so, log: log, sink: sink, N: opt.Order,
+		V: float64(len(sp.Vocab) - 1), start: uint32(start), report: &Report{Method: opt.Method}}
+	defer s.cleanup()
+	if err := s.run(); err != nil {
+		return nil, err
+	}
+	info := tables.Info{Method: string(opt.Method), EmptyContextLogBackoff: math.Log10(s.empty)}
+	for _, r := range s.report.Orders {
+		m := map[string]float64{}
+		for _, p := range r.Discounts {
+			m[p.Name] = p.Value
+		}
+		info.Discounts = append(info.Discounts, m)
+		info.Fallbacks = append(info.Fallbacks, r.Fallbacks...)
+	}
+	return &StreamResult{Report: s.report, Info: info, Runs: s.runs, Bytes: s.spilled}, nil
+}
+
+type streamer struct {
+	ctx    context.Context
+	sp     *counts.Spooled
+	opt    Options
+	so     StreamOptions
+	log    *slog.Logger
+	sink   Sink
+	N      int
+	V      float64
+	start  uint32
+	adj1   []uint64  // Kneser-Ney adjusted unigram counts
+	prob1  []float64 // unigram probabilities
+	empty  float64
+	report *Report
+	files  []string
+	runs   int
+	// spilled counts the bytes of sort runs.
+	spilled int64
+}
+
+func (s *streamer) cleanup() {
+	for _, f := range s.files {
+		os.Remove(f)
+	}
+}
+
+func (s *streamer) path(name string) string {
+	p := filepath.Join(s.so.Dir, name)
+	s.files = append(s.files, p)
+	return p
+}
+
+func (s *streamer) words(g []uint32) string {
+	out := ""
+	for i, id := range g {
+		if i > 0 {
+			out += " "
+		}
+		out += s.sp.Vocab[id]
+	}
+	return out
+}
+
+func (s *streamer) sorter(name string, width int, share int64) *extsort.Sorter {
+	return extsort.New(s.so.Dir, name, width, max(s.so.Memory/share, 64<<10))
+}
+
+func (s *streamer) sorted(st *extsort.Sorter, what string) (*extsort.Iter, error) {
+	it, err := st.Sort()
+	if err != nil {
+		return nil, err
+	}
+	if st.Runs() > 0 {
+		s.runs += st.Runs()
+		s.spilled += st.Spilled()
+		s.log.Info("sorted on disk", "what", what, "runs", st.Runs(), "bytes", st.Spilled())
+	}
+	return it, nil
+}
+
+func (s *streamer) run() error {
+	if s.opt.Method == KneserNey {
+		if err := s.adjust(); err != nil {
+			return err
+		}
+	}
+	if err := s.unigrams(); err != nil {
+		return err
+	}
+	for k := 2; k <= s.N; k++ {
+		s.log.Info("estimating", "order", k, "entries", s.sp.Entries[k-1])
+		if err := s.order(k); err != nil {
+			return err
+		}
+	}
+	return s.emitTop()
+}
+
+// column files: fixed-width values in entry order.
+
+type colWriter struct {
+	f  *os.File
+	bw *bufio.Writer
+	b  [8]byte
+}
+
+func (s *streamer) createCol(name string) (*colWriter, error) {
+	f, err := os.Create(s.path(name))
+	if err != nil {
+		return nil, err
+	}
+	return &colWriter{f: f, bw: bufio.NewWriterSize(f, 1<<16)}, nil
+}
+
+func (c *colWriter) put64(v uint64) error {
+	binary.LittleEndian.PutUint64(c.b[:], v)
+	_, err := c.bw.Write(c.b[:])
+	return err
+}
+
+func (c *colWriter) put32(v uint32) error {
+	binary.LittleEndian.PutUint32(c.b[:4], v)
+	_, err := c.bw.Write(c.b[:4])
+	return err
+}
+
+func (c *colWriter) close() error {
+	err := c.bw.Flush()
+	if cerr := c.f.Close(); err == nil {
+		err = cerr
+	}
+	return err
+}
+
+type colReader struct {
+	f  *os.File
+	br *bufio.Reader
+	b  [8]byte
+}
+
+func openCol(path string) (*colReader, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	return &colReader{f: f, br: bufio.NewReaderSize(f, 1<<16)}, nil
+}
+
+func (c *colReader) get64() (uint64, error) {
+	if _, err := io.ReadFull(c.br, c.b[:]); err != nil {
+		return 0, fmt.Errorf("column file ends early: %w", err)
+	}
+	return binary.LittleEndian.Uint64(c.b[:]), nil
+}
+
+func (c *colReader) get32() (uint32, error) {
+	if _, err := io.ReadFull(c.br, c.b[:4]); err != nil {
+		return 0, fmt.Errorf("column file ends early: %w", err)
+	}
+	return binary.LittleEndian.Uint32(c.b[:4]), nil
+}
+
+func (c *colReader) close() { c.f.Close() }
+
+func (s *streamer) adjName(k int) string {
+	return filepath.Join(s.so.Dir, fmt.Sprintf("adjusted-%d", k))
+}
+func (s *streamer) probName(k int) string { return filepath.Join(s.so.Dir, fmt.Sprintf("prob-%d", k)) }
+func (s *streamer) rankName(k int) string { return filepath.Join(s.so.Dir, fmt.Sprintf("rank-%d", k)) }
+
+// adjust computes the Kneser-Ney adjusted counts of orders 1..N-1 (see
+// estimator.adjust): a(g) is the number of entries of the next order whose
+// suffix is g, found by sorting those suffixes and merging them with the
+// order's entries; raw counts for n-grams starting with <s>.
+func (s *streamer) adjust() error {
+	s.adj1 = slices.Clone(s.sp.Unigrams)
+	if s.N == 1 {
+		return nil
+	}
+	for k := s.N - 1; k >= 1; k-- {
+		if k == 1 {
+			a := make([]uint64, len(s.sp.Vocab))
+			err := s.each(2, func(g []uint32, _ uint64) error {
+				a[g[1]]++
+				return nil
+			})
+			if err != nil {
+				return err
+			}
+			a[s.start] = s.sp.Unigrams[s.start]
+			s.adj1 = a
+			continue
+		}
+		st := s.sorter(fmt.Sprintf("suffix-%d", k+1), k, 2)
+		err := s.each(k+1, func(g []uint32, _ uint64) error { return st.Add(g[1:]) })
+		if err != nil {
+			return err
+		}
+		it, err := s.sorted(st, fmt.Sprintf("suffixes of order %d", k+1))
+		if err != nil {
+			return err
+		}
+		err = s.adjustOrder(k, it)
+		it.Close()
+		if err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// adjustOrder writes order k's adjusted counts from the sorted suffixes of
+// order k+1.
+func (s *streamer) adjustOrder(k int, it *extsort.Iter) error {
+	out, err := s.createCol(fmt.Sprintf("adjusted-%d", k))
+	if err != nil {
+		return err
+	}
+	suf, ok, err := it.Next()
+	if err != nil {
+		return err
+	}
+	err = s.each(k, func(g []uint32, raw uint64) error {
+		var a uint64
+		for ok && tables.Compare(suf, g) <= 0 {
+			if tables.Compare(suf, g) < 0 {
+				return fmt.Errorf("counts are not closed: a %d-gram ends with %q, which has no count", k+1, s.words(suf))
+			}
+			a++
+			if suf, ok, err = it.Next(); err != nil {
+				return err
+			}
+		}
+		if g[0] == s.start {
+			a = raw
+		}
+		return out.put64(a)
+	})
+	if err != nil {
+		out.close()
+		return err
+	}
+	if ok {
+		out.close()
+		return fmt.Errorf("counts are not closed: a %d-gram ends with %q, which has no count", k+1, s.words(suf))
+	}
+	return out.close()
+}
+
+// each calls fn with every entry of order k >= 2 in order.
+func (s *streamer) each(k int, fn func(g []uint32, n uint64) error) error {
+	r, err := s.sp.Open(k)
+	if err != nil {
+		return err
+	}
+	defer r.Close()
+	for i := 0; ; i++ {
+		if i&0xffff == 0 {
+			if err := s.ctx.Err(); err != nil {
+				return err
+			}
+		}
+		g, n, err := r.Next()
+		if err == io.EOF {
+			return nil
+		}
+		if err != nil {
+			return err
+		}
+		if err := fn(g, n); err != nil {
+			return err
+		}
+	}
+}
+
+func (s *streamer) counts(k int) []uint64 {
+	if s.opt.Method == KneserNey {
+		return s.adj1
+	}
+	return s.sp.Unigrams
+}
+
+// unigrams estimates order 1 as estimator.order does.
+func (s *streamer) unigrams() error {
+	rep := OrderReport{Order: 1, NGrams: len(s.sp.Vocab)}
+	cnt := s.counts(1)
+	disc := s.opt.discounter(1, countOfCounts(cnt, s.opt.countOfCountsMax()), &rep)
+	prob := make([]float64, len(cnt))
+	var idx []int
+	var sc []uint64
+	var lower []float64
+	for w, r := range cnt {
+		if uint32(w) != s.start && r > 0 {
+			idx = append(idx, w)
+			sc = append(sc, r)
+			lower = append(lower, 1/s.V)
+		}
+	}
+	p := make([]float64, len(idx))
+	total, err := s.exactTotal(1, sc, nil)
+	if err != nil {
+		return err
+	}
+	bow := disc(sc, total, lower, p)
+	for w := range prob {
+		prob[w] = bow / s.V
+	}
+	for j, w := range idx {
+		prob[w] = p[j]
+	}
+	prob[s.start] = 0
+	s.empty = bow
+	rep.Contexts = 1
+	s.report.Orders = append(s.report.Orders, rep)
+	s.prob1 = prob
+	for i, p := range prob {
+		if uint32(i) != s.start && bad(p) {
+			return s.wrap(fmt.Errorf("order %d n-gram %q gets probability %v; no model is written", 1, s.sp.Vocab[i], p))
+		}
+	}
+	if bad(s.empty) {
+		return s.wrap(fmt.Errorf("the empty context gets back-off weight %v; no model is written", s.empty))
+	}
+	return nil
+}
+
+func bad(x float64) bool { return !(x > 0) || math.IsInf(x, 0) || math.IsNaN(x) }
+
+func (s *streamer) wrap(err error) error {
+	if s.opt.Method == Absolute && !s.opt.AutoDiscount {
+		return &OptionError{Option: "discount", Value: s.opt.Discount, Err: err}
+	}
+	return err
+}
+
+func (s *streamer) exactTotal(k int, cnt []uint64, context []uint32) (float64, error) {
+	e := estimator{c: &counts.Counts{Vocab: s.sp.Vocab}}
+	return e.exactTotal(k, cnt, context)
+}
+
+// lowerWalk walks the entries of order k-1 (the contexts of order k) in
+// order, handing each to the sink with its back-off weight and children
+// once order k has said them.
+type lowerWalk struct {
+	s      *streamer
+	k      int // order of the walked entries
+	i      int // index of the current entry
+	n      int
+	r      *counts.SpoolReader // k >= 2
+	probs  *colReader          // k >= 2
+	ranks  *colReader          // k >= 3
+	cur    []uint32
+	prob   float64
+	rank   uint32
+	badBow error
+}
+
+func (s *streamer) newLowerWalk(k int) (*lowerWalk, error) {
+	w := &lowerWalk{s: s, k: k, i: -1, n: int(s.sp.Entries[k-1]), cur: make([]uint32, k)}
+	if k >= 2 {
+		var err error
+		if w.r, err = s.sp.Open(k); err != nil {
+			return nil, err
+		}
+		if w.probs, err = openCol(s.probName(k)); err != nil {
+			w.close()
+			return nil, err
+		}
+		if k >= 3 {
+			if w.ranks, err = openCol(s.rankName(k)); err != nil {
+				w.close()
+				return nil, err
+			}
+		}
+	}
+	return w, w.advance()
+}
+
+func (w *lowerWalk) close() {
+	if w.r != nil {
+		w.r.Close()
+	}
+	if w.probs != nil {
+		w.probs.close()
+	}
+	if w.ranks != nil {
+		w.ranks.close()
+	}
+}
+
+// advance moves to the next entry (i == n at the end).
+func (w *lowerWalk) advance() error {
+	w.i++
+	if w.i >= w.n {
+		return nil
+	}
+	if w.k == 1 {
+		w.cur[0] = uint32(w.i)
+		w.prob = w.s.prob1[w.i]
+		return nil
+	}
+	g, _, err := w.r.Next()
+	if err != nil {
+		if err == io.EOF {
+			return fmt.Errorf("spooled order %d ends early", w.k)
+		}
+		return err
+	}
+	copy(w.cur, g)
+	bits, err := w.probs.get64()
+	if err != nil {
+		return err
+	}
+	w.prob = math.Float64frombits(bits)
+	if w.ranks != nil {
+		if w.rank, err = w.ranks.get32(); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// emit hands the current entry to the sink and advances.
+func (w *lowerWalk) emit(bow float64, children uint64, top bool) error {
+	lp := float32(math.Log10(w.prob))
+	if w.k == 1 && uint32(w.i) == w.s.start {
+		lp = tables.NoProb
+	}
+	var lb float32
+	if !top {
+		if bad(bow) && w.badBow == nil {
+			w.badBow = w.s.wrap(fmt.Errorf("order %d context %q gets back-off weight %v (no mass left for unseen words); no model is written", w.k, w.s.words(w.cur), bow))
+		}
+		lb = float32(math.Log10(bow))
+	}
+	if w.badBow == nil {
+		if err := w.s.sink.Add(w.cur, w.rank, lp, lb, children); err != nil {
+			return err
+		}
+	}
+	return w.advance()
+}
+
+// seek emits every entry before g with weight 1 and no children, and
+// reports whether the walk then stands on g.
+func (w *lowerWalk) seek(g []uint32) (bool, error) {
+	for w.i < w.n {
+		c := tables.Compare(w.cur, g)
+		if c == 0 {
+			return true, nil
+		}
+		if c > 0 {
+			return false, nil
+		}
+		if err := w.emit(1, 0, false); err != nil {
+			return false, err
+		}
+	}
+	return false, nil
+}
+
+// finish emits the remaining entries with weight 1.
+func (w *lowerWalk) finish() error {
+	for w.i < w.n {
+		if err := w.emit(1, 0, false); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// joined yields, for the entries of order k >= 3 in order, the probability
+// of each one's suffix at order k-1 and the suffix's rank among its
+// siblings.
+type joined struct {
+	it *extsort.Iter
+}
+
+func (j *joined) next() (float64, uint32, error) {
+	rec, ok, err := j.it.Next()
+	if err != nil {
+		return 0, 0, err
+	}
+	if !ok {
+		return 0, 0, fmt.Errorf("suffix join ends early")
+	}
+	return math.Float64frombits(uint64(rec[1]) | uint64(rec[2])<<32), rec[3], nil
+}
+
+// join sorts the suffixes of order k's entries, merges them with order
+// k-1 (its entries, probabilities, and the ranks within their sibling
+// lists), and sorts the result back into order k's entry order.
+func (s *streamer) join(k int) (*joined, error) {
+	st := s.sorter(fmt.Sprintf("join-%d", k), k, 3)
+	j := uint32(0)
+	rec := make([]uint32, k)
+	err := s.each(k, func(g []uint32, _ uint64) error {
+		copy(rec, g[1:])
+		rec[k-1] = j
+		j++
+		return st.Add(rec)
+	})
+	if err != nil {
+		return nil, err
+	}
+	it, err := s.sorted(st, fmt.Sprintf("suffixes of order %d", k))
+	if err != nil {
+		return nil, err
+	}
+	defer it.Close()
+	back := s.sorter(fmt.Sprintf("back-%d", k), 4, 3)
+	r, err := s.sp.Open(k - 1)
+	if err != nil {
+		return nil, err
+	}
+	defer r.Close()
+	probs, err := openCol(s.probName(k - 1))
+	if err != nil {
+		return nil, err
+	}
+	defer probs.close()
+	cur := make([]uint32, k-1)
+	have := false
+	var prob uint64
+	var rank uint32
+	var out [4]uint32
+	for {
+		suf, ok, err := it.Next()
+		if err != nil {
+			return nil, err
+		}
+		if !ok {
+			break
+		}
+		key := suf[:k-1]
+		for !have || tables.Compare(cur, key) < 0 {
+			g, _, err := r.Next()
+			if err == io.EOF {
+				have = false
+				break
+			}
+			if err != nil {
+				return nil, err
+			}
+			if have && tables.Compare(cur[:k-2], g[:k-2]) == 0 {
+				rank++
+			} else {
+				rank = 0
+			}
+			copy(cur, g)
+			have = true
+			if prob, err = probs.get64(); err != nil {
+				return nil, err
+			}
+		}
+		if !have || tables.Compare(cur, key) != 0 {
+			return nil, fmt.Errorf("counts are not closed: a %d-gram ends with %q, which has no count", k, s.words(key))
+		}
+		out[0], out[1], out[2], out[3] = suf[k-1], uint32(prob), uint32(prob>>32), rank
+		if err := back.Add(out[:]); err != nil {
+			return nil, err
+		}
+	}
+	bit, err := s.sorted(back, fmt.Sprintf("suffix values of order %d", k))
+	if err != nil {
+		return nil, err
+	}
+	return &joined{it: bit}, nil
+}
+
+// order estimates order k >= 2 as estimator.order does, context by
+// context, and hands order k-1's entries to the sink.
+func (s *streamer) order(k int) error {
+	rep := OrderReport{Order: k, NGrams: int(s.sp.Entries[k-1])}
+	kn := s.opt.Method == KneserNey && k < s.N
+	var adj *colReader
+	openAdj := func() error {
+		var err error
+		adj, err = openCol(s.adjName(k))
+		return err
+	}
+	// The count of counts, in one pass.
+	n := make([]float64, s.opt.countOfCountsMax()+1)
+	if len(n) > 1 {
+		if kn {
+			if err := openAdj(); err != nil {
+				return err
+			}
+			for i := uint64(0); i < s.sp.Entries[k-1]; i++ {
+				r, err := adj.get64()
+				if err != nil {
+					adj.close()
+					return err
+				}
+				if r >= 1 && r < uint64(len(n)) {
+					n[r]++
+				}
+			}
+			adj.close()
+		} else {
+			err := s.each(k, func(_ []uint32, r uint64) error {
+				if r >= 1 && r < uint64(len(n)) {
+					n[r]++
+				}
+				return nil
+			})
+			if err != nil {
+				return err
+			}
+		}
+	}
+	disc := s.opt.discounter(k, n, &rep)
+	var jn *joined
+	if k >= 3 {
+		var err error
+		if jn, err = s.join(k); err != nil {
+			return err
+		}
+		defer jn.it.Close()
+	}
+	if kn {
+		if err := openAdj(); err != nil {
+			return err
+		}
+		defer adj.close()
+	}
+	walk, err := s.newLowerWalk(k - 1)
+	if err != nil {
+		return err
+	}
+	defer walk.close()
+	probs, err := s.createCol(fmt.Sprintf("prob-%d", k))
+	if err != nil {
+		return err
+	}
+	defer probs.f.Close()
+	var ranks *colWriter
+	if k >= 3 {
+		if ranks, err = s.createCol(fmt.Sprintf("rank-%d", k)); err != nil {
+			return err
+		}
+		defer ranks.f.Close()
+	}
+	// One context's successors.
+	var (
+		prefix  = make([]uint32, k-1)
+		cnt     []uint64
+		lower   []float64
+		p       []float64
+		badProb error
+		// last words of the context's successors (for messages)
+		lastWords []uint32
+	)
+	flush := func() error {
+		if len(cnt) == 0 {
+			return nil
+		}
+		on, err := walk.seek(prefix)
+		if err != nil {
+			return err
+		}
+		if !on {
+			return fmt.Errorf("counts are not closed: %d-gram %q lacks its prefix", k, s.words(prefix))
+		}
+		p = slices.Grow(p[:0], len(cnt))[:len(cnt)]
+		total, err := s.exactTotal(k, cnt, prefix)
+		if err != nil {
+			return err
+		}
+		bow := disc(cnt, total, lower, p)
+		for j, v := range p {
+			if badProb == nil && bad(v) {
+				g := append(slices.Clone(prefix), lastWords[j])
+				badProb = fmt.Errorf("order %d n-gram %q gets probability %v; no model is written", k, s.words(g), v)
+			}
+			if err := probs.put64(math.Float64bits(v)); err != nil {
+				return err
+			}
+		}
+		rep.Contexts++
+		if err := walk.emit(bow, uint64(len(cnt)), false); err != nil {
+			return err
+		}
+		cnt, lower, lastWords = cnt[:0], lower[:0], lastWords[:0]
+		return nil
+	}
+	err = s.each(k, func(g []uint32, raw uint64) error {
+		if len(cnt) > 0 && tables.Compare(prefix, g[:k-1]) != 0 {
+			if err := flush(); err != nil {
+				return err
+			}
+		}
+		copy(prefix, g[:k-1])
+		c := raw
+		if kn {
+			var err error
+			if c, err = adj.get64(); err != nil {
+				return err
+			}
+		}
+		cnt = append(cnt, c)
+		lastWords = append(lastWords, g[k-1])
+		var l float64
+		if k == 2 {
+			if s.sp.Unigrams[g[1]] == 0 && g[1] != s.start {
+				return fmt.Errorf("counts are not closed: %d-gram %q lacks its suffix", k, s.words(g))
+			}
+			l = s.prob1[g[1]]
+		} else {
+			var rank uint32
+			var err error
+			if l, rank, err = jn.next(); err != nil {
+				return err
+			}
+			if err := ranks.put32(rank); err != nil {
+				return err
+			}
+		}
+		lower = append(lower, l)
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	if err := flush(); err != nil {
+		return err
+	}
+	if err := walk.finish(); err != nil {
+		return err
+	}
+	if err := probs.close(); err != nil {
+		return err
+	}
+	if ranks != nil {
+		if err := ranks.close(); err != nil {
+			return err
+		}
+	}
+	s.report.Orders = append(s.report.Orders, rep)
+	if badProb != nil {
+		return s.wrap(badProb)
+	}
+	if walk.badBow != nil {
+		return walk.badBow
+	}
+	return nil
+}
+
+// emitTop hands the entries of the highest order to the sink.
+func (s *streamer) emitTop() error {
+	walk, err := s.newLowerWalk(s.N)
+	if err != nil {
+		return err
+	}
+	defer walk.close()
+	for walk.i < walk.n {
+		if err := walk.emit(0, 0, true); err != nil {
+			return err
+		}
+	}
+	return nil
+}

@@ -1,0 +1,119 @@
+package estimate
+
+import (
+	"bytes"
+	"context"
+	"os"
+	"reflect"
+	"testing"
+
+	"ingot/compile/counts"
+	"ingot/format"
+)
+
+// streamed estimates c's model with EstimateStreamed on a memory budget and
+// returns the model file and the result.
+func streamed(t *testing.T, c *counts.Counts, opt Options, memory int64) ([]byte, *StreamResult, error) {
+	t.Helper()
+	var bin bytes.Buffer
+	if err := c.WriteBinary(&bin); err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	sp, err := counts.Spool(opt.Order, []counts.Source{{Name: "counts.bin", R: &bin}}, dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sw, err := format.NewStreamWriter(dir, sp.Vocab, sp.Entries)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer sw.Close()
+	res, err := EstimateStreamed(context.Background(), sp, opt, StreamOptions{Memory: memory, Dir: dir}, sw)
+	if err != nil {
+		return nil, nil, err
+	}
+	var out bytes.Buffer
+	if err := sw.Finish(&out, res.Info); err != nil {
+		t.Fatal(err)
+	}
+	return out.Bytes(), res, nil
+}
+
+// TestStreamedSameModel: the streamed estimator writes, byte for byte, the
+// model that Estimate and format.Write give, and the same report, for
+// every method and several orders, with a budget small enough that every
+// sort spills runs to disk; and it leaves no file behind.
+func TestStreamedSameModel(t *testing.T) {
+	limit := 3000
+	if testing.Short() {
+		limit = 800
+	}
+	train, _ := sotu(t, limit)
+	c := count(t, 5, train)
+	opts := []Options{
+		{Method: KneserNey}, {Method: Katz}, {Method: Absolute}, {Method: Absolute, AutoDiscount: true},
+		{Method: WittenBell}, {Method: Katz, KatzThreshold: 2},
+	}
+	spilled := false
+	for _, o := range opts {
+		for _, order := range []int{1, 2, 3, 5} {
+			opt := o
+			opt.Order = order
+			cc := *c
+			cc.Levels = c.Levels[:order]
+			want, wrep, err := Estimate(&cc, opt)
+			if err != nil {
+				t.Fatal(err)
+			}
+			wantBytes, err := format.Marshal(want)
+			if err != nil {
+				t.Fatal(err)
+			}
+			got, res, err := streamed(t, &cc, opt, 16<<10)
+			if err != nil {
+				t.Fatalf("%s order %d: %v", opt.Method, order, err)
+			}
+			if !bytes.Equal(got, wantBytes) {
+				t.Errorf("%s (auto %v, K %d) order %d: streamed model of %d bytes differs from the in-memory one of %d", opt.Method, opt.AutoDiscount, opt.KatzThreshold, order, len(got), len(wantBytes))
+			}
+			if !reflect.DeepEqual(res.Report, wrep) {
+				t.Errorf("%s order %d: report %+v, in memory %+v", opt.Method, order, res.Report, wrep)
+			}
+			spilled = spilled || res.Runs > 1
+		}
+	}
+	if !spilled {
+		t.Error("no sort spilled: the budget is meant to force runs on disk")
+	}
+}
+
+// TestStreamedRefusesOpenCounts: counts whose n-gram lacks its suffix or
+// prefix are an error, not a model.
+func TestStreamedRefusesOpenCounts(t *testing.T) {
+	for name, text := range map[string]string{
+		"suffix": "3\ta\n3\tb\n2\t</s>\n1\t<s> a\n1\ta b\n1\tb </s>\n1\t<s> a b\n1\tz a b\n",
+		"prefix": "3\ta\n3\tb\n2\t</s>\n1\t<s> a\n1\ta b\n1\tb </s>\n1\ta b </s>\n1\t<s> b </s>\n1\tb </s> \n",
+	} {
+		dir := t.TempDir()
+		sp, err := counts.Spool(3, []counts.Source{{Name: "c.txt", R: bytes.NewBufferString(text)}}, dir)
+		if err != nil {
+			continue // refused while reading: fine too
+		}
+		sw, err := format.NewStreamWriter(dir, sp.Vocab, sp.Entries)
+		if err != nil {
+			t.Fatal(err)
+		}
+		_, err = EstimateStreamed(context.Background(), sp, Options{Method: KneserNey, Order: 3}, StreamOptions{Memory: 1 << 20, Dir: dir}, sw)
+		sw.Close()
+		if err == nil {
+			t.Errorf("%s missing: a model was estimated", name)
+		}
+		left, _ := os.ReadDir(dir)
+		for _, e := range left {
+			if e.Name() != "order-2.counts" && e.Name() != "order-3.counts" {
+				t.Errorf("%s: %s left behind", name, e.Name())
+			}
+		}
+	}
+}
