@@ -1,0 +1,110 @@
+package main
+
+import (
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"syscall"
+	"testing"
+	"time"
+
+	"ingot/compile/corpus"
+)
+
+// compile with a budget too small for its counts estimates in sorted
+// passes on disk, under a private directory in --tmp: the model is the one
+// compiled in memory, byte for byte, the sorts spill runs, and the
+// directory is gone after success, after a failure found late (counts that
+// are not closed) and after SIGINT.
+func TestCompileSpillDirectoryIsRemoved(t *testing.T) {
+	bin := buildIngot(t)
+	dir, tmp := t.TempDir(), t.TempDir()
+	text := filepath.Join(dir, "train.txt")
+	f, _ := os.Create(text)
+	corpus.Generate(f, 5, 25000, 50000)
+	f.Close()
+	counts := filepath.Join(dir, "c.bin")
+	if out, err := exec.Command(bin, "count", "--order", "4", "-o", counts, text).CombinedOutput(); err != nil {
+		t.Fatalf("count: %v\n%s", err, out)
+	}
+	left := func() []string {
+		entries, _ := os.ReadDir(tmp)
+		var names []string
+		for _, e := range entries {
+			names = append(names, e.Name())
+		}
+		return names
+	}
+	for _, method := range []string{"kneser-ney", "katz"} {
+		small, big := filepath.Join(dir, "small.ingot"), filepath.Join(dir, "big.ingot")
+		out, err := exec.Command(bin, "compile", "--method", method, "--order", "4", "--memory", "16MiB", "--tmp", tmp,
+			"--log-level", "info", "-o", small, counts).CombinedOutput()
+		if err != nil {
+			t.Fatalf("compile --memory 16MiB: %v\n%s", err, out)
+		}
+		if !strings.Contains(string(out), "sorted on disk") || !strings.Contains(string(out), "msg=estimated") {
+			t.Errorf("%s: the 16 MiB compile did not sort on disk:\n%s", method, out)
+		}
+		if out, err := exec.Command(bin, "compile", "--method", method, "--order", "4", "--log-level", "info", "-o", big, counts).CombinedOutput(); err != nil {
+			t.Fatalf("compile: %v\n%s", err, out)
+		} else if strings.Contains(string(out), "sorted on disk") {
+			t.Errorf("%s: the default budget sorted on disk: %s", method, out)
+		}
+		a, _ := os.ReadFile(small)
+		b, _ := os.ReadFile(big)
+		if len(a) == 0 || string(a) != string(b) {
+			t.Errorf("%s: model with --memory 16MiB differs from the one compiled in memory (%d vs %d bytes)", method, len(a), len(b))
+		}
+		if out, err := exec.Command(bin, "verify", small).CombinedOutput(); err != nil {
+			t.Errorf("verify: %v\n%s", err, out)
+		}
+		if l := left(); len(l) > 0 {
+			t.Errorf("after success: %v left in --tmp", l)
+		}
+	}
+
+	// Failure: a shard with a bigram whose words have no count, found
+	// after the counts were spooled to disk.
+	shard := filepath.Join(dir, "bad.txt")
+	os.WriteFile(shard, []byte("1\tzzzq yyyq\n"), 0o644)
+	out, err := exec.Command(bin, "compile", "--method", "kneser-ney", "--order", "4", "--memory", "16MiB", "--tmp", tmp,
+		"-o", filepath.Join(dir, "x.ingot"), counts, shard).CombinedOutput()
+	if err == nil || !strings.Contains(string(out), "not closed") {
+		t.Errorf("counts not closed: %v\n%s", err, out)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "x.ingot")); err == nil {
+		t.Error("a model was written from counts that are not closed")
+	}
+	if l := left(); len(l) > 0 {
+		t.Errorf("after failure: %v left in --tmp", l)
+	}
+
+	// SIGINT while files are on disk.
+	cmd := exec.Command(bin, "compile", "--method", "kneser-ney", "--order", "4", "--memory", "16MiB", "--tmp", tmp,
+		"-o", filepath.Join(dir, "y.ingot"), counts)
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	deadline := time.Now().Add(60 * time.Second)
+	seen := false
+	for time.Now().Before(deadline) && !seen {
+		if names := left(); len(names) > 0 {
+			files, _ := os.ReadDir(filepath.Join(tmp, names[0]))
+			seen = len(files) > 0
+		}
+		time.Sleep(time.Millisecond)
+	}
+	if !seen {
+		t.Fatal("never saw the compile's files under --tmp")
+	}
+	cmd.Process.Signal(syscall.SIGINT)
+	err = cmd.Wait()
+	if ee, ok := err.(*exec.ExitError); !ok || ee.ExitCode() != 130 {
+		t.Errorf("compile after SIGINT: %v, want exit 130", err)
+	}
+	if l := left(); len(l) > 0 {
+		t.Errorf("after SIGINT: %v left in --tmp", l)
+	}
+	assertNothingWritten(t, dir, "y.ingot")
+}
