@@ -22,7 +22,7 @@ func TestCompileSpillDirectoryIsRemoved(t *testing.T) {
 	dir, tmp := t.TempDir(), t.TempDir()
 	text := filepath.Join(dir, "train.txt")
 	f, _ := os.Create(text)
-	corpus.Generate(f, 5, 25000, 50000)
+	corpus.Generate(f, 5, 12000, 30000)
 	f.Close()
 	counts := filepath.Join(dir, "c.bin")
 	if out, err := exec.Command(bin, "count", "--order", "4", "-o", counts, text).CombinedOutput(); err != nil {

@@ -45,7 +45,7 @@ func streamed(t *testing.T, c *counts.Counts, opt Options, memory int64) ([]byte
 // every method and several orders, with a budget small enough that every
 // sort spills runs to disk; and it leaves no file behind.
 func TestStreamedSameModel(t *testing.T) {
-	limit := 3000
+	limit := 1500
 	if testing.Short() {
 		limit = 800
 	}
