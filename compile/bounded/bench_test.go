@@ -1,0 +1,132 @@
+package bounded
+
+import (
+	"bytes"
+	"context"
+	"io"
+	"os"
+	"path/filepath"
+	"sync"
+	"testing"
+
+	"ingot/compile/corpus"
+	"ingot/compile/counts"
+	"ingot/compile/estimate"
+	"ingot/format"
+)
+
+var (
+	benchOnce   sync.Once
+	benchCounts []byte
+	benchErr    error
+)
+
+// benchFile returns a binary count file of order 5 of corpus.Generate(seed
+// 1, 20000 sentences, 20000 words): about 0.65 M n-grams.
+func benchFile(b *testing.B) string {
+	benchOnce.Do(func() {
+		var text bytes.Buffer
+		if benchErr = corpus.Generate(&text, 1, 20000, 20000); benchErr != nil {
+			return
+		}
+		var out bytes.Buffer
+		_, benchErr = counts.Count(context.Background(), counts.Options{Order: 5}, []counts.Input{{Name: "text", R: &text}}, &out)
+		benchCounts = out.Bytes()
+	})
+	if benchErr != nil {
+		b.Fatal(benchErr)
+	}
+	p := filepath.Join(b.TempDir(), "c.bin")
+	if err := os.WriteFile(p, benchCounts, 0o644); err != nil {
+		b.Fatal(err)
+	}
+	return p
+}
+
+func entries(b *testing.B, path string) float64 {
+	n, ok := counts.StatEntries(path)
+	if !ok {
+		b.Fatal("no end record")
+	}
+	return float64(n)
+}
+
+// BenchmarkDecodeCounts reads and decodes every entry of the count file
+// (checksums, zstd, varints): the floor that compile's time is compared
+// with.
+func BenchmarkDecodeCounts(b *testing.B) {
+	path := benchFile(b)
+	n := entries(b, path)
+	b.ResetTimer()
+	for range b.N {
+		f, err := os.Open(path)
+		if err != nil {
+			b.Fatal(err)
+		}
+		r, err := counts.NewReader(f)
+		if err != nil {
+			b.Fatal(err)
+		}
+		for {
+			if _, _, err := r.Next(); err == io.EOF {
+				break
+			} else if err != nil {
+				b.Fatal(err)
+			}
+		}
+		f.Close()
+	}
+	b.ReportMetric(n*float64(b.N)/b.Elapsed().Seconds(), "ngrams/s")
+}
+
+// BenchmarkCompileOnDisk is compile's bounded path, Kneser-Ney order 5,
+// within 48 MiB: spool, estimate in sorted passes, write the model.
+func BenchmarkCompileOnDisk(b *testing.B) {
+	path := benchFile(b)
+	n := entries(b, path)
+	b.ResetTimer()
+	for range b.N {
+		f, err := os.Open(path)
+		if err != nil {
+			b.Fatal(err)
+		}
+		m, err := Estimate(context.Background(), []counts.Source{{Name: "c", R: f}},
+			estimate.Options{Method: estimate.KneserNey, Order: 5}, Options{Memory: 48 << 20, TempDir: b.TempDir()})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if err := m.Write(io.Discard, m.Result.Info); err != nil {
+			b.Fatal(err)
+		}
+		m.Close()
+		f.Close()
+	}
+	b.ReportMetric(n*float64(b.N)/b.Elapsed().Seconds(), "ngrams/s")
+}
+
+// BenchmarkCompileInMemory is the in-memory path on the same counts: load,
+// estimate, write.
+func BenchmarkCompileInMemory(b *testing.B) {
+	path := benchFile(b)
+	n := entries(b, path)
+	b.ResetTimer()
+	for range b.N {
+		f, err := os.Open(path)
+		if err != nil {
+			b.Fatal(err)
+		}
+		c, err := counts.Load(5, []counts.Source{{Name: "c", R: f}})
+		if err != nil {
+			b.Fatal(err)
+		}
+		t, _, err := estimate.Estimate(c, estimate.Options{Method: estimate.KneserNey, Order: 5})
+		if err != nil {
+			b.Fatal(err)
+		}
+		if err := format.Write(io.Discard, t); err != nil {
+			b.Fatal(err)
+		}
+		f.Close()
+	}
+	b.ReportMetric(n*float64(b.N)/b.Elapsed().Seconds(), "ngrams/s")
+}
