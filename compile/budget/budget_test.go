@@ -192,6 +192,83 @@ func TestBeatsPlainPruningOfKneserNey(t *testing.T) {
 	}
 }
 
+// Chelba, Brants, Neveitt & Xu (2010) measured that ranking n-grams for
+// removal on the Kneser-Ney model itself is what hurts: its lower orders
+// are continuation distributions, poor stand-ins for the removed n-grams.
+// At the same budget, both estimated again on the survivors, ranking on the
+// default model (Katz) beats ranking on Kneser-Ney itself.
+func TestRankingOnKatzBeatsRankingOnKneserNeyItself(t *testing.T) {
+	c, held := slice(t, 3000, 4)
+	opt := estimate.Options{Method: estimate.KneserNey, Order: 4}
+	_, full := unpruned(t, c, opt, quantize.Options{})
+	var ppl []float64
+	for _, rank := range []estimate.Method{"", estimate.KneserNey} {
+		res, err := Fit(c, Options{Estimate: opt, MaxBytes: full / 8, Ranking: rank})
+		if err != nil {
+			t.Fatal(err)
+		}
+		p, err := perplexity(res.Model, held)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ppl = append(ppl, p)
+	}
+	t.Logf("held-out perplexity at 1/8 of the file: %.3f ranked on %s, %.3f ranked on kneser-ney", ppl[0], DefaultRanking(opt.Method), ppl[1])
+	if !(ppl[0] < ppl[1]) {
+		t.Errorf("ranked on the default model %.3f, not below ranked on kneser-ney itself %.3f", ppl[0], ppl[1])
+	}
+}
+
+// Kneser & Ney (1995), Chen & Goodman (1998) section 3: the highest order
+// is estimated from raw counts. A bigram model fitted to the smallest
+// budget keeps no bigram, so estimated again on its survivors (Siivola et
+// al. 2007: each removed v w adds c(v w) to a(w)) its unigrams must be
+// exactly the order-1 Kneser-Ney model of the same counts, not the
+// continuation distribution of the unpruned bigram model.
+func TestSmallestBigramModelHasTheUnigramModelsProbabilities(t *testing.T) {
+	c, _ := slice(t, 800, 2)
+	opt := estimate.Options{Method: estimate.KneserNey, Order: 2}
+	b, err := NewBuilder(c, Options{Estimate: opt})
+	if err != nil {
+		t.Fatal(err)
+	}
+	pre, err := b.prepare(2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	all := prune.Keep(pre.t, pre.scores, math.Inf(1))
+	if kept := prune.Kept(all); kept[1] != 0 {
+		t.Fatalf("the smallest model keeps %d bigrams", kept[1])
+	}
+	floor, err := sizer(quantize.Options{}, func(th float64, kp [][]bool) *tables.Tables { return pre.shaped(th, kp, pre.t) })(math.Inf(1), all)
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := b.Fit(floor)
+	if err != nil {
+		t.Fatal(err)
+	}
+	uni, _, err := estimate.Estimate(c, estimate.Options{Method: estimate.KneserNey, Order: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Model.Len(2) != 0 {
+		t.Fatalf("%d bigrams kept at the smallest budget", res.Model.Len(2))
+	}
+	differ := 0
+	for i, p := range res.Model.Levels[0].LogProb {
+		if q := uni.Levels[0].LogProb[i]; p != q && !(math.IsInf(float64(p), -1) && math.IsInf(float64(q), -1)) {
+			t.Fatalf("unigram %q: log10 %v, order-1 model %v", res.Model.Vocab[i], p, q)
+		}
+		if p != pre.t.Levels[0].LogProb[i] {
+			differ++
+		}
+	}
+	if differ == 0 {
+		t.Fatal("the unpruned bigram model's unigrams are the same: the check proves nothing")
+	}
+}
+
 // With held-out text every order from 2 up is fitted to the budget and the
 // lowest perplexity wins; the report lists each.
 func TestComparesOrdersOnHeldoutText(t *testing.T) {
