@@ -338,3 +338,34 @@ func TestFitFinishedRefitsWhenTheFinishedFileIsLarger(t *testing.T) {
 		t.Errorf("file %d bytes (reported %d), budget %d, %d builds", got, size, budget, calls)
 	}
 }
+
+// Determinism across reuse: a Builder that already fitted other budgets
+// (and remembers their sizes and models) writes, for a budget, the same
+// bytes as a fresh Fit of that budget alone.
+func TestBuilderReuseWritesTheSameBytesAsAFreshFit(t *testing.T) {
+	c, held := slice(t, 800, 3)
+	opt := Options{Estimate: estimate.Options{Method: estimate.KneserNey, Order: 3}, Quantize: q8, Heldout: held}
+	_, full := unpruned(t, c, opt.Estimate, q8)
+	b, err := NewBuilder(c, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	budgets := []int64{full * 2 / 3, full / 2, full * 3 / 5}
+	for _, budget := range budgets {
+		reused, err := b.Fit(budget)
+		if err != nil {
+			t.Fatal(err)
+		}
+		o := opt
+		o.MaxBytes = budget
+		fresh, err := Fit(c, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		x, _ := format.Marshal(reused.Model)
+		y, _ := format.Marshal(fresh.Model)
+		if !bytes.Equal(x, y) {
+			t.Errorf("budget %d: the reused builder wrote %d bytes, a fresh fit %d, not the same", budget, len(x), len(y))
+		}
+	}
+}
