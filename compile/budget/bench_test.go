@@ -135,7 +135,7 @@ func BenchmarkPruningPaths(b *testing.B) {
 			}
 			r.seconds = time.Since(began).Seconds()
 			rows = append(rows, r)
-			b.Logf("%+v", r)
+			progress("%+v", r)
 
 			// The finished model pruned as ingot prune --max-size does.
 			scores := pre.scores
@@ -161,7 +161,7 @@ func BenchmarkPruningPaths(b *testing.B) {
 					finished(&r, m)
 				}
 				r.seconds = time.Since(began).Seconds()
-				b.Logf("%+v", r)
+				progress("%+v", r)
 				rows = append(rows, r)
 			}
 			// The floor: unigrams only (every prunable n-gram removed).
@@ -185,11 +185,11 @@ func BenchmarkPruningPaths(b *testing.B) {
 					r.quantCost = res.Perplexity/res.Chosen.Perplexity - 1
 					finished(&r, res.Model)
 					for _, cand := range res.Candidates {
-						b.Logf("  1/%d order %d: %+v", d, cand.Order, cand)
+						progress("  1/%d order %d: %+v", d, cand.Order, cand)
 					}
 				}
 				r.seconds = time.Since(began).Seconds()
-				b.Logf("%+v", r)
+				progress("%+v", r)
 				rows = append(rows, r)
 			}
 		}
@@ -226,6 +226,12 @@ func floorOf(b *testing.B, method string, m *tables.Tables) floor {
 	}
 	fl.sections["header, directory and padding"] = fl.bytes - inSections
 	return fl
+}
+
+// progress prints a line as soon as a model is measured (a benchmark's own
+// log appears only at its end, and this one is long).
+func progress(format string, a ...any) {
+	fmt.Fprintf(os.Stderr, "%s "+format+"\n", append([]any{time.Now().UTC().Format("15:04:05")}, a...)...)
 }
 
 func mustPerplexity(b *testing.B, t *tables.Tables, s [][]string) float64 {
