@@ -66,3 +66,76 @@ func TestRunBoundedSameModel(t *testing.T) {
 		t.Error("count cutoffs accepted on disk")
 	}
 }
+
+// RunBounded reads shards of both forms and lowers the order as Run does:
+// a text shard and a binary one summed, and counts of two-word sentences
+// asked for order 5 (no n-gram above order 4 exists) give Run's model.
+func TestRunBoundedShardsAndLowOrder(t *testing.T) {
+	dir := t.TempDir()
+	c := fixture.Counts(t, 3, fixture.Train(t, 300))
+	var bin, txt bytes.Buffer
+	if err := c.WriteBinary(&bin); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := c.WriteTo(&txt); err != nil {
+		t.Fatal(err)
+	}
+	short := fixture.Counts(t, 5, []string{"a b", "b c", "c a", "a b"})
+	var shortBin bytes.Buffer
+	if err := short.WriteBinary(&shortBin); err != nil {
+		t.Fatal(err)
+	}
+	files := map[string][]byte{"c.bin": bin.Bytes(), "c.txt": txt.Bytes(), "short.bin": shortBin.Bytes()}
+	for name, b := range files {
+		os.WriteFile(filepath.Join(dir, name), b, 0o644)
+	}
+	for _, tc := range []struct {
+		names []string
+		order int
+	}{{[]string{"c.txt", "c.bin"}, 3}, {[]string{"short.bin"}, 5}} {
+		var paths []string
+		for _, n := range tc.names {
+			paths = append(paths, filepath.Join(dir, n))
+		}
+		opt := estimate.Options{Method: estimate.WittenBell, Order: tc.order}
+		var warned []string
+		o := Compile{Estimate: opt, ToolVersion: "test", Command: Record([]string{"ingot", "compile"}, ""),
+			Warn: func(s string) { warned = append(warned, s) }}
+		cc, ins, err := LoadCounts(tc.order, paths)
+		if err != nil {
+			t.Fatal(err)
+		}
+		mem := o
+		mem.Command = Record([]string{"ingot", "compile"}, "", ins...)
+		want, err := mem.Run(cc)
+		if err != nil {
+			t.Fatal(err)
+		}
+		wantBytes, err := format.Marshal(want.Model)
+		if err != nil {
+			t.Fatal(err)
+		}
+		m, err := o.RunBounded(context.Background(), paths, bounded.Options{Memory: 1 << 20, TempDir: t.TempDir()})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var got bytes.Buffer
+		if err := m.Write(&got, m.Info); err != nil {
+			t.Fatal(err)
+		}
+		m.Close()
+		if !bytes.Equal(got.Bytes(), wantBytes) {
+			t.Errorf("%v: the model estimated on disk (%d bytes) differs from the one in memory (%d bytes)", tc.names, got.Len(), len(wantBytes))
+		}
+		if m.Estimate.Order != want.Estimate.Order || len(warned) != 2*boolInt(want.Estimate.Order < tc.order) {
+			t.Errorf("%v: order %d on disk, %d in memory; warnings %q", tc.names, m.Estimate.Order, want.Estimate.Order, warned)
+		}
+	}
+}
+
+func boolInt(b bool) int {
+	if b {
+		return 1
+	}
+	return 0
+}
