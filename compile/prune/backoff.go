@@ -23,6 +23,13 @@ const fullCoverage = 1e-12
 // probability of the (already recomputed) lower orders. A context without
 // successors, or whose successors take all the lower-order mass, gets 1.
 func Renormalize(t *tables.Tables) {
+	renormalize(t, nil)
+}
+
+// renormalize is Renormalize; it passes each weight, before float32
+// storage, to record when record is not nil (tests compare it with a
+// reference).
+func renormalize(t *tables.Tables, record func(k, i int, bow float64)) {
 	N := t.Order()
 	g := make([]uint32, N)
 	for k := 1; k < N; k++ {
@@ -44,6 +51,9 @@ func Renormalize(t *tables.Tables) {
 			bow := 1.0
 			if n > 0 && lower < 1-fullCoverage {
 				bow = (1 - stored) / (1 - lower)
+			}
+			if record != nil {
+				record(k, i, bow)
 			}
 			ctx.LogBackoff[i] = float32(math.Log10(bow))
 		}
