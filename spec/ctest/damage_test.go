@@ -67,6 +67,13 @@ func TestDamagedCopies(t *testing.T) {
 	text := demoHeldOut(t, 6)
 	models := demoModels(t)
 	for model := range goldenModels(t) {
+		// The Marrowfen goldens are the kinds of file demoModels already
+		// damages (the demo's commands, floats and quantized, versions 1
+		// to 3), four to six times larger: flipping each of their bits
+		// would add minutes and no new case. TestGoldenVectors reads them.
+		if strings.HasPrefix(filepath.Base(model), "marrowfen.") {
+			continue
+		}
 		models = append(models, testModel{filepath.Base(model), model, nil})
 	}
 	for i, m := range models {
