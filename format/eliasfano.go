@@ -248,6 +248,20 @@ func (c *efCursor) next() bool {
 	return true
 }
 
+// touch reads, without using them, the words that seek(i) and lowAt(i)
+// will read first (the sample and the low bits), so that the memory reads
+// of several sequences can be started together.
+func (e *eliasFano) touch(i uint64) uint64 {
+	var t uint64
+	if s := 8 * (i / efSample); s < uint64(len(e.samples)) {
+		t = uint64(e.samples[s])
+	}
+	if at := i * uint64(e.l) >> 3; at < uint64(len(e.low)) {
+		t += uint64(e.low[at])
+	}
+	return t
+}
+
 // get returns value i, or false when it cannot be read.
 func (e *eliasFano) get(i uint64) (uint64, bool) {
 	c := e.seek(i)

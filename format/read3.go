@@ -84,7 +84,14 @@ func (m *Model) childRange3(k int, i uint32) (lo, hi uint64) {
 	if !marked {
 		return 0, 0
 	}
-	a, b, ok := lv.childStarts.pair(r)
+	return m.childRangeAt(k, r)
+}
+
+// childRangeAt returns the children [lo, hi) at order k+1 of the context
+// of rank r among the contexts of order k, clipped to the entries that
+// exist.
+func (m *Model) childRangeAt(k int, r uint64) (lo, hi uint64) {
+	a, b, ok := m.levels[k-1].childStarts.pair(r)
 	if !ok {
 		return 0, 0
 	}
@@ -130,11 +137,37 @@ func (m *Model) extensions3(s *State, w uint32, child *[tables.MaxOrder]uint32) 
 	if uint64(w) < uint64(m.vocabSize) {
 		child[0] = w
 	}
-	var lo, hi [tables.MaxOrder]uint64
+	// The child range of every stored suffix depends only on the state.
+	// Each takes a chain of reads (the context's mark and rank counter, the
+	// sample and bits of its child start, then the keys before its first
+	// child); the passes below run one link of every order's chain before
+	// the next link of any, and touch (read without using) the words the
+	// next pass needs, so that the memory system fetches them together.
+	var lo, hi, r [tables.MaxOrder]uint64
+	var marked [tables.MaxOrder]bool
+	var touched uint64
 	for j := 1; j <= n; j++ {
 		if p := s.node[j-1]; p != noNode {
-			lo[j], hi[j] = m.childRange3(j, p)
+			touched += m.levels[j-1].marks.touch(uint64(p))
 		}
+	}
+	for j := 1; j <= n; j++ {
+		if p := s.node[j-1]; p != noNode {
+			lv := &m.levels[j-1]
+			marked[j], r[j] = lv.marks.rank(uint64(p))
+			touched += lv.childStarts.touch(r[j])
+		}
+	}
+	for j := 1; j <= n; j++ {
+		if marked[j] {
+			lo[j], hi[j] = m.childRangeAt(j, r[j])
+			if lo[j] < hi[j] {
+				touched += m.levels[j].keys.touch(lo[j] - min(lo[j], 1))
+			}
+		}
+	}
+	if touched == ^uint64(0) { // never (a sum of a few bytes): keeps the touches
+		return 0
 	}
 	for j := 1; j <= n; j++ {
 		child[j] = noNode

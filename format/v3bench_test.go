@@ -2,6 +2,7 @@ package format_test
 
 import (
 	"bytes"
+	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -44,6 +45,7 @@ func BenchmarkLayouts(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
+	compileAgainstParse(b, c.Counts(1))
 	models := map[string]*tables.Tables{"float": tb}
 	for _, bits := range []int{8, 4} {
 		q, _, err := quantize.Model(tb, quantize.Options{Bits: bits, Trainer: quantize.LeastSquares})
@@ -73,6 +75,7 @@ func BenchmarkLayouts(b *testing.B) {
 		}
 	}
 	b.ReportMetric(float64(ngrams), "ngrams")
+	reportComponents(b, files["8-bit.v3"], ngrams)
 
 	m3, err := format.Open(files["8-bit.v3"])
 	if err != nil {
@@ -84,17 +87,7 @@ func BenchmarkLayouts(b *testing.B) {
 		b.Fatal(err)
 	}
 	defer m2.Close()
-	var ids []uint32
-	for _, s := range held {
-		for _, w := range strings.Fields(s) {
-			id, ok := m3.ID(w)
-			if !ok {
-				id = m3.UnknownID()
-			}
-			ids = append(ids, id)
-		}
-		ids = append(ids, m3.EndID())
-	}
+	ids := heldIDs(m3, held)
 	chase := newChase(int(m3.Size()))
 	var t3, t2, tc []float64
 	var sum3, sum2 float64
@@ -119,6 +112,14 @@ func BenchmarkLayouts(b *testing.B) {
 	// Open time: the golden model and this one.
 	tiny := filepath.Join("..", "spec", "golden", "tiny.v3.ingot")
 	b.ReportMetric(openTime(b, tiny), "open-tiny-ns")
+	if mt, err := format.Open(tiny); err == nil {
+		n := 0
+		for k := 1; k <= mt.Order(); k++ {
+			n += mt.Count(k)
+		}
+		b.ReportMetric(float64(n), "tiny-ngrams")
+		mt.Close()
+	}
 	b.ReportMetric(openTime(b, files["8-bit.v3"]), "open-large-ns")
 
 	// Verification against one lookup per n-gram.
@@ -157,7 +158,229 @@ func BenchmarkLayouts(b *testing.B) {
 	b.ReportMetric(full.Seconds(), "ingot-verify-s")
 	b.ReportMetric(structural.Seconds()/lookups.Seconds(), "model-verify/lookups")
 	b.ReportMetric(full.Seconds()/lookups.Seconds(), "ingot-verify/lookups")
-	_ = bytes.Equal
+}
+
+// BenchmarkLayoutsGenerated is BenchmarkLayouts' scoring and open time on
+// a model larger than this machine's caches: the 5-gram Kneser-Ney model
+// of seeded generated text (corpus.Generate, 230,000 sentences over 50,000
+// words, every tenth held out), quantized to 8 bits, in versions 3 and 2.
+// Run it once: go test ./format -run '^$' -bench LayoutsGenerated -benchtime 1x.
+func BenchmarkLayoutsGenerated(b *testing.B) {
+	var text bytes.Buffer
+	if err := corpus.Generate(&text, 1, 230000, 50000); err != nil {
+		b.Fatal(err)
+	}
+	train, held := corpus.Split(strings.Split(strings.TrimSpace(text.String()), "\n"), 0)
+	text = bytes.Buffer{}
+	c, err := counts.NewCounter(5)
+	if err != nil {
+		b.Fatal(err)
+	}
+	for _, s := range train {
+		c.AddSentence(strings.Fields(s))
+	}
+	train = nil
+	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 5})
+	if err != nil {
+		b.Fatal(err)
+	}
+	c = nil
+	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
+	if err != nil {
+		b.Fatal(err)
+	}
+	tb = nil
+	ngrams := 0
+	for k := 1; k <= q.Order(); k++ {
+		ngrams += q.Len(k)
+	}
+	dir := b.TempDir()
+	var models [4]*format.Model
+	for _, v := range []int{2, 3} {
+		data, err := format.MarshalVersion(q, v)
+		if err != nil {
+			b.Fatal(err)
+		}
+		path := filepath.Join(dir, "gen.v"+string(rune('0'+v)))
+		if err := os.WriteFile(path, data, 0o644); err != nil {
+			b.Fatal(err)
+		}
+		b.ReportMetric(float64(len(data))/float64(ngrams), "v"+string(rune('0'+v))+"-bytes/ngram")
+		if models[v], err = format.Open(path); err != nil {
+			b.Fatal(err)
+		}
+		defer models[v].Close()
+		if v == 3 {
+			b.ReportMetric(openTime(b, path), "open-ns")
+		}
+	}
+	q = nil
+	b.ReportMetric(float64(ngrams), "ngrams")
+	m3, m2 := models[3], models[2]
+	ids := heldIDs(m3, held)
+	chase := newChase(int(m3.Size()))
+	var t3, t2, tc []float64
+	var sum3, sum2 float64
+	for range 5 {
+		d, s := scoreText(m3, ids)
+		t3, sum3 = append(t3, d), s
+		d, s = scoreText(m2, ids)
+		t2, sum2 = append(t2, d), s
+		tc = append(tc, chase.run(len(ids)*4))
+	}
+	if sum3 != sum2 {
+		b.Fatalf("held-out log10 sums differ: version 3 %v, version 2 %v", sum3, sum2)
+	}
+	b.ReportMetric(float64(len(ids)), "words")
+	b.ReportMetric(median(t3), "v3-ns/word")
+	b.ReportMetric(median(t2), "v2-ns/word")
+	b.ReportMetric(median(tc), "chase-ns")
+	b.ReportMetric(median(t3)/median(tc), "v3/chase")
+	b.ReportMetric(median(t2)/median(tc), "v2/chase")
+	b.ReportMetric(float64(m3.Size())/(1<<20), "v3-MiB")
+	b.ReportMetric(float64(m2.Size())/(1<<20), "v2-MiB")
+}
+
+// heldIDs maps held-out sentences to word ids, each followed by </s>.
+func heldIDs(m *format.Model, held []string) []uint32 {
+	var ids []uint32
+	for _, s := range held {
+		for _, w := range strings.Fields(s) {
+			id, ok := m.ID(w)
+			if !ok {
+				id = m.UnknownID()
+			}
+			ids = append(ids, id)
+		}
+		ids = append(ids, m.EndID())
+	}
+	return ids
+}
+
+// compileAgainstParse reports the time to compile counts (read and parse a
+// binary count file, estimate the Kneser-Ney model, write it) against the
+// time to read and parse the same file alone, medians of three runs each.
+func compileAgainstParse(b *testing.B, c *counts.Counts) {
+	path := filepath.Join(b.TempDir(), "counts.bin")
+	var buf bytes.Buffer
+	if err := c.WriteBinary(&buf); err != nil {
+		b.Fatal(err)
+	}
+	if err := os.WriteFile(path, buf.Bytes(), 0o644); err != nil {
+		b.Fatal(err)
+	}
+	load := func() *counts.Counts {
+		f, err := os.Open(path)
+		if err != nil {
+			b.Fatal(err)
+		}
+		defer f.Close()
+		c, err := counts.Load(5, []counts.Source{{Name: path, R: f}})
+		if err != nil {
+			b.Fatal(err)
+		}
+		return c
+	}
+	var parse, compile []float64
+	for range 3 {
+		start := time.Now()
+		load()
+		parse = append(parse, time.Since(start).Seconds())
+		start = time.Now()
+		t, _, err := estimate.Estimate(load(), estimate.Options{Method: estimate.KneserNey, Order: 5})
+		if err != nil {
+			b.Fatal(err)
+		}
+		data, err := format.Marshal(t)
+		if err != nil {
+			b.Fatal(err)
+		}
+		if err := os.WriteFile(filepath.Join(b.TempDir(), "model.ingot"), data, 0o644); err != nil {
+			b.Fatal(err)
+		}
+		compile = append(compile, time.Since(start).Seconds())
+	}
+	b.ReportMetric(float64(buf.Len())/(1<<20), "counts-MiB")
+	b.ReportMetric(median(parse), "parse-s")
+	b.ReportMetric(median(compile), "compile-s")
+	b.ReportMetric(median(compile)/median(parse), "compile/parse")
+}
+
+// reportComponents reports what each part of a version-3 file costs, in
+// bytes per n-gram of the whole model, from its directory: the vocabulary
+// (word starts, word text, word hash), the last-word keys, the child
+// starts, the context marks, the probabilities and the back-off weights
+// (codebooks included), and the rest (header, directory, summary, build
+// information, alignment). For the quantized columns it also reports the
+// mean stored index width and the entropy of the stored indexes, the bound
+// that any coding of the same indexes one by one meets.
+func reportComponents(b *testing.B, path string, ngrams int) {
+	m, err := format.Open(path)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer m.Close()
+	parts := map[format.SectionKind]string{
+		format.KindWordStarts: "vocab", format.KindWordText: "vocab", format.KindWordHash: "vocab",
+		format.KindLastWords: "keys", format.KindChildStarts: "starts", format.KindContexts: "marks",
+		format.KindProbabilities: "probs", format.KindProbCodebook: "probs",
+		format.KindBackoffs: "backoffs", format.KindBackoffCodebook: "backoffs",
+	}
+	sum := map[string]int64{}
+	var listed int64
+	for _, s := range m.Sections() {
+		if name, ok := parts[s.Kind]; ok {
+			sum[name] += s.Length
+			listed += s.Length
+		}
+	}
+	sum["other"] = m.Size() - listed
+	for name, n := range sum {
+		b.ReportMetric(float64(n)/float64(ngrams), "part-"+name+"-B/ngram")
+	}
+	keys := 0
+	for k := 2; k <= m.Order(); k++ {
+		keys += m.Count(k)
+	}
+	b.ReportMetric(8*float64(sum["keys"])/float64(keys), "keys-bits/key")
+	for _, backoff := range []bool{false, true} {
+		var stored, width, entropy float64
+		for k := 1; k <= m.Order(); k++ {
+			cb := m.Codebook(k, backoff)
+			if cb == nil {
+				continue
+			}
+			hist := make([]int, len(cb))
+			n := 0
+			for i := 0; i < m.Count(k); i++ {
+				if backoff && !format.StoresBackoff(m, k, i) {
+					continue
+				}
+				j, ok := m.Index(k, i, backoff)
+				if !ok {
+					b.Fatalf("order %d entry %d: no index", k, i)
+				}
+				hist[j]++
+				n++
+			}
+			bits := 1
+			for 1<<bits < len(cb) {
+				bits++
+			}
+			for _, h := range hist {
+				if h > 0 {
+					p := float64(h) / float64(n)
+					entropy -= float64(h) * math.Log2(p)
+				}
+			}
+			stored += float64(n)
+			width += float64(n * bits)
+		}
+		name := map[bool]string{false: "probs", true: "backoffs"}[backoff]
+		b.ReportMetric(stored, name+"-stored")
+		b.ReportMetric(width/stored, name+"-bits/value")
+		b.ReportMetric(entropy/stored, name+"-entropy-bits/value")
+	}
 }
 
 func mustFromBytes(b *testing.B, data []byte) *format.Model {

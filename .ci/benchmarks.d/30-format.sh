@@ -1,14 +1,27 @@
 #!/usr/bin/env bash
-# Format version 3 against the tables layout (version 2): file size per
-# n-gram, per-word scoring against a pointer chase over a buffer of the
-# model's size (same process, same rounds, medians), open time, and full
-# verification against one lookup per n-gram.
+# Format version 3 against the tables layout (version 2), issue 11: file
+# size per n-gram and what each part of the file costs; per-word scoring
+# against a pointer chase over a buffer of the model's size (same process,
+# same rounds, medians), on the bundled corpus and on a generated model
+# larger than the caches; open time of a tiny, a middle and a large model;
+# full verification against one lookup per n-gram; compile time against
+# the time to read and parse its counts.
 set -euo pipefail
-cmd="go test ./format -run '^\$' -bench Layouts -benchtime 1x -timeout 30m"
-out=$(go test ./format -run '^$' -bench Layouts -benchtime 1x -timeout 30m)
-line=$(printf '%s\n' "$out" | grep '^BenchmarkLayouts')
-v() { printf '%s\n' "$line" | awk -v k="$1" '{ for (i = 3; i <= NF; i++) if ($i == k) { print $(i-1); exit } }'; }
-echo "## Model file layout (format version 3)"
+cmd1="go test ./format -run '^\$' -bench 'Layouts\$' -benchtime 1x -timeout 60m"
+cmd2="go test ./format -run '^\$' -bench LayoutsGenerated -benchtime 1x -timeout 60m"
+up1=$(cut -d' ' -f1-3 /proc/loadavg)
+out=$(go test ./format -run '^$' -bench 'Layouts$' -benchtime 1x -timeout 60m)
+up2=$(cut -d' ' -f1-3 /proc/loadavg)
+out2=$(go test ./format -run '^$' -bench LayoutsGenerated -benchtime 1x -timeout 60m)
+up3=$(cut -d' ' -f1-3 /proc/loadavg)
+line=$(printf '%s\n' "$out" | grep '^BenchmarkLayouts-')
+line2=$(printf '%s\n' "$out2" | grep '^BenchmarkLayoutsGenerated')
+get() { printf '%s\n' "$1" | awk -v k="$2" '{ for (i = 3; i <= NF; i++) if ($i == k) { print $(i-1); exit } }'; }
+v() { get "$line" "$1"; }
+g() { get "$line2" "$1"; }
+f() { printf "%.${1}f" "$2"; }
+
+echo "## Model file layout (format version 3, issue 11)"
 echo
 echo "The 5-gram Kneser-Ney model of nine tenths of the bundled State of the Union"
 echo "text (every tenth sentence held out; $(v ngrams) n-grams), written in the"
@@ -21,24 +34,74 @@ for m in float 8-bit 4-bit; do
 	printf '| %s | %.2f | %.2f |\n' "$m" "$(v "$m-v2-bytes/ngram")" "$(v "$m-v3-bytes/ngram")"
 done
 echo
-echo "Scoring the held-out text word by word with \`Model.Next\` (8-bit model,"
-echo "$(v words) words, five rounds, medians), against one dependent random"
-echo "access over a buffer of the version-3 file's size ($(v v3-MiB) MiB),"
-echo "measured in the same rounds. Target: at most 3 accesses per word."
+echo "Where the bytes of the 8-bit version-3 file go (bytes per n-gram of the"
+echo "whole file; codebooks counted with their column):"
 echo
-echo "| layout | ns/word | one access, ns | ratio |"
-echo "| --- | ---: | ---: | ---: |"
-printf '| version 3 | %.0f | %.1f | %.2f |\n' "$(v v3-ns/word)" "$(v chase-ns)" "$(v v3/chase)"
-printf '| version 2 | %.0f | %.1f | %.2f |\n' "$(v v2-ns/word)" "$(v chase-ns)" "$(v v2/chase)"
+echo "| part | bytes/n-gram |"
+echo "| --- | ---: |"
+for p in keys probs backoffs starts marks vocab other; do
+	name=$(case $p in
+		keys) echo "last-word keys (Elias-Fano; successor ranks from order 3)" ;;
+		probs) echo "probabilities (8-bit indexes, unigrams as floats)" ;;
+		backoffs) echo "back-off weights (contexts only)" ;;
+		starts) echo "child starts (Elias-Fano, contexts only)" ;;
+		marks) echo "context marks and their rank counters" ;;
+		vocab) echo "vocabulary (word starts, word text, word hash)" ;;
+		other) echo "header, directory, summary, build info, alignment" ;;
+		esac)
+	printf '| %s | %.3f |\n' "$name" "$(v "part-$p-B/ngram")"
+done
 echo
-printf 'Open time (median of 200 opens of a mapped file): tiny golden model %.0f ns,\n' "$(v open-tiny-ns)"
-printf 'this 8-bit model %.0f ns.\n' "$(v open-large-ns)"
+printf 'Keys cost %.2f bits each. The %.0f stored back-off weights take %.2f bits\n' "$(v keys-bits/key)" "$(v backoffs-stored)" "$(v backoffs-bits/value)"
+printf 'each on average (the quantizer widens the back-off codebooks to 12-14 bits\n'
+printf 'so that every context sums to one within 1e-4, issue 9), while the entropy\n'
+printf 'of those indexes is %.2f bits; the probability indexes take %.2f bits, entropy\n' "$(v backoffs-entropy-bits/value)" "$(v probs-bits/value)"
+printf '%.2f. Coding each value at its entropy would save %.3f bytes per n-gram on\n' "$(v probs-entropy-bits/value)" \
+	"$(awk -v sb="$(v backoffs-stored)" -v wb="$(v backoffs-bits/value)" -v eb="$(v backoffs-entropy-bits/value)" \
+		-v sp="$(v probs-stored)" -v wp="$(v probs-bits/value)" -v ep="$(v probs-entropy-bits/value)" -v n="$(v ngrams)" \
+		'BEGIN { print (sb * (wb - eb) + sp * (wp - ep)) / 8 / n }')"
+echo "these two columns alone."
 echo
-printf 'Verification of the 8-bit version-3 file: one lookup (`Model.Find`) of every\n'
-printf 'n-gram in random order takes %.2f s; `Model.Verify` (structure, checksums)\n' "$(v lookups-s)"
-printf '%.2f s (%.2f times); `ingot verify` (every check, normalisation\n' "$(v model-verify-s)" "$(v model-verify/lookups)"
-printf 'included) %.2f s (%.2f times). Target: at most 3 times.\n' "$(v ingot-verify-s)" "$(v ingot-verify/lookups)"
+echo "Scoring held-out text word by word with \`Model.Next\` (8-bit models,"
+echo "five rounds, medians), against one dependent random access over a buffer"
+echo "of the version-3 file's size (a pointer chase), measured in the same"
+echo "rounds. Target: at most 3 accesses per word on models larger than the"
+echo "caches (32 MB and up). The generated model is the 5-gram Kneser-Ney model"
+echo "of \`corpus.Generate\` (seed 1, 230,000 sentences, 50,000 words; every"
+echo "tenth sentence held out, $(g ngrams) n-grams, $(f 2 "$(g v3-bytes/ngram)") bytes per"
+echo "n-gram in version 3, $(f 2 "$(g v2-bytes/ngram)") in version 2)."
 echo
-echo "Load average when measured: $(cut -d' ' -f1-3 /proc/loadavg)."
+echo "| model | layout | file MiB | words | ns/word | one access, ns | ratio |"
+echo "| --- | --- | ---: | ---: | ---: | ---: | ---: |"
+printf '| bundled corpus | version 3 | %.1f | %.0f | %.0f | %.1f | %.2f |\n' "$(v v3-MiB)" "$(v words)" "$(v v3-ns/word)" "$(v chase-ns)" "$(v v3/chase)"
+printf '| bundled corpus | version 2 | | %.0f | %.0f | %.1f | %.2f |\n' "$(v words)" "$(v v2-ns/word)" "$(v chase-ns)" "$(v v2/chase)"
+printf '| generated | version 3 | %.1f | %.0f | %.0f | %.1f | %.2f |\n' "$(g v3-MiB)" "$(g words)" "$(g v3-ns/word)" "$(g chase-ns)" "$(g v3/chase)"
+printf '| generated | version 2 | %.1f | %.0f | %.0f | %.1f | %.2f |\n' "$(g v2-MiB)" "$(g words)" "$(g v2-ns/word)" "$(g chase-ns)" "$(g v2/chase)"
 echo
-echo "Command: \`$cmd\`"
+echo "(Version 2's ratio is against the same chase, over a buffer of the"
+echo "version-3 file's size.)"
+echo
+echo "Open time (median of 200 opens of a mapped file; nothing proportional to"
+echo "the model is read):"
+echo
+echo "| model | n-grams | open, ns |"
+echo "| --- | ---: | ---: |"
+printf '| golden tiny.v3.ingot | %.0f | %.0f |\n' "$(v tiny-ngrams)" "$(v open-tiny-ns)"
+printf '| bundled corpus, 8-bit | %.0f | %.0f |\n' "$(v ngrams)" "$(v open-large-ns)"
+printf '| generated, 8-bit | %.0f | %.0f |\n' "$(g ngrams)" "$(g open-ns)"
+echo
+printf 'Verification of the 8-bit version-3 file of the bundled corpus: one lookup\n'
+printf '(`Model.Find`) of every n-gram in random order takes %.2f s; `Model.Verify`\n' "$(v lookups-s)"
+printf '(structure, checksums) %.2f s (%.2f times); `ingot verify` (every check,\n' "$(v model-verify-s)" "$(v model-verify/lookups)"
+printf 'normalisation included) %.2f s (%.2f times). Target: at most 3 times.\n' "$(v ingot-verify-s)" "$(v ingot-verify/lookups)"
+echo
+printf 'Compiling the counts of the bundled corpus (a %.1f MiB binary count file:\n' "$(v counts-MiB)"
+printf 'read and parse, estimate Kneser-Ney, write version 3) takes %.1f s; reading\n' "$(v compile-s)"
+printf 'and parsing the same file alone %.1f s (%.1f times; medians of 3).\n' "$(v parse-s)" "$(v compile/parse)"
+echo
+echo "Load averages (1, 5, 15 min) at the start of each run and at the end:"
+echo "$up1; $up2; $up3."
+echo
+echo "Commands: \`$cmd1\` (bundled corpus: sizes, parts,"
+echo "scoring, open, verify, compile) and \`$cmd2\` (generated"
+echo "model: scoring, open). Reproduce the section: \`bash .ci/benchmarks format\`."
