@@ -76,6 +76,9 @@ func BenchmarkLayouts(b *testing.B) {
 	}
 	b.ReportMetric(float64(ngrams), "ngrams")
 	reportComponents(b, files["8-bit.v3"], ngrams)
+	sib, alone := siblingKeyBits(models["8-bit"])
+	b.ReportMetric(sib, "keys-sibling-bits/key")
+	b.ReportMetric(alone, "keys-lists-bits/key")
 
 	m3, err := format.Open(files["8-bit.v3"])
 	if err != nil {
@@ -343,6 +346,7 @@ func reportComponents(b *testing.B, path string, ngrams int) {
 		keys += m.Count(k)
 	}
 	b.ReportMetric(8*float64(sum["keys"])/float64(keys), "keys-bits/key")
+	b.ReportMetric(float64(keys), "keys")
 	for _, backoff := range []bool{false, true} {
 		var stored, width, entropy float64
 		for k := 1; k <= m.Order(); k++ {
@@ -451,4 +455,73 @@ func median(xs []float64) float64 {
 	s := slices.Clone(xs)
 	slices.Sort(s)
 	return s[len(s)/2]
+}
+
+// siblingKeyBits returns what the last-word keys of orders 2..N would cost,
+// in bits per key, coded one sibling list at a time instead of as one
+// sequence per order. A list of m keys below a universe U that a reader
+// already knows (the vocabulary size at order 2; from order 3, where keys
+// are successor ranks (Pibiri & Venturini 2017), the number of successors
+// of the parent's suffix) takes the smaller of an Elias-Fano code,
+// m (L + 1) + ((U - 1) >> L) + 1 bits with L = floor(log2(U/m)), and m
+// fixed-width keys of ceil(log2 U) bits; each list also needs its starting
+// bit, one Elias-Fano sequence of bit offsets per order, about
+// 2 + log2(mean list bits) per list. It is the bound of the per-sibling
+// coding the issue proposes, measured rather than implemented.
+func siblingKeyBits(t *tables.Tables) (withOffsets, listsAlone float64) {
+	// first[k-1][i]: the index of the first child at order k+1 of entry i
+	// of order k; first[k-1][i+1]-first[k-1][i] its number of children.
+	n := t.Order()
+	first := make([][]int, n)
+	for k := 1; k < n; k++ {
+		f := make([]int, t.Len(k)+1)
+		for e := 0; e < t.Len(k+1); e++ {
+			f[t.Find(t.Gram(k+1, e)[:k])+1]++
+		}
+		for i := 1; i < len(f); i++ {
+			f[i] += f[i-1]
+		}
+		first[k-1] = f
+	}
+	var total, alone, keys float64
+	for k := 2; k <= n; k++ {
+		var listBits, lists float64
+		var m, universe uint64
+		flush := func() {
+			if m == 0 {
+				return
+			}
+			l := uint64(0)
+			for universe/m >= 2<<l {
+				l++
+			}
+			ef := m*(l+1) + (universe-1)>>l + 1
+			width := uint64(0)
+			for 1<<width < universe {
+				width++
+			}
+			listBits += float64(min(ef, m*width))
+			lists++
+			m = 0
+		}
+		var prev []uint32
+		for e := 0; e < t.Len(k); e++ {
+			g := t.Gram(k, e)
+			if prev != nil && !slices.Equal(prev, g[:k-1]) {
+				flush()
+			}
+			prev = g[:k-1]
+			universe = uint64(len(t.Vocab))
+			if k >= 3 {
+				h := t.Find(g[1 : k-1])
+				universe = uint64(first[k-3][h+1] - first[k-3][h])
+			}
+			m++
+		}
+		flush()
+		total += listBits + lists*(2+math.Log2(max(listBits/lists, 1)))
+		alone += listBits
+		keys += float64(t.Len(k))
+	}
+	return total / keys, alone / keys
 }
