@@ -1,6 +1,7 @@
 package format
 
 import (
+	"ingot/compile/fixture"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -12,7 +13,7 @@ import (
 // benchTables is a generated order-3 model of about 370 thousand n-grams
 // over 20 thousand words, with a heavy-tailed choice of words.
 func benchTables() *tables.Tables {
-	return randomTables(42, 20000, []int{150000, 200000})
+	return fixture.RandomTables(42, 20000, []int{150000, 200000})
 }
 
 func ngrams(tb *tables.Tables) int {
@@ -97,7 +98,7 @@ func BenchmarkOpen(b *testing.B) {
 		tb   *tables.Tables
 	}{
 		{"tiny", tinyModel(b)},
-		{"medium", randomTables(42, 2000, []int{15000, 20000})},
+		{"medium", fixture.RandomTables(42, 2000, []int{15000, 20000})},
 		{"large", benchTables()},
 	} {
 		path := filepath.Join(b.TempDir(), "model.ingot")

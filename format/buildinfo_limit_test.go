@@ -1,6 +1,7 @@
 package format
 
 import (
+	"ingot/compile/fixture"
 	"strings"
 	"testing"
 )
@@ -8,7 +9,7 @@ import (
 // The build info is capped at MaxBuildInfo: the writer refuses more, and so
 // does the reader, which bounds what opening any file can allocate.
 func TestBuildInfoIsCapped(t *testing.T) {
-	tb := randomTables(2, 30, []int{40})
+	tb := fixture.RandomTables(2, 30, []int{40})
 	tb.Info.History = []string{strings.Repeat("x", MaxBuildInfo)}
 	if _, err := Marshal(tb); err == nil || !strings.Contains(err.Error(), "exceeds 16384") {
 		t.Errorf("writer: %v", err)

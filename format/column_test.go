@@ -2,6 +2,7 @@ package format
 
 import (
 	"encoding/binary"
+	"ingot/compile/fixture"
 	"math"
 	"slices"
 	"strings"
@@ -40,7 +41,7 @@ func quantizeByRounding(t *tables.Tables, step float64, fromOrder int) {
 
 func TestQuantizedColumnsRoundTrip(t *testing.T) {
 	for _, step := range []float64{0.5, 0.05, 0.001, 1e-5} {
-		tb := randomTables(7, 300, []int{2000, 3000, 1000})
+		tb := fixture.RandomTables(7, 300, []int{2000, 3000, 1000})
 		quantizeByRounding(tb, step, 2)
 		data := mustMarshalTables(t, tb)
 		if v := binary.LittleEndian.Uint32(data[offVersion:]); v != 2 {
@@ -66,14 +67,14 @@ func TestQuantizedColumnsRoundTrip(t *testing.T) {
 		if err := m.Verify(); err != nil {
 			t.Errorf("step %v: verify: %v", step, err)
 		}
-		if full, _ := Size(tb); full >= int64(len(mustMarshal(t, randomTables(7, 300, []int{2000, 3000, 1000})))) && step >= 0.05 {
+		if full, _ := Size(tb); full >= int64(len(mustMarshal(t, fixture.RandomTables(7, 300, []int{2000, 3000, 1000})))) && step >= 0.05 {
 			t.Errorf("step %v: quantized file (%d bytes) not smaller", step, full)
 		}
 	}
 }
 
 func TestUnquantizedModelsStayVersionOne(t *testing.T) {
-	data := mustMarshalTables(t, randomTables(3, 50, []int{100}))
+	data := mustMarshalTables(t, fixture.RandomTables(3, 50, []int{100}))
 	if v := binary.LittleEndian.Uint32(data[offVersion:]); v != 1 {
 		t.Errorf("plain model written as version %d", v)
 	}
@@ -104,7 +105,7 @@ func TestPackedIndexesAtEveryWidth(t *testing.T) {
 }
 
 func TestPackedRefusedInVersionOne(t *testing.T) {
-	tb := randomTables(5, 40, []int{60})
+	tb := fixture.RandomTables(5, 40, []int{60})
 	quantizeByRounding(tb, 0.1, 2)
 	data := mustMarshalTables(t, tb)
 	binary.LittleEndian.PutUint32(data[offVersion:], 1)

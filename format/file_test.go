@@ -4,6 +4,7 @@ package format
 
 import (
 	"errors"
+	"ingot/compile/fixture"
 	"os"
 	"path/filepath"
 	"strings"
@@ -50,7 +51,7 @@ func TestOpenRefusesFilesThatAreNotRegular(t *testing.T) {
 // *FaultError instead of a SIGBUS that kills the process, and a model read
 // with Load does not notice at all.
 func TestTruncatedWhileOpen(t *testing.T) {
-	tb := randomTables(3, 2000, []int{30000, 40000})
+	tb := fixture.RandomTables(3, 2000, []int{30000, 40000})
 	data := mustMarshal(t, tb)
 	path := filepath.Join(t.TempDir(), "m.ingot")
 	if err := os.WriteFile(path, data, 0o644); err != nil {

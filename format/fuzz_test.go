@@ -5,6 +5,7 @@ import (
 	"crypto/ed25519"
 	"encoding/binary"
 	"errors"
+	"ingot/compile/fixture"
 	"math"
 	"runtime"
 	"strings"
@@ -20,8 +21,8 @@ var fuzzKey = ed25519.NewKeyFromSeed(bytes.Repeat([]byte{0x5e}, ed25519.SeedSize
 // hugeCountCases.
 func fuzzSeeds(t testing.TB) [][]byte {
 	tiny := mustMarshal(t, tinyModel(t))
-	random := mustMarshal(t, randomTables(5, 12, []int{20, 30, 30}))
-	qt := randomTables(6, 14, []int{24, 30})
+	random := mustMarshal(t, fixture.RandomTables(5, 12, []int{20, 30, 30}))
+	qt := fixture.RandomTables(6, 14, []int{24, 30})
 	quantizeByRounding(qt, 0.25, 1)
 	quantized := mustMarshal(t, qt)
 	signed, err := Sign(tiny, fuzzKey)
@@ -315,7 +316,7 @@ func TestHugeCountsAreBounded(t *testing.T) {
 // swapped, with every checksum and the digest made to match, open and
 // answer queries but fail Verify, naming the codebook.
 func TestVerifyRefusesUnsortedCodebook(t *testing.T) {
-	tb := randomTables(6, 14, []int{24, 30})
+	tb := fixture.RandomTables(6, 14, []int{24, 30})
 	quantizeByRounding(tb, 0.25, 1)
 	data := mustMarshal(t, tb)
 	i, cb := sectionBytes(t, data, KindProbCodebook, 2)

@@ -1,9 +1,7 @@
 package format
 
 import (
-	"fmt"
 	"math"
-	"math/rand/v2"
 	"slices"
 	"sort"
 	"strings"
@@ -132,69 +130,6 @@ func tinyModel(t testing.TB) *tables.Tables {
 		EmptyContextLogBackoff: math.Inf(-1),
 		ToolVersion:            "golden-1",
 	}
-	return tb
-}
-
-// randomTables returns a prefix-closed model with random values (not a
-// normalised one), for equivalence tests and benchmarks. counts[k-2] is the
-// number of entries wanted at order k; duplicates are dropped, so a level
-// may come out smaller.
-func randomTables(seed uint64, vocabSize int, counts []int) *tables.Tables {
-	rng := rand.New(rand.NewPCG(seed, 0x1c07))
-	order := len(counts) + 1
-	vocab := []string{tables.SentenceStart, tables.SentenceEnd, tables.Unknown}
-	for i := len(vocab); i < vocabSize; i++ {
-		vocab = append(vocab, fmt.Sprintf("w%06d", i))
-	}
-	sort.Strings(vocab)
-	tb := &tables.Tables{Vocab: vocab, Levels: make([]tables.Level, order)}
-	start, _ := tb.ID(tables.SentenceStart)
-	zipf := rand.NewZipf(rng, 1.1, 2, uint64(vocabSize-1))
-	word := func() uint32 {
-		for {
-			if w := uint32(zipf.Uint64()); w != start {
-				return w
-			}
-		}
-	}
-	value := func(lo, hi float64) float32 { return float32(lo + (hi-lo)*rng.Float64()) }
-	for id := range vocab {
-		lv := &tb.Levels[0]
-		lv.Words = append(lv.Words, uint32(id))
-		if uint32(id) == start {
-			lv.LogProb = append(lv.LogProb, tables.NoProb)
-		} else {
-			lv.LogProb = append(lv.LogProb, value(-6, -1))
-		}
-	}
-	for k := 2; k <= order; k++ {
-		prev := &tb.Levels[k-2]
-		seen := make(map[string]bool)
-		var grams [][]uint32
-		for range counts[k-2] {
-			p := rng.IntN(len(prev.LogProb))
-			g := append(slices.Clone(prev.Words[(k-1)*p:(k-1)*p+k-1]), word())
-			key := fmt.Sprint(g)
-			if !seen[key] {
-				seen[key] = true
-				grams = append(grams, g)
-			}
-		}
-		slices.SortFunc(grams, tables.Compare)
-		lv := &tb.Levels[k-1]
-		for _, g := range grams {
-			lv.Words = append(lv.Words, g...)
-			lv.LogProb = append(lv.LogProb, value(-4, -0.01))
-		}
-	}
-	for k := 1; k < order; k++ {
-		lv := &tb.Levels[k-1]
-		lv.LogBackoff = make([]float32, len(lv.LogProb))
-		for i := range lv.LogBackoff {
-			lv.LogBackoff[i] = value(-2, 0.5)
-		}
-	}
-	tb.Info = tables.Info{Method: "random", ToolVersion: "test"}
 	return tb
 }
 

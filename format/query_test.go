@@ -1,6 +1,7 @@
 package format
 
 import (
+	"ingot/compile/fixture"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -25,9 +26,9 @@ func models(t testing.TB) []struct {
 		{"unigram", unigram},
 		{"bigram", bigram},
 		{"tiny trigram", tinyModel(t)},
-		{"random order 4", randomTables(1, 40, []int{150, 300, 400})},
-		{"random order 5 small vocabulary", randomTables(2, 8, []int{40, 80, 120, 160})},
-		{"random order 10", randomTables(3, 20, []int{60, 80, 100, 100, 100, 100, 100, 100, 100})},
+		{"random order 4", fixture.RandomTables(1, 40, []int{150, 300, 400})},
+		{"random order 5 small vocabulary", fixture.RandomTables(2, 8, []int{40, 80, 120, 160})},
+		{"random order 10", fixture.RandomTables(3, 20, []int{60, 80, 100, 100, 100, 100, 100, 100, 100})},
 	}
 }
 

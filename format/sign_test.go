@@ -3,6 +3,7 @@ package format
 import (
 	"crypto/ed25519"
 	"errors"
+	"ingot/compile/fixture"
 	"math/rand/v2"
 	"strings"
 	"testing"
@@ -16,7 +17,7 @@ func keyPair(t *testing.T, seed byte) (ed25519.PublicKey, ed25519.PrivateKey) {
 }
 
 func TestSignature(t *testing.T) {
-	data := mustMarshal(t, randomTables(9, 200, []int{800, 600}))
+	data := mustMarshal(t, fixture.RandomTables(9, 200, []int{800, 600}))
 	pub, priv := keyPair(t, 1)
 	other, _ := keyPair(t, 2)
 
@@ -66,7 +67,7 @@ func TestSignature(t *testing.T) {
 }
 
 func TestSignRefusesDamagedModel(t *testing.T) {
-	data := mustMarshal(t, randomTables(9, 200, []int{800}))
+	data := mustMarshal(t, fixture.RandomTables(9, 200, []int{800}))
 	_, priv := keyPair(t, 1)
 	data[len(data)-9] ^= 0x40 // inside the last column, not checked at open
 	if _, err := Sign(data, priv); err == nil || !strings.Contains(err.Error(), "damaged") {

@@ -2,6 +2,7 @@ package format
 
 import (
 	"crypto/ed25519"
+	"ingot/compile/fixture"
 	"testing"
 )
 
@@ -9,7 +10,7 @@ import (
 // re-signing adds none: a model fitted to a budget with that room left
 // still fits once signed.
 func TestSignatureSpace(t *testing.T) {
-	data := mustMarshal(t, randomTables(4, 40, []int{60, 50}))
+	data := mustMarshal(t, fixture.RandomTables(4, 40, []int{60, 50}))
 	_, priv, _ := ed25519.GenerateKey(nil)
 	signed, err := Sign(data, priv)
 	if err != nil {

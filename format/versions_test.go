@@ -2,6 +2,7 @@ package format
 
 import (
 	"encoding/binary"
+	"ingot/compile/fixture"
 	"testing"
 
 	"ingot/compile/tables"
@@ -40,7 +41,7 @@ func TestReportedVersions(t *testing.T) {
 }
 
 func quantizedRandom() *tables.Tables {
-	tb := randomTables(7, 30, []int{50, 40})
+	tb := fixture.RandomTables(7, 30, []int{50, 40})
 	quantizeByRounding(tb, 0.05, 2)
 	return tb
 }

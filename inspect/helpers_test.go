@@ -1,11 +1,10 @@
 package inspect
 
 import (
-	"os"
-	"strings"
+	"ingot/compile/fixture"
+	"ingot/format/formattest"
 	"testing"
 
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/tables"
 	"ingot/format"
@@ -29,38 +28,7 @@ func openGolden(t testing.TB) *format.Model {
 // demo corpus (invented spoken commands of a wetland reserve's field unit).
 func demoTables(t testing.TB) *tables.Tables {
 	t.Helper()
-	text, err := os.ReadFile("../cmd/ingot/demodata/commands.txt")
-	if err != nil {
-		t.Fatal(err)
-	}
-	c, err := counts.NewCounter(3)
-	if err != nil {
-		t.Fatal(err)
-	}
-	for _, line := range strings.Split(string(text), "\n") {
-		if f := strings.Fields(line); len(f) > 0 {
-			c.AddSentence(f)
-		}
-	}
-	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 3})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return tb
-}
-
-// fromTables writes tb and opens the bytes as a model.
-func fromTables(t testing.TB, tb *tables.Tables) *format.Model {
-	t.Helper()
-	data, err := format.Marshal(tb)
-	if err != nil {
-		t.Fatal(err)
-	}
-	m, err := format.FromBytes(data)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return m
+	return fixture.Estimate(t, fixture.Demo(t), 3, estimate.Options{Method: estimate.KneserNey})
 }
 
 // demoModels returns the demo model, plain and quantized to 8 bits.
@@ -71,5 +39,5 @@ func demoModels(t testing.TB) (plain, quantized *format.Model) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	return fromTables(t, tb), fromTables(t, q)
+	return formattest.Open(t, tb), formattest.Open(t, q)
 }

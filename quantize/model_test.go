@@ -2,28 +2,19 @@ package quantize
 
 import (
 	"fmt"
+	"ingot/compile/fixture"
 	"math"
 	"strings"
 	"testing"
 
-	"ingot/compile/corpus"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/tables"
 )
 
 func sotuModels(t *testing.T, limit, order int) (map[estimate.Method]*tables.Tables, []string) {
 	t.Helper()
-	all, err := corpus.SOTU()
-	if err != nil {
-		t.Fatal(err)
-	}
-	train, held := corpus.Split(all, limit)
-	c, _ := counts.NewCounter(order)
-	for _, s := range train {
-		c.AddSentence(strings.Fields(s))
-	}
-	cnt := c.Counts(1)
+	train, held := fixture.SOTU(t, limit)
+	cnt := fixture.Counts(t, order, train)
 	out := map[estimate.Method]*tables.Tables{}
 	for _, m := range estimate.Methods {
 		tb, _, err := estimate.Estimate(cnt, estimate.Options{Method: m, Order: order})

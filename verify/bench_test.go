@@ -1,6 +1,7 @@
 package verify
 
 import (
+	"ingot/compile/fixture"
 	"os"
 	"path/filepath"
 	"sync"
@@ -26,7 +27,7 @@ var benchModel = sync.OnceValues(func() (string, error) {
 	if err != nil {
 		return "", err
 	}
-	tb, err := estimateText(all, 5, estimate.Options{Method: estimate.KneserNey})
+	tb, err := fixture.EstimateText(all, 5, estimate.Options{Method: estimate.KneserNey})
 	if err != nil {
 		return "", err
 	}

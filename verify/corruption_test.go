@@ -5,6 +5,7 @@ import (
 	"crypto/ed25519"
 	"errors"
 	"fmt"
+	"ingot/compile/fixture"
 	"math/rand/v2"
 	"os"
 	"slices"
@@ -34,7 +35,7 @@ func corruptionModels(t *testing.T) []struct {
 		t.Fatal(err)
 	}
 	lines := strings.Split(strings.TrimSpace(string(text)), "\n")
-	tb := build(t, lines[:40], 3, estimate.Options{Method: estimate.KneserNey})
+	tb := fixture.Estimate(t, lines[:40], 3, estimate.Options{Method: estimate.KneserNey})
 	plain := marshal(t, tb)
 	q, _, err := quantize.Model(tb, quantize.Options{Bits: 4, Trainer: quantize.EqualMass})
 	if err != nil {

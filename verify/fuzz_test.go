@@ -2,6 +2,7 @@ package verify
 
 import (
 	"crypto/ed25519"
+	"ingot/compile/fixture"
 	"os"
 	"testing"
 
@@ -18,7 +19,7 @@ func FuzzBytes(f *testing.F) {
 	if err != nil {
 		f.Fatal(err)
 	}
-	random := marshal(f, randomTables(5, 20, []int{60, 80, 80}))
+	random := marshal(f, fixture.RandomTables(5, 20, []int{60, 80, 80}))
 	f.Add(tiny)
 	f.Add(random)
 	f.Add(tiny[:300])
@@ -27,7 +28,7 @@ func FuzzBytes(f *testing.F) {
 	f.Add(reseal(damaged))
 	// A quantized (format version 2) and a signed model, so that the
 	// codebook and signature sections are reached too.
-	q, _, err := quantize.Model(build(f, sotu(f, 200), 3, estimate.Options{Method: estimate.KneserNey}),
+	q, _, err := quantize.Model(fixture.Estimate(f, fixture.Train(f, 200), 3, estimate.Options{Method: estimate.KneserNey}),
 		quantize.Options{Bits: 4, Trainer: quantize.LeastSquares})
 	if err != nil {
 		f.Fatal(err)

@@ -1,6 +1,7 @@
 package verify
 
 import (
+	"ingot/compile/fixture"
 	"slices"
 	"strings"
 	"testing"
@@ -32,7 +33,7 @@ func distinct(v []float32) []float32 {
 // through the format reader's columns; losslessly quantized it passes like
 // the original, and an index past its codebook is a named values problem.
 func TestQuantizedModel(t *testing.T) {
-	tb := build(t, sotu(t, 400), 3, estimate.Options{Method: estimate.KneserNey})
+	tb := fixture.Estimate(t, fixture.Train(t, 400), 3, estimate.Options{Method: estimate.KneserNey})
 	losslessCodebooks(tb)
 	data := marshal(t, tb)
 	rep := run(t, data, Options{})

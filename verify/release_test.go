@@ -26,7 +26,7 @@ func writeModel(t *testing.T, data []byte) string {
 // id inside the signature section, for another key; an unsigned model
 // fails it too.
 func TestSignatureCheck(t *testing.T) {
-	data := marshal3(t, build(t, fixture.Train(t, 200), 2, estimate.Options{Method: estimate.WittenBell}))
+	data := marshal3(t, fixture.Estimate(t, fixture.Train(t, 200), 2, estimate.Options{Method: estimate.WittenBell}))
 	pub, priv, _ := ed25519.GenerateKey(rand.Reader)
 	other, _, _ := ed25519.GenerateKey(rand.Reader)
 	if c := Signature(writeModel(t, data), pub); c.Status != Fail || !strings.Contains(c.Detail, "not signed") {
@@ -63,8 +63,8 @@ func TestSignatureCheck(t *testing.T) {
 func TestReleaseGate(t *testing.T) {
 	train, held := fixture.SOTU(t, 1500)
 	text := strings.Join(held, "\n")
-	good := marshal3(t, build(t, train, 3, estimate.Options{Method: estimate.KneserNey}))
-	worse := marshal3(t, build(t, train[:len(train)/10], 3, estimate.Options{Method: estimate.KneserNey}))
+	good := marshal3(t, fixture.Estimate(t, train, 3, estimate.Options{Method: estimate.KneserNey}))
+	worse := marshal3(t, fixture.Estimate(t, train[:len(train)/10], 3, estimate.Options{Method: estimate.KneserNey}))
 	gateOn := func(candidate, baseline []byte, limit float64) Check {
 		t.Helper()
 		path := writeModel(t, candidate)

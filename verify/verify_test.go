@@ -4,6 +4,7 @@ import (
 	"encoding/binary"
 	"errors"
 	"fmt"
+	"ingot/compile/fixture"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -33,10 +34,10 @@ func TestNormalisedModelsPass(t *testing.T) {
 		data     []byte
 		contexts int // 0: at least 1000
 	}{{"golden", tiny, 1 + 11 + 14}}
-	train := sotu(t, 3000)
+	train := fixture.Train(t, 3000)
 	reference := map[string]float64{} // largest |S-1| by tables.Sums
 	for _, method := range estimate.Methods {
-		tb := build(t, train, 4, estimate.Options{Method: method})
+		tb := fixture.Estimate(t, train, 4, estimate.Options{Method: method})
 		worst := 0.0
 		tb.Sums(func(s tables.ContextSum) { worst = max(worst, math.Abs(s.Sum-1)) })
 		reference[string(method)] = worst
@@ -127,8 +128,8 @@ func TestSumsMatchTheDefinition(t *testing.T) {
 		data []byte
 	}{
 		{"golden", tiny},
-		{"random order 3", marshal(t, randomTables(1, 40, []int{300, 500}))},
-		{"random order 5", marshal(t, randomTables(2, 25, []int{200, 400, 500, 500}))},
+		{"random order 3", marshal(t, fixture.RandomTables(1, 40, []int{300, 500}))},
+		{"random order 5", marshal(t, fixture.RandomTables(2, 25, []int{200, 400, 500, 500}))},
 	} {
 		want := bruteSums(t, c.data)
 		var tops []string
@@ -181,7 +182,7 @@ func TestSumsMatchTheDefinition(t *testing.T) {
 // A model whose back-off weights are scaled has intact bytes and structure:
 // only normalisation can catch it, and it names the contexts.
 func TestScaledBackoffsFailOnlyNormalisation(t *testing.T) {
-	tb := build(t, sotu(t, 2000), 3, estimate.Options{Method: estimate.KneserNey})
+	tb := fixture.Estimate(t, fixture.Train(t, 2000), 3, estimate.Options{Method: estimate.KneserNey})
 	t.Run("a whole back-off section, bytes rewritten", func(t *testing.T) {
 		data := marshal(t, tb)
 		b, name := where(t, data, format.KindBackoffs, 2)
@@ -226,7 +227,7 @@ func putLE32(b []byte, v uint32) { binary.LittleEndian.PutUint32(b, v) }
 // Every defect is caught by the check that owns it and named with its
 // section and what is wrong; the checks that need what broke do not run.
 func TestDefectsAreNamed(t *testing.T) {
-	tb := build(t, sotu(t, 500), 3, estimate.Options{Method: estimate.WittenBell})
+	tb := fixture.Estimate(t, fixture.Train(t, 500), 3, estimate.Options{Method: estimate.WittenBell})
 	clean := marshal(t, tb)
 	start, _ := tb.ID(tables.SentenceStart)
 	for _, c := range []struct {
@@ -342,7 +343,7 @@ func TestDefectsAreNamed(t *testing.T) {
 // codes for error detection", Proc. IRE 49(1); reference recalled from
 // memory).
 func TestFlippedBitInEachSectionIsNamed(t *testing.T) {
-	clean := marshal(t, build(t, sotu(t, 300), 3, estimate.Options{Method: estimate.Katz}))
+	clean := marshal(t, fixture.Estimate(t, fixture.Train(t, 300), 3, estimate.Options{Method: estimate.Katz}))
 	m, err := format.FromBytes(clean)
 	if err != nil {
 		t.Fatal(err)
@@ -437,7 +438,7 @@ func TestUnreadable(t *testing.T) {
 // Random damage never panics, whether or not the checksums are fixed up
 // (which lets the damage reach the deeper checks); seeded.
 func TestRandomDamageNeverPanics(t *testing.T) {
-	clean := marshal(t, randomTables(3, 30, []int{200, 300}))
+	clean := marshal(t, fixture.RandomTables(3, 30, []int{200, 300}))
 	rng := rand.New(rand.NewPCG(11, 1))
 	for i := range 600 {
 		data := slices.Clone(clean)
@@ -461,7 +462,7 @@ func TestRandomDamageNeverPanics(t *testing.T) {
 
 // The report does not depend on how the normalisation pass is split.
 func TestSplitDoesNotChangeTheReport(t *testing.T) {
-	data := marshal(t, randomTables(4, 60, []int{800, 900, 900}))
+	data := marshal(t, fixture.RandomTables(4, 60, []int{800, 900, 900}))
 	var first *Report
 	for _, split := range []int{1, 2, 5} {
 		v := &verifier{data: data, rep: &Report{}, split: split}

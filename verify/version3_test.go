@@ -1,6 +1,7 @@
 package verify
 
 import (
+	"ingot/compile/fixture"
 	"strings"
 	"testing"
 
@@ -13,7 +14,7 @@ import (
 // its succinct structures is a named problem, and the checks that need a
 // sound trie do not run.
 func TestVersion3(t *testing.T) {
-	tb := build(t, sotu(t, 500), 3, estimate.Options{Method: estimate.KneserNey})
+	tb := fixture.Estimate(t, fixture.Train(t, 500), 3, estimate.Options{Method: estimate.KneserNey})
 	data := marshal3(t, tb)
 	rep := run(t, data, Options{})
 	if !rep.OK() || rep.Version != 3 {

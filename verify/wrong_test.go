@@ -1,6 +1,7 @@
 package verify
 
 import (
+	"ingot/compile/fixture"
 	"math"
 	"slices"
 	"strings"
@@ -90,7 +91,7 @@ func mustFailNaming(t *testing.T, data []byte, want string) *Report {
 // every context is within 1e-4, so the test moves the weight whose move
 // changes its sum the most.
 func TestQuantizedWeightOneLevelOffFails(t *testing.T) {
-	tb := build(t, sotu(t, 2000), 3, estimate.Options{Method: estimate.KneserNey})
+	tb := fixture.Estimate(t, fixture.Train(t, 2000), 3, estimate.Options{Method: estimate.KneserNey})
 	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
 	if err != nil {
 		t.Fatal(err)
@@ -126,7 +127,7 @@ func TestQuantizedWeightOneLevelOffFails(t *testing.T) {
 // A float model with one back-off weight moved by 1% fails, naming the
 // context; so does one with a stored probability moved by 1%.
 func TestFloatWeightOnePercentOffFails(t *testing.T) {
-	tb := build(t, sotu(t, 2000), 3, estimate.Options{Method: estimate.Katz})
+	tb := fixture.Estimate(t, fixture.Train(t, 2000), 3, estimate.Options{Method: estimate.Katz})
 	bad := cloneTables(tb)
 	i, _ := widestContext(bad, 2)
 	bad.Levels[1].LogBackoff[i] += float32(math.Log10(1.01))
@@ -150,7 +151,7 @@ func TestFloatWeightOnePercentOffFails(t *testing.T) {
 // information to be quantized with large residuals: a context 8% off still
 // fails at the float tolerance.
 func TestBuildInfoClaimsChangeNothing(t *testing.T) {
-	tb := build(t, sotu(t, 2000), 3, estimate.Options{Method: estimate.WittenBell})
+	tb := fixture.Estimate(t, fixture.Train(t, 2000), 3, estimate.Options{Method: estimate.WittenBell})
 	bad := cloneTables(tb)
 	i, mass := widestContext(bad, 2)
 	if mass < 0.2 {

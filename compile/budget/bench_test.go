@@ -3,6 +3,7 @@ package budget
 import (
 	"fmt"
 	"image/color"
+	"ingot/compile/fixture"
 	"math"
 	"os"
 	"path/filepath"
@@ -18,8 +19,6 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgsvg"
 
-	"ingot/compile/corpus"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/prune"
 	"ingot/compile/tables"
@@ -71,19 +70,11 @@ type floor struct {
 //
 //	INGOT_PRUNING_OUT=/tmp/p go test -run '^$' -bench PruningPaths -benchtime 1x -timeout 3h ./compile/budget
 func BenchmarkPruningPaths(b *testing.B) {
-	all, err := corpus.SOTU()
-	if err != nil {
-		b.Fatal(err)
-	}
 	// INGOT_PRUNING_SENTENCES=N runs on the first N sentences only (to try
 	// the benchmark quickly; the figures reported use the whole text).
 	limit, _ := strconv.Atoi(os.Getenv("INGOT_PRUNING_SENTENCES"))
-	train, held := corpus.Split(all, limit)
-	cn, _ := counts.NewCounter(5)
-	for _, s := range train {
-		cn.AddSentence(strings.Fields(s))
-	}
-	c := cn.Counts(1)
+	train, held := fixture.SOTU(b, limit)
+	c := fixture.Counts(b, 5, train)
 	var dev, test [][]string
 	for i, s := range held {
 		if i%2 == 0 {

@@ -3,11 +3,11 @@ package budget
 import (
 	"bytes"
 	"fmt"
+	"ingot/compile/fixture"
 	"math"
 	"strings"
 	"testing"
 
-	"ingot/compile/corpus"
 	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/prune"
@@ -21,20 +21,8 @@ import (
 // the Union corpus (every tenth held out) and the held-out sentences.
 func slice(t testing.TB, n, order int) (*counts.Counts, [][]string) {
 	t.Helper()
-	all, err := corpus.SOTU()
-	if err != nil {
-		t.Fatal(err)
-	}
-	train, held := corpus.Split(all, n)
-	c, _ := counts.NewCounter(order)
-	for _, s := range train {
-		c.AddSentence(strings.Fields(s))
-	}
-	var h [][]string
-	for _, s := range held {
-		h = append(h, strings.Fields(s))
-	}
-	return c.Counts(1), h
+	train, held := fixture.SOTU(t, n)
+	return fixture.Counts(t, order, train), fixture.Tokens(held)
 }
 
 func sizeOf(t testing.TB, m *tables.Tables) int64 {

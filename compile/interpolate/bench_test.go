@@ -2,6 +2,7 @@ package interpolate
 
 import (
 	"fmt"
+	"ingot/compile/fixture"
 	"math"
 	"os"
 	"path/filepath"
@@ -152,7 +153,7 @@ func BenchmarkAdaptation(b *testing.B) {
 	train, held := corpus.Split(recent, 0)
 	general := build(b, all[:len(all)-6000], 5, estimate.KneserNey)
 	dom := build(b, train, 5, estimate.KneserNey)
-	fit, test := tokens(held[:300]), tokens(held[300:])
+	fit, test := fixture.Tokens(held[:300]), fixture.Tokens(held[300:])
 	var w []float64
 	var best, mix, written, pg, pd float64
 	for b.Loop() {

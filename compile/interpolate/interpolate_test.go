@@ -1,13 +1,13 @@
 package interpolate
 
 import (
+	"ingot/compile/fixture"
 	"math"
 	"strings"
 	"sync"
 	"testing"
 
 	"ingot/compile/corpus"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/prune"
 	"ingot/compile/tables"
@@ -30,28 +30,7 @@ func sentences(t testing.TB) []string {
 
 func build(t testing.TB, lines []string, order int, method estimate.Method) *tables.Tables {
 	t.Helper()
-	c, err := counts.NewCounter(order)
-	if err != nil {
-		t.Fatal(err)
-	}
-	for _, s := range lines {
-		c.AddSentence(strings.Fields(s))
-	}
-	m, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: method, Order: order})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return m
-}
-
-// domain returns a general model (older addresses), a domain model (the
-// most recent ones, a smaller text), and held-out text of the domain.
-func tokens(lines []string) [][]string {
-	out := make([][]string, len(lines))
-	for i, l := range lines {
-		out[i] = strings.Fields(l)
-	}
-	return out
+	return fixture.Estimate(t, lines, order, estimate.Options{Method: method})
 }
 
 func domain(t testing.TB, order int) (general, dom *tables.Tables, fit, test [][]string) {
@@ -63,7 +42,7 @@ func domain(t testing.TB, order int) (general, dom *tables.Tables, fit, test [][
 		ms = [2]*tables.Tables{build(t, all[:6000], order, estimate.KneserNey), build(t, train[:1500], order, estimate.KneserNey)}
 		domainModels[order] = ms
 	}
-	return ms[0], ms[1], tokens(held[:200]), tokens(held[200:])
+	return ms[0], ms[1], fixture.Tokens(held[:200]), fixture.Tokens(held[200:])
 }
 
 var (
@@ -382,11 +361,11 @@ func TestMixtureOfDisjointHalvesBeatsBoth(t *testing.T) {
 			test = append(test, s)
 		}
 	}
-	w, _, err := m.Score(tokens(fit)).Fit()
+	w, _, err := m.Score(fixture.Tokens(fit)).Fit()
 	if err != nil {
 		t.Fatal(err)
 	}
-	h := m.Score(tokens(test))
+	h := m.Score(fixture.Tokens(test))
 	mix, pa, pb := h.Perplexity(w), h.Perplexity(Unit(2, 0)), h.Perplexity(Unit(2, 1))
 	t.Logf("weights %.4f %.4f; perplexity older half %.2f, newer half %.2f, mixture %.2f", w[0], w[1], pa, pb, mix)
 	if !(mix < pa && mix < pb) {

@@ -1,12 +1,12 @@
 package prune
 
 import (
+	"ingot/compile/fixture"
 	"math"
 	"slices"
 	"strings"
 	"testing"
 
-	"ingot/compile/corpus"
 	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/tables"
@@ -14,25 +14,12 @@ import (
 
 func model(t testing.TB, order int, sentences []string, method estimate.Method) (*tables.Tables, *counts.Counts) {
 	t.Helper()
-	c, _ := counts.NewCounter(order)
-	for _, s := range sentences {
-		c.AddSentence(strings.Fields(s))
-	}
-	cnt := c.Counts(1)
+	cnt := fixture.Counts(t, order, sentences)
 	m, _, err := estimate.Estimate(cnt, estimate.Options{Method: method, Order: order})
 	if err != nil {
 		t.Fatal(err)
 	}
 	return m, cnt
-}
-
-func sotu(t testing.TB, n int) []string {
-	all, err := corpus.SOTU()
-	if err != nil {
-		t.Fatal(err)
-	}
-	train, _ := corpus.Split(all, n)
-	return train
 }
 
 func checkSums(t *testing.T, m *tables.Tables, tol float64) int {
@@ -55,7 +42,7 @@ func checkSums(t *testing.T, m *tables.Tables, tol float64) int {
 // contexts no longer context backs off to, so only P(.|h) changes.
 func TestEntropyScoreEqualsBruteForceRelativeEntropy(t *testing.T) {
 	for _, method := range estimate.Methods {
-		m, _ := model(t, 3, sotu(t, 300), method)
+		m, _ := model(t, 3, fixture.Train(t, 300), method)
 		scores := EntropyScores(m)
 		start, _ := m.ID(tables.SentenceStart)
 		end, _ := m.ID(tables.SentenceEnd)
@@ -118,7 +105,7 @@ func TestEntropyScoreEqualsBruteForceRelativeEntropy(t *testing.T) {
 // Law of probability: after entropy pruning and after count cutoffs, every
 // context of models of the State of the Union text still sums to one.
 func TestPrunedModelsNormalise(t *testing.T) {
-	train := sotu(t, 3000)
+	train := fixture.Train(t, 3000)
 	for _, method := range estimate.Methods {
 		m, cnt := model(t, 4, train, method)
 		s := EntropyScores(m)
@@ -174,7 +161,7 @@ func TestCutoffOfUnigramsRefused(t *testing.T) {
 // before: checked against Least's bisection on the same sizes, with the
 // budgets asked in increasing, decreasing and mixed order on one Search.
 func TestSearchFindsTheLeastPruningWhateverItMeasuredBefore(t *testing.T) {
-	m, _ := model(t, 3, sotu(t, 400), estimate.Katz)
+	m, _ := model(t, 3, fixture.Train(t, 400), estimate.Katz)
 	s := EntropyScores(m)
 	size := func(_ float64, kp [][]bool) (int64, error) {
 		var n int64

@@ -2,12 +2,12 @@ package score
 
 import (
 	"fmt"
+	"ingot/format/formattest"
 	"math"
 	"strings"
 	"testing"
 
 	"ingot/compile/tables"
-	"ingot/format"
 )
 
 // A model that gives every word of the vocabulary the same probability 1/V
@@ -26,14 +26,7 @@ func TestUniformModelHasPerplexityV(t *testing.T) {
 		}
 		lv.LogProb = append(lv.LogProb, p)
 	}
-	data, err := format.Marshal(tb)
-	if err != nil {
-		t.Fatal(err)
-	}
-	m, err := format.FromBytes(data)
-	if err != nil {
-		t.Fatal(err)
-	}
+	m := formattest.Open(t, tb)
 	text := "turn the beacon on\nturn the zebra off now\nlighthouse on\n"
 	sum, err := Text(m, "t", strings.NewReader(text), nil)
 	if err != nil {
@@ -60,14 +53,7 @@ func TestMergeIsTheSummaryOfTheTextsTogether(t *testing.T) {
 		}
 		tb.Levels[0].LogProb = append(tb.Levels[0].LogProb, lp)
 	}
-	data, err := format.Marshal(tb)
-	if err != nil {
-		t.Fatal(err)
-	}
-	m, err := format.FromBytes(data)
-	if err != nil {
-		t.Fatal(err)
-	}
+	m := formattest.Open(t, tb)
 	one, two := "a b\nzzz\n", "b a a\n"
 	s1, _ := Text(m, "1", strings.NewReader(one), nil)
 	s2, _ := Text(m, "2", strings.NewReader(two), nil)
@@ -82,8 +68,7 @@ func TestMergeIsTheSummaryOfTheTextsTogether(t *testing.T) {
 func TestScorerTokens(t *testing.T) {
 	vocab := []string{"</s>", "<s>", "<unk>", "a"}
 	tb := &tables.Tables{Vocab: vocab, Levels: []tables.Level{{Words: []uint32{0, 1, 2, 3}, LogProb: []float32{-0.5, tables.NoProb, -1, -0.3}}}}
-	data, _ := format.Marshal(tb)
-	m, _ := format.FromBytes(data)
+	m := formattest.Open(t, tb)
 	s := NewScorer(m).Score([]string{"a", "b", "<s>"})
 	if got := strings.Join(s.Tokens, " "); got != "a <unk> <unk> </s>" {
 		t.Errorf("tokens %q", got)
@@ -104,14 +89,7 @@ func TestScorerMatchedOrder(t *testing.T) {
 		{Words: []uint32{0, 1, 2, 3}, LogProb: []float32{-0.5, tables.NoProb, -1, -0.3}, LogBackoff: []float32{0, -0.2, 0, -0.1}},
 		{Words: []uint32{1, 3, 3, 0}, LogProb: []float32{-0.05, -0.02}},
 	}}
-	data, err := format.Marshal(tb)
-	if err != nil {
-		t.Fatal(err)
-	}
-	m, err := format.FromBytes(data)
-	if err != nil {
-		t.Fatal(err)
-	}
+	m := formattest.Open(t, tb)
 	s := NewScorer(m).Score([]string{"a", "zebra", "a", "<unk>"})
 	// a|<s>: stored bigram; zebra: outside; a|<unk>: unigram; <unk>|a:
 	// unigram (in the vocabulary, so its order is given); </s>|<unk>: unigram.
@@ -131,8 +109,7 @@ func TestScorerMatchedOrder(t *testing.T) {
 func TestTextRefusesWhatCountRefuses(t *testing.T) {
 	vocab := []string{"</s>", "<s>", "<unk>", "a"}
 	tb := &tables.Tables{Vocab: vocab, Levels: []tables.Level{{Words: []uint32{0, 1, 2, 3}, LogProb: []float32{-0.5, tables.NoProb, -1, -0.3}}}}
-	data, _ := format.Marshal(tb)
-	m, _ := format.FromBytes(data)
+	m := formattest.Open(t, tb)
 	for text, want := range map[string]string{
 		"a a\n<s> a\n":  "t:2: marker <s> inside raw text",
 		"a\na </s> a\n": "t:2: marker </s> inside raw text",

@@ -2,11 +2,9 @@ package tradeoff
 
 import (
 	"fmt"
-	"strings"
+	"ingot/compile/fixture"
 	"testing"
 
-	"ingot/compile/corpus"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/prune"
 	"ingot/compile/tables"
@@ -23,20 +21,9 @@ import (
 //
 //	go test -run '^$' -bench ShrinkTargets -benchtime 1x ./quantize/tradeoff
 func BenchmarkShrinkTargets(b *testing.B) {
-	all, err := corpus.SOTU()
-	if err != nil {
-		b.Fatal(err)
-	}
-	train, held := corpus.Split(all, 0)
-	c, _ := counts.NewCounter(5)
-	for _, s := range train {
-		c.AddSentence(strings.Fields(s))
-	}
-	cnt := c.Counts(1)
-	var heldout [][]string
-	for _, s := range held {
-		heldout = append(heldout, strings.Fields(s))
-	}
+	train, held := fixture.SOTU(b, 0)
+	cnt := fixture.Counts(b, 5, train)
+	heldout := fixture.Tokens(held)
 	for _, method := range []estimate.Method{estimate.KneserNey, estimate.Katz} {
 		m, _, err := estimate.Estimate(cnt, estimate.Options{Method: method, Order: 5})
 		if err != nil {

@@ -2,6 +2,8 @@ package ctest
 
 import (
 	"fmt"
+	"ingot/compile/estimate"
+	"ingot/compile/fixture"
 	"os"
 	"path/filepath"
 	"slices"
@@ -86,7 +88,7 @@ func BenchmarkNextCAgainstGo(b *testing.B) {
 	}
 	train, held := corpus.Split(all, limit)
 	text := strings.Join(held, "\n") + "\n"
-	tb, err := estimateText(train, 5)
+	tb, err := fixture.EstimateText(train, 5, estimate.Options{Method: estimate.KneserNey})
 	if err != nil {
 		b.Fatal(err)
 	}

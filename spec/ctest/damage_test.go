@@ -5,6 +5,8 @@ import (
 	"encoding/binary"
 	"fmt"
 	"hash/crc32"
+	"ingot/compile/estimate"
+	"ingot/compile/fixture"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -263,14 +265,7 @@ func reseal(data []byte) {
 func TestCodebookIndexOutOfRange(t *testing.T) {
 	p := tools(t)
 	// 8-bit codebooks of a small model hold fewer values than 2^8.
-	text, err := os.ReadFile(filepath.Join(p.root, "cmd/ingot/demodata/commands.txt"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	tb, err := estimateText(strings.Split(strings.TrimSpace(string(text)), "\n")[:40], 3)
-	if err != nil {
-		t.Fatal(err)
-	}
+	tb := fixture.Estimate(t, fixture.Demo(t)[:40], 3, estimate.Options{Method: estimate.KneserNey})
 	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
 	if err != nil {
 		t.Fatal(err)

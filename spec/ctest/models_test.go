@@ -3,6 +3,7 @@ package ctest
 import (
 	"bytes"
 	"crypto/ed25519"
+	"ingot/compile/fixture"
 	"math"
 	"os"
 	"path/filepath"
@@ -11,7 +12,6 @@ import (
 	"testing"
 
 	"ingot/compile/corpus"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/prune"
 	"ingot/compile/tables"
@@ -40,19 +40,6 @@ var (
 	sotuErr    error
 )
 
-// estimateText builds a Kneser-Ney model of the given order.
-func estimateText(sentences []string, order int) (*tables.Tables, error) {
-	c, err := counts.NewCounter(order)
-	if err != nil {
-		return nil, err
-	}
-	for _, s := range sentences {
-		c.AddSentence(strings.Fields(s))
-	}
-	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: order})
-	return tb, err
-}
-
 // corpusModels returns the float, 8-bit and pruned 4-bit 4-gram models of
 // the training part of the first sotuSentences sentences of the bundled
 // corpus, and its held-out part as text.
@@ -66,7 +53,7 @@ func corpusModels(t testing.TB) ([]testModel, string) {
 			}
 			train, held := corpus.Split(all, sotuSentences)
 			sotuHeld = strings.Join(held, "\n") + "\n"
-			tb, err := estimateText(train, 4)
+			tb, err := fixture.EstimateText(train, 4, estimate.Options{Method: estimate.KneserNey})
 			if err != nil {
 				return err
 			}
@@ -221,16 +208,7 @@ func le32(b []byte) uint32 {
 // 2), and signed.
 func demoModels(t *testing.T) []testModel {
 	t.Helper()
-	p := tools(t)
-	text, err := os.ReadFile(filepath.Join(p.root, "cmd/ingot/demodata/commands.txt"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	lines := strings.Split(strings.TrimSpace(string(text)), "\n")
-	tb, err := estimateText(lines[:40], 3)
-	if err != nil {
-		t.Fatal(err)
-	}
+	tb := fixture.Estimate(t, fixture.Demo(t)[:40], 3, estimate.Options{Method: estimate.KneserNey})
 	plain, err := format.Marshal(tb)
 	if err != nil {
 		t.Fatal(err)

@@ -2,6 +2,7 @@ package gate
 
 import (
 	"bytes"
+	"ingot/format/formattest"
 	"math"
 	"strings"
 	"testing"
@@ -67,7 +68,7 @@ func benchModels(b *testing.B, train []string, order int) (base, cand *format.Mo
 		if err != nil {
 			b.Fatal(err)
 		}
-		m := open(b, tb)
+		m := formattest.Open(b, tb)
 		if i == 0 {
 			base = m
 		} else {

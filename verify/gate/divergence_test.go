@@ -1,6 +1,7 @@
 package gate
 
 import (
+	"ingot/compile/fixture"
 	"math"
 	"strings"
 	"testing"
@@ -71,7 +72,7 @@ func referenceKL(p, q *format.Model, tokens []string) float64 {
 // methods, orders and vocabularies (trained on different parts of the
 // bundled State of the Union text), in both directions.
 func TestDivergenceMatchesWholeVocabularySum(t *testing.T) {
-	train, held := sotu(t, 600)
+	train, held := fixture.SOTU(t, 600)
 	a := model(t, train[:300], 3, estimate.Options{Method: estimate.KneserNey})
 	b := model(t, train[250:], 2, estimate.Options{Method: estimate.Katz})
 	c := model(t, train[:300], 3, estimate.Options{Method: estimate.WittenBell})

@@ -1,57 +1,21 @@
 package gate
 
 import (
+	"ingot/compile/fixture"
+	"ingot/format/formattest"
 	"math"
 	"sort"
 	"strings"
 	"testing"
 
-	"ingot/compile/corpus"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/tables"
 	"ingot/format"
 )
 
-// sotu returns training and held-out sentences of the bundled State of the
-// Union text (CC0): the first limit sentences, every tenth held out.
-func sotu(t testing.TB, limit int) (train, heldout []string) {
-	t.Helper()
-	all, err := corpus.SOTU()
-	if err != nil {
-		t.Fatal(err)
-	}
-	return corpus.Split(all, limit)
-}
-
 func model(t testing.TB, sentences []string, order int, opt estimate.Options) *format.Model {
 	t.Helper()
-	c, err := counts.NewCounter(order)
-	if err != nil {
-		t.Fatal(err)
-	}
-	for _, s := range sentences {
-		c.AddSentence(strings.Fields(s))
-	}
-	opt.Order = order
-	tb, _, err := estimate.Estimate(c.Counts(1), opt)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return open(t, tb)
-}
-
-func open(t testing.TB, tb *tables.Tables) *format.Model {
-	t.Helper()
-	data, err := format.Marshal(tb)
-	if err != nil {
-		t.Fatal(err)
-	}
-	m, err := format.FromBytes(data)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return m
+	return formattest.Open(t, fixture.Estimate(t, sentences, order, opt))
 }
 
 func compare(t *testing.T, candidate, baseline *format.Model, heldout []string) *Result {
@@ -66,7 +30,7 @@ func compare(t *testing.T, candidate, baseline *format.Model, heldout []string) 
 // A rebuild of the same model from the same text is the same model: the
 // gate passes with nothing added, removed or changed and no divergence.
 func TestRebuildPasses(t *testing.T) {
-	train, heldout := sotu(t, 2000)
+	train, heldout := fixture.SOTU(t, 2000)
 	opt := estimate.Options{Method: estimate.KneserNey}
 	res := compare(t, model(t, train, 3, opt), model(t, train, 3, opt), heldout)
 	if res.Added != 0 || res.Removed != 0 || res.Changed != 0 || res.MeanKL != 0 || res.IncreasePercent != 0 || !res.Passes(DefaultMaxIncreasePercent) {
@@ -86,7 +50,7 @@ func TestRebuildPasses(t *testing.T) {
 // distributions away from the baseline's (Gibbs' inequality: the
 // divergence of different distributions is positive).
 func TestGateRefusesWorseModels(t *testing.T) {
-	train, heldout := sotu(t, 2000)
+	train, heldout := fixture.SOTU(t, 2000)
 	baseline := model(t, train, 3, estimate.Options{Method: estimate.KneserNey})
 	for _, c := range []struct {
 		name      string
@@ -129,7 +93,7 @@ func unigrams(t *testing.T, probs map[string]float64) *format.Model {
 		}
 		lv.LogProb = append(lv.LogProb, p)
 	}
-	return open(t, &tables.Tables{Vocab: words, Levels: []tables.Level{lv}, Info: tables.Info{Method: "hand-built"}})
+	return formattest.Open(t, &tables.Tables{Vocab: words, Levels: []tables.Level{lv}, Info: tables.Info{Method: "hand-built"}})
 }
 
 // KL(p || q) = sum_e p(e) ln(p(e)/q(e)) (Cover and Thomas, "Elements of
@@ -250,7 +214,7 @@ func handModel(t *testing.T, bigrams []string) *format.Model {
 		tb.Levels[1].Words = append(tb.Levels[1].Words, g...)
 		tb.Levels[1].LogProb = append(tb.Levels[1].LogProb, float32(math.Log10(0.5/float64(len(grams)))))
 	}
-	return open(t, tb)
+	return formattest.Open(t, tb)
 }
 
 func TestEmptyHeldOutIsAnError(t *testing.T) {
