@@ -1,12 +1,15 @@
 package inspect
 
 import (
+	"encoding/json"
 	"math"
 	"strconv"
 )
 
-// Number is a float64 that marshals to a JSON number, or to null when it is
-// not finite (JSON has no infinities or NaN).
+// Number is a float64 that marshals to a JSON number, written as
+// encoding/json writes a float64, or to null when it is not finite (JSON
+// has no infinities or NaN). Every report's number that may not be finite
+// is a Number: the one way ingot writes them.
 type Number float64
 
 // MarshalJSON implements json.Marshaler.
@@ -15,7 +18,7 @@ func (n Number) MarshalJSON() ([]byte, error) {
 	if math.IsInf(f, 0) || math.IsNaN(f) {
 		return []byte("null"), nil
 	}
-	return strconv.AppendFloat(nil, f, 'g', -1, 64), nil
+	return json.Marshal(f)
 }
 
 // Stored is a log10 value as the model file stores it, a float32. It

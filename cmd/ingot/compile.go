@@ -241,36 +241,9 @@ func loadWordList(command, path string) (*vocab.List, error) {
 	return l, nil
 }
 
-type orderJSON struct {
-	Order     int                `json:"order"`
-	NGrams    int                `json:"ngrams"`
-	Contexts  int                `json:"contexts"`
-	Kept      *int               `json:"kept,omitempty"`
-	Discounts map[string]float64 `json:"discounts,omitempty"`
-	Fallbacks []string           `json:"rules_applied,omitempty"`
-}
-
 func printReport(w io.Writer, rep *estimate.Report, out string, asJSON bool) error {
 	if asJSON {
-		v := struct {
-			Model  string      `json:"model"`
-			Method string      `json:"method"`
-			Orders []orderJSON `json:"orders"`
-		}{Model: out, Method: string(rep.Method)}
-		for _, o := range rep.Orders {
-			oj := orderJSON{Order: o.Order, NGrams: o.NGrams, Contexts: o.Contexts, Fallbacks: o.Fallbacks}
-			if o.Cut {
-				oj.Kept = &o.Kept
-			}
-			if len(o.Discounts) > 0 {
-				oj.Discounts = map[string]float64{}
-				for _, p := range o.Discounts {
-					oj.Discounts[p.Name] = p.Value
-				}
-			}
-			v.Orders = append(v.Orders, oj)
-		}
-		return writeJSON(w, v)
+		return writeJSON(w, pipeline.NewCompileReport(out, rep))
 	}
 	fmt.Fprintf(w, "wrote %s (%s, order %d)\n", out, rep.Method, len(rep.Orders))
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)

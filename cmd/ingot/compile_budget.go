@@ -9,6 +9,7 @@ import (
 
 	"ingot/compile/budget"
 	"ingot/compile/estimate"
+	"ingot/compile/pipeline"
 )
 
 // budgetFlags are compile's options for writing a model pruned to a size.
@@ -65,15 +66,7 @@ func (b *budgetFlags) options() (budget.Options, error) {
 
 func printBudgetReport(w io.Writer, res *budget.Result, maxBytes int64, method estimate.Method, order int, out string, asJSON bool) error {
 	if asJSON {
-		v := map[string]any{
-			"model": out, "method": string(method), "order": res.Chosen.Order,
-			"max_bytes": maxBytes, "file_bytes": res.Chosen.FileBytes, "ranked_by": string(res.Ranking),
-			"threshold": res.Chosen.Threshold, "ngrams_per_order": res.Chosen.NGrams, "orders_compared": res.Candidates,
-		}
-		if res.Perplexity > 0 {
-			v["perplexity"] = res.Perplexity
-		}
-		return writeJSON(w, v)
+		return writeJSON(w, pipeline.NewBudgetReport(out, method, maxBytes, res))
 	}
 	fmt.Fprintf(w, "wrote %s (%s, order %d): %s, budget %s\n", out, method, res.Chosen.Order,
 		humanSize(res.Chosen.FileBytes), humanSize(maxBytes))

@@ -125,14 +125,6 @@ held-out text.`,
 	return cmd
 }
 
-func ngramsPerOrder(t *tables.Tables) []int {
-	n := make([]int, t.Order())
-	for k := range n {
-		n[k] = t.Len(k + 1)
-	}
-	return n
-}
-
 // heldoutPerplexity scores a text file with the model at path: perplexity
 // with and without the predictions of <unk>.
 func heldoutPerplexity(path, text string) (ppl, withoutUnk float64, err error) {
@@ -159,8 +151,8 @@ func reportPrune(w io.Writer, before, after *tables.Tables, threshold float64, m
 		return err
 	}
 	if asJSON {
-		v := map[string]any{"threshold": threshold, "baseline_ngrams_per_order": ngramsPerOrder(before), "ngrams_per_order": ngramsPerOrder(after)}
-		r.addJSON(v, out)
+		v := r.report(out)
+		v.SetPruned(threshold, before, after)
 		return writeJSON(w, v)
 	}
 	fmt.Fprintf(w, "wrote %s: %s (was %s), threshold %.6g nats\n", out, humanSize(r.outBytes), humanSize(r.inBytes), threshold)

@@ -116,32 +116,14 @@ back-off codebook is widened where that needs it); 'ingot verify' allows
 	return cmd
 }
 
-type quantOrderJSON struct {
-	Order           int     `json:"order"`
-	ProbLevels      int     `json:"prob_levels"`
-	ProbStep        float64 `json:"prob_step"`
-	ProbMaxError    float64 `json:"prob_max_error"`
-	BackoffBits     int     `json:"backoff_bits"`
-	BackoffLevels   int     `json:"backoff_levels"`
-	BackoffStep     float64 `json:"backoff_step"`
-	BackoffMaxError float64 `json:"backoff_max_error"`
-	Residual        float64 `json:"residual"`
-}
-
 func reportQuantize(w io.Writer, reports []quantize.OrderReport, before shrinkResult, out, heldout string, asJSON bool) error {
 	res, err := before.compareOutput(out, heldout)
 	if err != nil {
 		return err
 	}
 	if asJSON {
-		v := map[string]any{}
-		res.addJSON(v, out)
-		var orders []quantOrderJSON
-		for _, r := range reports {
-			orders = append(orders, quantOrderJSON{r.Order, r.ProbLevels, r.ProbStep, r.ProbMaxError,
-				r.BackoffBits, r.BackoffLevels, r.BackoffStep, r.BackoffMaxError, r.Residual})
-		}
-		v["orders"] = orders
+		v := res.report(out)
+		v.SetQuantized(reports)
 		return writeJSON(w, v)
 	}
 	fmt.Fprintf(w, "wrote %s: %s (was %s)\n", out, humanSize(res.outBytes), humanSize(res.inBytes))

@@ -8,7 +8,6 @@ import (
 
 	"ingot/compile/pipeline"
 	"ingot/compile/tables"
-	"ingot/inspect"
 )
 
 // readUnquantized reads the model at path into memory for a command that
@@ -68,13 +67,13 @@ func (r shrinkResult) compareOutput(out, heldout string) (shrinkResult, error) {
 	return r, nil
 }
 
-// addJSON adds the comparison's keys to a JSON report.
-func (r shrinkResult) addJSON(v map[string]any, model string) {
-	v["model"], v["baseline_file_bytes"], v["file_bytes"] = model, r.inBytes, r.outBytes
+// report returns the comparison as the JSON report's fields.
+func (r shrinkResult) report(model string) pipeline.ShrinkReport {
+	v := pipeline.ShrinkReport{Model: model, BaselineFileBytes: r.inBytes, FileBytes: r.outBytes}
 	if !math.IsNaN(r.pplIn) {
-		v["baseline_perplexity"], v["perplexity"] = inspect.Number(r.pplIn), inspect.Number(r.pplOut)
-		v["baseline_perplexity_without_unk"], v["perplexity_without_unk"] = inspect.Number(r.pplInNoUnk), inspect.Number(r.pplOutNoUnk)
+		v.SetPerplexities(r.pplIn, r.pplInNoUnk, r.pplOut, r.pplOutNoUnk)
 	}
+	return v
 }
 
 // perplexityLine is the human report's held-out line, or "".

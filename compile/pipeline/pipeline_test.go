@@ -5,7 +5,11 @@ import (
 	"compress/gzip"
 	"crypto/sha256"
 	"encoding/hex"
+	"encoding/json"
 	"errors"
+	"fmt"
+	"ingot/inspect"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -251,5 +255,29 @@ func TestParseCutoffs(t *testing.T) {
 		if _, err := ParseCutoffs(bad, 3); err == nil {
 			t.Errorf("%q accepted", bad)
 		}
+	}
+}
+
+// Reports write a number that is not finite as null (JSON has no
+// infinities), the one way every report does; keys present only with what
+// they describe stay absent otherwise.
+func TestReportsWriteNonFiniteAsNull(t *testing.T) {
+	tb := fixture.RandomTables(1, 20, []int{30})
+	var r ShrinkReport
+	r.Model = "m"
+	r.SetPruned(math.Inf(1), tb, tb)
+	r.SetPerplexities(math.NaN(), 2, math.Inf(1), 3)
+	b, err := json.Marshal(r)
+	if err != nil {
+		t.Fatal(err)
+	}
+	n := fmt.Sprintf("[%d,%d]", tb.Len(1), tb.Len(2))
+	want := `{"baseline_file_bytes":0,"baseline_ngrams_per_order":` + n + `,"baseline_perplexity":null,"baseline_perplexity_without_unk":2,"file_bytes":0,"model":"m","ngrams_per_order":` + n + `,"perplexity":null,"perplexity_without_unk":3,"threshold":null}`
+	if string(b) != want {
+		t.Errorf("got  %s\nwant %s", b, want)
+	}
+	b, _ = json.Marshal(ShrinkReport{Model: "q", Orders: []QuantizedOrder{{Order: 2, ProbStep: inspect.Number(math.NaN())}}})
+	if !strings.Contains(string(b), `"prob_step":null`) || strings.Contains(string(b), "threshold") || strings.Contains(string(b), "perplexity") {
+		t.Errorf("quantize report %s", b)
 	}
 }
