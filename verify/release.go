@@ -41,7 +41,7 @@ func Signature(path string, pub ed25519.PublicKey) Check {
 		var fe *format.FormatError
 		if errors.As(err, &fe) {
 			c.Detail = fe.Msg
-			c.Problems = []Problem{{Section: fe.Section, Offset: fe.Offset, Msg: fe.Msg}}
+			c.Problems = []Problem{fe.Problem()}
 		}
 		return c
 	}
@@ -115,7 +115,9 @@ func ReleaseGate(rep *Report, path string, g Gate) (Check, *gate.Result, error) 
 func baselineProblem(err error) Problem {
 	var fe *format.FormatError
 	if errors.As(err, &fe) {
-		return Problem{Section: "baseline " + fe.Section, Offset: fe.Offset, Msg: fe.Msg}
+		p := fe.Problem()
+		p.Section = "baseline " + p.Section
+		return p
 	}
 	return Problem{Section: "baseline", Offset: -1, Msg: err.Error()}
 }

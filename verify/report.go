@@ -2,6 +2,7 @@ package verify
 
 import (
 	"fmt"
+	"ingot/format"
 	"math"
 	"strings"
 )
@@ -38,24 +39,9 @@ const (
 // them all.
 const MaxProblems = 10
 
-// Problem is one defect: what is wrong and where.
-type Problem struct {
-	// Section names the part of the file: "header", "directory entry 3
-	// (word text)", "probabilities of order 2", ...
-	Section string
-	// Offset is the byte offset in the file where the defect lies, or -1
-	// when the defect has no place in the file (a release gate's verdict).
-	Offset int64
-	// Msg says what is wrong, in lower case.
-	Msg string
-}
-
-func (p Problem) String() string {
-	if p.Offset < 0 {
-		return fmt.Sprintf("%s: %s", p.Section, p.Msg)
-	}
-	return fmt.Sprintf("%s at offset %d: %s", p.Section, p.Offset, p.Msg)
-}
+// Problem is one defect: what is wrong and where (section and byte
+// offset). It is format.Problem, the one problem type of every check.
+type Problem = format.Problem
 
 // Check is the outcome of one named check.
 type Check struct {

@@ -268,18 +268,12 @@ func contextLabel(words []string) string {
 	return strings.Join(words, " ")
 }
 
-type problemJSON struct {
-	Section string `json:"section"`
-	Offset  int64  `json:"offset"`
-	Message string `json:"message"`
-}
-
 type checkJSON struct {
-	Name         string        `json:"name"`
-	Status       string        `json:"status"`
-	Detail       string        `json:"detail"`
-	Problems     []problemJSON `json:"problems,omitempty"`
-	ProblemCount int           `json:"problem_count"`
+	Name         string           `json:"name"`
+	Status       string           `json:"status"`
+	Detail       string           `json:"detail"`
+	Problems     []verify.Problem `json:"problems,omitempty"`
+	ProblemCount int              `json:"problem_count"`
 }
 
 type worstJSON struct {
@@ -360,9 +354,7 @@ func printVerifyJSON(w io.Writer, model string, rep *verify.Report, res *gate.Re
 	}
 	for _, c := range rep.Checks {
 		cj := checkJSON{Name: c.Name, Status: string(c.Status), Detail: c.Detail, ProblemCount: c.Count}
-		for _, p := range c.Problems {
-			cj.Problems = append(cj.Problems, problemJSON{p.Section, p.Offset, p.Msg})
-		}
+		cj.Problems = c.Problems
 		v.Checks = append(v.Checks, cj)
 	}
 	if n := rep.Normalisation; n != nil {
