@@ -2,39 +2,12 @@ package main
 
 import (
 	"fmt"
-	"strconv"
-	"strings"
+
+	"ingot/compile/pipeline"
 )
 
-// parseSize reads a size in bytes, with an optional unit: B, KB, MB, GB
-// (powers of 1000) or KiB, MiB, GiB (powers of 1024); case-insensitive.
-func parseSize(s string) (int64, error) {
-	t := strings.TrimSpace(s)
-	units := []struct {
-		suffix string
-		mult   float64
-	}{
-		{"kib", 1 << 10}, {"mib", 1 << 20}, {"gib", 1 << 30},
-		{"kb", 1e3}, {"mb", 1e6}, {"gb", 1e9}, {"b", 1},
-	}
-	mult := 1.0
-	lower := strings.ToLower(t)
-	for _, u := range units {
-		if strings.HasSuffix(lower, u.suffix) {
-			mult = u.mult
-			t = strings.TrimSpace(t[:len(t)-len(u.suffix)])
-			break
-		}
-	}
-	v, err := strconv.ParseFloat(t, 64)
-	if err != nil || !(v > 0) || v*mult > 1<<62 {
-		return 0, fmt.Errorf("size %q is not a positive number of bytes (units: B, KB, MB, GB, KiB, MiB, GiB)", s)
-	}
-	if v*mult < 1 {
-		return 0, fmt.Errorf("size %q is less than one byte", s)
-	}
-	return int64(v * mult), nil
-}
+// parseSize reads a size in bytes with an optional unit (pipeline.ParseSize).
+func parseSize(s string) (int64, error) { return pipeline.ParseSize(s) }
 
 // humanSize renders n bytes for people.
 func humanSize(n int64) string {
