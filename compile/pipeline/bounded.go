@@ -6,9 +6,7 @@ import (
 	"fmt"
 
 	"ingot/compile/bounded"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
-	"ingot/compile/input"
 	"ingot/compile/tables"
 )
 
@@ -38,24 +36,14 @@ func (o Compile) RunBounded(ctx context.Context, names []string, b bounded.Optio
 	if o.InMemoryOnly() {
 		return nil, errors.New("--min-count, --vocabulary and --max-size need the counts in memory")
 	}
-	var sources []counts.Source
-	var hashed []*input.Hashed
-	defer func() {
-		for _, h := range hashed {
-			h.Close()
-		}
-	}()
-	for _, name := range names {
-		h, err := input.OpenRegularHashed(name)
-		if err != nil {
-			return nil, err
-		}
-		hashed = append(hashed, h)
-		sources = append(sources, counts.Source{Name: inputName(name), R: h})
+	in, err := openHashedInputs(names)
+	if err != nil {
+		return nil, err
 	}
+	defer in.close()
 	opt := o.Estimate
 	o.progress(fmt.Sprintf("estimating %s, order %d, in sorted passes", opt.Method, opt.Order))
-	m, err := bounded.Estimate(ctx, sources, opt, b)
+	m, err := bounded.Estimate(ctx, in.sources, opt, b)
 	var oe *estimate.OptionError
 	if errors.As(err, &oe) {
 		return nil, fmt.Errorf("--%s %v: %w", oe.Option, oe.Value, oe.Err)
@@ -63,14 +51,10 @@ func (o Compile) RunBounded(ctx context.Context, names []string, b bounded.Optio
 	if err != nil {
 		return nil, err
 	}
-	ins := make([]tables.Input, len(names))
-	for i, h := range hashed {
-		n, sum, err := h.Digest()
-		if err != nil {
-			m.Close()
-			return nil, fmt.Errorf("%s: %w", inputName(names[i]), err)
-		}
-		ins[i] = tables.Input{Name: inputName(names[i]), Bytes: n, SHA256: sum}
+	ins, err := in.digests()
+	if err != nil {
+		m.Close()
+		return nil, err
 	}
 	o.Command.Inputs = ins
 	info := m.Result.Info

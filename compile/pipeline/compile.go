@@ -231,34 +231,63 @@ func JoinInts(xs []int) string {
 // and returns, with the counts, each file's length and SHA-256 digest as
 // stored, for the model's provenance.
 func LoadCounts(order int, names []string) (*counts.Counts, []tables.Input, error) {
-	var sources []counts.Source
-	var hashed []*input.Hashed
-	defer func() {
-		for _, h := range hashed {
-			h.Close()
-		}
-	}()
-	for _, name := range names {
-		h, err := input.OpenRegularHashed(name)
-		if err != nil {
-			return nil, nil, err
-		}
-		hashed = append(hashed, h)
-		sources = append(sources, counts.Source{Name: inputName(name), R: h})
-	}
-	c, err := counts.Load(order, sources)
+	in, err := openHashedInputs(names)
 	if err != nil {
 		return nil, nil, err
 	}
-	ins := make([]tables.Input, len(names))
-	for i, h := range hashed {
-		n, sum, err := h.Digest()
-		if err != nil {
-			return nil, nil, fmt.Errorf("%s: %w", inputName(names[i]), err)
-		}
-		ins[i] = tables.Input{Name: inputName(names[i]), Bytes: n, SHA256: sum}
+	defer in.close()
+	c, err := counts.Load(order, in.sources)
+	if err != nil {
+		return nil, nil, err
+	}
+	ins, err := in.digests()
+	if err != nil {
+		return nil, nil, err
 	}
 	return c, ins, nil
+}
+
+// hashedInputs are count files open for reading, each digested as it is
+// read (input.Hashed).
+type hashedInputs struct {
+	names   []string
+	sources []counts.Source
+	hashed  []*input.Hashed
+}
+
+// openHashedInputs opens the named count files; on an error it closes those
+// it opened.
+func openHashedInputs(names []string) (*hashedInputs, error) {
+	in := &hashedInputs{names: names}
+	for _, name := range names {
+		h, err := input.OpenRegularHashed(name)
+		if err != nil {
+			in.close()
+			return nil, err
+		}
+		in.hashed = append(in.hashed, h)
+		in.sources = append(in.sources, counts.Source{Name: inputName(name), R: h})
+	}
+	return in, nil
+}
+
+func (in *hashedInputs) close() {
+	for _, h := range in.hashed {
+		h.Close()
+	}
+}
+
+// digests returns each file's length and SHA-256 digest, once read.
+func (in *hashedInputs) digests() ([]tables.Input, error) {
+	ins := make([]tables.Input, len(in.names))
+	for i, h := range in.hashed {
+		n, sum, err := h.Digest()
+		if err != nil {
+			return nil, fmt.Errorf("%s: %w", inputName(in.names[i]), err)
+		}
+		ins[i] = tables.Input{Name: inputName(in.names[i]), Bytes: n, SHA256: sum}
+	}
+	return ins, nil
 }
 
 // BuildTime returns the build time that SOURCE_DATE_EPOCH fixes (seconds
