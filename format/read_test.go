@@ -359,8 +359,8 @@ func TestVerifyStructure(t *testing.T) {
 		want  string
 	}{
 		{"word id outside vocabulary", KindLastWords, 2, 0, 500, "outside the vocabulary"},
-		{"siblings out of order", KindLastWords, 2, 4, 0, "does not ascend"},
-		{"child starts descend", KindChildStarts, 1, 4, 5, "below the previous one"},
+		{"siblings out of order", KindLastWords, 2, 4, 0, "does not come after its sibling"},
+		{"child starts descend", KindChildStarts, 1, 4, 5, "before those of entry 1"},
 		{"NaN probability", KindProbabilities, 2, 0, math.Float32bits(float32(math.NaN())), "NaN"},
 		{"+Inf back-off", KindBackoffs, 1, 0, math.Float32bits(float32(math.Inf(1))), "+Inf"},
 		{"unsorted vocabulary", KindWordText, 0, 12, 0x7a7a7a7a, "does not sort after"},
@@ -384,6 +384,52 @@ func TestVerifyStructure(t *testing.T) {
 				t.Error("ToTables accepts the damaged model")
 			}
 		})
+	}
+
+	// Several defects at once: CheckStructure reports every one, each under
+	// its rule and in its section, and Model.Verify the first of them.
+	b := bytes.Clone(good)
+	for _, c := range tests {
+		if c.name != "siblings out of order" && c.name != "child starts descend" {
+			patch(b, c.kind, c.order, c.at, c.value)
+		}
+	}
+	m := mustOpen(t, b)
+	var got []Problem
+	var rules []Rule
+	applied := m.CheckStructure(func(r Rule, p Problem) bool { got, rules = append(got, p), append(rules, r); return true })
+	want := []struct {
+		rule    Rule
+		section string
+	}{
+		{RuleVocabulary, "word text"},
+		{RuleWordIDs, "last words of order 2"},
+		{RuleSiblingOrder, "last words of order 2"}, // word id 500 comes before 9
+		{RuleValues, "back-offs of order 1"},
+		{RuleValues, "probabilities of order 2"},
+	}
+	if len(got) != len(want) {
+		t.Fatalf("CheckStructure reports %d problems, want %d: %+v", len(got), len(want), got)
+	}
+	for i, w := range want {
+		if rules[i] != w.rule || got[i].Section != w.section {
+			t.Errorf("problem %d is %+v, want rule %d in %s", i, got[i], w.rule, w.section)
+		}
+	}
+	for _, r := range []Rule{RuleVocabulary, RuleChildStarts, RuleWordIDs, RuleSiblingOrder, RuleValues} {
+		if !applied.Has(r) {
+			t.Errorf("rule %d not applied", r)
+		}
+	}
+	err := m.Verify()
+	var fe *FormatError
+	if !errors.As(err, &fe) || fe.Section != got[0].Section || fe.Msg != got[0].Msg {
+		t.Errorf("Verify = %v, want the first problem, %+v", err, got[0])
+	}
+	stopped := 0
+	m.CheckStructure(func(Rule, Problem) bool { stopped++; return false })
+	if stopped != 1 {
+		t.Errorf("CheckStructure reported %d problems after report asked it to stop", stopped)
 	}
 }
 

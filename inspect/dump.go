@@ -99,72 +99,29 @@ func Dump(w io.Writer, m *format.Model, sel Selection) (int, error) {
 }
 
 // walkIDs is Walk on word ids: fn gets the order, the entry's index within
-// its order and its full n-gram (reused between calls).
+// its order and its full n-gram (reused between calls). The walk is the
+// format package's: Model.EntriesUnder.
 func walkIDs(m *format.Model, sel Selection, fn func(k, i int, gram []uint32) error) error {
-	N := m.Order()
-	var lo, hi [tables.MaxOrder + 1]int // entries [lo[k], hi[k]) of order k are selected
-	var gram [tables.MaxOrder]uint32
-	base := len(sel.Prefix) // the order of the prefix's entry; 0: no prefix
-	if base == 0 {
-		base, lo[1], hi[1] = 1, 0, m.Count(1)
-	} else {
-		ids := make([]uint32, len(sel.Prefix))
-		for j, w := range sel.Prefix {
-			id, ok := m.ID(w)
-			if !ok {
-				return &UnknownWordError{Word: w}
-			}
-			ids[j] = id
-		}
-		if base > N {
-			return nil
-		}
-		node, ok := m.Find(ids)
+	var prefix []uint32
+	for _, w := range sel.Prefix {
+		id, ok := m.ID(w)
 		if !ok {
-			return nil
+			return &UnknownWordError{Word: w}
 		}
-		copy(gram[:], ids)
-		lo[base], hi[base] = node, node+1
+		prefix = append(prefix, id)
 	}
-	// The children of a contiguous run of entries are a contiguous run.
-	for k := base; k < N; k++ {
-		if lo[k] < hi[k] {
-			lo[k+1], _ = m.ChildRange(k, lo[k])
-			_, hi[k+1] = m.ChildRange(k, hi[k]-1)
-		}
-		hi[k+1] = max(hi[k+1], lo[k+1])
-	}
-	for k := base; k <= N; k++ {
+	for k := max(len(prefix), 1); k <= m.Order(); k++ {
 		if sel.Order != 0 && k != sel.Order {
 			continue
 		}
-		var parent [tables.MaxOrder + 1]int // parent[j]: current ancestor of order j
-		for j := base; j < k; j++ {
-			parent[j] = lo[j]
-		}
-		for i := lo[k]; i < hi[k]; i++ {
-			below := i
-			for j := k - 1; j >= base; j-- {
-				p := parent[j]
-				for p < hi[j] {
-					if _, end := m.ChildRange(j, p); end > below {
-						break
-					}
-					p++
-				}
-				if start, end := m.ChildRange(j, p); p >= hi[j] || below < start || below >= end {
-					return fmt.Errorf("entry %d of order %d has no parent at order %d: the child starts are damaged", below, j+1, j)
-				}
-				parent[j] = p
-				below = p
-			}
-			for j := base; j < k; j++ {
-				gram[j-1] = m.WordAt(j, parent[j])
-			}
-			gram[k-1] = m.WordAt(k, i)
-			if err := fn(k, i, gram[:k]); err != nil {
+		it := m.EntriesUnder(prefix, k)
+		for it.Next() {
+			if err := fn(k, it.Index(), it.Gram()); err != nil {
 				return err
 			}
+		}
+		if err := it.Err(); err != nil {
+			return err
 		}
 	}
 	return nil

@@ -21,17 +21,11 @@ func exp10(x float64) float64 { return math.Exp(x * math.Ln10) }
 // During the pass over order k the workers only read the lower orders and
 // write their own contexts' slots, so they need no lock.
 type walker struct {
-	v           *verifier
-	m           *format.Model
-	cols        *columns
-	order       int
-	start       uint32 // <s>, never predicted
-	tolerance   float64
-	checkSuffix bool // the model is flagged suffix-closed
-	// plain[k-1] and plainBackoff[k-1] are the probabilities and back-off
-	// weights of order k when stored plain, read in place; nil for a
-	// quantized column, read through the model.
-	plain, plainBackoff [tables.MaxOrder][]byte
+	v         *verifier
+	m         *format.Model
+	order     int
+	start     uint32 // <s>, never predicted
+	tolerance float64
 	// nodes[k-1], for orders k < N, holds per entry its S as a context and
 	// where its children start, with one more element closing the last
 	// range. Keeping the two side by side (and the words and probabilities
@@ -63,16 +57,15 @@ type lowerEntry struct {
 	logp float32
 }
 
-// tally is what one worker found: the counts of the normalisation check,
-// its worst contexts and the problems of the suffix-closure check.
+// tally is what one worker found: the counts of the normalisation check
+// and its worst contexts.
 type tally struct {
 	contexts  int
 	histogram [Buckets]int
 	max       float64
 	exceeding int
 	worst     []ranked // at most 10, largest deviation first
-	suffix    Check
-	fallbacks int // predictions asked of the query path: h'w not stored
+	fallbacks int      // predictions asked of the query path: h'w not stored
 }
 
 // ranked is a context's place and sum, for the worst list.
@@ -119,15 +112,6 @@ func (t *tally) merge(o *tally) {
 		}
 		t.worst = insertRanked(t.worst, r)
 	}
-	t.suffix.Count += o.suffix.Count
-	for _, p := range o.suffix.Problems {
-		if len(t.suffix.Problems) < MaxProblems {
-			t.suffix.Problems = append(t.suffix.Problems, p)
-		}
-	}
-	if o.suffix.Status == Fail {
-		t.suffix.Status = Fail
-	}
 	t.fallbacks += o.fallbacks
 }
 
@@ -136,34 +120,33 @@ type worker struct {
 	*walker
 	tally
 	path [tables.MaxOrder + 1]uint32 // a context and a successor, for the slow path
+	gram []uint32                    // scratch for Model.Gram
 }
 
-// walk runs the suffix-closure and normalisation checks.
-func (v *verifier) walk(cols *columns) {
+// walk runs the normalisation check. It reads the trie through the
+// model's walks (ChildRange, WordAt, Find, Gram) and its values through
+// LogProbAt and LogBackoffAt.
+func (v *verifier) walk() {
 	m := v.m
 	N := m.Order()
 	tol := v.opt.Tolerance
 	if tol == 0 {
 		tol = DefaultTolerance(m)
 	}
-	w := &walker{v: v, m: m, cols: cols, order: N, start: m.StartID(), tolerance: tol, checkSuffix: m.SuffixClosed()}
-	for k := 1; k <= N; k++ {
-		w.plain[k-1] = v.plainColumn(cols.probs[k-1], m.Count(k))
-		if k == N {
-			break
+	w := &walker{v: v, m: m, order: N, start: m.StartID(), tolerance: tol}
+	for k := 1; k < N; k++ {
+		n := m.Count(k)
+		nodes := make([]node, n+1)
+		for i := range n {
+			a, _ := m.ChildRange(k, i)
+			nodes[i].first = uint32(a)
 		}
-		w.plainBackoff[k-1] = v.plainColumn(cols.backoffs[k-1], m.Count(k))
-		st := cols.starts[k-1]
-		nodes := make([]node, st.len32())
-		for i := range nodes {
-			nodes[i].first = st.u32(i)
-		}
+		nodes[n].first = uint32(m.Count(k + 1))
 		w.nodes[k-1] = nodes
 		if k >= 2 {
-			lower := make([]lowerEntry, m.Count(k))
-			ws := cols.words[k-1]
+			lower := make([]lowerEntry, n)
 			for i := range lower {
-				lower[i] = lowerEntry{ws.u32(i), float32(w.prob(k, i))}
+				lower[i] = lowerEntry{m.WordAt(k, i), m.LogProbAt(k, i)}
 			}
 			w.lower[k-1] = lower
 		}
@@ -173,7 +156,7 @@ func (v *verifier) walk(cols *columns) {
 		}
 	}
 
-	all := &tally{suffix: Check{Name: CheckSuffixClosure, Status: Pass}}
+	all := &tally{}
 	// The empty context: every unigram but <s>, through the query path.
 	for x := 0; x < m.VocabSize(); x++ {
 		if uint32(x) != w.start {
@@ -184,30 +167,6 @@ func (v *verifier) walk(cols *columns) {
 	all.note(0, 0, w.empty, tol)
 	for k := 1; k < N; k++ {
 		w.level(k, all)
-	}
-
-	suffix := all.suffix
-	switch {
-	case !w.checkSuffix:
-		suffix.Status, suffix.Detail = NotRun, "the model is not flagged suffix-closed (queries do not rely on it)"
-	case suffix.Status == Pass:
-		switch N {
-		case 1:
-			suffix.Detail = "a model of order 1 has no suffixes to store"
-		case 2:
-			suffix.Detail = "every suffix of a bigram is a stored unigram"
-		case 3:
-			suffix.Detail = "the suffix of every stored n-gram of order 3 is stored, as the model's flag says"
-		default:
-			suffix.Detail = fmt.Sprintf("the suffix of every stored n-gram of orders 3 to %d is stored, as the model's flag says", N)
-		}
-	default:
-		suffix.Detail = fmt.Sprintf("%d stored n-grams lack their suffix, but the model is flagged suffix-closed", suffix.Count)
-	}
-	v.add(suffix)
-	if !v.passed(CheckValues) {
-		v.notRun("needs finite values", CheckNormalisation)
-		return
 	}
 	w.finish(all)
 }
@@ -255,31 +214,11 @@ func (w *walker) level(k int, all *tally) {
 	}
 }
 
-// plainColumn returns the bytes of a plain float32 column of n values, or
-// nil when the column is quantized.
-func (v *verifier) plainColumn(e entry, n int) []byte {
-	if e.Encoding != format.Plain || e.Length != 4*int64(n) {
-		return nil
-	}
-	return v.data[e.Offset : e.Offset+e.Length]
-}
-
-// prob returns the stored log10 probability of entry i of order k, whose
-// index the caller has taken from the sound trie.
-func (w *walker) prob(k, i int) float64 {
-	if b := w.plain[k-1]; b != nil && 4*i+4 <= len(b) {
-		return float64(math.Float32frombits(u32(b[4*i:])))
-	}
-	return float64(w.m.LogProbAt(k, i))
-}
+// prob returns the stored log10 probability of entry i of order k.
+func (w *walker) prob(k, i int) float64 { return float64(w.m.LogProbAt(k, i)) }
 
 // backoff returns the stored log10 back-off weight of entry i of order k.
-func (w *walker) backoff(k, i int) float64 {
-	if b := w.plainBackoff[k-1]; b != nil && 4*i+4 <= len(b) {
-		return float64(math.Float32frombits(u32(b[4*i:])))
-	}
-	return float64(w.m.LogBackoffAt(k, i))
-}
+func (w *walker) backoff(k, i int) float64 { return float64(w.m.LogBackoffAt(k, i)) }
 
 // context computes S(h) for entry i of order k as a context h, once S is
 // known for every context of lower order, and locates the longest stored
@@ -301,7 +240,6 @@ func (wk *worker) context(k, i int) {
 	}
 	a, b := w.children(k, i)
 	next := k + 1
-	words := w.cols.words[next-1]
 	var lower []lowerEntry
 	la, lb := 0, 0 // the children of h' still to search, when h' is stored
 	below := w.empty
@@ -316,7 +254,7 @@ func (wk *worker) context(k, i int) {
 	slow := false // path and state hold h and h'
 	var stored, lowerSum float64
 	for c := a; c < b; c++ {
-		x := words.u32(c)
+		x := w.m.WordAt(next, c)
 		so, si, found := 1, x, k == 1 // for k = 1, h'x is the unigram x
 		var lp float64
 		if la < lb {
@@ -331,16 +269,13 @@ func (wk *worker) context(k, i int) {
 		}
 		if !found {
 			if !slow {
-				copy(wk.path[:k], w.v.gram(w.cols, k, i))
+				copy(wk.path[:k], w.m.Gram(k, i, wk.gram[:0]))
 				state, slow = w.m.ContextState(wk.path[1:k]), true
 			}
 			s := state
 			lp = w.m.Next(&s, x)
 			wk.fallbacks++
 			wk.path[k] = x
-			if w.checkSuffix && next >= 3 {
-				wk.suffixMissing(next, c)
-			}
 			so, si = wk.shorterSuffix(k, lo, x)
 		}
 		if x != w.start {
@@ -403,28 +338,16 @@ func (w *walker) lowerChildren(k, i int) (int, int) {
 	return min(a, b), b
 }
 
-// children returns the range of entry i of order k's children, clipped to
-// the entries that exist.
+// children returns the range of entry i of order k's children, from the
+// node table.
 func (w *walker) children(k, i int) (int, int) {
-	st := w.cols.starts[k-1]
-	if i < 0 || i+1 >= st.len32() {
+	nodes := w.nodes[k-1]
+	if i < 0 || i+1 >= len(nodes) {
 		return 0, 0
 	}
-	a, b := int(st.u32(i)), int(st.u32(i+1))
-	b = min(b, w.cols.words[k].len32())
+	a, b := int(nodes[i].first), int(nodes[i+1].first)
+	b = min(b, w.m.Count(k+1))
 	return min(a, b), b
-}
-
-// child returns the entry of order k+1 under entry parent of order k whose
-// last word is x.
-func (w *walker) child(k int, parent uint32, x uint32) (uint32, bool) {
-	a, b := w.children(k, int(parent))
-	words := w.cols.words[k]
-	j := a + sort.Search(b-a, func(j int) bool { return words.u32(a+j) >= x })
-	if j < b && words.u32(j) == x {
-		return uint32(j), true
-	}
-	return 0, false
 }
 
 // shorterSuffix returns the order and index of the longest stored suffix of
@@ -435,32 +358,11 @@ func (w *walker) child(k int, parent uint32, x uint32) (uint32, bool) {
 // stored), so it is at most lo+1 words long, and at worst the unigram x.
 func (wk *worker) shorterSuffix(k, lo int, x uint32) (int, uint32) {
 	for L := min(lo+1, k-1); L >= 2; L-- {
-		if c, ok := wk.find(wk.path[k+1-L : k+1]); ok {
-			return L, c
+		if c, ok := wk.m.Find(wk.path[k+1-L : k+1]); ok {
+			return L, uint32(c)
 		}
 	}
 	return 1, x
-}
-
-// find returns the entry that stores the n-gram g, walking down the trie.
-func (w *walker) find(g []uint32) (uint32, bool) {
-	node := g[0]
-	for j := 1; j < len(g); j++ {
-		c, ok := w.child(j, node, g[j])
-		if !ok {
-			return 0, false
-		}
-		node = c
-	}
-	return node, true
-}
-
-// suffixMissing records a stored n-gram (entry c of order k, its words in
-// path[:k]) whose suffix is not stored.
-func (wk *worker) suffixMissing(k, c int) {
-	ws := wk.cols.words[k-1]
-	g := wk.path[:k]
-	wk.suffix.problem(ws.name, ws.at(c), "entry %d (%q) is stored but its suffix %q is not, though the model is flagged suffix-closed", c, wk.v.words(g), wk.v.words(g[1:]))
 }
 
 // finish records the normalisation check.
@@ -499,7 +401,7 @@ func (w *walker) contextIDs(k, i int) []uint32 {
 	if k == 0 {
 		return nil
 	}
-	return w.v.gram(w.cols, k, i)
+	return w.m.Gram(k, i, nil)
 }
 
 func (w *walker) contextWords(k, i int) []string {
@@ -516,9 +418,8 @@ func (w *walker) contextWords(k, i int) []string {
 // probabilities.
 func (w *walker) whereSum(k, i int) (string, int64) {
 	if k == 0 {
-		e := w.cols.probs[0]
-		return e.Name() + " (the empty context)", e.Offset
+		name, at := w.m.ValueOffset(1, 0, false)
+		return name + " (the empty context)", at
 	}
-	e := w.cols.backoffs[k-1]
-	return e.Name(), w.v.valueOffset(e, i)
+	return w.m.ValueOffset(k, i, true)
 }

@@ -197,36 +197,60 @@ func (v *verifier) run() error {
 	for k := 1; k <= v.m.Order(); k++ {
 		v.rep.Counts = append(v.rep.Counts, v.m.Count(k))
 	}
-	cols, err := v.columns()
-	if err != nil {
-		c := Check{Name: CheckPrefixClosure, Status: Pass}
-		var fe *format.FormatError
-		if errors.As(err, &fe) {
-			c.problem(fe.Section, fe.Offset, "%s", fe.Msg)
-		} else {
-			c.problem("file", 0, "%v", err)
+	s := v.checkStructure()
+	v.record(s, CheckVocabulary, format.RuleVocabulary, fmt.Sprintf("%d words, valid UTF-8, strictly ascending", v.m.VocabSize()), "")
+	detail := "child ranges well formed: the context of every stored n-gram is stored"
+	if v.m.Order() == 1 {
+		detail = "a model of order 1 has no contexts to store"
+	}
+	v.record(s, CheckPrefixClosure, format.RuleChildStarts, detail, "")
+	if !s.applied.Has(format.RuleWordIDs) {
+		if c := v.check(CheckPrefixClosure); c != nil {
+			c.Detail = "the trie's structures are damaged"
 		}
-		c.Detail = "the trie's structures are damaged"
-		v.checkVocabulary(cols)
-		v.add(c)
 		v.notRun("needs a sound trie", CheckIDs, CheckOrder, CheckValues, CheckSuffixClosure, CheckNormalisation)
 		return nil
 	}
-	v.checkVocabulary(cols)
-	v.checkPrefixClosure(cols)
-	v.checkIDs(cols)
-	if v.passed(CheckPrefixClosure) {
-		v.checkOrder(cols)
-	} else {
-		v.notRun("needs well-formed child ranges", CheckOrder)
-	}
-	v.checkValues(cols)
+	v.record(s, CheckIDs, format.RuleWordIDs, fmt.Sprintf("every word id below %d", v.m.VocabSize()), "")
+	v.record(s, CheckOrder, format.RuleSiblingOrder, "the entries under every context ascend by word id", "needs well-formed child ranges")
+	v.checkValues(s)
 	if !v.passed(CheckVocabulary, CheckPrefixClosure, CheckIDs, CheckOrder) {
 		v.notRun("needs a sound vocabulary and trie", CheckSuffixClosure, CheckNormalisation)
 		return nil
 	}
-	v.walk(cols)
+	v.checkSuffixClosure(s)
+	if !v.passed(CheckValues) {
+		v.notRun("needs finite values", CheckNormalisation)
+		return nil
+	}
+	v.walk()
 	return nil
+}
+
+// checkSuffixClosure reports the format's suffix rule, which applies to a
+// model flagged suffix-closed.
+func (v *verifier) checkSuffixClosure(s *structure) {
+	N := v.m.Order()
+	if !s.applied.Has(format.RuleSuffixClosed) {
+		v.add(Check{Name: CheckSuffixClosure, Status: NotRun, Detail: "the model is not flagged suffix-closed (queries do not rely on it)"})
+		return
+	}
+	var detail string
+	switch N {
+	case 1:
+		detail = "a model of order 1 has no suffixes to store"
+	case 2:
+		detail = "every suffix of a bigram is a stored unigram"
+	case 3:
+		detail = "the suffix of every stored n-gram of order 3 is stored, as the model's flag says"
+	default:
+		detail = fmt.Sprintf("the suffix of every stored n-gram of orders 3 to %d is stored, as the model's flag says", N)
+	}
+	c := v.ruleCheck(s, CheckSuffixClosure, format.RuleSuffixClosed, detail)
+	if c.Status == Fail {
+		c.Detail = fmt.Sprintf("%d stored n-grams lack their suffix, but the model is flagged suffix-closed", c.Count)
+	}
+	v.add(c)
 }
 
 // checkOpens opens the file with the format reader, which applies the open
