@@ -279,10 +279,20 @@ func (c *checker) suffixClosed() {
 		next := make([]uint32, m.Count(k+1))
 		for p := 0; p < m.Count(k); p++ {
 			a, b := int(u32(parents[4*p:])), int(u32(parents[4*p+4:]))
+			// The children of p and of its suffix h both ascend by word:
+			// each search starts where the last one ended.
+			var lo, hi uint64
+			if h := link[p]; h != noNode && 4*int(h)+8 <= len(lowerStarts) {
+				lo, hi = uint64(u32(lowerStarts[4*h:])), uint64(u32(lowerStarts[4*h+4:]))
+				hi = min(hi, uint64(len(lowerWords)/4))
+			}
 			for e := a; e < b; e++ {
 				s := noNode
-				if h := link[p]; h != noNode {
-					s = plainChild(lowerStarts, lowerWords, h, u32(words[4*e:]))
+				if lo < hi {
+					lo = gallop(lowerWords, lo, hi, u32(words[4*e:]))
+					if lo < hi && u32(lowerWords[4*lo:]) == u32(words[4*e:]) {
+						s = uint32(lo)
+					}
 				}
 				next[e] = s
 				if s == noNode {
@@ -322,4 +332,36 @@ func (m *Model) ValueOffset(k, i int, backoff bool) (section string, offset int6
 		return m.sectionOffset(kind, k, packedHeader+int(uint64(i)*uint64(col.bits)/8))
 	}
 	return m.sectionOffset(kind, k, 4*i)
+}
+
+// gallop returns the first index in [lo, hi) of the plain uint32 column
+// words whose value is at least w, or hi: it steps forward 1, 2, 4, ...
+// and then halves the last step, so a search that moves a short way costs
+// little.
+func gallop(words []byte, lo, hi uint64, w uint32) uint64 {
+	if lo >= hi || u32(words[4*lo:]) >= w {
+		return lo
+	}
+	end := hi
+	for step := uint64(1); ; step *= 2 {
+		probe := lo + step
+		if probe >= hi {
+			break
+		}
+		if u32(words[4*probe:]) >= w {
+			end = probe
+			break
+		}
+		lo = probe
+	}
+	lo++ // words[lo-1] < w: the answer lies in [lo, end]
+	for lo < end {
+		mid := lo + (end-lo)/2
+		if u32(words[4*mid:]) < w {
+			lo = mid + 1
+		} else {
+			end = mid
+		}
+	}
+	return lo
 }

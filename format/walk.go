@@ -93,6 +93,15 @@ func (m *Model) ChildRange(k, i int) (start, end int) {
 		return 0, 0
 	}
 	if m.version >= 3 {
+		if d := m.decoded; d != nil && d.ready.Load() {
+			// A whole-trie tool decoded the child starts: read them plain.
+			b := d.starts[k-1]
+			if 4*i+8 > len(b) {
+				return 0, 0
+			}
+			start, end = int(u32(b[4*i:])), int(u32(b[4*i+4:]))
+			return min(start, end), end
+		}
 		lv := &m.levels[k-1]
 		marked, r := lv.marks.rank(uint64(i))
 		if !marked {

@@ -24,7 +24,9 @@ const demoText = "../cmd/ingot/demodata/commands.txt"
 // corruptionModels returns the models of the corruption matrix, each of
 // which passes every check: an order-3 model of the first 40 demo
 // sentences (format version 1), the same quantized (version 2, with both
-// kinds of codebook), and the same signed.
+// kinds of codebook), and the same signed; and the same in format version
+// 3 (plain, quantized, quantized and signed), whose Elias-Fano, contexts
+// and word-hash sections are damaged too.
 func corruptionModels(t *testing.T) []struct {
 	name string
 	data []byte
@@ -46,10 +48,17 @@ func corruptionModels(t *testing.T) []struct {
 	if err != nil {
 		t.Fatal(err)
 	}
+	signed3, err := format.Sign(marshal3(t, q), ed25519.NewKeyFromSeed(bytes.Repeat([]byte{0x2a}, ed25519.SeedSize)))
+	if err != nil {
+		t.Fatal(err)
+	}
 	models := []struct {
 		name string
 		data []byte
-	}{{"plain", plain}, {"quantized", quantized}, {"signed", signed}}
+	}{
+		{"plain", plain}, {"quantized", quantized}, {"signed", signed},
+		{"plain v3", marshal3(t, tb)}, {"quantized v3", marshal3(t, q)}, {"signed quantized v3", signed3},
+	}
 	for _, m := range models {
 		if rep := run(t, m.data, Options{}); !rep.OK() {
 			t.Fatalf("%s model fails before any damage:%s", m.name, problems(rep))
@@ -206,7 +215,7 @@ func TestCorruptionMatrix(t *testing.T) {
 			count(model.name, "truncation", why == "")
 		}
 	}
-	for k := format.KindSummary; k <= format.KindBackoffCodebook; k++ {
+	for k := format.KindSummary; k <= format.KindWordHash; k++ {
 		if !kinds[k] {
 			t.Errorf("no model has a %s section: the matrix misses a kind", k)
 		}

@@ -40,6 +40,14 @@ func FuzzBytes(f *testing.F) {
 		f.Fatal(err)
 	}
 	f.Add(signed)
+	// The same models in format version 3, whose succinct sections the
+	// fuzzer then damages.
+	f.Add(marshal3(f, fixture.RandomTables(5, 20, []int{60, 80, 80})))
+	quantized3 := marshal3(f, q)
+	f.Add(quantized3)
+	damaged3 := append([]byte(nil), quantized3...)
+	damaged3[len(damaged3)/2] ^= 0x10
+	f.Add(reseal(damaged3))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		rep, err := Bytes(data, Options{})
 		if (rep == nil) == (err == nil) {

@@ -513,3 +513,29 @@ func TestBuckets(t *testing.T) {
 		}
 	}
 }
+
+// A model flagged suffix-closed whose n-grams lack their suffixes fails
+// the suffix-closure check (and Model.Verify, through the same checker),
+// each missing suffix named with its entry's words.
+func TestFalseSuffixClosedFlag(t *testing.T) {
+	tb := fixture.RandomTables(3, 12, []int{30, 40, 40})
+	data := marshal(t, tb)
+	if m, err := format.FromBytes(data); err != nil || m.SuffixClosed() {
+		t.Fatalf("the random model should open and not be suffix-closed: %v", err)
+	}
+	b, _ := where(t, data, format.KindSummary, 0)
+	putLE32(b[20:], binaryLE32(b[20:])|format.FlagSuffixClosed)
+	data = reseal(data)
+	rep := run(t, data, Options{})
+	c := rep.Check(CheckSuffixClosure)
+	if c == nil || c.Status != Fail || c.Count < 2 || !strings.Contains(c.Problems[0].Msg, "is stored but its suffix") {
+		t.Fatalf("suffix-closure check: %+v", c)
+	}
+	m, err := format.FromBytes(data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := m.Verify(); err == nil || !strings.Contains(err.Error(), "is stored but its suffix") {
+		t.Errorf("Model.Verify = %v", err)
+	}
+}
