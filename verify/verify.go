@@ -139,12 +139,10 @@ type verifier struct {
 	opt  Options
 	rep  *Report
 
-	version      int
-	dirEnd       int64
-	headerIntact bool // the header checksum matches
-	entries      []entry
-	m            *format.Model
-	split        int // tests: runs per order in the normalisation pass (0: one per processor, for large orders)
+	version   int
+	container *format.Container // the header and directory, as recorded
+	m         *format.Model
+	split     int // tests: runs per order in the normalisation pass (0: one per processor, for large orders)
 }
 
 // add appends a finished check to the report.
@@ -278,15 +276,4 @@ func (v *verifier) checkOpens() {
 		n += m.Count(k)
 	}
 	c.Detail = fmt.Sprintf("order %d, %d words, %d n-grams", m.Order(), m.VocabSize(), n)
-}
-
-// section returns the entry of the section of the given kind and order;
-// after the opens check it exists for every section the model needs.
-func (v *verifier) section(kind format.SectionKind, order int) (entry, bool) {
-	for _, e := range v.entries {
-		if e.Kind == kind && e.Order == order {
-			return e, true
-		}
-	}
-	return entry{}, false
 }
