@@ -38,7 +38,9 @@ type DirectoryEntry struct {
 }
 
 // Where names the entry for problems: "directory entry 3 (word text)".
-func (e DirectoryEntry) Where() string { return fmt.Sprintf("directory entry %d (%s)", e.Index, e.Name()) }
+func (e DirectoryEntry) Where() string {
+	return fmt.Sprintf("directory entry %d (%s)", e.Index, e.Name())
+}
 
 // ScanContainer reads the header of data (which starts with the magic)
 // and, when it can, the directory, reporting every problem of the header.
