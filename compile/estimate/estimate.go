@@ -360,6 +360,38 @@ func absoluteAuto(n []float64) float64 {
 // probabilities and the context's back-off weight.
 //
 // total is the sum of cnt, already checked to be exact (exactTotal).
+// unigramLevel estimates order 1 from its counts: one context, the empty
+// one, backing off to the uniform level 0 (1/V). It returns every word's
+// probability (0 for <s>, which is never predicted) and the empty context's
+// left-over mass. The in-memory and the streamed estimators both use it.
+func unigramLevel(cnt []uint64, start uint32, V float64, disc discounter, exactTotal func(k int, cnt []uint64, context []uint32) (float64, error)) (prob []float64, bow float64, err error) {
+	var idx []int
+	var sc []uint64
+	var lower []float64
+	for w, r := range cnt {
+		if uint32(w) != start && r > 0 {
+			idx = append(idx, w)
+			sc = append(sc, r)
+			lower = append(lower, 1/V)
+		}
+	}
+	p := make([]float64, len(idx))
+	total, err := exactTotal(1, sc, nil)
+	if err != nil {
+		return nil, 0, err
+	}
+	bow = disc(sc, total, lower, p)
+	prob = make([]float64, len(cnt))
+	for w := range prob {
+		prob[w] = bow / V
+	}
+	for j, w := range idx {
+		prob[w] = p[j]
+	}
+	prob[start] = 0
+	return prob, bow, nil
+}
+
 type discounter func(cnt []uint64, total float64, lower []float64, p []float64) (bow float64)
 
 func (e *estimator) order(k int) error {
@@ -369,39 +401,19 @@ func (e *estimator) order(k int) error {
 		cnt = e.adj[k-1]
 	}
 	disc := e.opt.discounter(k, countOfCounts(cnt, e.opt.countOfCountsMax()), &rep)
-	e.prob[k-1] = make([]float64, len(cnt))
-	prob := e.prob[k-1]
-
 	if k == 1 {
-		// One context, the empty one, backing off to the uniform level 0.
-		var idx []int
-		var sc []uint64
-		var lower []float64
-		for w, r := range cnt {
-			if uint32(w) != e.start && r > 0 {
-				idx = append(idx, w)
-				sc = append(sc, r)
-				lower = append(lower, 1/e.V)
-			}
-		}
-		p := make([]float64, len(idx))
-		total, err := e.exactTotal(1, sc, nil)
+		prob, bow, err := unigramLevel(cnt, e.start, e.V, disc, e.exactTotal)
 		if err != nil {
 			return err
 		}
-		bow := disc(sc, total, lower, p)
-		for w := range prob {
-			prob[w] = bow / e.V
-		}
-		for j, w := range idx {
-			prob[w] = p[j]
-		}
-		prob[e.start] = 0
+		e.prob[0] = prob
 		e.empty = bow
 		rep.Contexts = 1
 		e.report.Orders = append(e.report.Orders, rep)
 		return nil
 	}
+	e.prob[k-1] = make([]float64, len(cnt))
+	prob := e.prob[k-1]
 
 	pre, suf := e.prefix[k-1], e.suffix[k-1]
 	lowerProb := e.prob[k-2]

@@ -360,30 +360,10 @@ func (s *streamer) unigrams() error {
 	rep := OrderReport{Order: 1, NGrams: len(s.sp.Vocab)}
 	cnt := s.counts(1)
 	disc := s.opt.discounter(1, countOfCounts(cnt, s.opt.countOfCountsMax()), &rep)
-	prob := make([]float64, len(cnt))
-	var idx []int
-	var sc []uint64
-	var lower []float64
-	for w, r := range cnt {
-		if uint32(w) != s.start && r > 0 {
-			idx = append(idx, w)
-			sc = append(sc, r)
-			lower = append(lower, 1/s.V)
-		}
-	}
-	p := make([]float64, len(idx))
-	total, err := s.exactTotal(1, sc, nil)
+	prob, bow, err := unigramLevel(cnt, s.start, s.V, disc, s.exactTotal)
 	if err != nil {
 		return err
 	}
-	bow := disc(sc, total, lower, p)
-	for w := range prob {
-		prob[w] = bow / s.V
-	}
-	for j, w := range idx {
-		prob[w] = p[j]
-	}
-	prob[s.start] = 0
 	s.empty = bow
 	rep.Contexts = 1
 	s.report.Orders = append(s.report.Orders, rep)
