@@ -7,7 +7,7 @@
 # The commands run under nice -n 10, one at a time.
 set -euo pipefail
 [ -x /usr/bin/time ] || { echo "51-scale-100m: needs /usr/bin/time (apt-get install -y time)" >&2; exit 1; }
-sentences=${SCALE_SENTENCES:-2000000}
+sentences=${SCALE_SENTENCES:-2400000}
 vocabulary=${SCALE_VOCABULARY:-400000}
 memory=${SCALE_MEMORY:-1GiB}
 work=$(mktemp -d ${SCALE_TMP:+-p "$SCALE_TMP"})
