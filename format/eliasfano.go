@@ -361,15 +361,30 @@ func selectInWord(word uint64, r uint) uint {
 
 // nextAtLeast moves the cursor forward, at most to the value before index
 // limit, to the first value >= want, and reports whether it found one
-// below limit. It skips whole runs of the high bit vector by counting their
-// zeros, so its cost grows with the distance in value, 64 high bits at a
-// time, not with a binary search's probes.
+// below limit. Its cost does not grow with the number of values passed:
+//
+//   - when the range spans samples, a binary search of the samples (whose
+//     high parts ascend) jumps to the last sampled value whose high part is
+//     below want's, so that at most efSample values and their zeros are
+//     skipped (the samples of a sequence take 1/32 bit per value and stay in
+//     cache);
+//   - the zeros up to want's high part are skipped 64 high bits at a time by
+//     counting them;
+//   - the values sharing want's high part are consecutive set bits whose low
+//     bits ascend: a long run is binary-searched on the low bits.
+//
+// A long sibling list under a frequent context (order 2: thousands of word
+// ids) is the case this is for: a linear scan took most of a word's
+// scoring time there.
 func (c *efCursor) nextAtLeast(want, limit uint64) bool {
 	if !c.ok || c.i >= limit {
 		return false
 	}
 	e := c.e
 	hw := want >> e.l
+	if limit-c.i > efSample {
+		c.jump(hw, limit)
+	}
 	if high := c.pos - c.i; high < hw {
 		// Pass need more zeros (each raises the high part by one); the
 		// values after them have high parts of at least hw.
@@ -411,6 +426,9 @@ func (c *efCursor) nextAtLeast(want, limit uint64) bool {
 		c.i, c.pos = i, 64*w+uint64(bits.TrailingZeros64(word))
 		c.word = word & (word - 1)
 	}
+	if c.pos-c.i == hw {
+		c.inBucket(want, limit)
+	}
 	for c.value() < want {
 		if c.i+1 >= limit || !c.next() {
 			c.ok = false
@@ -418,4 +436,89 @@ func (c *efCursor) nextAtLeast(want, limit uint64) bool {
 		}
 	}
 	return true
+}
+
+// jump moves the cursor, inside [c.i, limit), to the last sampled value
+// whose high part is below hw, when that is past the cursor. A damaged
+// sample is never followed.
+func (c *efCursor) jump(hw, limit uint64) {
+	e := c.e
+	if len(e.samples) < 8 {
+		return
+	}
+	first, last := c.i/efSample+1, (limit-1)/efSample // samples inside (c.i, limit)
+	last = min(last, uint64(len(e.samples)/8)-1)
+	high := func(s uint64) uint64 { // high part of value s*efSample; ^0 when damaged
+		pos := binary.LittleEndian.Uint64(e.samples[8*s:])
+		if pos < s*efSample || pos/64 >= uint64(len(e.high)/8) {
+			return ^uint64(0)
+		}
+		return pos - s*efSample
+	}
+	// The first sample in [first, last] whose high part is at least hw.
+	lo, hi := first, last+1
+	for lo < hi {
+		mid := lo + (hi-lo)/2
+		if high(mid) < hw {
+			lo = mid + 1
+		} else {
+			hi = mid
+		}
+	}
+	if lo == first {
+		return
+	}
+	s := lo - 1
+	pos := binary.LittleEndian.Uint64(e.samples[8*s:])
+	if pos <= c.pos { // a damaged sample
+		return
+	}
+	c.i, c.pos = s*efSample, pos
+	c.word = e.highWord(pos/64) &^ (2<<(pos%64) - 1)
+}
+
+// inBucket moves the cursor, standing on a value whose high part is
+// want's, to the first value of that run of equal high parts (before index
+// limit) whose low bits reach want's, or to the run's last value when none
+// does. Long runs are binary-searched.
+func (c *efCursor) inBucket(want, limit uint64) {
+	e := c.e
+	// The run: the set bits from c.pos on without a zero between, counted
+	// word by word.
+	var run uint64
+	bit := c.pos
+	limitW := uint64(len(e.high) / 8)
+	for {
+		w := bit / 64
+		if w >= limitW {
+			break
+		}
+		rest := e.highWord(w) >> (bit % 64)
+		t := uint64(bits.TrailingZeros64(^rest))
+		if avail := 64 - bit%64; t >= avail {
+			run += avail
+			bit += avail
+			continue
+		}
+		run += t
+		break
+	}
+	end := min(c.i+run, limit, e.n)
+	if end-c.i <= 8 {
+		return
+	}
+	lw := want & (1<<e.l - 1)
+	lo, hi := c.i, end
+	for lo < hi {
+		mid := lo + (hi-lo)/2
+		if e.lowAt(mid) < lw {
+			lo = mid + 1
+		} else {
+			hi = mid
+		}
+	}
+	j := min(lo, end-1)
+	pos := c.pos + (j - c.i)
+	c.i, c.pos = j, pos
+	c.word = e.highWord(pos/64) &^ (2<<(pos%64) - 1)
 }
