@@ -34,6 +34,8 @@ func TestErrorsSpeakWithOneVoice(t *testing.T) {
 		{"quantize", "--bits", "8", "--trainer", "guess", "-o", "$D/out", "$M"},
 		{"score", "$D/absent.ingot"},
 		{"tradeoff", "$M"},
+		{"help", "frobnicate"}, // the framework's "Unknown help topic", exit 0
+		{"completion", "tcsh"}, // the framework's help, exit 0
 	}
 	for _, tc := range badInputTable {
 		cases = append(cases, tc.args)
@@ -42,7 +44,10 @@ func TestErrorsSpeakWithOneVoice(t *testing.T) {
 		for i, a := range args {
 			args[i] = strings.ReplaceAll(strings.ReplaceAll(a, "$D", dir), "$M", model)
 		}
-		_, _, stderr := ingot(t, args...)
+		code, _, stderr := ingot(t, args...)
+		if code == exitOK {
+			t.Errorf("%v: exit 0, want a refusal", args)
+		}
 		line := strings.TrimSuffix(stderr, "\n")
 		want := "ingot: " + args[0] + ": "
 		if args[0] == "frobnicate" {

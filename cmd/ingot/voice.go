@@ -22,8 +22,27 @@ func inOurVoice(root *cobra.Command) {
 		case "completion":
 			c.Example = `  ingot completion bash > /etc/bash_completion.d/ingot
   ingot completion zsh > "${fpath[1]}/_ingot"`
+			// The framework prints its help and exits 0 for a shell it
+			// does not know; refuse it like any other bad argument.
+			c.Args = cobra.ArbitraryArgs
+			c.RunE = func(c *cobra.Command, args []string) error {
+				if len(args) > 0 {
+					return fmt.Errorf("unknown shell %q (bash, zsh, fish or powershell)", args[0])
+				}
+				return c.Help()
+			}
 		case "help":
 			c.Example = "  ingot help prune"
+			// The framework prints "Unknown help topic" and exits 0.
+			c.Run = nil
+			c.RunE = func(c *cobra.Command, args []string) error {
+				target, rest, err := root.Find(args)
+				if err != nil || target == nil || len(rest) > 0 {
+					return fmt.Errorf("unknown command %q (see 'ingot --help' for the commands)", strings.Join(args, " "))
+				}
+				target.InitDefaultHelpFlag()
+				return target.Help()
+			}
 		}
 		if check := c.Args; check != nil {
 			c.Args = func(c *cobra.Command, args []string) error {
