@@ -57,8 +57,8 @@ func (b *budgetFlags) options() (budget.Options, error) {
 		}
 	}
 	if b.heldout != "" {
-		if bo.Heldout, err = readSentences(b.heldout); err != nil {
-			return bo, fmt.Errorf("compile: %w", err)
+		if bo.Heldout, err = pipeline.ReadSentences(b.heldout); err != nil {
+			return bo, fmt.Errorf("compile: --heldout: %w", err)
 		}
 	}
 	return bo, nil

@@ -10,6 +10,7 @@ import (
 
 	"ingot/compile/counts"
 	"ingot/compile/input"
+	"ingot/compile/pipeline"
 	"ingot/compile/tables"
 )
 
@@ -131,20 +132,11 @@ counts as <unk>, a literal <unk> in the text included; give compile the same
 	return cmd
 }
 
-// reportCount prints count's JSON report: the file written, its size, and
-// the n-grams per order (for order 1, every word of the vocabulary).
+// reportCount prints count's JSON report (pipeline.CountReport).
 func reportCount(w io.Writer, out string, rep *counts.Report) error {
 	fi, err := os.Stat(out)
 	if err != nil {
 		return err
 	}
-	per := make([]uint64, len(rep.Entries))
-	copy(per, rep.Entries)
-	per[0] = uint64(rep.Words)
-	return writeJSON(w, struct {
-		Counts         string   `json:"counts"`
-		FileBytes      int64    `json:"file_bytes"`
-		Order          int      `json:"order"`
-		NGramsPerOrder []uint64 `json:"ngrams_per_order"`
-	}{out, fi.Size(), len(per), per})
+	return writeJSON(w, pipeline.NewCountReport(out, fi.Size(), rep))
 }

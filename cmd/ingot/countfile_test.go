@@ -69,22 +69,18 @@ func TestCountFileForms(t *testing.T) {
 		t.Fatalf("inspect: %d %s", code, e)
 	}
 	var info struct {
-		Kind   string
-		Order  int
-		Words  int
-		Orders []struct {
-			Entries  uint64
-			CountSum uint64 `json:"count_sum"`
-		}
+		Counts         string
+		Order          int
+		NGramsPerOrder []uint64 `json:"ngrams_per_order"`
 	}
 	if err := json.Unmarshal([]byte(out), &info); err != nil {
 		t.Fatal(err)
 	}
-	if info.Kind != "counts" || info.Order != 3 || len(info.Orders) != 3 {
-		t.Errorf("inspect --json: %s", out)
+	if info.Counts != bin || info.Order != 3 || len(info.NGramsPerOrder) != 3 {
+		t.Fatalf("inspect --json: %s", out)
 	}
-	if n := strings.Count(string(tx), "\n"); uint64(n) != info.Orders[0].Entries+info.Orders[1].Entries+info.Orders[2].Entries {
-		t.Errorf("entries %v, text form has %d lines", info.Orders, n)
+	if n := strings.Count(string(tx), "\n"); uint64(n) != info.NGramsPerOrder[0]+info.NGramsPerOrder[1]+info.NGramsPerOrder[2] {
+		t.Errorf("n-grams per order %v, text form has %d lines", info.NGramsPerOrder, n)
 	}
 	code, out, _ = ingot(t, "inspect", "--dump", bin)
 	if code != 0 || out != string(tx) {

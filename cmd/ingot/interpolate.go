@@ -8,12 +8,9 @@ import (
 
 	"github.com/spf13/cobra"
 
-	"ingot/compile/interpolate"
 	"ingot/compile/pipeline"
 	"ingot/compile/tables"
 	"ingot/format"
-	"ingot/format/score"
-	"ingot/inspect"
 )
 
 func newInterpolateCmd() *cobra.Command {
@@ -47,10 +44,10 @@ the written model on --heldout TEXT (default: the --fit text).`,
 			if weights != "" && fit != "" {
 				return fmt.Errorf("interpolate: give --weights or --fit, not both")
 			}
-			var w []float64
+			run := pipeline.Interpolate{Names: args, ToolVersion: version}
 			if weights != "" {
 				var err error
-				if w, err = parseFloats(weights); err != nil {
+				if run.Weights, err = parseFloats(weights); err != nil {
 					return fmt.Errorf("interpolate: --weights: %w", err)
 				}
 			}
@@ -61,24 +58,23 @@ the written model on --heldout TEXT (default: the --fit text).`,
 				return err
 			}
 			// Read every input before writing anything.
-			var fitText, evalText [][]string
+			var err error
 			if fit != "" {
-				var err error
-				if fitText, err = readText("--fit", fit); err != nil {
-					return fmt.Errorf("interpolate: %w", err)
+				if run.Fit, err = pipeline.ReadSentences(fit); err != nil {
+					return fmt.Errorf("interpolate: --fit: %w", err)
 				}
 			}
 			if heldout == fit {
-				evalText = fitText
-			} else {
-				var err error
-				if evalText, err = readText("--heldout", heldout); err != nil {
-					return fmt.Errorf("interpolate: %w", err)
-				}
+				run.Heldout = run.Fit
+			} else if run.Heldout, err = pipeline.ReadSentences(heldout); err != nil {
+				return fmt.Errorf("interpolate: --heldout: %w", err)
 			}
+			run.HeldoutName = heldout
 			pr := newProgress(cmd.ErrOrStderr())
 			defer pr.done()
+			run.Progress = func(s string) { pr.step("%s", s) }
 			var models []*tables.Tables
+			var inputs []tables.Input
 			for _, path := range args {
 				pr.step("reading %s", path)
 				t, err := readTables(path)
@@ -86,67 +82,32 @@ the written model on --heldout TEXT (default: the --fit text).`,
 					return fmt.Errorf("interpolate: %w", err)
 				}
 				models = append(models, t)
+				in, err := pipeline.DigestFile(path)
+				if err != nil {
+					return fmt.Errorf("interpolate: %w", err)
+				}
+				inputs = append(inputs, in)
 			}
-			mix, err := interpolate.New(models)
-			if err != nil {
+			run.Command = pipeline.Record(commandWords(cmd), "", inputs...)
+			if run.BuildTime, err = pipeline.BuildTime(); err != nil {
 				return fmt.Errorf("interpolate: %w", err)
 			}
-			rep := interpolateReport{Model: out, Inputs: args, Order: mix.Order(), Vocabulary: len(mix.Vocab())}
-			if w != nil {
-				if err := mix.CheckWeights(w); err != nil {
-					return fmt.Errorf("interpolate: --weights: %w", err)
-				}
-			}
-			if fit != "" {
-				pr.step("fitting the weights on %s", fit)
-				if w, rep.Iterations, err = mix.Score(fitText).Fit(); err != nil {
-					return fmt.Errorf("interpolate: --fit %s: %w", fit, err)
-				}
-				rep.Fitted = true
-			}
-			if w == nil {
-				w = make([]float64, len(models))
-				for i := range w {
-					w[i] = 1 / float64(len(models))
-				}
-			}
-			rep.Weights = w
-			pr.step("building the interpolated model")
-			t, err := mix.Build(w, args)
+			res, err := run.Run(models, out)
 			if err != nil {
-				return fmt.Errorf("interpolate: %w", err)
-			}
-			t.Info.ToolVersion = version
-			if t.Info.BuildTime, err = pipeline.BuildTime(); err != nil {
 				return fmt.Errorf("interpolate: %w", err)
 			}
 			pr.step("writing %s", out)
 			if err := writeOutput(cmd.Context(), out, cmd.OutOrStdout(), func(wr io.Writer) error {
-				return format.Write(wr, t)
+				return format.Write(wr, res.Model)
 			}); err != nil {
 				return err
 			}
-			for k := 1; k <= t.Order(); k++ {
-				rep.Orders = append(rep.Orders, orderNGrams{Order: k, NGrams: t.Len(k)})
-				rep.NGramsPerOrder = append(rep.NGramsPerOrder, t.Len(k))
-			}
-			if heldout != "" {
-				pr.step("scoring %s", heldout)
-				h := mix.Score(evalText)
-				p := &perplexities{Text: heldout, Predictions: h.Predictions()}
-				for i := range models {
-					p.Inputs = append(p.Inputs, inspect.Number(h.Perplexity(interpolate.Unit(len(models), i))))
-				}
-				p.Mixture = inspect.Number(h.Perplexity(w))
-				written, err := filePerplexity(out, evalText)
-				if err != nil {
-					return fmt.Errorf("interpolate: %w", err)
-				}
-				p.Written = inspect.Number(written)
-				rep.Perplexity = p
+			pr.step("scoring %s", out)
+			if err := res.ScoreWritten(out); err != nil {
+				return fmt.Errorf("interpolate: %w", err)
 			}
 			pr.done()
-			return rep.print(cmd.OutOrStdout(), asJSON)
+			return printInterpolate(cmd.OutOrStdout(), &res.Report, asJSON)
 		},
 	}
 	f := cmd.Flags()
@@ -173,60 +134,7 @@ func readTables(path string) (*tables.Tables, error) {
 	return t, nil
 }
 
-// readText reads held-out text given with the named option.
-func readText(option, path string) ([][]string, error) {
-	s, err := readSentences(path)
-	if err != nil {
-		return nil, fmt.Errorf("%s: %s", option, strings.TrimPrefix(err.Error(), "--heldout: "))
-	}
-	return s, nil
-}
-
-// filePerplexity scores the sentences with the model file at path.
-func filePerplexity(path string, sents [][]string) (float64, error) {
-	m, err := openModel(path)
-	if err != nil {
-		return 0, err
-	}
-	defer m.Close()
-	sc := score.NewScorer(m)
-	var sum score.Summary
-	for _, s := range sents {
-		sum.Add(sc.Score(s))
-	}
-	return sum.Perplexity(), nil
-}
-
-type perplexities struct {
-	Text        string           `json:"text"`
-	Predictions int              `json:"predictions"`
-	Inputs      []inspect.Number `json:"inputs"`
-	Mixture     inspect.Number   `json:"mixture"`
-	Written     inspect.Number   `json:"written"`
-}
-
-type interpolateReport struct {
-	Model      string        `json:"model"`
-	Inputs     []string      `json:"inputs"`
-	Weights    []float64     `json:"weights"`
-	Fitted     bool          `json:"fitted"`
-	Iterations int           `json:"iterations,omitempty"`
-	Order      int           `json:"order"`
-	Vocabulary int           `json:"vocabulary_size"`
-	Perplexity *perplexities `json:"heldout_perplexity,omitempty"`
-	Orders     []orderNGrams `json:"orders"`
-	// NGramsPerOrder repeats Orders as a plain list, the form verify
-	// reports.
-	NGramsPerOrder []int `json:"ngrams_per_order"`
-}
-
-// orderNGrams is one order's n-gram count in a report.
-type orderNGrams struct {
-	Order  int `json:"order"`
-	NGrams int `json:"ngrams"`
-}
-
-func (r *interpolateReport) print(w io.Writer, asJSON bool) error {
+func printInterpolate(w io.Writer, r *pipeline.InterpolateReport, asJSON bool) error {
 	if asJSON {
 		return writeJSON(w, r)
 	}
@@ -234,29 +142,29 @@ func (r *interpolateReport) print(w io.Writer, asJSON bool) error {
 	if r.Fitted {
 		how = fmt.Sprintf("fitted by EM in %d steps", r.Iterations)
 	}
-	fmt.Fprintf(w, "wrote %s (interpolated, order %d, %d words; weights %s)\n", r.Model, r.Order, r.Vocabulary, how)
+	fmt.Fprintf(w, "wrote %s (interpolated, order %d, %d words; weights %s)\n", r.Model, r.Order, r.VocabularySize, how)
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	if r.Perplexity != nil {
-		fmt.Fprintf(tw, "model\tweight\tperplexity on %s (%d predictions)\n", r.Perplexity.Text, r.Perplexity.Predictions)
+		fmt.Fprintf(tw, "model\tweight\tperplexity on %s (%d predictions)\n", r.Heldout, r.Predictions)
 	} else {
 		fmt.Fprintf(tw, "model\tweight\t\n")
 	}
 	for i, in := range r.Inputs {
 		ppl := ""
 		if r.Perplexity != nil {
-			ppl = fmt.Sprintf("%.3f", float64(r.Perplexity.Inputs[i]))
+			ppl = fmt.Sprintf("%.3f", float64(r.InputPerplexities[i]))
 		}
 		fmt.Fprintf(tw, "%s\t%.6f\t%s\n", in, r.Weights[i], ppl)
 	}
 	if r.Perplexity != nil {
-		fmt.Fprintf(tw, "exact mixture\t\t%.3f\n", float64(r.Perplexity.Mixture))
-		fmt.Fprintf(tw, "written model\t\t%.3f (%+.2f%%)\n", float64(r.Perplexity.Written),
-			100*(float64(r.Perplexity.Written)/float64(r.Perplexity.Mixture)-1))
+		fmt.Fprintf(tw, "exact mixture\t\t%.3f\n", float64(*r.MixturePerplexity))
+		fmt.Fprintf(tw, "written model\t\t%.3f (%+.2f%%)\n", float64(*r.Perplexity),
+			100*(float64(*r.Perplexity)/float64(*r.MixturePerplexity)-1))
 	}
 	tw.Flush()
 	var ng []string
-	for _, o := range r.Orders {
-		ng = append(ng, fmt.Sprintf("order %d: %d", o.Order, o.NGrams))
+	for k, n := range r.NGramsPerOrder {
+		ng = append(ng, fmt.Sprintf("order %d: %d", k+1, n))
 	}
 	fmt.Fprintf(w, "n-grams  %s\n", strings.Join(ng, ", "))
 	return nil

@@ -47,7 +47,7 @@ func readmeJSONKeys(t *testing.T) (keys map[string][]string, conditional map[str
 	if end := strings.Index(section, "\n## "); end >= 0 {
 		section = section[:end]
 	}
-	row := regexp.MustCompile("(?m)^\\| `([a-z -]+)` \\| (.*) \\|$")
+	row := regexp.MustCompile("(?m)^\\| `([a-zA-Z -]+)` \\| (.*) \\|$")
 	key := regexp.MustCompile("`([a-z0-9_]+)`( \\(only)?")
 	keys, conditional = map[string][]string{}, map[string]bool{}
 	for _, m := range row.FindAllStringSubmatch(section, -1) {
@@ -76,14 +76,18 @@ func TestEveryJSONKeyIsDocumented(t *testing.T) {
 	}
 	runs := []run{
 		{"count", []string{"count", "--json", "--order", "3", "-o", p("c.tsv"), text}},
+		{"count", []string{"count", "--json", "--order", "3", "-o", p("c.bin"), text}},
+		{"inspect COUNTS", []string{"inspect", "--json", p("c.bin")}},
 		{"compile", []string{"compile", "--json", "--method", "kneser-ney", "--order", "3", "-o", p("m.ingot"), p("c.tsv")}},
 		{"compile", []string{"compile", "--json", "--method", "katz", "--order", "3", "--min-count", "3=2", "-o", p("k.ingot"), p("c.tsv")}},
 		{"compile --max-size", []string{"compile", "--json", "--method", "kneser-ney", "--order", "3", "--max-size", "16KB", "--heldout", held, "-o", p("b.ingot"), p("c.tsv")}},
 		{"quantize", []string{"quantize", "--json", "--bits", "6", "--heldout", held, "-o", p("q.ingot"), p("m.ingot")}},
 		{"prune", []string{"prune", "--json", "--drop-below", "1e-6", "--heldout", held, "-o", p("p.ingot"), p("m.ingot")}},
+		{"prune", []string{"prune", "--json", "--max-size", "12KB", "--bits", "8", "-o", p("p8.ingot"), p("m.ingot")}},
 		{"keygen", []string{"keygen", "--json", "-o", p("release")}},
 		{"sign", []string{"sign", "--json", "--key", p("release.key"), p("q.ingot")}},
 		{"score", []string{"score", "--json", p("m.ingot"), held}},
+		{"score", []string{"score", "--json", "--summary-only", p("q.ingot"), held}},
 		{"explain", []string{"explain", "--json", p("q.ingot"), "turn", "the", "zebra", "beacon"}},
 		{"explain", []string{"explain", "--json", p("m.ingot"), "<s>", "turn", "the"}},
 		{"inspect", []string{"inspect", "--json", p("q.ingot")}},
@@ -95,7 +99,26 @@ func TestEveryJSONKeyIsDocumented(t *testing.T) {
 		{"keygen", []string{"keygen", "--json", "-o", p("other")}},
 		{"verify", []string{"verify", "--json", "--public-key", p("other.pub"), p("q.ingot")}}, // fails: signed by another key
 		{"interpolate", []string{"interpolate", "--json", "--fit", held, "--heldout", held, "-o", p("i.ingot"), p("m.ingot"), p("k.ingot")}},
+		{"interpolate", []string{"interpolate", "--json", "--weights", "0.5,0.5", "-o", p("e.ingot"), p("m.ingot"), p("k.ingot")}},
 		{"tradeoff", []string{"tradeoff", "--json", "--heldout", held, "--drop-below", "0,1e-6", "--bits", "0,8", "--budget", "12KB", "-o", p("chart"), p("m.ingot"), p("k.ingot")}},
+	}
+	// Every command that reports has --json and is run here with it: all
+	// but the walk-through and the framework's help and completion.
+	ran := map[string]bool{}
+	for _, r := range runs {
+		ran[r.args[0]] = true
+	}
+	for _, c := range newRoot(nil, nil).Commands() {
+		switch c.Name() {
+		case "demo", "completion", "help":
+			continue
+		}
+		if c.Flags().Lookup("json") == nil {
+			t.Errorf("ingot %s has no --json", c.Name())
+		}
+		if !ran[c.Name()] {
+			t.Errorf("ingot %s --json is not run by this test", c.Name())
+		}
 	}
 	seen := map[string]map[string]bool{}
 	if os.Getenv("LIST_KEYS") != "" {

@@ -7,12 +7,10 @@ import (
 
 	"github.com/spf13/cobra"
 
-	"ingot/compile/input"
 	"ingot/compile/pipeline"
 	"ingot/compile/prune"
 	"ingot/compile/tables"
 	"ingot/format"
-	"ingot/format/score"
 	"ingot/quantize"
 )
 
@@ -103,7 +101,7 @@ held-out text.`,
 				return err
 			}
 			p, threshold := res.Model, res.Threshold
-			measured, err := measureInput(args[0], heldout)
+			measured, err := pipeline.Measure(args[0], heldout)
 			if err != nil {
 				return err
 			}
@@ -125,40 +123,18 @@ held-out text.`,
 	return cmd
 }
 
-// heldoutPerplexity scores a text file with the model at path: perplexity
-// with and without the predictions of <unk>.
-func heldoutPerplexity(path, text string) (ppl, withoutUnk float64, err error) {
-	m, err := openModel(path)
-	if err != nil {
-		return 0, 0, err
-	}
-	defer m.Close()
-	r, err := input.Open(text)
-	if err != nil {
-		return 0, 0, fmt.Errorf("--heldout: %w", err)
-	}
-	defer r.Close()
-	sum, err := score.Text(m, text, r, nil)
-	if err != nil {
-		return 0, 0, err
-	}
-	return sum.Perplexity(), sum.PerplexityWithoutUnknown(), nil
-}
-
-func reportPrune(w io.Writer, before, after *tables.Tables, threshold float64, measured shrinkResult, out, heldout string, asJSON bool) error {
-	r, err := measured.compareOutput(out, heldout)
+func reportPrune(w io.Writer, before, after *tables.Tables, threshold float64, measured pipeline.Measured, out, heldout string, asJSON bool) error {
+	r, err := compareWritten(measured, out, heldout)
 	if err != nil {
 		return err
 	}
 	if asJSON {
-		v := r.report(out)
-		v.SetPruned(threshold, before, after)
-		return writeJSON(w, v)
+		return writeJSON(w, r.PruneReport(out, threshold, before, after))
 	}
-	fmt.Fprintf(w, "wrote %s: %s (was %s), threshold %.6g nats\n", out, humanSize(r.outBytes), humanSize(r.inBytes), threshold)
+	fmt.Fprintf(w, "wrote %s: %s (was %s), threshold %.6g nats\n", out, humanSize(r.Result.FileBytes), humanSize(r.Baseline.FileBytes), threshold)
 	for k := 1; k <= after.Order(); k++ {
 		fmt.Fprintf(w, "  order %d: kept %d of %d n-grams\n", k, after.Len(k), before.Len(k))
 	}
-	_, err = io.WriteString(w, r.perplexityLine())
+	_, err = io.WriteString(w, perplexityLine(r))
 	return err
 }

@@ -96,7 +96,7 @@ back-off codebook is widened where that needs it); 'ingot verify' allows
 			if err != nil {
 				return err
 			}
-			before, err := measureInput(args[0], heldout)
+			before, err := pipeline.Measure(args[0], heldout)
 			if err != nil {
 				return err
 			}
@@ -116,17 +116,15 @@ back-off codebook is widened where that needs it); 'ingot verify' allows
 	return cmd
 }
 
-func reportQuantize(w io.Writer, reports []quantize.OrderReport, before shrinkResult, out, heldout string, asJSON bool) error {
-	res, err := before.compareOutput(out, heldout)
+func reportQuantize(w io.Writer, reports []quantize.OrderReport, before pipeline.Measured, out, heldout string, asJSON bool) error {
+	res, err := compareWritten(before, out, heldout)
 	if err != nil {
 		return err
 	}
 	if asJSON {
-		v := res.report(out)
-		v.SetQuantized(reports)
-		return writeJSON(w, v)
+		return writeJSON(w, res.QuantizeReport(out, reports))
 	}
-	fmt.Fprintf(w, "wrote %s: %s (was %s)\n", out, humanSize(res.outBytes), humanSize(res.inBytes))
+	fmt.Fprintf(w, "wrote %s: %s (was %s)\n", out, humanSize(res.Result.FileBytes), humanSize(res.Baseline.FileBytes))
 	fmt.Fprintf(w, "  %-5s  %-30s  %-30s  %s\n", "order", "probabilities", "back-off weights", "residual")
 	for _, r := range reports {
 		p := "32-bit floats"
@@ -139,6 +137,6 @@ func reportQuantize(w io.Writer, reports []quantize.OrderReport, before shrinkRe
 		}
 		fmt.Fprintf(w, "  %-5d  %-30s  %-30s  %.2g\n", r.Order, p, b, r.Residual)
 	}
-	_, err = io.WriteString(w, res.perplexityLine())
+	_, err = io.WriteString(w, perplexityLine(res))
 	return err
 }

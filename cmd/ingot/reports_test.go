@@ -6,6 +6,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"ingot/compile/pipeline"
 )
 
 // Reports measure the input before anything replaces it: prune and
@@ -23,10 +25,11 @@ func TestReportsMeasureBeforeReplacing(t *testing.T) {
 	if err := os.WriteFile(copyPath, orig, 0o644); err != nil {
 		t.Fatal(err)
 	}
-	want, _, err := heldoutPerplexity(copyPath, held)
+	measured, err := pipeline.Measure(copyPath, held)
 	if err != nil {
 		t.Fatal(err)
 	}
+	want := measured.Perplexity
 	for _, args := range [][]string{
 		{"quantize", "--bits", "8"},
 		{"prune", "--drop-below", "1e-3"},

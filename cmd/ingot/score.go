@@ -76,26 +76,6 @@ func openModel(path string) (*format.Model, error) {
 	return format.Open(path)
 }
 
-func numbers(xs []float64) []inspect.Number {
-	out := make([]inspect.Number, len(xs))
-	for i, x := range xs {
-		out[i] = inspect.Number(x)
-	}
-	return out
-}
-
-type sentenceJSON struct {
-	File                    string           `json:"file"`
-	Line                    int              `json:"line"`
-	Tokens                  []string         `json:"tokens"`
-	Log10                   []inspect.Number `json:"log10"`
-	MatchedOrder            []int            `json:"matched_order"`
-	SumLog10                inspect.Number   `json:"sum_log10"`
-	UnkPredictions          int              `json:"unk_predictions"`
-	SentencePerplexity      inspect.Number   `json:"sentence_perplexity"`
-	SentencePerplexityNoUnk inspect.Number   `json:"sentence_perplexity_without_unk"`
-}
-
 // readHeldOut reads and checks one text to score ("-": standard input).
 func readHeldOut(name string) (*score.HeldOut, error) {
 	r, err := input.Open(name)
@@ -118,12 +98,7 @@ func scoreFile(w io.Writer, m *format.Model, h *score.HeldOut, asJSON, summaryOn
 			return nil
 		}
 		if asJSON {
-			return enc.Encode(sentenceJSON{
-				File: shown, Line: s.Line, Tokens: s.Tokens, Log10: numbers(s.Log10), MatchedOrder: s.MatchedOrder,
-				SumLog10: inspect.Number(s.Sum), UnkPredictions: s.Unk,
-				SentencePerplexity:      inspect.Number(s.Perplexity()),
-				SentencePerplexityNoUnk: inspect.Number(s.PerplexityWithoutUnknown()),
-			})
+			return enc.Encode(inspect.NewScoredSentence(shown, s))
 		}
 		_, err := fmt.Fprintf(w, "%s:%d\tlog10 %.4f\tperplexity %.3f\twithout <unk> %.3f\t%s\n",
 			shown, s.Line, s.Sum, s.Perplexity(), s.PerplexityWithoutUnknown(), strings.Join(s.Tokens, " "))
@@ -133,17 +108,7 @@ func scoreFile(w io.Writer, m *format.Model, h *score.HeldOut, asJSON, summaryOn
 
 func printSummary(w io.Writer, model string, s *score.Summary, asJSON bool) error {
 	if asJSON {
-		return newEncoder(w).Encode(struct {
-			Summary         bool           `json:"summary"`
-			Model           string         `json:"model"`
-			Sentences       int            `json:"sentences"`
-			Predictions     int            `json:"predictions"`
-			UnkPredictions  int            `json:"unk_predictions"`
-			SumLog10        inspect.Number `json:"sum_log10"`
-			Perplexity      inspect.Number `json:"perplexity"`
-			PerplexityNoUnk inspect.Number `json:"perplexity_without_unk"`
-		}{true, model, s.Sentences, s.Predictions, s.Unk, inspect.Number(s.Sum),
-			inspect.Number(s.Perplexity()), inspect.Number(s.PerplexityWithoutUnknown())})
+		return writeJSON(w, inspect.NewScoreSummary(model, s))
 	}
 	rows := [][2]string{
 		{"model", model},

@@ -10,8 +10,7 @@ import (
 
 	"github.com/spf13/cobra"
 
-	"ingot/compile/input"
-	"ingot/compile/text"
+	"ingot/compile/pipeline"
 	"ingot/quantize"
 	"ingot/quantize/tradeoff"
 )
@@ -41,29 +40,19 @@ chart, each in its own colour; --budget draws the device's size limit.`,
   ingot tradeoff --heldout dev.txt --drop-below 0,1e-8,1e-7,1e-6 --bits 0,8,4 -o chart field.ingot`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			ths, err := parseFloats(thresholds)
-			if err != nil {
+			opt := tradeoff.Options{}
+			var err error
+			if opt.Thresholds, err = parseFloats(thresholds); err != nil {
 				return fmt.Errorf("tradeoff: --drop-below: %w", err)
 			}
-			bs, err := parseInts(bits)
-			if err != nil {
+			if opt.Bits, err = parseInts(bits); err != nil {
 				return fmt.Errorf("tradeoff: --bits: %w", err)
 			}
-			for _, b := range bs {
-				if b != 0 && (b < 2 || b > 16) {
-					return fmt.Errorf("tradeoff: --bits %d outside 2..16 (or 0 for floats)", b)
-				}
+			if err := opt.Check(); err != nil {
+				return fmt.Errorf("tradeoff: %w", err)
 			}
-			tr, err := quantize.ParseTrainer(trainer)
-			if err != nil {
+			if opt.Trainer, err = quantize.ParseTrainer(trainer); err != nil {
 				return fmt.Errorf("tradeoff: --trainer: %w", err)
-			}
-			if err := checkOutputDir("tradeoff", out, []string{"tradeoff.csv", "tradeoff.json", "tradeoff.svg"}, append([]string{heldout}, args...)...); err != nil {
-				return err
-			}
-			held, err := readSentences(heldout)
-			if err != nil {
-				return err
 			}
 			var budget int64
 			if budgetFlag != "" {
@@ -71,39 +60,39 @@ chart, each in its own colour; --budget draws the device's size limit.`,
 					return fmt.Errorf("tradeoff: --budget: %w", err)
 				}
 			}
+			if err := checkOutputDir("tradeoff", out, []string{"tradeoff.csv", "tradeoff.json", "tradeoff.svg"}, append([]string{heldout}, args...)...); err != nil {
+				return err
+			}
+			held, err := pipeline.ReadSentences(heldout)
+			if err != nil {
+				return fmt.Errorf("tradeoff: --heldout: %w", err)
+			}
+			var models []tradeoff.Model
+			for _, path := range args {
+				t, err := readUnquantized("tradeoff", path)
+				if err != nil {
+					return err
+				}
+				models = append(models, tradeoff.Model{Name: path, Tables: t})
+			}
 			stderr := io.Discard // progress only on a terminal
 			if newProgress(cmd.ErrOrStderr()).w != nil {
 				stderr = cmd.ErrOrStderr()
 			}
-			var points []tradeoff.Point
-			for _, model := range args {
-				t, err := readUnquantized("tradeoff", model)
-				if err != nil {
-					return err
+			opt.Progress = func(done, total int, p tradeoff.Point) {
+				fmt.Fprintf(stderr, "\r%s [%d/%d] threshold %g, %d bits: %s, perplexity %.2f   ", filepath.Base(p.Model), done, total, float64(p.Threshold), p.Bits, humanSize(p.FileBytes), float64(p.Perplexity))
+				if done == total {
+					fmt.Fprintln(stderr)
 				}
-				ps, err := tradeoff.Run(t, held, tradeoff.Options{Thresholds: ths, Bits: bs, Trainer: tr,
-					Progress: func(done, total int, p tradeoff.Point) {
-						fmt.Fprintf(stderr, "\r%s [%d/%d] threshold %g, %d bits: %s, perplexity %.2f   ", filepath.Base(model), done, total, p.Threshold, p.Bits, humanSize(p.FileBytes), p.Perplexity)
-						if done == total {
-							fmt.Fprintln(stderr)
-						}
-					}})
-				if err != nil {
-					return fmt.Errorf("tradeoff: %s: %w", model, err)
-				}
-				for i := range ps {
-					ps[i].Model = model
-				}
-				points = append(points, ps...)
+			}
+			points, err := tradeoff.RunAll(models, held, opt)
+			if err != nil {
+				return fmt.Errorf("tradeoff: %w", err)
 			}
 			if err := os.MkdirAll(out, 0o755); err != nil {
 				return fmt.Errorf("tradeoff: %w", err)
 			}
-			names := make([]string, len(args))
-			for i, a := range args {
-				names[i] = filepath.Base(a)
-			}
-			title := fmt.Sprintf("%s: size against perplexity", strings.Join(names, ", "))
+			title := tradeoff.Title(args)
 			for name, write := range map[string]func(io.Writer) error{
 				"tradeoff.csv":  func(w io.Writer) error { return tradeoff.WriteCSV(w, points) },
 				"tradeoff.json": func(w io.Writer) error { return tradeoff.WriteJSON(w, points) },
@@ -115,15 +104,11 @@ chart, each in its own colour; --budget draws the device's size limit.`,
 			}
 			w := cmd.OutOrStdout()
 			if asJSON {
-				return writeJSON(w, struct {
-					Models []string         `json:"models"`
-					Output string           `json:"output"`
-					Points []tradeoff.Point `json:"points"`
-				}{args, out, points})
+				return writeJSON(w, tradeoff.Report{Models: args, Output: out, Points: points})
 			}
 			fmt.Fprintf(w, "%-20s %-10s %5s %12s %11s\n", "model", "threshold", "bits", "file", "perplexity")
 			for _, p := range points {
-				fmt.Fprintf(w, "%-20s %-10g %5d %12s %11.3f\n", filepath.Base(p.Model), p.Threshold, p.Bits, humanSize(p.FileBytes), p.Perplexity)
+				fmt.Fprintf(w, "%-20s %-10g %5d %12s %11.3f\n", filepath.Base(p.Model), float64(p.Threshold), p.Bits, humanSize(p.FileBytes), float64(p.Perplexity))
 			}
 			fmt.Fprintf(w, "wrote %s/tradeoff.csv, tradeoff.json, tradeoff.svg\n", out)
 			return nil
@@ -162,24 +147,6 @@ func parseInts(s string) ([]int, error) {
 			return nil, fmt.Errorf("%q is not a whole number", f)
 		}
 		out = append(out, v)
-	}
-	return out, nil
-}
-
-// readSentences reads a text file as token lists, one per non-empty line.
-func readSentences(name string) ([][]string, error) {
-	r, err := input.Open(name)
-	if err != nil {
-		return nil, fmt.Errorf("--heldout: %w", err)
-	}
-	defer r.Close()
-	var out [][]string
-	err = text.HeldOut(name, r, func(toks []string, _ int) error {
-		out = append(out, append([]string(nil), toks...))
-		return nil
-	})
-	if err != nil {
-		return nil, fmt.Errorf("--heldout: %w", err)
 	}
 	return out, nil
 }

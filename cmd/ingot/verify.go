@@ -13,7 +13,6 @@ import (
 
 	"ingot/compile/input"
 	"ingot/format"
-	"ingot/inspect"
 	"ingot/verify"
 	"ingot/verify/gate"
 )
@@ -268,135 +267,9 @@ func contextLabel(words []string) string {
 	return strings.Join(words, " ")
 }
 
-type checkJSON struct {
-	Name         string           `json:"name"`
-	Status       string           `json:"status"`
-	Detail       string           `json:"detail"`
-	Problems     []verify.Problem `json:"problems,omitempty"`
-	ProblemCount int              `json:"problem_count"`
-}
-
-type worstJSON struct {
-	Context      []string       `json:"context"`
-	Sum          inspect.Number `json:"sum"`
-	AbsDeviation inspect.Number `json:"abs_deviation"`
-}
-
-type bucketJSON struct {
-	From     float64         `json:"from"`
-	To       *inspect.Number `json:"to"`
-	Contexts int             `json:"contexts"`
-}
-
-type orderDiffJSON struct {
-	Order   int `json:"order"`
-	Added   int `json:"added"`
-	Removed int `json:"removed"`
-	Changed int `json:"changed"`
-}
-
-type gateJSON struct {
-	Baseline                      string          `json:"baseline"`
-	Heldout                       string          `json:"heldout"`
-	Sentences                     int             `json:"sentences"`
-	Predictions                   int             `json:"predictions"`
-	CandidatePerplexity           inspect.Number  `json:"candidate_perplexity"`
-	BaselinePerplexity            inspect.Number  `json:"baseline_perplexity"`
-	CandidatePerplexityWithoutUnk inspect.Number  `json:"candidate_perplexity_without_unk"`
-	BaselinePerplexityWithoutUnk  inspect.Number  `json:"baseline_perplexity_without_unk"`
-	CandidateUnkPredictions       int             `json:"candidate_unk_predictions"`
-	BaselineUnkPredictions        int             `json:"baseline_unk_predictions"`
-	IncreasePercent               inspect.Number  `json:"perplexity_increase_percent"`
-	MaxIncreasePercent            inspect.Number  `json:"max_perplexity_increase_percent"`
-	Passed                        bool            `json:"passed"`
-	NGramsAdded                   int             `json:"ngrams_added"`
-	NGramsRemoved                 int             `json:"ngrams_removed"`
-	NGramsChanged                 int             `json:"ngrams_changed"`
-	NGramsByOrder                 []orderDiffJSON `json:"ngrams_by_order"`
-	MeanKLNats                    inspect.Number  `json:"mean_kl_nats"`
-	KLDirection                   string          `json:"kl_direction"`
-	KLEvents                      int             `json:"kl_events"`
-}
-
-// printVerifyJSON prints the report as one JSON object; see the README's
-// "Verifying a model" for the keys.
+// printVerifyJSON prints the report as one JSON object (verify.JSONReport;
+// see the README's "Verifying a model" for the keys).
 func printVerifyJSON(w io.Writer, model string, rep *verify.Report, res *gate.Result, f *verifyFlags) error {
-	v := struct {
-		Model              string         `json:"model"`
-		OK                 bool           `json:"ok"`
-		Failed             []string       `json:"failed"`
-		Checks             []checkJSON    `json:"checks"`
-		FormatVersion      int            `json:"format_version"`
-		Order              int            `json:"order"`
-		VocabularySize     int            `json:"vocabulary_size"`
-		NGramsPerOrder     []int          `json:"ngrams_per_order"`
-		ContextsChecked    int            `json:"contexts_checked"`
-		MaxAbsDeviation    inspect.Number `json:"max_abs_deviation"`
-		Tolerance          inspect.Number `json:"tolerance"`
-		OverTolerance      int            `json:"contexts_over_tolerance"`
-		WorstContexts      []worstJSON    `json:"worst_contexts"`
-		DeviationHistogram []bucketJSON   `json:"deviation_histogram"`
-		ReleaseGate        *gateJSON      `json:"release_gate,omitempty"`
-	}{
-		Model: model, OK: rep.OK(), Failed: rep.Failed(),
-		FormatVersion: rep.Version, Order: rep.Order, VocabularySize: rep.VocabSize, NGramsPerOrder: rep.Counts,
-		MaxAbsDeviation: inspect.Number(math.NaN()), Tolerance: inspect.Number(f.tolerance),
-		WorstContexts: []worstJSON{}, DeviationHistogram: []bucketJSON{},
-	}
-	if v.Failed == nil {
-		v.Failed = []string{}
-	}
-	if v.NGramsPerOrder == nil {
-		v.NGramsPerOrder = []int{}
-	}
-	if f.tolerance == 0 {
-		v.Tolerance = inspect.Number(math.NaN())
-	}
-	for _, c := range rep.Checks {
-		cj := checkJSON{Name: c.Name, Status: string(c.Status), Detail: c.Detail, ProblemCount: c.Count}
-		cj.Problems = c.Problems
-		v.Checks = append(v.Checks, cj)
-	}
-	if n := rep.Normalisation; n != nil {
-		v.ContextsChecked = n.Contexts
-		v.MaxAbsDeviation = inspect.Number(n.MaxDeviation)
-		v.Tolerance = inspect.Number(n.Tolerance)
-		v.OverTolerance = n.Exceeding
-		for _, c := range n.Worst {
-			v.WorstContexts = append(v.WorstContexts, worstJSON{append([]string{}, c.Context...), inspect.Number(c.Sum), inspect.Number(c.Deviation())})
-		}
-		for b, count := range n.Histogram {
-			lower, upper := verify.BucketBounds(b)
-			bj := bucketJSON{From: lower, Contexts: count}
-			if !math.IsInf(upper, 1) {
-				u := inspect.Number(upper)
-				bj.To = &u
-			}
-			v.DeviationHistogram = append(v.DeviationHistogram, bj)
-		}
-	}
-	if res != nil {
-		g := &gateJSON{
-			Baseline: f.baseline, Heldout: f.heldout,
-			Sentences: res.Sentences, Predictions: res.Predictions,
-			CandidatePerplexity:           inspect.Number(res.Candidate.Perplexity),
-			BaselinePerplexity:            inspect.Number(res.Baseline.Perplexity),
-			CandidatePerplexityWithoutUnk: inspect.Number(res.Candidate.PerplexityWithoutUnknown),
-			BaselinePerplexityWithoutUnk:  inspect.Number(res.Baseline.PerplexityWithoutUnknown),
-			CandidateUnkPredictions:       res.Candidate.UnknownPredictions,
-			BaselineUnkPredictions:        res.Baseline.UnknownPredictions,
-			IncreasePercent:               inspect.Number(res.IncreasePercent),
-			MaxIncreasePercent:            inspect.Number(f.maxIncrease),
-			Passed:                        res.Passes(f.maxIncrease),
-			NGramsAdded:                   res.Added, NGramsRemoved: res.Removed, NGramsChanged: res.Changed,
-			MeanKLNats:  inspect.Number(res.MeanKL),
-			KLDirection: "KL(baseline || candidate)",
-			KLEvents:    res.Events,
-		}
-		for _, o := range res.Orders {
-			g.NGramsByOrder = append(g.NGramsByOrder, orderDiffJSON{o.Order, o.Added, o.Removed, o.Changed})
-		}
-		v.ReleaseGate = g
-	}
-	return writeJSON(w, v)
+	return writeJSON(w, verify.NewJSONReport(model, rep, f.tolerance, res, verify.GateSettings{
+		Baseline: f.baseline, Heldout: f.heldout, MaxIncreasePercent: f.maxIncrease}))
 }

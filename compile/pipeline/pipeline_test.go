@@ -263,10 +263,8 @@ func TestParseCutoffs(t *testing.T) {
 // they describe stay absent otherwise.
 func TestReportsWriteNonFiniteAsNull(t *testing.T) {
 	tb := fixture.RandomTables(1, 20, []int{30})
-	var r ShrinkReport
-	r.Model = "m"
-	r.SetPruned(math.Inf(1), tb, tb)
-	r.SetPerplexities(math.NaN(), 2, math.Inf(1), 3)
+	c := Comparison{Baseline: Measured{Scored: true, Perplexity: math.NaN(), PerplexityWithoutUnk: 2}, Result: Measured{Scored: true, Perplexity: math.Inf(1), PerplexityWithoutUnk: 3}}
+	r := c.PruneReport("m", math.Inf(1), tb, tb)
 	b, err := json.Marshal(r)
 	if err != nil {
 		t.Fatal(err)

@@ -2,10 +2,10 @@ package pipeline
 
 import (
 	"ingot/compile/budget"
+	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/tables"
 	"ingot/inspect"
-	"ingot/quantize"
 )
 
 // The reports below are the JSON that compile, prune and quantize print
@@ -54,13 +54,13 @@ func NewCompileReport(model string, rep *estimate.Report) CompileReport {
 
 // BudgetReport is compile's report with --max-size.
 type BudgetReport struct {
-	FileBytes      int64              `json:"file_bytes"`
-	MaxBytes       int64              `json:"max_bytes"`
-	Method         string             `json:"method"`
-	Model          string             `json:"model"`
-	NGramsPerOrder []int              `json:"ngrams_per_order"`
-	Order          int                `json:"order"`
-	OrdersCompared []budget.Candidate `json:"orders_compared"`
+	FileBytes      int64           `json:"file_bytes"`
+	MaxBytes       int64           `json:"max_bytes"`
+	Method         string          `json:"method"`
+	Model          string          `json:"model"`
+	NGramsPerOrder []int           `json:"ngrams_per_order"`
+	Order          int             `json:"order"`
+	OrdersCompared []OrderCompared `json:"orders_compared"`
 	// Perplexity is the chosen model's held-out perplexity (absent without
 	// held-out text).
 	Perplexity *inspect.Number `json:"perplexity,omitempty"`
@@ -68,13 +68,34 @@ type BudgetReport struct {
 	Threshold  inspect.Number  `json:"threshold"`
 }
 
+// OrderCompared is one order's model fitted to the budget (the one
+// written or one compared with it on held-out text).
+type OrderCompared struct {
+	Order          int            `json:"order"`
+	Threshold      inspect.Number `json:"threshold"`
+	NGramsPerOrder []int          `json:"ngrams_per_order"`
+	FileBytes      int64          `json:"file_bytes"`
+	// Perplexity is held-out perplexity before quantization (absent
+	// without held-out text); Problem says why no model of the order fits.
+	Perplexity *inspect.Number `json:"perplexity,omitempty"`
+	Problem    string          `json:"problem,omitempty"`
+}
+
 // NewBudgetReport describes a model fitted to maxBytes and written to
 // model.
 func NewBudgetReport(model string, method estimate.Method, maxBytes int64, res *budget.Result) BudgetReport {
 	r := BudgetReport{
 		FileBytes: res.Chosen.FileBytes, MaxBytes: maxBytes, Method: string(method), Model: model,
-		NGramsPerOrder: res.Chosen.NGrams, Order: res.Chosen.Order, OrdersCompared: res.Candidates,
+		NGramsPerOrder: res.Chosen.NGrams, Order: res.Chosen.Order, OrdersCompared: []OrderCompared{},
 		RankedBy: string(res.Ranking), Threshold: inspect.Number(res.Chosen.Threshold),
+	}
+	for _, c := range res.Candidates {
+		oc := OrderCompared{Order: c.Order, Threshold: inspect.Number(c.Threshold), NGramsPerOrder: c.NGrams, FileBytes: c.FileBytes, Problem: c.Problem}
+		if c.Perplexity > 0 {
+			p := inspect.Number(c.Perplexity)
+			oc.Perplexity = &p
+		}
+		r.OrdersCompared = append(r.OrdersCompared, oc)
 	}
 	if res.Perplexity > 0 {
 		p := inspect.Number(res.Perplexity)
@@ -103,22 +124,6 @@ type ShrinkReport struct {
 	Threshold *inspect.Number `json:"threshold,omitempty"`
 }
 
-// SetPerplexities records held-out perplexities (with and without <unk>)
-// of the baseline and of the model written.
-func (r *ShrinkReport) SetPerplexities(baseline, baselineNoUnk, out, outNoUnk float64) {
-	n := func(x float64) *inspect.Number { v := inspect.Number(x); return &v }
-	r.BaselinePerplexity, r.BaselinePerplexityWithoutUnk = n(baseline), n(baselineNoUnk)
-	r.Perplexity, r.PerplexityWithoutUnk = n(out), n(outNoUnk)
-}
-
-// SetPruned records prune's threshold and the n-grams per order before and
-// after.
-func (r *ShrinkReport) SetPruned(threshold float64, before, after *tables.Tables) {
-	th := inspect.Number(threshold)
-	r.Threshold = &th
-	r.BaselineNGramsPerOrder, r.NGramsPerOrder = NGramsPerOrder(before), NGramsPerOrder(after)
-}
-
 // QuantizedOrder is one order of quantize's report.
 type QuantizedOrder struct {
 	Order           int            `json:"order"`
@@ -132,14 +137,6 @@ type QuantizedOrder struct {
 	Residual        inspect.Number `json:"residual"`
 }
 
-// SetQuantized records quantize's per-order report.
-func (r *ShrinkReport) SetQuantized(reports []quantize.OrderReport) {
-	for _, o := range reports {
-		r.Orders = append(r.Orders, QuantizedOrder{o.Order, o.ProbLevels, inspect.Number(o.ProbStep), inspect.Number(o.ProbMaxError),
-			o.BackoffBits, o.BackoffLevels, inspect.Number(o.BackoffStep), inspect.Number(o.BackoffMaxError), inspect.Number(o.Residual)})
-	}
-}
-
 // NGramsPerOrder returns the entries of each order, unigrams first.
 func NGramsPerOrder(t *tables.Tables) []int {
 	n := make([]int, t.Order())
@@ -147,4 +144,24 @@ func NGramsPerOrder(t *tables.Tables) []int {
 		n[k] = t.Len(k + 1)
 	}
 	return n
+}
+
+// CountReport is count's JSON report: the count file written, its size and
+// the n-grams per order (for order 1, every word of the file's vocabulary,
+// markers included).
+type CountReport struct {
+	Counts         string   `json:"counts"`
+	FileBytes      int64    `json:"file_bytes"`
+	Order          int      `json:"order"`
+	NGramsPerOrder []uint64 `json:"ngrams_per_order"`
+}
+
+// NewCountReport describes the count file written to path (fileBytes
+// long) by a count whose report is rep.
+func NewCountReport(path string, fileBytes int64, rep *counts.Report) CountReport {
+	per := append([]uint64{}, rep.Entries...)
+	if len(per) > 0 {
+		per[0] = uint64(rep.Words)
+	}
+	return CountReport{Counts: path, FileBytes: fileBytes, Order: len(per), NGramsPerOrder: per}
 }

@@ -59,8 +59,8 @@ func drawChart(dc draw.Canvas, title string, points []Point, budget int64) error
 		if !slices.Contains(models, pt.Model) {
 			models = append(models, pt.Model)
 		}
-		series[k] = append(series[k], plotter.XY{X: float64(pt.FileBytes) / 1024, Y: pt.Perplexity})
-		labels[k] = append(labels[k], fmt.Sprintf("%g", pt.Threshold))
+		series[k] = append(series[k], plotter.XY{X: float64(pt.FileBytes) / 1024, Y: float64(pt.Perplexity)})
+		labels[k] = append(labels[k], fmt.Sprintf("%g", float64(pt.Threshold)))
 	}
 	var bits []int
 	for k := range series {

@@ -9,6 +9,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"path/filepath"
 	"strconv"
 	"strings"
 
@@ -16,6 +17,7 @@ import (
 	"ingot/compile/tables"
 	"ingot/format"
 	"ingot/format/score"
+	"ingot/inspect"
 	"ingot/quantize"
 )
 
@@ -23,12 +25,20 @@ import (
 type Point struct {
 	// Model names the model the grid was built from (set by the caller;
 	// a chart of several models draws each its own lines).
-	Model      string  `json:"model"`
-	Threshold  float64 `json:"threshold"`
-	Bits       int     `json:"bits"` // 0: not quantized (32-bit floats)
-	NGrams     []int   `json:"ngrams_per_order"`
-	FileBytes  int64   `json:"file_bytes"`
-	Perplexity float64 `json:"perplexity"`
+	Model      string         `json:"model"`
+	Threshold  inspect.Number `json:"threshold"` // nats
+	Bits       int            `json:"bits"`      // 0: not quantized (32-bit floats)
+	NGrams     []int          `json:"ngrams_per_order"`
+	FileBytes  int64          `json:"file_bytes"`
+	Perplexity inspect.Number `json:"perplexity"`
+}
+
+// Report is the JSON report of a chart: the models, the directory written
+// and every point.
+type Report struct {
+	Models []string `json:"models"`
+	Output string   `json:"output"`
+	Points []Point  `json:"points"`
 }
 
 // Options is the grid. A threshold of 0 means no pruning; a bit width of 0
@@ -41,9 +51,69 @@ type Options struct {
 	Progress func(done, total int, p Point)
 }
 
+// Check refuses a grid that cannot be built: a threshold that is not a
+// number >= 0, or a bit width other than 0 (floats) or 2 to 16.
+func (opt Options) Check() error {
+	if len(opt.Thresholds) == 0 || len(opt.Bits) == 0 {
+		return fmt.Errorf("no thresholds or no bit widths")
+	}
+	for _, th := range opt.Thresholds {
+		if !(th >= 0) {
+			return fmt.Errorf("threshold %v is not a number >= 0", th)
+		}
+	}
+	for _, b := range opt.Bits {
+		if b != 0 && (b < 2 || b > 16) {
+			return fmt.Errorf("%d bits outside 2..16 (or 0 for floats)", b)
+		}
+	}
+	return nil
+}
+
+// Model is one model of a chart and the name it is drawn under.
+type Model struct {
+	Name   string
+	Tables *tables.Tables
+}
+
+// RunAll builds the grid of each model and returns every point, each
+// carrying its model's name, the models in the order given.
+func RunAll(models []Model, heldout [][]string, opt Options) ([]Point, error) {
+	if err := opt.Check(); err != nil {
+		return nil, err
+	}
+	var all []Point
+	for _, m := range models {
+		if m.Tables.Info.Quantization != nil {
+			return nil, fmt.Errorf("%s is quantized already; chart the unquantized model", m.Name)
+		}
+		ps, err := Run(m.Tables, heldout, opt)
+		if err != nil {
+			return nil, fmt.Errorf("%s: %w", m.Name, err)
+		}
+		for i := range ps {
+			ps[i].Model = m.Name
+		}
+		all = append(all, ps...)
+	}
+	return all, nil
+}
+
+// Title is the chart's title for the named models.
+func Title(models []string) string {
+	names := make([]string, len(models))
+	for i, m := range models {
+		names[i] = filepath.Base(m)
+	}
+	return strings.Join(names, ", ") + ": size against perplexity"
+}
+
 // Run builds every model of the grid from t and scores heldout (sentences
 // as token lists) with each.
 func Run(t *tables.Tables, heldout [][]string, opt Options) ([]Point, error) {
+	if err := opt.Check(); err != nil {
+		return nil, err
+	}
 	scores := prune.EntropyScores(t)
 	var out []Point
 	total := len(opt.Thresholds) * len(opt.Bits)
@@ -71,7 +141,7 @@ func Run(t *tables.Tables, heldout [][]string, opt Options) ([]Point, error) {
 			for _, s := range heldout {
 				sum.Add(sc.Score(s))
 			}
-			pt := Point{Threshold: th, Bits: bits, NGrams: prune.Kept(keep), FileBytes: int64(len(data)), Perplexity: sum.Perplexity()}
+			pt := Point{Threshold: inspect.Number(th), Bits: bits, NGrams: prune.Kept(keep), FileBytes: int64(len(data)), Perplexity: inspect.Number(sum.Perplexity())}
 			out = append(out, pt)
 			if opt.Progress != nil {
 				opt.Progress(len(out), total, pt)
@@ -91,8 +161,8 @@ func WriteCSV(w io.Writer, points []Point) error {
 			ng[i] = strconv.Itoa(n)
 		}
 		cw.Write([]string{
-			p.Model, strconv.FormatFloat(p.Threshold, 'g', -1, 64), strconv.Itoa(p.Bits), strings.Join(ng, "/"),
-			strconv.FormatInt(p.FileBytes, 10), strconv.FormatFloat(p.Perplexity, 'f', 4, 64),
+			p.Model, strconv.FormatFloat(float64(p.Threshold), 'g', -1, 64), strconv.Itoa(p.Bits), strings.Join(ng, "/"),
+			strconv.FormatInt(p.FileBytes, 10), strconv.FormatFloat(float64(p.Perplexity), 'f', 4, 64),
 		})
 	}
 	cw.Flush()

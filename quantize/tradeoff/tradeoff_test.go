@@ -2,12 +2,15 @@ package tradeoff
 
 import (
 	"bytes"
+	"encoding/json"
+	"math"
 	"strings"
 	"testing"
 
 	"ingot/compile/corpus"
 	"ingot/compile/counts"
 	"ingot/compile/estimate"
+	"ingot/compile/fixture"
 	"ingot/quantize"
 )
 
@@ -53,5 +56,55 @@ func TestGridIsMonotoneInSize(t *testing.T) {
 	}
 	if err := WriteSVG(&svgOut, "test", points, 0); err != nil || !strings.Contains(svgOut.String(), "<svg") {
 		t.Errorf("svg: %v", err)
+	}
+}
+
+// A grid with a bad threshold or bit width is refused before any work; a
+// chart of several models names each point's model; a quantized model is
+// refused; a threshold of infinity (every n-gram above unigrams dropped)
+// writes null in JSON, not an error.
+func TestRunAllAndCheck(t *testing.T) {
+	for _, bad := range []Options{
+		{Thresholds: []float64{-1}, Bits: []int{0}},
+		{Thresholds: []float64{math.NaN()}, Bits: []int{0}},
+		{Thresholds: []float64{0}, Bits: []int{1}},
+		{Thresholds: []float64{0}, Bits: []int{17}},
+		{Thresholds: nil, Bits: []int{8}},
+	} {
+		if err := bad.Check(); err == nil {
+			t.Errorf("%+v accepted", bad)
+		}
+		if _, err := RunAll(nil, nil, bad); err == nil {
+			t.Errorf("RunAll with %+v accepted", bad)
+		}
+	}
+	if err := (Options{Thresholds: []float64{0, math.Inf(1)}, Bits: []int{0, 2, 16}}).Check(); err != nil {
+		t.Errorf("a good grid refused: %v", err)
+	}
+	demo := fixture.Demo(t)
+	a := fixture.Estimate(t, demo[:300], 2, estimate.Options{Method: estimate.KneserNey})
+	b := fixture.Estimate(t, demo[:300], 2, estimate.Options{Method: estimate.Katz})
+	held := fixture.Tokens(demo[300:340])
+	opt := Options{Thresholds: []float64{0, math.Inf(1)}, Bits: []int{0, 8}, Trainer: quantize.LeastSquares}
+	points, err := RunAll([]Model{{"dir/a.ingot", a}, {"b.ingot", b}}, held, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(points) != 8 || points[0].Model != "dir/a.ingot" || points[3].Model != "dir/a.ingot" || points[4].Model != "b.ingot" {
+		t.Fatalf("points %+v", points)
+	}
+	if got := Title([]string{"dir/a.ingot", "b.ingot"}); got != "a.ingot, b.ingot: size against perplexity" {
+		t.Errorf("title %q", got)
+	}
+	var js bytes.Buffer
+	if err := json.NewEncoder(&js).Encode(Report{Models: []string{"a"}, Output: "o", Points: points}); err != nil || !strings.Contains(js.String(), `"threshold":null`) {
+		t.Errorf("JSON of an infinite threshold: %v %s", err, js.String())
+	}
+	q, _, err := quantize.Model(a, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := RunAll([]Model{{"q.ingot", q}}, held, opt); err == nil || !strings.Contains(err.Error(), "q.ingot is quantized") {
+		t.Errorf("a quantized model: %v", err)
 	}
 }
