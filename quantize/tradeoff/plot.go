@@ -4,9 +4,11 @@ import (
 	"fmt"
 	"image/color"
 	"io"
+	"math"
 	"path/filepath"
 	"slices"
 	"sort"
+	"strconv"
 	"strings"
 
 	"gonum.org/v1/plot"
@@ -35,17 +37,13 @@ func WriteSVG(w io.Writer, title string, points []Point, budget int64) error {
 	return err
 }
 
-// legendWidth is the part of the canvas, on the right, that holds the
-// legend.
-const legendWidth = 2.1 * vg.Inch
-
 func drawChart(dc draw.Canvas, title string, points []Point, budget int64) error {
 	p := plot.New()
 	p.Title.Text = title
 	p.X.Label.Text = "file size (KiB, log scale)"
 	p.Y.Label.Text = "held-out perplexity"
 	p.X.Scale = plot.LogScale{}
-	p.X.Tick.Marker = plot.LogTicks{Prec: -1}
+	p.X.Tick.Marker = sizeTicks{}
 	p.Add(plotter.NewGrid())
 	type key struct {
 		model string
@@ -53,7 +51,7 @@ func drawChart(dc draw.Canvas, title string, points []Point, budget int64) error
 	}
 	series := map[key]plotter.XYs{}
 	labels := map[key][]string{}
-	var models []string
+	var models, entries []string
 	for _, pt := range points {
 		k := key{pt.Model, pt.Bits}
 		if !slices.Contains(models, pt.Model) {
@@ -114,17 +112,35 @@ func drawChart(dc draw.Canvas, title string, points []Point, budget int64) error
 				name = strings.TrimSuffix(filepath.Base(model), ".ingot") + ", " + short
 			}
 			p.Legend.Add(name, line, pts)
+			entries = append(entries, name)
 			if mi == 0 && i == 0 {
-				lb, err := plotter.NewLabels(plotter.XYLabels{XYs: sorted, Labels: sortedNames})
-				if err != nil {
-					return err
+				// Alternately above and below their points, so that
+				// the labels of neighbouring points do not meet.
+				at, names := mergeLabels(sorted, sortedNames)
+				for side := 0; side < 2; side++ {
+					var xys plotter.XYs
+					var texts []string
+					for j := side; j < len(at); j += 2 {
+						xys, texts = append(xys, at[j]), append(texts, names[j])
+					}
+					if len(xys) == 0 {
+						continue
+					}
+					lb, err := plotter.NewLabels(plotter.XYLabels{XYs: xys, Labels: texts})
+					if err != nil {
+						return err
+					}
+					for j := range lb.TextStyle {
+						lb.TextStyle[j].XAlign = draw.XLeft
+						lb.TextStyle[j].YAlign = draw.YBottom
+						lb.Offset = vg.Point{X: vg.Points(4), Y: vg.Points(3)}
+						if side == 1 {
+							lb.TextStyle[j].YAlign = draw.YTop
+							lb.Offset.Y = -vg.Points(4)
+						}
+					}
+					p.Add(lb)
 				}
-				for j := range lb.TextStyle {
-					lb.TextStyle[j].XAlign = draw.XLeft
-					lb.TextStyle[j].YAlign = draw.YBottom
-				}
-				lb.Offset = vg.Point{X: vg.Points(4), Y: vg.Points(3)}
-				p.Add(lb)
 			}
 		}
 	}
@@ -149,18 +165,99 @@ func drawChart(dc draw.Canvas, title string, points []Point, budget int64) error
 		bl.Color = color.RGBA{0x55, 0x55, 0x55, 0xff}
 		bl.Dashes = []vg.Length{vg.Points(1), vg.Points(3)}
 		p.Add(bl)
-		p.Legend.Add(fmt.Sprintf("budget %.0f KiB", x), bl)
+		name := fmt.Sprintf("budget %.0f KiB", x)
+		p.Legend.Add(name, bl)
+		entries = append(entries, name)
 	}
 	p.Legend.Top = true
 	p.Legend.Left = true
 	p.Legend.Add("")
 	p.Legend.Add("labels: threshold (nats)")
-	// The legend is drawn beside the plot area, not inside it.
+	entries = append(entries, "labels: threshold (nats)")
+	// The legend is drawn beside the plot area, not inside it, as wide as
+	// its longest entry: measured in the font the file names, with room
+	// for a third more, as a viewer without that font substitutes a wider
+	// one (DejaVu Serif for Liberation Serif: about 25% wider).
 	legend := p.Legend
+	var width vg.Length
+	for _, e := range entries {
+		width = max(width, legend.TextStyle.Width(e))
+	}
+	width = width*4/3 + legend.ThumbnailWidth + legend.XOffs + vg.Points(12)
 	p.Legend = plot.NewLegend()
-	p.Draw(draw.Crop(dc, 0, -legendWidth, 0, 0))
-	legend.Draw(draw.Crop(dc, dc.Max.X-dc.Min.X-legendWidth+vg.Points(6), 0, 0, -vg.Points(30)))
+	p.Draw(draw.Crop(dc, 0, -width, 0, 0))
+	legend.Draw(draw.Crop(dc, dc.Max.X-dc.Min.X-width+vg.Points(6), 0, 0, -vg.Points(30)))
 	return nil
+}
+
+// mergeLabels gives points drawn at one place (sizes and perplexities
+// equal to 4 digits: thresholds too small to remove anything) one label,
+// "smallest to largest" threshold, so that labels never print over each other.
+// The points are sorted by size.
+func mergeLabels(xys plotter.XYs, names []string) (plotter.XYs, []string) {
+	var at plotter.XYs
+	var out []string
+	same := func(a, b plotter.XY) bool {
+		return math.Abs(a.X-b.X) <= 1e-4*math.Abs(a.X) && math.Abs(a.Y-b.Y) <= 1e-4*math.Abs(a.Y)
+	}
+	for i := 0; i < len(xys); {
+		j := i + 1
+		for j < len(xys) && same(xys[i], xys[j]) {
+			j++
+		}
+		label := names[i]
+		if j-i > 1 {
+			lo, hi := names[i], names[i]
+			for _, n := range names[i+1 : j] {
+				if less(n, lo) {
+					lo = n
+				}
+				if less(hi, n) {
+					hi = n
+				}
+			}
+			label = lo + " to " + hi
+		}
+		at = append(at, xys[i])
+		out = append(out, label)
+		i = j
+	}
+	return at, out
+}
+
+// less orders two thresholds written with %g.
+func less(a, b string) bool {
+	x, _ := strconv.ParseFloat(a, 64)
+	y, _ := strconv.ParseFloat(b, 64)
+	return x < y
+}
+
+// sizeTicks marks a logarithmic size axis at 1, 2 and 5 times each power
+// of ten, labelled, with unlabelled minor ticks between, so that a range
+// narrower than a decade still carries numbers.
+type sizeTicks struct{}
+
+// Ticks implements plot.Ticker.
+func (sizeTicks) Ticks(lo, hi float64) []plot.Tick {
+	if !(lo > 0) || !(hi > lo) {
+		return nil
+	}
+	var ticks []plot.Tick
+	for e := math.Floor(math.Log10(lo)); math.Pow(10, e) <= hi; e++ {
+		base := math.Pow(10, e)
+		for m := 1; m <= 9; m++ {
+			v := float64(m) * base
+			if v < lo || v > hi {
+				continue
+			}
+			t := plot.Tick{Value: v}
+			if m == 1 || m == 2 || m == 5 {
+				t.Label = strconv.FormatFloat(v, 'g', -1, 64)
+			}
+			ticks = append(ticks, t)
+		}
+	}
+	return ticks
 }
 
 func plotColor(i int) color.RGBA {
