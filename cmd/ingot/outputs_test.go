@@ -14,6 +14,8 @@ import (
 	"syscall"
 	"testing"
 
+	"ingot/format/keys"
+
 	"github.com/klauspost/compress/gzip"
 )
 
@@ -131,11 +133,11 @@ func TestKeygenRace(t *testing.T) {
 		if wins != 1 {
 			t.Fatalf("round %d: %d keygens reported success (exit codes %v)", round, wins, codes)
 		}
-		priv, err := readPrivateKey(name + ".key")
+		priv, err := keys.ReadPrivate(name + ".key")
 		if err != nil {
 			t.Fatal(err)
 		}
-		pub, err := readPublicKey(name + ".pub")
+		pub, err := keys.ReadPublic(name + ".pub")
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -3,8 +3,6 @@ package main
 import (
 	"crypto/ed25519"
 	"crypto/rand"
-	"crypto/x509"
-	"encoding/pem"
 	"fmt"
 	"io"
 	"os"
@@ -13,6 +11,7 @@ import (
 
 	"ingot/format"
 	"ingot/format/files"
+	"ingot/format/keys"
 )
 
 func newKeygenCmd() *cobra.Command {
@@ -40,15 +39,7 @@ artifacts you ship. An existing key is never overwritten.`,
 					return fmt.Errorf("keygen: %w", err)
 				}
 			}
-			pub, priv, err := ed25519.GenerateKey(rand.Reader)
-			if err != nil {
-				return fmt.Errorf("keygen: %w", err)
-			}
-			privDER, err := x509.MarshalPKCS8PrivateKey(priv)
-			if err != nil {
-				return fmt.Errorf("keygen: %w", err)
-			}
-			pubDER, err := x509.MarshalPKIXPublicKey(pub)
+			pair, err := keys.Generate(rand.Reader)
 			if err != nil {
 				return fmt.Errorf("keygen: %w", err)
 			}
@@ -57,25 +48,22 @@ artifacts you ship. An existing key is never overwritten.`,
 			// leave nothing of theirs, so NAME.key and NAME.pub always match.
 			ctx := cmd.Context()
 			if err := writeOutputMode(ctx, name+".key", 0o600, true, nil, func(w io.Writer) error {
-				return pem.Encode(w, &pem.Block{Type: "PRIVATE KEY", Bytes: privDER})
+				_, err := w.Write(pair.Private)
+				return err
 			}); err != nil {
 				return fmt.Errorf("keygen: %w", err)
 			}
 			if err := writeOutputMode(ctx, name+".pub", 0o666, true, nil, func(w io.Writer) error {
-				return pem.Encode(w, &pem.Block{Type: "PUBLIC KEY", Bytes: pubDER})
+				_, err := w.Write(pair.Public)
+				return err
 			}); err != nil {
 				os.Remove(name + ".key")
 				return fmt.Errorf("keygen: %w (%s.key removed)", err, name)
 			}
-			id := format.KeyID(pub)
 			if asJSON {
-				return writeJSON(cmd.OutOrStdout(), struct {
-					PrivateKey string `json:"private_key"`
-					PublicKey  string `json:"public_key"`
-					KeyID      string `json:"key_id"`
-				}{name + ".key", name + ".pub", fmt.Sprintf("%x", id)})
+				return writeJSON(cmd.OutOrStdout(), keys.KeygenReport{PrivateKey: name + ".key", PublicKey: name + ".pub", KeyID: keys.ID(pair.ID)})
 			}
-			fmt.Fprintf(cmd.OutOrStdout(), "wrote %s.key (private) and %s.pub (public), key id %x\n", name, name, id[:8])
+			fmt.Fprintf(cmd.OutOrStdout(), "wrote %s.key (private) and %s.pub (public), key id %x\n", name, name, pair.ID[:8])
 			return nil
 		},
 	}
@@ -100,9 +88,9 @@ before is re-signed. The file is replaced atomically.`,
 		Example: `  ingot sign --key release.key field.ingot`,
 		Args:    cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
-			priv, err := readPrivateKey(keyPath)
+			priv, err := keys.ReadPrivate(keyPath)
 			if err != nil {
-				return err
+				return fmt.Errorf("sign: --key: %w", err)
 			}
 			data, err := files.ReadRegular(args[0])
 			if err != nil {
@@ -120,10 +108,7 @@ before is re-signed. The file is replaced atomically.`,
 			}
 			id := format.KeyID(priv.Public().(ed25519.PublicKey))
 			if asJSON {
-				return writeJSON(cmd.OutOrStdout(), struct {
-					Model string `json:"model"`
-					KeyID string `json:"key_id"`
-				}{args[0], fmt.Sprintf("%x", id)})
+				return writeJSON(cmd.OutOrStdout(), keys.SignReport{Model: args[0], KeyID: keys.ID(id)})
 			}
 			fmt.Fprintf(cmd.OutOrStdout(), "signed %s with key id %x\n", args[0], id[:8])
 			return nil
@@ -133,52 +118,4 @@ before is re-signed. The file is replaced atomically.`,
 	cmd.Flags().BoolVar(&asJSON, "json", false, "report the model signed and the key id as JSON")
 	cmd.MarkFlagRequired("key")
 	return cmd
-}
-
-// maxKeyFile caps what is read of a key file: a PEM Ed25519 key is about
-// 120 bytes.
-const maxKeyFile = 64 << 10
-
-func readPEM(path, want string) ([]byte, error) {
-	b, err := files.ReadCapped(path, maxKeyFile)
-	if err != nil {
-		return nil, err
-	}
-	block, _ := pem.Decode(b)
-	if block == nil || block.Type != want {
-		return nil, fmt.Errorf("%s: not a PEM %s", path, want)
-	}
-	return block.Bytes, nil
-}
-
-func readPrivateKey(path string) (ed25519.PrivateKey, error) {
-	der, err := readPEM(path, "PRIVATE KEY")
-	if err != nil {
-		return nil, fmt.Errorf("--key: %w", err)
-	}
-	k, err := x509.ParsePKCS8PrivateKey(der)
-	if err != nil {
-		return nil, fmt.Errorf("--key %s: %w", path, err)
-	}
-	priv, ok := k.(ed25519.PrivateKey)
-	if !ok {
-		return nil, fmt.Errorf("--key %s: not an Ed25519 key", path)
-	}
-	return priv, nil
-}
-
-func readPublicKey(path string) (ed25519.PublicKey, error) {
-	der, err := readPEM(path, "PUBLIC KEY")
-	if err != nil {
-		return nil, fmt.Errorf("--public-key: %w", err)
-	}
-	k, err := x509.ParsePKIXPublicKey(der)
-	if err != nil {
-		return nil, fmt.Errorf("--public-key %s: %w", path, err)
-	}
-	pub, ok := k.(ed25519.PublicKey)
-	if !ok {
-		return nil, fmt.Errorf("--public-key %s: not an Ed25519 key", path)
-	}
-	return pub, nil
 }

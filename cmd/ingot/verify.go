@@ -13,6 +13,7 @@ import (
 
 	"ingot/compile/input"
 	"ingot/format"
+	"ingot/format/keys"
 	"ingot/verify"
 	"ingot/verify/gate"
 )
@@ -121,9 +122,9 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 
 	var pub []byte
 	if f.publicKey != "" {
-		key, err := readPublicKey(f.publicKey)
+		key, err := keys.ReadPublic(f.publicKey)
 		if err != nil {
-			return fmt.Errorf("verify: %w", err)
+			return fmt.Errorf("verify: --public-key: %w", err)
 		}
 		pub = key
 	}
