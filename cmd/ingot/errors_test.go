@@ -34,8 +34,12 @@ func TestErrorsSpeakWithOneVoice(t *testing.T) {
 		{"quantize", "--bits", "8", "--trainer", "guess", "-o", "$D/out", "$M"},
 		{"score", "$D/absent.ingot"},
 		{"tradeoff", "$M"},
-		{"help", "frobnicate"}, // the framework's "Unknown help topic", exit 0
-		{"completion", "tcsh"}, // the framework's help, exit 0
+		{"help", "frobnicate"},        // the framework's "Unknown help topic", exit 0
+		{"completion", "tcsh"},        // the framework's help, exit 0
+		{"compile", "--order", "abc"}, // a flag's value the parser refuses
+		{"count", "--order", "3", "--min-word-count", "-1"},
+		{"score", "--json=maybe", "$M"},
+		{"compile", "-o"}, // a flag without its value
 	}
 	for _, tc := range badInputTable {
 		cases = append(cases, tc.args)
@@ -59,7 +63,7 @@ func TestErrorsSpeakWithOneVoice(t *testing.T) {
 		if s := stutter(line); s != "" {
 			t.Errorf("%v: %q repeats a prefix (%q)", args, line, s)
 		}
-		for _, framework := range []string{"arg(s)", "flag(s)", ` for "ingot`} {
+		for _, framework := range []string{"arg(s)", "flag(s)", ` for "ingot`, "strconv.", "invalid syntax", "flag needs an argument", "invalid argument"} {
 			if strings.Contains(line, framework) {
 				t.Errorf("%v: %q speaks in the framework's words (%q)", args, line, framework)
 			}

@@ -109,7 +109,7 @@ internal error (a bug), 134 (SIGABRT) a fatal runtime error.`,
 		if msg, ok := renamedFlag(c, err); ok {
 			return errors.New(msg)
 		}
-		return fmt.Errorf("%w (see '%s --help')", err, c.CommandPath())
+		return fmt.Errorf("%s (see '%s --help')", flagProblem(err), c.CommandPath())
 	})
 	root.AddCommand(
 		newCountCmd(),

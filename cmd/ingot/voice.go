@@ -104,6 +104,40 @@ var renamedFlags = map[string]string{
 	"verify --max-ppl-increase": "--max-perplexity-increase",
 }
 
+// flagProblem words the framework's refusal of a flag's value in our
+// terms: the flag, the value and what it should be, without the parser's
+// internals ("strconv.ParseInt: parsing ...: invalid syntax").
+func flagProblem(err error) string {
+	msg := err.Error()
+	if m := badFlagValue.FindStringSubmatch(msg); m != nil {
+		value, flag, why := m[1], m[2], m[3]
+		want := "a valid value"
+		switch {
+		case strings.Contains(why, "ParseUint"):
+			want = "a whole number, 0 or more"
+		case strings.Contains(why, "ParseInt"):
+			want = "a whole number"
+		case strings.Contains(why, "ParseFloat"):
+			want = "a number"
+		case strings.Contains(why, "ParseBool"):
+			want = "true or false"
+		}
+		if strings.Contains(why, "out of range") {
+			want += " in range"
+		}
+		return fmt.Sprintf("%s %q: want %s", flag, value, want)
+	}
+	if m := missingFlagValue.FindStringSubmatch(msg); m != nil {
+		return fmt.Sprintf("%s needs a value", m[1])
+	}
+	return msg
+}
+
+var (
+	badFlagValue     = regexp.MustCompile(`^invalid argument "(.*)" for "([^"]+)" flag: (.*)$`)
+	missingFlagValue = regexp.MustCompile(`^flag needs an argument: (?:'.' in )?(-\S+)$`)
+)
+
 // renamedFlag returns the message for an unknown flag that was renamed.
 func renamedFlag(c *cobra.Command, err error) (string, bool) {
 	old, ok := strings.CutPrefix(err.Error(), "unknown flag: ")
