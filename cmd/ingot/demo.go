@@ -102,9 +102,9 @@ func runDemo(ctx context.Context, stdout, stderr io.Writer, dir string) error {
 		{"Look inside the shipped file.",
 			[]string{"inspect", "--stats", path("device.ingot")}, ""},
 		{"Explain one probability: how likely is \"on\" after \"turn the beacon\"?",
-			[]string{"explain", path("device.ingot"), "turn the beacon on"}, ""},
+			[]string{"explain", path("device.ingot"), "turn", "the", "beacon", "on"}, ""},
 		{"Explain a word sequence never heard in training, to see the back-off at work.",
-			[]string{"explain", path("device.ingot"), "navigate to the beacon"}, ""},
+			[]string{"explain", path("device.ingot"), "navigate", "to", "the", "beacon"}, ""},
 	}
 	n := 0
 	for _, st := range steps {
