@@ -2,6 +2,7 @@ package main
 
 import (
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 
@@ -35,6 +36,29 @@ func checkOutputDir(command, dir string, names []string, inputs ...string) error
 		return nil
 	}
 	return checkOutput(command, dir, inputs...)
+}
+
+// notToStdout refuses "-o -" for a command whose report measures or
+// scores the file it wrote (prune, quantize, interpolate): standard output
+// cannot be measured, and the report would be mixed into the model.
+func notToStdout(command, out string) error {
+	if out == "-" {
+		return fmt.Errorf("%s: -o -: the report measures the written file; name a file", command)
+	}
+	return nil
+}
+
+// reportTo is where a command that writes out prints its report: standard
+// error when the output itself goes to standard output ("-o -"), so that
+// the output stream holds the output alone.
+func reportTo(cmd interface {
+	OutOrStdout() io.Writer
+	ErrOrStderr() io.Writer
+}, out string) io.Writer {
+	if out == "-" {
+		return cmd.ErrOrStderr()
+	}
+	return cmd.OutOrStdout()
 }
 
 // checkHeldout reads held-out text through once, before the work, so that

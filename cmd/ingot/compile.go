@@ -165,7 +165,7 @@ perplexity, listing what it compared.`,
 						return err
 					}
 					pr.done()
-					return printReport(cmd.OutOrStdout(), m.Result.Report, out, asJSON)
+					return printReport(reportTo(cmd, out), m.Result.Report, out, asJSON)
 				}
 				log.Warn("the counts may not fit --memory: --vocabulary, --min-count and --max-size hold them in memory", "memory", memory)
 			}
@@ -191,9 +191,9 @@ perplexity, listing what it compared.`,
 			}
 			pr.done()
 			if res.Fit != nil {
-				return printBudgetReport(cmd.OutOrStdout(), res.Fit, run.Budget.MaxBytes, res.Estimate.Method, res.Estimate.Order, out, asJSON)
+				return printBudgetReport(reportTo(cmd, out), res.Fit, run.Budget.MaxBytes, res.Estimate.Method, res.Estimate.Order, out, asJSON)
 			}
-			return printReport(cmd.OutOrStdout(), res.Report, out, asJSON)
+			return printReport(reportTo(cmd, out), res.Report, out, asJSON)
 		},
 	}
 	f := cmd.Flags()

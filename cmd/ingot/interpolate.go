@@ -51,6 +51,9 @@ the written model on --heldout TEXT (default: the --fit text).`,
 					return fmt.Errorf("interpolate: --weights: %w", err)
 				}
 			}
+			if err := notToStdout("interpolate", out); err != nil {
+				return err
+			}
 			if heldout == "" {
 				heldout = fit
 			}

@@ -14,6 +14,7 @@ import (
 	"syscall"
 	"testing"
 
+	"ingot/format"
 	"ingot/format/keys"
 
 	"github.com/klauspost/compress/gzip"
@@ -253,5 +254,37 @@ func TestTradeoffProgressOnlyOnATerminal(t *testing.T) {
 	}
 	if stderr != "" {
 		t.Errorf("stderr is not a terminal but got %q", stderr)
+	}
+}
+
+// compile -o - writes the model alone to standard output (it opens as a
+// model and holds what -o FILE writes, but for the command line its
+// history records) and its report to standard error; prune -o - is refused
+// before any work (the bad-input table), never a crash.
+func TestCompileToStandardOutput(t *testing.T) {
+	dir := t.TempDir()
+	counts := filepath.Join(dir, "c.tsv")
+	if code, _, e := ingot(t, "count", "--order", "3", "--text", "-o", counts, writeFile(t, dir, "t.txt", demoTraining)); code != 0 {
+		t.Fatal(e)
+	}
+	file := filepath.Join(dir, "f.ingot")
+	if code, _, e := ingot(t, "compile", "--method", "katz", "--order", "3", "-o", file, counts); code != 0 {
+		t.Fatal(e)
+	}
+	code, stdout, stderr := ingot(t, "compile", "--method", "katz", "--order", "3", "-o", "-", counts)
+	if code != 0 || !strings.Contains(stderr, "wrote -") {
+		t.Fatalf("exit %d, stderr %q", code, stderr)
+	}
+	m, err := format.FromBytes([]byte(stdout))
+	if err != nil {
+		t.Fatalf("standard output is not a model: %v", err)
+	}
+	f, err := format.Open(file)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	if m.Order() != 3 || m.VocabSize() != f.VocabSize() || m.Count(3) != f.Count(3) {
+		t.Errorf("standard output: order %d, %d words, %d trigrams; the file: %d words, %d trigrams", m.Order(), m.VocabSize(), m.Count(3), f.VocabSize(), f.Count(3))
 	}
 }

@@ -67,6 +67,9 @@ held-out text.`,
 					return err
 				}
 			}
+			if err := notToStdout("prune", out); err != nil {
+				return err
+			}
 			// -o may name the model itself (it is read whole first and
 			// replaced atomically), never the held-out text.
 			if err := checkOutput("prune", out, heldout); err != nil {

@@ -72,6 +72,9 @@ back-off codebook is widened where that needs it); 'ingot verify' allows
 			if err != nil {
 				return err
 			}
+			if err := notToStdout("quantize", out); err != nil {
+				return err
+			}
 			// -o may name the model itself (it is read whole first and
 			// replaced atomically), never the held-out text.
 			if err := checkOutput("quantize", out, heldout); err != nil {
