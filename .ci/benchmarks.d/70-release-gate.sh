@@ -6,6 +6,7 @@
 set -euo pipefail
 load=$(cut -d' ' -f1-3 /proc/loadavg)
 out=$(go test ./verify/gate -run '^$' -bench 'BenchmarkReleaseGate' -benchtime 1x -timeout 90m)
+end=$(cut -d' ' -f1-3 /proc/loadavg)
 metric() { # metric LINE UNIT: the value printed before UNIT
 	awk -v u="$2" '{for (i = 2; i <= NF; i++) if ($i == u) print $(i-1)}' <<<"$1"
 }
@@ -17,8 +18,9 @@ echo "at every prediction, in time linear in the stored n-grams each prediction"
 echo "touches. Baseline: modified Kneser-Ney of order N; candidate: order N-1"
 echo "from the same counts. The last column is the divergence alone against the"
 echo "former computation over the whole vocabularies, on the same 20 sentences"
-echo "in the same process. One run each; load average when this section"
-echo "started: $load."
+echo "in the same process. One run each, wall time; load average when this"
+echo "section started: $load; when its run ended: $end (the machine's 2 cores"
+echo "are shared: at a load of 20 a run gets about a tenth of a core)."
 echo
 echo "| text | order | words | held-out sentences | whole gate | divergence, times faster |"
 echo "| --- | --- | ---: | ---: | ---: | ---: |"
