@@ -139,10 +139,13 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 	var res *gate.Result
 	if gated {
 		var check verify.Check
-		// On a terminal, a line that counts the held-out sentences done.
+		// On a terminal, a line that counts the held-out sentences done,
+		// redrawn every half second.
 		tty, start, done := newProgress(cmd.ErrOrStderr()).w, time.Now(), 0
+		var shown time.Time
 		progress := func(sentences int) {
-			if done = sentences; tty != nil && sentences%500 == 0 {
+			if done = sentences; tty != nil && time.Since(shown) >= time.Second/2 {
+				shown = time.Now()
 				fmt.Fprintf(tty, "\rrelease gate: %d held-out sentences scored and compared, %.0fs", sentences, time.Since(start).Seconds())
 			}
 		}
