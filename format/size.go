@@ -5,7 +5,8 @@ import (
 )
 
 // Planned says how FileSize should count a model's columns when they are
-// to be quantized later: codebooks of ProbLevels levels for the
+// to be quantized later: codebooks of UnigramLevels levels for the
+// probabilities of order 1, of ProbLevels levels for the
 // probabilities of orders 2 and up and of BackoffLevels for the back-off
 // weights of the orders below the top (0 for either: the column as the
 // tables hold it), and the build information the written file will carry
@@ -13,8 +14,8 @@ import (
 // stored only where the entry has children, as a quantized model whose
 // codebooks are not yet known is shaped.
 type Planned struct {
-	ProbLevels, BackoffLevels int
-	Info                      *tables.Info
+	UnigramLevels, ProbLevels, BackoffLevels int
+	Info                                     *tables.Info
 }
 
 // FileSize returns the number of bytes Write produces for t, computed from
@@ -76,9 +77,9 @@ func FileSize(t *tables.Tables, plan Planned) (int64, error) {
 			}
 			lengths = append(lengths, efLength(uint64(nk), last))
 		}
-		probLevels := 0
-		if k >= 2 {
-			probLevels = plan.ProbLevels
+		probLevels := plan.ProbLevels
+		if k == 1 {
+			probLevels = plan.UnigramLevels
 		}
 		column(nk, lv.ProbCodebook, probLevels)
 		if k < n {

@@ -87,7 +87,9 @@ func values(t *testing.T, m *format.Model, lines []line) []line {
 		}
 		if l.ProbIndex != nil {
 			cb := m.Codebook(l.Order, false)
-			if *l.ProbIndex >= len(cb) || l.Log10Prob == nil || float64(cb[*l.ProbIndex]) != float64(float32(*l.Log10Prob)) {
+			// A null probability is -Inf (the unigram <s>): its level must be -Inf.
+			if *l.ProbIndex >= len(cb) || (l.Log10Prob == nil && !math.IsInf(float64(cb[*l.ProbIndex]), -1)) ||
+				(l.Log10Prob != nil && float64(cb[*l.ProbIndex]) != float64(float32(*l.Log10Prob))) {
 				t.Errorf("%q: probability index %d does not name %v", l.NGram, *l.ProbIndex, l.Log10Prob)
 			}
 		}

@@ -91,8 +91,8 @@ func TestSummarizeQuantizedAndSigned(t *testing.T) {
 	if q.Bits != 8 || q.BackoffBits != 8 || q.Trainer != "least-squares" || len(q.Orders) != 3 {
 		t.Errorf("quantization %+v", q)
 	}
-	// Unigram probabilities stay float32; the top order has no back-offs.
-	if o := q.Orders[0]; o.ProbLevels != 0 || o.BackoffLevels < 2 || o.BackoffLevels > 256 {
+	// Unigram probabilities have a codebook of their own; the top order has no back-offs.
+	if o := q.Orders[0]; o.ProbLevels < 2 || o.ProbLevels > 256 || o.BackoffLevels < 2 || o.BackoffLevels > 256 {
 		t.Errorf("order 1: %+v", o)
 	}
 	if o := q.Orders[2]; o.ProbLevels < 2 || o.ProbLevels > 256 || o.BackoffLevels != 0 || !(o.ProbMaxError > 0) {

@@ -3,6 +3,7 @@ package quantize
 import (
 	"fmt"
 	"math"
+	"math/bits"
 	"slices"
 
 	"ingot/compile/tables"
@@ -15,6 +16,9 @@ type Options struct {
 	// BackoffBits is the index width of the back-off weights of orders
 	// 1..N-1 (2 to 16); 0 means DefaultBackoffBits(Bits).
 	BackoffBits int
+	// UnigramBits is the index width of the unigram probabilities (2 to
+	// 16); 0 means DefaultUnigramBits(Bits).
+	UnigramBits int
 	// Trainer builds the codebooks.
 	Trainer Trainer
 
@@ -22,6 +26,9 @@ type Options struct {
 	// fixedBackoffBits keeps BackoffBits even where a context stays more
 	// than MaxResidual from one (tests measure the joint choice alone).
 	fixedBackoffBits bool
+	// floatUnigrams keeps order 1 in float32 (tests measure what
+	// quantizing it costs).
+	floatUnigrams bool
 	// nearestOnly rounds each weight to its nearest level and moves no
 	// probability (tests compare the joint choice against it).
 	nearestOnly bool
@@ -32,10 +39,24 @@ type Options struct {
 // weights' rounding is what moves a context's total away from one.
 func DefaultBackoffBits(bits int) int { return max(bits, 8) }
 
+// DefaultUnigramBits returns the unigram width used when none is given:
+// that of the probabilities, but at least 8 bits, because the unigrams
+// alone make up the empty context, whose sum no back-off weight can
+// correct.
+func DefaultUnigramBits(bits int) int { return max(bits, 8) }
+
+// UnigramsPay reports whether v unigram probabilities take fewer bits
+// quantized, as a codebook of the given number of float32 levels plus
+// one index of ceil(log2 levels) bits per word, than as v float32 values.
+// A small vocabulary keeps its unigrams in float32.
+func UnigramsPay(v, levels int) bool {
+	return 32*levels+v*bits.Len(uint(max(levels, 2)-1)) < 32*v
+}
+
 // OrderReport describes the codebooks of one order.
 type OrderReport struct {
 	Order int
-	// Probability codebook (nil at order 1, which stays float32).
+	// Probability codebook.
 	ProbLevels      int
 	ProbStep        float64 // largest gap between neighbouring levels (log10)
 	ProbMaxError    float64 // largest |quantized - original| (log10)
@@ -54,8 +75,10 @@ type OrderReport struct {
 //     whole n-gram, P(h w) = P(h) P(w|h), so that levels go where text will
 //     use them (the trainer then minimises the expected squared log10
 //     error); the order's smallest value is added as a level of its own, and
-//     every probability replaced by its nearest level (order 1 stays
-//     float32, so the empty context stays exact). A context whose quantized
+//     every probability replaced by its nearest level (order 1 gets a
+//     codebook of its own, 2^UnigramBits levels, and its rounding is
+//     compensated so that the empty context sums to one: see
+//     quantizeUnigrams). A context whose quantized
 //     probabilities would leave no mass to back off with has all its
 //     probabilities rounded down instead (the added level makes that always
 //     possible);
@@ -81,7 +104,10 @@ func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error)
 	if opt.BackoffBits == 0 {
 		opt.BackoffBits = DefaultBackoffBits(opt.Bits)
 	}
-	for _, b := range []int{opt.Bits, opt.BackoffBits} {
+	if opt.UnigramBits == 0 {
+		opt.UnigramBits = DefaultUnigramBits(opt.Bits)
+	}
+	for _, b := range []int{opt.Bits, opt.BackoffBits, opt.UnigramBits} {
 		if b < 2 || b > 16 {
 			return nil, nil, fmt.Errorf("quantize: %d bits asked for; from 2 to 16 are supported", b)
 		}
@@ -107,6 +133,12 @@ func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error)
 	}
 	qi := &tables.Quantization{Trainer: string(opt.Trainer), Bits: opt.Bits, BackoffBits: opt.BackoffBits,
 		ProbMaxError: make([]float64, N), BackoffMaxError: make([]float64, N), Residual: make([]float64, N)}
+	if !opt.floatUnigrams {
+		opt.weights = mass[0]
+		if err := quantizeUnigrams(q, opt, &reports[0]); err != nil {
+			return nil, nil, err
+		}
+	}
 	sums := &contextSums{}
 	for _, p := range q.Levels[0].LogProb {
 		sums.empty += math.Pow(10, float64(p)) // <s> stores -Inf: adds 0
@@ -119,7 +151,7 @@ func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error)
 	for k, r := range reports {
 		// The compensation moves some probabilities by a level: measure the
 		// final error against the original values.
-		if k >= 1 {
+		{
 			r.ProbMaxError = maxError(asFloat64(t.Levels[k].LogProb), q.Levels[k].LogProb)
 			reports[k].ProbMaxError = r.ProbMaxError
 		}
@@ -128,9 +160,77 @@ func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error)
 		qi.Residual[k] = r.Residual
 	}
 	q.Info.Quantization = qi
-	q.Info.History = append(q.Info.History, fmt.Sprintf("quantized: probabilities %d bits, back-off weights %d bits, %s codebooks",
-		opt.Bits, opt.BackoffBits, opt.Trainer))
+	q.Info.History = append(q.Info.History, fmt.Sprintf("quantized: probabilities %d bits, back-off weights %d bits, unigrams %d bits, %s codebooks",
+		opt.Bits, opt.BackoffBits, opt.UnigramBits, opt.Trainer))
 	return q, reports, nil
+}
+
+// quantizeUnigrams quantizes the probabilities of order 1 (when that
+// takes fewer bytes than float32: UnigramsPay), which alone
+// make up the empty context: a codebook of 2^UnigramBits - 1 levels is
+// trained on the finite values, each weighted by its probability (a -Inf
+// value, the unigram <s>, gets a level of its own), every value is
+// replaced by its nearest level, and then values are moved a level at a
+// time, largest first, while that brings the sum of the unigram
+// probabilities closer to one (the compensator of the back-off step, with
+// one as the target). Small probabilities come last, so the left-over
+// error is about one level step of the smallest ones. When the sum stays
+// further than MaxResidual from one, the unigrams are quantized again
+// with two more bits, up to 16.
+func quantizeUnigrams(q *tables.Tables, opt Options, rep *OrderReport) error {
+	lv := &q.Levels[0]
+	orig := slices.Clone(lv.LogProb)
+	var finite, weights []float64
+	var at []int // positions of the finite values
+	hasInf := false
+	for i, p := range orig {
+		if math.IsInf(float64(p), -1) {
+			hasInf = true
+			continue
+		}
+		finite = append(finite, float64(p))
+		weights = append(weights, opt.weights[i])
+		at = append(at, i)
+	}
+	if len(finite) == 0 {
+		return nil // nothing a codebook could stand for: order 1 stays float32
+	}
+	for bits := opt.UnigramBits; ; bits = min(bits+2, 16) {
+		levels := 1<<bits - 1
+		if !hasInf {
+			levels++
+		}
+		trained, err := TrainWeighted(finite, weights, min(levels, max(len(finite), MinLevels)), opt.Trainer)
+		if err != nil {
+			return fmt.Errorf("quantize: probabilities of order 1: %w", err)
+		}
+		values := slices.Clone(trained.Values)
+		cb := Codebook{Values: values}
+		if hasInf {
+			cb.Values = append([]float32{float32(math.Inf(-1))}, values...)
+		}
+		rounded := make([]float32, len(at))
+		for x, v := range finite {
+			rounded[x] = trained.Values[trained.index(v)]
+		}
+		comp := newCompensator(Codebook{Values: trained.Values})
+		sum := comp.start(rounded)
+		residual := comp.moveTo(rounded, sum, 1)
+		copy(lv.LogProb, orig)
+		for x, i := range at {
+			lv.LogProb[i] = rounded[x]
+		}
+		if !UnigramsPay(len(orig), cb.Len()) {
+			copy(lv.LogProb, orig) // a small vocabulary: float32 takes less
+			return nil
+		}
+		lv.ProbCodebook = cb.Values
+		rep.ProbLevels = cb.Len()
+		rep.ProbStep = trained.LargestGap()
+		if residual <= MaxResidual || bits == 16 {
+			return nil
+		}
+	}
 }
 
 func copyTables(t *tables.Tables) *tables.Tables {
@@ -215,6 +315,9 @@ func floorIndex(cb Codebook, v float64) int {
 func maxError(orig []float64, q []float32) float64 {
 	var m float64
 	for i, v := range orig {
+		if float64(q[i]) == v { // -Inf stays -Inf
+			continue
+		}
 		m = max(m, math.Abs(float64(q[i])-v))
 	}
 	return m
@@ -453,6 +556,17 @@ func (c *compensator) start(values []float32) float64 {
 // back off with); it writes the chosen levels into out and returns the
 // remaining |sum - target|.
 func (c *compensator) move(out []float32, sum, target float64) float64 {
+	return c.shift(out, sum, target, 1)
+}
+
+// moveTo is move for a distribution that backs off to nothing (the
+// unigrams): the sum may reach the target of one but not pass it by more
+// than it comes closer.
+func (c *compensator) moveTo(out []float32, sum, target float64) float64 {
+	return c.shift(out, sum, target, math.Inf(1))
+}
+
+func (c *compensator) shift(out []float32, sum, target, ceiling float64) float64 {
 	c.work = append(c.work[:0], c.idx...)
 	for pass := 0; pass < 4; pass++ {
 		changed := false
@@ -467,7 +581,7 @@ func (c *compensator) move(out []float32, sum, target float64) float64 {
 				continue
 			}
 			delta := c.pow[next] - c.pow[j]
-			if math.Abs(d-delta) < math.Abs(d) && sum+delta < 1 {
+			if math.Abs(d-delta) < math.Abs(d) && sum+delta < ceiling {
 				c.work[x] = next
 				sum += delta
 				changed = true
@@ -493,6 +607,9 @@ func Placeholder(t *tables.Tables, opt Options) *tables.Tables {
 	if opt.BackoffBits == 0 {
 		opt.BackoffBits = DefaultBackoffBits(opt.Bits)
 	}
+	if opt.UnigramBits == 0 {
+		opt.UnigramBits = DefaultUnigramBits(opt.Bits)
+	}
 	N := t.Order()
 	q := &tables.Tables{Vocab: t.Vocab, Info: PlaceholderInfo(t.Info, N, opt), Levels: make([]tables.Level, N)}
 	book := func(bits int) []float32 {
@@ -508,6 +625,9 @@ func Placeholder(t *tables.Tables, opt Options) *tables.Tables {
 		if k >= 2 {
 			lv.LogProb = make([]float32, len(src.LogProb))
 			lv.ProbCodebook = book(opt.Bits)
+		} else if UnigramsPay(len(src.LogProb), 1<<opt.UnigramBits) {
+			lv.LogProb = make([]float32, len(src.LogProb))
+			lv.ProbCodebook = book(opt.UnigramBits)
 		}
 		if k < N {
 			lv.LogBackoff = make([]float32, len(src.LogBackoff))
@@ -525,6 +645,9 @@ func PlaceholderInfo(info tables.Info, n int, opt Options) tables.Info {
 	if opt.BackoffBits == 0 {
 		opt.BackoffBits = DefaultBackoffBits(opt.Bits)
 	}
+	if opt.UnigramBits == 0 {
+		opt.UnigramBits = DefaultUnigramBits(opt.Bits)
+	}
 	long := -1.2345678901234567e-123 // as long as a float64 gets in JSON
 	qi := &tables.Quantization{Trainer: string(opt.Trainer), Bits: opt.Bits, BackoffBits: opt.BackoffBits}
 	for range n {
@@ -533,7 +656,7 @@ func PlaceholderInfo(info tables.Info, n int, opt Options) tables.Info {
 		qi.Residual = append(qi.Residual, long)
 	}
 	info.Quantization = qi
-	info.History = append(slices.Clip(info.History), fmt.Sprintf("quantized: probabilities %d bits, back-off weights %d bits, %s codebooks",
-		opt.Bits, opt.BackoffBits, opt.Trainer))
+	info.History = append(slices.Clip(info.History), fmt.Sprintf("quantized: probabilities %d bits, back-off weights %d bits, unigrams %d bits, %s codebooks",
+		opt.Bits, opt.BackoffBits, opt.UnigramBits, opt.Trainer))
 	return info
 }

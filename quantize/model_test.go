@@ -123,3 +123,47 @@ func TestJointChoiceBringsSumsToOne(t *testing.T) {
 		}
 	}
 }
+
+// The unigrams alone make up the empty context, whose sum no back-off
+// weight corrects (law of probability: it sums to one). On State of the
+// Union 3-gram models (CC0) quantized with 4-bit unigram codebooks, whose
+// levels are coarse (nearest-level rounding alone leaves sums off by
+// 1e-3 and more), moving values a level at a time, largest first, keeps
+// the codebook at 4 bits and brings the empty context within MaxResidual
+// of one; the held-out perplexity moves by less than 2% from the model
+// with float32 unigrams (measured: see the log).
+func TestUnigramCodebookKeepsTheEmptyContextNormalised(t *testing.T) {
+	models, held := sotuModels(t, 3000, 3)
+	for _, method := range []estimate.Method{estimate.Katz, estimate.KneserNey} {
+		opt := Options{Bits: 8, UnigramBits: 4, Trainer: LeastSquares}
+		q, _, err := Model(models[method], opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		opt.floatUnigrams = true
+		f, _, err := Model(models[method], opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if f.Levels[0].ProbCodebook != nil {
+			t.Fatalf("%s: float unigrams asked for, but order 1 has a codebook", method)
+		}
+		if n := len(q.Levels[0].ProbCodebook); n == 0 || n > 16 {
+			t.Errorf("%s: unigram codebook has %d levels; 4 bits allow 16", method, n)
+		}
+		var empty float64
+		q.Sums(func(s tables.ContextSum) {
+			if len(s.Context) == 0 {
+				empty = s.Sum
+			}
+		})
+		pq, pf := perplexity(q, held), perplexity(f, held)
+		t.Logf("%s: empty context sums to %.9f; perplexity %.3f with float unigrams, %.3f with 4-bit ones", method, empty, pf, pq)
+		if !(math.Abs(empty-1) <= MaxResidual) {
+			t.Errorf("%s: the empty context sums to %.9f", method, empty)
+		}
+		if pq > 1.02*pf {
+			t.Errorf("%s: 4-bit unigrams cost perplexity %.3f against %.3f", method, pq, pf)
+		}
+	}
+}

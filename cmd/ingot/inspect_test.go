@@ -286,7 +286,11 @@ func TestInspectDumpRoundTrips(t *testing.T) {
 		for _, d := range lines {
 			if d.ProbIndex != nil {
 				indexes++
-				if cb := m.Codebook(d.Order, false); cb[*d.ProbIndex] != float32(*d.Log10Prob) {
+				if cb := m.Codebook(d.Order, false); d.Log10Prob == nil { // -Inf, the unigram <s>
+					if !math.IsInf(float64(cb[*d.ProbIndex]), -1) {
+						t.Errorf("%q: null probability, but index %d names %v", d.NGram, *d.ProbIndex, cb[*d.ProbIndex])
+					}
+				} else if cb[*d.ProbIndex] != float32(*d.Log10Prob) {
 					t.Errorf("%q: index %d names %v, not %v", d.NGram, *d.ProbIndex, cb[*d.ProbIndex], *d.Log10Prob)
 				}
 			}
@@ -405,7 +409,7 @@ func TestExplainShowsQuantization(t *testing.T) {
 	dir := t.TempDir()
 	plain, quantized := inspectDemoModels(t, dir)
 	// "navigate turn </s>": backs off from "turn" (a quantized weight) to the
-	// unigram "</s>" (unigrams stay 32-bit floats).
+	// unigram "</s>" (quantized with a codebook of its own).
 	code, out, e := ingot(t, "explain", "--json", quantized, "navigate turn </s>")
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, e)
@@ -425,7 +429,7 @@ func TestExplainShowsQuantization(t *testing.T) {
 		} `json:"backoffs"`
 	}
 	json.Unmarshal([]byte(out), &ex)
-	if ex.Quantization != nil || len(ex.Backoffs) != 1 {
+	if ex.Quantization == nil || ex.Quantization.QuantizedLog10 != ex.StoredLog10 || len(ex.Backoffs) != 1 {
 		t.Fatalf("explanation %s", out)
 	}
 	q := ex.Backoffs[0].Quantization
@@ -440,7 +444,7 @@ func TestExplainShowsQuantization(t *testing.T) {
 		t.Errorf("matched quantization %+v in %s", q, out)
 	}
 	_, out, _ = ingot(t, "explain", quantized, "navigate turn </s>")
-	for _, w := range []string{"weight quantized: stored as codebook index", "(recorded)", "probability stored as a 32-bit float"} {
+	for _, w := range []string{"weight quantized: stored as codebook index", "(recorded)", "probability quantized: stored as codebook index"} {
 		if !strings.Contains(out, w) {
 			t.Errorf("explain text lacks %q:\n%s", w, out)
 		}

@@ -13,18 +13,19 @@ import (
 
 // quantizeFlags are the quantization options shared by quantize and prune.
 type quantizeFlags struct {
-	bits, backoffBits int
-	trainer           string
+	bits, backoffBits, unigramBits int
+	trainer                        string
 }
 
 func (q *quantizeFlags) register(cmd *cobra.Command, required bool) {
 	f := cmd.Flags()
-	help := "bits per probability index, 2 to 16 (orders 2 and up; unigrams stay 32-bit floats)"
+	help := "bits per probability index, 2 to 16 (orders 2 and up)"
 	if !required {
 		help += "; quantize the result too"
 	}
 	f.IntVar(&q.bits, "bits", 0, help)
 	f.IntVar(&q.backoffBits, "backoff-bits", 0, "bits per back-off weight index, 2 to 16 (default: --bits, at least 8)")
+	f.IntVar(&q.unigramBits, "unigram-bits", 0, "bits per unigram probability index, 2 to 16 (default: --bits, at least 8)")
 	f.StringVar(&q.trainer, "trainer", string(quantize.LeastSquares), "codebook trainer: least-squares (least squared error) or equal-mass (equal weight per level)")
 }
 
@@ -33,15 +34,15 @@ func (q *quantizeFlags) options(cmd string) (quantize.Options, error) {
 	if err != nil {
 		return quantize.Options{}, fmt.Errorf("%s: --trainer: %w", cmd, err)
 	}
-	for name, b := range map[string]int{"--bits": q.bits, "--backoff-bits": q.backoffBits} {
-		if name == "--backoff-bits" && b == 0 {
+	for name, b := range map[string]int{"--bits": q.bits, "--backoff-bits": q.backoffBits, "--unigram-bits": q.unigramBits} {
+		if name != "--bits" && b == 0 {
 			continue
 		}
 		if b < 2 || b > 16 {
 			return quantize.Options{}, fmt.Errorf("%s: %s %d outside 2..16", cmd, name, b)
 		}
 	}
-	return quantize.Options{Bits: q.bits, BackoffBits: q.backoffBits, Trainer: tr}, nil
+	return quantize.Options{Bits: q.bits, BackoffBits: q.backoffBits, UnigramBits: q.unigramBits, Trainer: tr}, nil
 }
 
 func newQuantizeCmd() *cobra.Command {
@@ -52,16 +53,17 @@ func newQuantizeCmd() *cobra.Command {
 		asJSON  bool
 	)
 	cmd := &cobra.Command{
-		Use:   "quantize -o OUT --bits B [--backoff-bits B] [--trainer least-squares|equal-mass] IN",
+		Use:   "quantize -o OUT --bits B [--backoff-bits B] [--unigram-bits B] [--trainer least-squares|equal-mass] IN",
 		Short: "Store log10 probabilities and back-off weights as small codebook indexes",
 		Long: `Quantize a model: per order, a codebook of 2^B log10 probabilities (orders 2
-and up; unigrams stay 32-bit floats) and one of back-off weights, each value
-stored as a B-bit index. The codebooks are trained by exact one-dimensional
+and up; unigrams get one of 2^--unigram-bits levels) and one of back-off
+weights, each value stored as a B-bit index. The codebooks are trained by exact one-dimensional
 k-means (least-squares: Wang & Song 2011, least squared error) or by cutting
 the values into levels of equal weight (equal-mass).
 Back-off weights are recomputed from the quantized probabilities before they
 are quantized themselves, and their rounding is compensated where the
-levels allow, so every context still sums to one within 1e-4 (an order's
+levels allow, so every context still sums to one within 1e-4 (the unigrams too: their
+levels are moved one at a time, largest first, until they do) (an order's
 back-off codebook is widened where that needs it); 'ingot verify' allows
 1e-3 for any quantized model (see the README).`,
 		Example: `  ingot quantize --bits 8 -o field-q8.ingot field.ingot

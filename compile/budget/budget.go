@@ -420,8 +420,15 @@ func PlannedSize(t *tables.Tables, opt quantize.Options) (int64, error) {
 	if opt.BackoffBits == 0 {
 		opt.BackoffBits = quantize.DefaultBackoffBits(opt.Bits)
 	}
+	if opt.UnigramBits == 0 {
+		opt.UnigramBits = quantize.DefaultUnigramBits(opt.Bits)
+	}
 	info := quantize.PlaceholderInfo(t.Info, t.Order(), opt)
-	return format.FileSize(t, format.Planned{ProbLevels: 1 << opt.Bits, BackoffLevels: 1 << opt.BackoffBits, Info: &info})
+	unigrams := 0
+	if quantize.UnigramsPay(t.Len(1), 1<<opt.UnigramBits) {
+		unigrams = 1 << opt.UnigramBits
+	}
+	return format.FileSize(t, format.Planned{UnigramLevels: unigrams, ProbLevels: 1 << opt.Bits, BackoffLevels: 1 << opt.BackoffBits, Info: &info})
 }
 
 // Finish recomputes the back-off weights of a pruned model and quantizes
