@@ -77,17 +77,21 @@ func printBudgetReport(w io.Writer, res *budget.Result, maxBytes int64, method e
 	if len(res.Candidates) > 1 {
 		fmt.Fprintln(w, "orders compared at this budget (held-out perplexity before quantization):")
 		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-		fmt.Fprintln(tw, "order\tfile size\tperplexity\t\t")
+		fmt.Fprintln(tw, "order\tform\tfile size\tperplexity\t\t")
 		for _, c := range res.Candidates {
+			form := c.Form
+			if form == "" {
+				form = "-"
+			}
 			if c.Problem != "" {
-				fmt.Fprintf(tw, "%d\t-\t-\t%s\t\n", c.Order, c.Problem)
+				fmt.Fprintf(tw, "%d\t%s\t-\t-\t%s\t\n", c.Order, form, c.Problem)
 				continue
 			}
 			mark := ""
-			if c.Order == res.Chosen.Order {
+			if c.Order == res.Chosen.Order && c.Form == res.Chosen.Form {
 				mark = "chosen"
 			}
-			fmt.Fprintf(tw, "%d\t%s\t%s\t%s\t\n", c.Order, humanSize(c.FileBytes), strconv.FormatFloat(c.Perplexity, 'f', 3, 64), mark)
+			fmt.Fprintf(tw, "%d\t%s\t%s\t%s\t%s\t\n", c.Order, form, humanSize(c.FileBytes), strconv.FormatFloat(c.Perplexity, 'f', 3, 64), mark)
 		}
 		tw.Flush()
 		fmt.Fprintf(w, "held-out perplexity of the written model: %s\n", strconv.FormatFloat(res.Perplexity, 'f', 3, 64))

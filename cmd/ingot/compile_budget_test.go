@@ -2,6 +2,7 @@ package main
 
 import (
 	"encoding/json"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
@@ -26,6 +27,7 @@ func TestCompileToBudget(t *testing.T) {
 		Perplexity float64 `json:"perplexity"`
 		Compared   []struct {
 			Order      int     `json:"order"`
+			Form       string  `json:"form"`
 			Perplexity float64 `json:"perplexity"`
 		} `json:"orders_compared"`
 	}
@@ -36,7 +38,13 @@ func TestCompileToBudget(t *testing.T) {
 	if err != nil || fi.Size() != rep.FileBytes || rep.FileBytes > 12000 {
 		t.Fatalf("file %v, report %d bytes, budget 12000", err, rep.FileBytes)
 	}
-	if rep.RankedBy != "katz" || len(rep.Compared) != 2 || !(rep.Perplexity > 1) {
+	// Orders 3 and 2, Kneser-Ney's unigrams interpolated and backed off
+	// (the order-2 model keeps every bigram: one form only).
+	forms := map[string]bool{}
+	for _, c := range rep.Compared {
+		forms[fmt.Sprintf("%d %s", c.Order, c.Form)] = true
+	}
+	if rep.RankedBy != "katz" || len(rep.Compared) < 3 || !forms["3 interpolated"] || !forms["3 back-off"] || !(rep.Perplexity > 1) {
 		t.Errorf("report %+v", rep)
 	}
 	if code, _, e := ingot(t, "verify", out); code != 0 {

@@ -83,6 +83,19 @@ type Options struct {
 	// entry is still estimated; the caller removes the others and
 	// recomputes the back-off weights. Other methods ignore it.
 	Survivors [][]bool
+	// UnigramsBackedOff, for Kneser-Ney, estimates order 1 in back-off
+	// form instead of interpolating it with level 0: each word with a count
+	// stores its discounted estimate alone, (a(w) - D(a(w))) / sum a, and
+	// the empty context's left-over mass gamma goes, in equal shares, to
+	// the predictable words without a count (<unk> among them), instead of
+	// gamma/|V| to every word. That is the back-off form of R. Kneser and
+	// H. Ney (1995), "Improved backing-off for m-gram language modeling",
+	// ICASSP, at the lowest order, with the modified discounts of S. F.
+	// Chen and J. Goodman (1998); orders 2 and up stay interpolated. The
+	// pinned estimator is the interpolated one; compile's budget path
+	// uses this for pruned models (see package budget). Other methods
+	// ignore it.
+	UnigramsBackedOff bool
 }
 
 // Param is one named parameter value.
@@ -465,6 +478,9 @@ func (o Options) discounter(k int, n []float64, rep *OrderReport) discounter {
 	case WittenBell:
 		return wittenBell
 	case KneserNey:
+		if o.UnigramsBackedOff && k == 1 {
+			return kneserNeyBackedOff(k, n, rep)
+		}
 		return kneserNey(k, n, rep)
 	case Absolute:
 		D := o.Discount
@@ -648,12 +664,7 @@ func KneserNeyDiscounts(n []float64) (Y, D1, D2, D3 float64, why string) {
 }
 
 func kneserNey(k int, n []float64, rep *OrderReport) discounter {
-	Y, D1, D2, D3, why := KneserNeyDiscounts(n)
-	if why != "" {
-		rep.Fallbacks = append(rep.Fallbacks, fmt.Sprintf(
-			"order %d: modified discounts unusable (%s); D1 = D2 = D3+ = Y = %.6g", k, why, Y))
-	}
-	rep.Discounts = []Param{{"Y", Y}, {"D1", D1}, {"D2", D2}, {"D3+", D3}}
+	D1, D2, D3 := kneserNeyParams(k, n, rep)
 	D := [4]float64{0, D1, D2, D3}
 	return func(a []uint64, total float64, lower []float64, p []float64) float64 {
 		var N [4]float64
@@ -670,6 +681,43 @@ func kneserNey(k int, n []float64, rep *OrderReport) discounter {
 		}
 		return gamma
 	}
+}
+
+// kneserNeyBackedOff is Kneser-Ney in back-off form (Options.UnigramsBackedOff):
+// the same discounts, each seen word's estimate without the lower order's
+// share, the left-over mass gamma(h) spread over the unseen words by the
+// back-off weight (and the back-off methods' rule for a context followed
+// by every predictable word).
+func kneserNeyBackedOff(k int, n []float64, rep *OrderReport) discounter {
+	D1, D2, D3 := kneserNeyParams(k, n, rep)
+	D := [4]float64{0, D1, D2, D3}
+	backedOff := backoff(func(a []uint64, total float64, p []float64) float64 {
+		var left float64
+		for j, r := range a {
+			d := D[min(r, 3)]
+			p[j] = (float64(r) - d) / total
+			left += d
+		}
+		return left / total
+	}, rep)
+	return func(a []uint64, total float64, lower []float64, p []float64) float64 {
+		if total == 0 { // as the interpolated form: the lower order alone
+			copy(p, lower)
+			return 1
+		}
+		return backedOff(a, total, lower, p)
+	}
+}
+
+// kneserNeyParams computes and reports order k's modified discounts.
+func kneserNeyParams(k int, n []float64, rep *OrderReport) (D1, D2, D3 float64) {
+	Y, D1, D2, D3, why := KneserNeyDiscounts(n)
+	if why != "" {
+		rep.Fallbacks = append(rep.Fallbacks, fmt.Sprintf(
+			"order %d: modified discounts unusable (%s); D1 = D2 = D3+ = Y = %.6g", k, why, Y))
+	}
+	rep.Discounts = []Param{{"Y", Y}, {"D1", D1}, {"D2", D2}, {"D3+", D3}}
+	return D1, D2, D3
 }
 
 func (e *estimator) tables() *tables.Tables {

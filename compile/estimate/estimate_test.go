@@ -125,6 +125,45 @@ func TestAbsoluteLeftOverMass(t *testing.T) {
 	}
 }
 
+// Kneser-Ney with its unigrams in back-off form (Kneser & Ney 1995; the
+// modified discounts of Chen & Goodman 1998 section 3), computed by hand on
+// a small example of our own. Bigram counts: <s> a 3, a b 3, b </s> 4,
+// <s> b 2, c </s> 2, and 1 each for <s> c, a c, b c, c a; so n1..n4 = 4,
+// 2, 2, 1, Y = 1/2, D1 = 1 - 2(1/2)(2/4) = 1/2, D2 = 2 - 3(1/2)(2/2) = 1/2,
+// D3+ = 3 - 4(1/2)(1/2) = 2. Unigram adjusted counts N1+(. w): a 2
+// (<s>, c), b 2 (<s>, a), c 3 (<s>, a, b), </s> 2 (b, c), total 9; n1 = 0,
+// so all three unigram discounts are Y = 1/2 (0.5 when n1 is 0).
+func TestKneserNeyUnigramsBackedOffByHand(t *testing.T) {
+	text := []string{"a b", "a b", "a c", "b c", "c a b", "b"}
+	m := build(t, 2, text, Options{Method: KneserNey, UnigramsBackedOff: true})
+	// Context a: b 3 (D3+), c 1 (D1), c(a) = 4, gamma(a) = (2 + 1/2)/4.
+	gammaA := 2.5 / 4
+	checks := []struct {
+		words string
+		want  float64
+	}{
+		{"b", (2 - 0.5) / 9.0},
+		{"c", (3 - 0.5) / 9.0},
+		// The empty context's left-over mass, 4 (1/2) / 9, goes whole to
+		// the one predictable word without a count.
+		{"<unk>", 2 / 9.0},
+		// Order 2 stays interpolated.
+		{"a b", (3-2)/4.0 + gammaA*1.5/9},
+		{"a c", (1-0.5)/4.0 + gammaA*2.5/9},
+		{"a a", gammaA * 1.5 / 9},
+	}
+	for _, c := range checks {
+		if got := p(t, m, c.words); math.Abs(got-c.want) > 1e-6 {
+			t.Errorf("P(%s) = %.7f, want %.7f", c.words, got, c.want)
+		}
+	}
+	// The interpolated form (the pinned one) spreads that mass over the
+	// whole vocabulary instead: gamma/|V| each.
+	if got := p(t, build(t, 2, text, Options{Method: KneserNey}), "<unk>"); math.Abs(got-2/9.0) < 0.1 {
+		t.Errorf("interpolated P(<unk>) = %v, as the back-off form's", got)
+	}
+}
+
 // Witten-Bell, interpolated form (Chen & Goodman 1998, 2.5), checked against
 // the formula computed by hand on a small example of our own.
 func TestWittenBellByHand(t *testing.T) {
@@ -166,10 +205,21 @@ func TestEveryContextSumsToOne(t *testing.T) {
 	}
 	train, _ := sotu(t, limit)
 	cnt := count(t, 5, train)
+	variants := []Options{}
 	for _, method := range Methods {
+		variants = append(variants, Options{Method: method})
+	}
+	variants = append(variants, Options{Method: KneserNey, UnigramsBackedOff: true})
+	for _, opt := range variants {
+		method := opt.Method
+		name := string(method)
+		if opt.UnigramsBackedOff {
+			name += "-unigrams-backed-off"
+		}
 		for order := 2; order <= 5; order++ {
-			t.Run(fmt.Sprintf("%s/%d", method, order), func(t *testing.T) {
-				m, _, err := Estimate(cnt, Options{Method: method, Order: order})
+			t.Run(fmt.Sprintf("%s/%d", name, order), func(t *testing.T) {
+				opt.Order = order
+				m, _, err := Estimate(cnt, opt)
 				if err != nil {
 					t.Fatal(err)
 				}

@@ -67,6 +67,9 @@ func EstimateStreamed(ctx context.Context, sp *counts.Spooled, opt Options, so S
 	if opt.Survivors != nil {
 		return nil, fmt.Errorf("the streamed estimator does not take survivors")
 	}
+	if opt.UnigramsBackedOff && opt.Method == KneserNey {
+		return nil, fmt.Errorf("the streamed estimator writes Kneser-Ney in its interpolated form only")
+	}
 	if sp.Order() != opt.Order {
 		return nil, fmt.Errorf("counts hold orders up to %d, order %d asked", sp.Order(), opt.Order)
 	}

@@ -5,6 +5,7 @@ import (
 	"context"
 	"os"
 	"reflect"
+	"strings"
 	"testing"
 
 	"ingot/compile/counts"
@@ -115,5 +116,16 @@ func TestStreamedRefusesOpenCounts(t *testing.T) {
 				t.Errorf("%s: %s left behind", name, e.Name())
 			}
 		}
+	}
+}
+
+// The streamed estimator writes the pinned (interpolated) Kneser-Ney only:
+// asked for back-off unigrams (a pruned model's form) it refuses rather
+// than write the other form silently.
+func TestStreamedRefusesUnigramsBackedOff(t *testing.T) {
+	c := count(t, 2, []string{"a b", "b a", "a a b"})
+	_, _, err := streamed(t, c, Options{Method: KneserNey, Order: 2, UnigramsBackedOff: true}, 1<<20)
+	if err == nil || !strings.Contains(err.Error(), "interpolated form only") {
+		t.Errorf("got %v, want a refusal", err)
 	}
 }
