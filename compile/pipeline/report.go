@@ -79,6 +79,9 @@ type OrderCompared struct {
 	// without held-out text); Problem says why no model of the order fits.
 	Perplexity *inspect.Number `json:"perplexity,omitempty"`
 	Problem    string          `json:"problem,omitempty"`
+	// Form is, for Kneser-Ney, the form of its unigrams: "interpolated" or
+	// "back-off" (budget.Candidate.Form).
+	Form string `json:"form,omitempty"`
 }
 
 // NewBudgetReport describes a model fitted to maxBytes and written to
@@ -90,7 +93,7 @@ func NewBudgetReport(model string, method estimate.Method, maxBytes int64, res *
 		RankedBy: string(res.Ranking), Threshold: inspect.Number(res.Chosen.Threshold),
 	}
 	for _, c := range res.Candidates {
-		oc := OrderCompared{Order: c.Order, Threshold: inspect.Number(c.Threshold), NGramsPerOrder: c.NGrams, FileBytes: c.FileBytes, Problem: c.Problem}
+		oc := OrderCompared{Order: c.Order, Threshold: inspect.Number(c.Threshold), NGramsPerOrder: c.NGrams, FileBytes: c.FileBytes, Problem: c.Problem, Form: c.Form}
 		if c.Perplexity > 0 {
 			p := inspect.Number(c.Perplexity)
 			oc.Perplexity = &p
