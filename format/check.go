@@ -101,10 +101,21 @@ func (c *checker) vocabulary() {
 	m := c.m
 	var prev []byte
 	prevID := -1
-	for id := 0; id < m.vocabSize && 4*id+8 <= len(m.wordStarts); id++ {
-		a, b := u32(m.wordStarts[4*id:]), u32(m.wordStarts[4*id+4:])
-		if a > b || uint64(b) > uint64(len(m.wordText)) {
+	if m.startsCoded {
+		all := make([]uint64, m.vocabSize+1)
+		if err := m.wordStartsEF.decodeAll(all); err != nil {
+			name, at := m.sectionOffset(KindWordStarts, 0, 0)
+			c.problem(RuleVocabulary, name, at, "%v", err)
+			return
+		}
+	}
+	for id := 0; id < m.vocabSize; id++ {
+		a, b, ok := m.wordSpan(uint32(id))
+		if !ok {
 			name, at := m.sectionOffset(KindWordStarts, 0, 4*id+4)
+			if m.startsCoded {
+				name, at = m.sectionOffset(KindWordStarts, 0, 0)
+			}
 			c.problem(RuleVocabulary, name, at, "word id %d spans bytes [%d, %d), outside the %d bytes of word text", id, a, b, len(m.wordText))
 			prevID = -1
 			continue

@@ -152,6 +152,10 @@ const (
 	// EliasFano whose keys are ranks among the successors of the parent's
 	// suffix.
 	EliasFanoRanks Encoding = 3
+	// PackedIDs (version 3, the word hash) stores each slot as a word id
+	// packed at the fewest bits that hold V, all ones marking an empty
+	// slot.
+	PackedIDs Encoding = 4
 )
 
 // String returns the encoding's name.
@@ -165,6 +169,8 @@ func (e Encoding) String() string {
 		return "Elias-Fano"
 	case EliasFanoRanks:
 		return "Elias-Fano successor ranks"
+	case PackedIDs:
+		return "packed word ids"
 	}
 	return fmt.Sprintf("encoding %d", uint32(e))
 }

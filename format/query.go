@@ -74,12 +74,8 @@ func (m *Model) Word(id uint32) string { return string(m.wordBytes(id)) }
 // wordBytes returns the bytes of word id, or nil when the id or the stored
 // offsets are out of range.
 func (m *Model) wordBytes(id uint32) []byte {
-	i := int(id)
-	if uint64(id) >= uint64(m.vocabSize) || 4*i+8 > len(m.wordStarts) {
-		return nil
-	}
-	a, b := u32(m.wordStarts[4*i:]), u32(m.wordStarts[4*i+4:])
-	if a > b || uint64(b) > uint64(len(m.wordText)) {
+	a, b, ok := m.wordSpan(id)
+	if !ok {
 		return nil
 	}
 	return m.wordText[a:b]

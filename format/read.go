@@ -30,11 +30,13 @@ type Model struct {
 	digest    [32]byte
 	info      tables.Info
 
-	wordStarts []byte
-	wordText   []byte
-	wordHash   []byte // version 3: the word hash's slots
-	levels     [tables.MaxOrder]level
-	decoded    *decodedTrie // version 3: plain child starts and last words, decoded on first use
+	wordStarts   []byte    // plain word starts
+	wordStartsEF eliasFano // version 3: Elias-Fano word starts
+	startsCoded  bool      // the word starts are wordStartsEF
+	wordText     []byte
+	wordHash     *wordHashTable // version 3
+	levels       [tables.MaxOrder]level
+	decoded      *decodedTrie // version 3: plain child starts and last words, decoded on first use
 }
 
 // level holds the columns of one order, as slices of the file's bytes.
@@ -286,7 +288,11 @@ func (m *Model) readBuildInfo() error {
 }
 
 func (m *Model) readVocabulary() error {
-	s, starts, err := m.need(KindWordStarts, 0, 4*(int64(m.vocabSize)+1))
+	encodings := []Encoding{Plain}
+	if m.version >= 3 {
+		encodings = append(encodings, EliasFano)
+	}
+	s, starts, err := m.needEncoded(KindWordStarts, 0, -1, encodings...)
 	if err != nil {
 		return err
 	}
@@ -294,13 +300,30 @@ func (m *Model) readVocabulary() error {
 	if err != nil {
 		return err
 	}
-	if first := u32(starts); first != 0 {
-		return formatErr(s.Name(), s.Offset, "first word starts at %d, expected 0", first)
+	m.wordText = text
+	if s.Encoding == EliasFano {
+		if m.wordStartsEF, err = parseEliasFano(starts, uint64(m.vocabSize)+1); err != nil {
+			return formatErr(s.Name(), s.Offset, "%v", err)
+		}
+		m.startsCoded = true
+		if first, ok := m.wordStartsEF.get(0); !ok || first != 0 {
+			return formatErr(s.Name(), s.Offset, "first word starts at %d, expected 0", first)
+		}
+		if last := m.wordStartsEF.last; last != uint64(t.Length) {
+			return formatErr(s.Name(), s.Offset, "words end at %d but the word text is %d bytes", last, t.Length)
+		}
+	} else {
+		if want := 4 * (int64(m.vocabSize) + 1); s.Length != want {
+			return formatErr(s.Name(), s.Offset, "section is %d bytes, expected %d for the counts in the summary", s.Length, want)
+		}
+		if first := u32(starts); first != 0 {
+			return formatErr(s.Name(), s.Offset, "first word starts at %d, expected 0", first)
+		}
+		if last := u32(starts[4*m.vocabSize:]); uint64(last) != uint64(t.Length) {
+			return formatErr(s.Name(), s.Offset+4*int64(m.vocabSize), "words end at %d but the word text is %d bytes", last, t.Length)
+		}
+		m.wordStarts = starts
 	}
-	if last := u32(starts[4*m.vocabSize:]); uint64(last) != uint64(t.Length) {
-		return formatErr(s.Name(), s.Offset+4*int64(m.vocabSize), "words end at %d but the word text is %d bytes", last, t.Length)
-	}
-	m.wordStarts, m.wordText = starts, text
 	for _, marker := range []struct {
 		id   uint32
 		word string

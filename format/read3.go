@@ -12,13 +12,15 @@ import (
 // fixed fields and sizes against the summary, reading nothing proportional
 // to the number of n-grams.
 func (m *Model) readLevels3() error {
-	s, b, err := m.needEncoded(KindWordHash, 0, -1, Plain)
+	s, b, err := m.needEncoded(KindWordHash, 0, -1, Plain, PackedIDs)
 	if err != nil {
 		return err
 	}
-	if m.wordHash, err = parseWordHash(b, m.vocabSize); err != nil {
+	h, err := parseWordHash(b, s.Encoding, m.vocabSize)
+	if err != nil {
 		return formatErr(s.Name(), s.Offset, "%v", err)
 	}
+	m.wordHash = &h
 	for k := 1; k <= m.order; k++ {
 		n := uint64(m.counts[k-1])
 		lv := &m.levels[k-1]

@@ -34,18 +34,11 @@ func FileSize(t *tables.Tables, plan Planned) (int64, error) {
 	if err != nil {
 		return 0, err
 	}
-	text := 0
-	for _, w := range t.Vocab {
-		text += len(w)
-	}
 	n := t.Order()
-	lengths := []int64{
+	lengths := append([]int64{
 		int64(summaryFixedSize + 8*n),
 		int64(len(infoBytes)),
-		int64(4 * (len(t.Vocab) + 1)),
-		int64(text),
-		wordHashHeader + 4*int64(wordHashSlots(len(t.Vocab))),
-	}
+	}, vocabularyLengths3(t.Vocab)...)
 	column := func(entries int, codebook []float32, planned int) {
 		levels := len(codebook)
 		if planned != 0 {

@@ -173,38 +173,6 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64)
 	for k := 1; k <= order; k++ {
 		counts[k] = le.Uint64(sum[24+8*(k-1):])
 	}
-	starts, text := sec(3, 0).data, sec(4, 0).data
-	vocab := make([]string, V)
-	for i := range vocab {
-		vocab[i] = string(text[le.Uint32(starts[4*i:]):le.Uint32(starts[4*i+4:])])
-	}
-	hash := sec(13, 0).data
-	P := uint64(le.Uint32(hash))
-	if P != uint64(V+V/4+1) {
-		t.Fatalf("word hash has %d slots", P)
-	}
-	lookup := func(w string) (uint32, bool) {
-		h := uint64(14695981039346656037)
-		for i := 0; i < len(w); i++ {
-			h = (h ^ uint64(w[i])) * 1099511628211
-		}
-		for s, probes := h%P, uint64(0); probes < P; s, probes = (s+1)%P, probes+1 {
-			id := le.Uint32(hash[8+4*s:])
-			if id == 0xFFFFFFFF {
-				return 0, false
-			}
-			if vocab[id] == w {
-				return id, true
-			}
-		}
-		return 0, false
-	}
-	for id, w := range vocab {
-		if got, ok := lookup(w); !ok || got != uint32(id) {
-			t.Fatalf("word hash: %q -> %d, %v", w, got, ok)
-		}
-	}
-
 	// Elias-Fano (§4.8.1), decoded value by value through the samples.
 	ef := func(b []byte) []uint64 {
 		n, last, L := le.Uint64(b), le.Uint64(b[8:]), uint64(le.Uint32(b[16:]))
@@ -235,6 +203,71 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64)
 		}
 		return out
 	}
+	// The vocabulary (§4.3): word starts plain (u32) or Elias-Fano
+	// (§4.8.4); the word hash with 32-bit slots or slots packed at
+	// B = bits.Len(V) bits, all ones empty (§4.8.4).
+	text := sec(4, 0).data
+	var starts []uint64
+	if s := sec(3, 0); s.enc == 2 {
+		starts = ef(s.data)
+	} else {
+		for i := 0; i+4 <= len(s.data); i += 4 {
+			starts = append(starts, uint64(le.Uint32(s.data[i:])))
+		}
+	}
+	if len(starts) != V+1 || starts[0] != 0 || starts[V] != uint64(len(text)) {
+		t.Fatalf("word starts: %d values", len(starts))
+	}
+	vocab := make([]string, V)
+	for i := range vocab {
+		vocab[i] = string(text[starts[i]:starts[i+1]])
+	}
+	hs := sec(13, 0)
+	hash := hs.data
+	P := uint64(le.Uint32(hash))
+	if P != uint64(V+V/4+1) {
+		t.Fatalf("word hash has %d slots", P)
+	}
+	slot := func(s uint64) uint32 { return le.Uint32(hash[8+4*s:]) }
+	if hs.enc == 4 {
+		B := uint64(le.Uint32(hash[4:]))
+		if B != uint64(bits.Len(uint(V))) || uint64(len(hash)) != 8+(P*B+7)/8 {
+			t.Fatalf("packed word hash: B = %d, %d bytes", B, len(hash))
+		}
+		slot = func(s uint64) uint32 {
+			var v uint64
+			for j := uint64(0); j < B; j++ {
+				p := s*B + j
+				v |= uint64(hash[8+p/8]>>(p%8)) & 1 << j
+			}
+			if v == 1<<B-1 {
+				return 0xFFFFFFFF
+			}
+			return uint32(v)
+		}
+	}
+	lookup := func(w string) (uint32, bool) {
+		h := uint64(14695981039346656037)
+		for i := 0; i < len(w); i++ {
+			h = (h ^ uint64(w[i])) * 1099511628211
+		}
+		for s, probes := h%P, uint64(0); probes < P; s, probes = (s+1)%P, probes+1 {
+			id := slot(s)
+			if id == 0xFFFFFFFF {
+				return 0, false
+			}
+			if vocab[id] == w {
+				return id, true
+			}
+		}
+		return 0, false
+	}
+	for id, w := range vocab {
+		if got, ok := lookup(w); !ok || got != uint32(id) {
+			t.Fatalf("word hash: %q -> %d, %v", w, got, ok)
+		}
+	}
+
 	// A column value (§4.5): plain f32, or packed index into a codebook,
 	// read bit by bit.
 	value := func(kind, cbKind, k int, i uint64) float64 {

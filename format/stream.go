@@ -359,13 +359,12 @@ func (w *StreamWriter) Finish(out io.Writer, info tables.Info) error {
 	for k, n := range w.counts {
 		putU64(summary[summaryFixedSize+8*k:], n)
 	}
-	starts, text := vocabularyBytes(w.vocab)
 	head := []*streamSection{
 		{Section: Section{Kind: KindSummary}, data: summary},
 		{Section: Section{Kind: KindBuildInfo}, data: infoBytes},
-		{Section: Section{Kind: KindWordStarts}, data: starts},
-		{Section: Section{Kind: KindWordText}, data: text},
-		{Section: Section{Kind: KindWordHash}, data: encodeWordHash(w.vocab)},
+	}
+	for _, s := range vocabularySections3(w.vocab) {
+		head = append(head, &streamSection{Section: s.Section, data: s.data})
 	}
 	secs := append(head, w.secs...)
 	// First pass: lengths, checksums and the digest; the header needs them

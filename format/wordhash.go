@@ -2,7 +2,6 @@ package format
 
 import (
 	"encoding/binary"
-	"fmt"
 )
 
 // The word hash (version 3, spec/FORMAT.md §4.11) maps a word to its id in
@@ -59,38 +58,16 @@ func encodeWordHash(vocab []string) []byte {
 	return out
 }
 
-// parseWordHash checks the word hash's size for a vocabulary of v words.
-func parseWordHash(b []byte, v int) ([]byte, error) {
-	if len(b) < wordHashHeader {
-		return nil, fmt.Errorf("section is %d bytes, shorter than its %d-byte header", len(b), wordHashHeader)
-	}
-	le := binary.LittleEndian
-	p, reserved := uint64(le.Uint32(b)), le.Uint32(b[4:])
-	if want := wordHashSlots(v); p != want {
-		return nil, fmt.Errorf("table has %d slots; a vocabulary of %d words needs %d", p, v, want)
-	}
-	if p > 1<<32-1 {
-		return nil, fmt.Errorf("table of %d slots is too large", p)
-	}
-	if reserved != 0 {
-		return nil, fmt.Errorf("reserved field is %08x, expected 0", reserved)
-	}
-	if uint64(len(b)) != wordHashHeader+4*p {
-		return nil, fmt.Errorf("section is %d bytes, expected %d for %d slots", len(b), wordHashHeader+4*p, p)
-	}
-	return b[wordHashHeader:], nil
-}
-
 // hashID looks word up in the word hash; it probes at most every slot once.
 func (m *Model) hashID(word string) (uint32, bool) {
-	slots := m.wordHash
-	p := uint64(len(slots) / 4)
+	h := m.wordHash
+	p := h.p
 	if p == 0 {
 		return 0, false
 	}
 	s := fnv1aString(word) % p
 	for range p {
-		id := binary.LittleEndian.Uint32(slots[4*s:])
+		id := h.slot(s)
 		if id == emptySlot {
 			return 0, false
 		}
@@ -107,17 +84,21 @@ func (m *Model) hashID(word string) (uint32, bool) {
 // checkWordHash checks that the table holds every word exactly once, where
 // a lookup finds it, and nothing else.
 func (m *Model) checkWordHash() error {
-	slots := m.wordHash
+	h := m.wordHash
 	used := 0
-	for i := 0; i+4 <= len(slots); i += 4 {
-		id := binary.LittleEndian.Uint32(slots[i:])
+	for i := uint64(0); i < h.p; i++ {
+		id := h.slot(i)
 		if id == emptySlot {
 			continue
 		}
 		used++
 		if uint64(id) >= uint64(m.vocabSize) {
-			name, at := m.sectionOffset(KindWordHash, 0, wordHashHeader+i)
-			return formatErr(name, at, "slot %d holds word id %d, outside the vocabulary of %d words", i/4, id, m.vocabSize)
+			width := uint64(32)
+			if h.bits != 0 {
+				width = uint64(h.bits)
+			}
+			name, at := m.sectionOffset(KindWordHash, 0, wordHashHeader+int(i*width/8))
+			return formatErr(name, at, "slot %d holds word id %d, outside the vocabulary of %d words", i, id, m.vocabSize)
 		}
 	}
 	if used != m.vocabSize {

@@ -40,14 +40,10 @@ func buildSections3(t *tables.Tables) ([]section, error) {
 	if wordHashSlots(len(t.Vocab)) > 1<<32-1 {
 		return nil, fmt.Errorf("ingot model: cannot write: a vocabulary of %d words is too large for the word hash", len(t.Vocab))
 	}
-	starts, text := vocabularyBytes(t.Vocab)
-	out := []section{
+	out := append([]section{
 		{Section: Section{Kind: KindSummary}, data: summaryBytes(t)},
 		{Section: Section{Kind: KindBuildInfo}, data: info},
-		{Section: Section{Kind: KindWordStarts}, data: starts},
-		{Section: Section{Kind: KindWordText}, data: text},
-		{Section: Section{Kind: KindWordHash}, data: encodeWordHash(t.Vocab)},
-	}
+	}, vocabularySections3(t.Vocab)...)
 	childStarts := make([][]uint32, n) // [k-1]: n_k+1 starts of order k < N
 	for k := 1; k < n; k++ {
 		childStarts[k-1] = childStartValues(t, k)

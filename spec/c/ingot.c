@@ -49,6 +49,7 @@ enum {
 	ENCODING_PACKED = 1,
 	ENCODING_CODED_IDS = 2,   /* version 3: Elias-Fano, keys are word ids */
 	ENCODING_CODED_RANKS = 3, /* version 3: Elias-Fano, keys are successor ranks */
+	ENCODING_PACKED_IDS = 4,  /* version 3: word hash slots packed at B bits */
 	MAX_CODEBOOK = 65536
 };
 
@@ -398,18 +399,25 @@ static ingot_status open_column(ingot_model *m, ingot_error *err, const index_ta
 	return INGOT_OK;
 }
 
+static int ef_get(const ingot_sequence_ *q, uint64_t i, uint64_t *x);
+
 /* word_range returns the bytes of word id, or NULL when its range lies
  * outside the word text (section 6.2). */
 static const unsigned char *word_range(const ingot_model *m, uint32_t id, size_t *len)
 {
-	uint32_t a, b;
+	uint64_t a, b;
 	if (id >= m->vocabulary_size)
 		return NULL;
-	a = u32le(m->word_starts + 4 * (size_t)id);
-	b = u32le(m->word_starts + 4 * (size_t)id + 4);
+	if (m->word_starts_coded) {
+		if (!ef_get(&m->word_starts_seq, id, &a) || !ef_get(&m->word_starts_seq, (uint64_t)id + 1, &b))
+			return NULL;
+	} else {
+		a = u32le(m->word_starts + 4 * (size_t)id);
+		b = u32le(m->word_starts + 4 * (size_t)id + 4);
+	}
 	if (a > b || b > m->word_text_length)
 		return NULL;
-	*len = b - a;
+	*len = (size_t)(b - a);
 	return m->word_text + a;
 }
 
@@ -687,7 +695,15 @@ static ingot_status open_version3(ingot_model *m, ingot_error *err, const index_
 		j = (uint32_t)t->at[KIND_WORD_HASH][0];
 		e = read_entry(m->data, j);
 		b = section_bytes(m, &e);
-		if (e.length < 8 || u32le(b) != P || u32le(b + 4) != 0 || e.length != 8 + 4 * P)
+		if (e.encoding == ENCODING_PACKED_IDS) {
+			uint32_t B = 1;
+			while (B < 32 && (V >> B) != 0)
+				B++; /* the smallest B >= 1 with V < 2^B */
+			if (e.length < 8 || u32le(b) != P || u32le(b + 4) != B || e.length != 8 + (P * B + 7) / 8)
+				return fail_at(err, INGOT_ERR_FORMAT, j, &e, "want %llu slots of %u bits and length %llu",
+				               (unsigned long long)P, (unsigned)B, (unsigned long long)(8 + (P * B + 7) / 8));
+			m->word_slot_bits = B;
+		} else if (e.length < 8 || u32le(b) != P || u32le(b + 4) != 0 || e.length != 8 + 4 * P)
 			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "want %llu slots, a zero reserved field and length %llu",
 			               (unsigned long long)P, (unsigned long long)(8 + 4 * P));
 		m->word_slots = b + 8;
@@ -846,6 +862,9 @@ static ingot_status open_buffer(ingot_model *m, const void *buf, size_t size, in
 			               (unsigned)e.order, (unsigned)N);
 		if (version >= 3 && (e.kind == KIND_LAST_WORDS || e.kind == KIND_CHILD_STARTS))
 			continue; /* coded: checked below */
+		if (version >= 3 && ((e.kind == KIND_WORD_STARTS && e.encoding == ENCODING_CODED_IDS) ||
+		                     (e.kind == KIND_WORD_HASH && e.encoding == ENCODING_PACKED_IDS)))
+			continue; /* section 4.8.4, 4.8.5: checked below */
 		if (e.kind != KIND_PROBABILITIES && e.kind != KIND_BACKOFFS && e.kind != KIND_SIGNATURE &&
 		    e.encoding != ENCODING_PLAIN)
 			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "encoding %u, which this reader does not know",
@@ -878,11 +897,24 @@ static ingot_status open_buffer(ingot_model *m, const void *buf, size_t size, in
 		uint64_t V = m->vocabulary_size;
 		j = (uint32_t)t.at[KIND_WORD_STARTS][0];
 		e = read_entry(d, j);
-		if (e.length / 4 != V + 1 || e.length % 4 != 0)
+		if (e.encoding == ENCODING_CODED_IDS) {
+			entry w = read_entry(d, (uint32_t)t.at[KIND_WORD_TEXT][0]);
+			uint64_t first = 1;
+			st = open_sequence(m, err, j, &e, V + 1, &m->word_starts_seq);
+			if (st != INGOT_OK)
+				return st;
+			m->word_starts_coded = 1;
+			m->word_text = section_bytes(m, &w);
+			m->word_text_length = w.length;
+			if (!ef_get(&m->word_starts_seq, 0, &first) || first != 0 ||
+			    u64le(section_bytes(m, &e) + 8) != w.length)
+				return fail_at(err, INGOT_ERR_FORMAT, j, &e, "starts do not run from 0 to the word text's %llu bytes",
+				               (unsigned long long)w.length);
+		} else if (e.length / 4 != V + 1 || e.length % 4 != 0)
 			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "length %llu, want 4 x %llu",
 			               (unsigned long long)e.length, (unsigned long long)(V + 1));
-		m->word_starts = section_bytes(m, &e);
-		{
+		else {
+			m->word_starts = section_bytes(m, &e);
 			entry w = read_entry(d, (uint32_t)t.at[KIND_WORD_TEXT][0]);
 			m->word_text = section_bytes(m, &w);
 			m->word_text_length = w.length;
@@ -1139,6 +1171,24 @@ static int compare_word(const ingot_model *m, uint32_t id, const unsigned char *
 	return n < klen ? -1 : n > klen ? 1 : 0;
 }
 
+/* word_slot returns the id in slot i of the word hash, 0xFFFFFFFF when
+ * empty: a u32 (encoding 0) or B bits read as a packed index (section
+ * 4.8.4; bytes past the section read as 0). */
+static uint32_t word_slot(const ingot_model *m, uint32_t i)
+{
+	uint32_t B = m->word_slot_bits;
+	uint64_t bit, at, end, word = 0, v, j;
+	if (B == 0)
+		return u32le(m->word_slots + 4 * (size_t)i);
+	bit = (uint64_t)i * B;
+	at = bit >> 3;
+	end = ((uint64_t)m->word_slot_count * B + 7) / 8;
+	for (j = 0; j < 8 && at + j < end; j++)
+		word |= (uint64_t)m->word_slots[at + j] << (8 * j);
+	v = (word >> (bit & 7)) & (((uint64_t)1 << B) - 1);
+	return v == ((uint64_t)1 << B) - 1 ? 0xFFFFFFFFu : (uint32_t)v;
+}
+
 /* lookup_hash finds a word through the word hash of a version-3 file
  * (section 4.8.4): 64-bit FNV-1a, linear probing, at most P probes. */
 static int lookup_hash(const ingot_model *m, const unsigned char *key, size_t len, uint32_t *id)
@@ -1150,7 +1200,7 @@ static int lookup_hash(const ingot_model *m, const unsigned char *key, size_t le
 		h = (h ^ key[i]) * 1099511628211ull;
 	slot = (uint32_t)(h % P);
 	for (probes = 0; probes < P; probes++) {
-		uint32_t w = u32le(m->word_slots + 4 * (size_t)slot);
+		uint32_t w = word_slot(m, slot);
 		size_t n = 0;
 		const unsigned char *text;
 		if (w == 0xFFFFFFFFu)

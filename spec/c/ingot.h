@@ -101,11 +101,14 @@ typedef struct {
 	uint32_t vocabulary_size;
 	uint32_t start_id, end_id, unknown_id;
 	uint32_t flags;
-	const unsigned char *word_starts; /* u32 x (V + 1) */
+	const unsigned char *word_starts; /* u32 x (V + 1) (encoding 0) */
+	int word_starts_coded;            /* version 3: Elias-Fano word starts (encoding 2) */
+	ingot_sequence_ word_starts_seq;
 	const unsigned char *word_text;
 	uint64_t word_text_length;
 	const unsigned char *word_slots;  /* version 3: the word hash's slots */
 	uint32_t word_slot_count;
+	uint32_t word_slot_bits;          /* 0: u32 slots (encoding 0); else B (encoding 4) */
 	ingot_level_ levels[INGOT_MAX_ORDER];
 } ingot_model;
 
