@@ -15,7 +15,7 @@ func TestCompileToBudget(t *testing.T) {
 	c := filepath.Join(dir, "c.tsv")
 	held := writeFile(t, dir, "held.txt", demoHeldout)
 	out := filepath.Join(dir, "b.ingot")
-	code, stdout, e := ingot(t, "compile", "--method", "kneser-ney", "--order", "3", "--max-size", "12KB", "--bits", "8",
+	code, stdout, e := ingot(t, "compile", "--method", "kneser-ney", "--order", "3", "--max-size", "9KB", "--bits", "8",
 		"--heldout", held, "--json", "-o", out, c)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, e)
@@ -35,8 +35,8 @@ func TestCompileToBudget(t *testing.T) {
 		t.Fatalf("%v: %s", err, stdout)
 	}
 	fi, err := os.Stat(out)
-	if err != nil || fi.Size() != rep.FileBytes || rep.FileBytes > 12000 {
-		t.Fatalf("file %v, report %d bytes, budget 12000", err, rep.FileBytes)
+	if err != nil || fi.Size() != rep.FileBytes || rep.FileBytes > 9000 {
+		t.Fatalf("file %v, report %d bytes, budget 9000", err, rep.FileBytes)
 	}
 	// Orders 3 and 2, Kneser-Ney's unigrams interpolated and backed off
 	// (the order-2 model keeps every bigram: one form only).
