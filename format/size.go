@@ -50,6 +50,7 @@ func FileSize(t *tables.Tables, plan Planned) (int64, error) {
 		}
 		lengths = append(lengths, 4*int64(levels), packedLen(entries, bitsFor(levels)))
 	}
+	links := linksOf(t)
 	childStarts := make([][]uint32, n)
 	for k := 1; k < n; k++ {
 		childStarts[k-1] = childStartValues(t, k)
@@ -58,7 +59,7 @@ func FileSize(t *tables.Tables, plan Planned) (int64, error) {
 		lv := &t.Levels[k-1]
 		nk := t.Len(k)
 		if k >= 2 {
-			keys, _ := wordKeys(t, k, childStarts)
+			keys, _ := wordKeys(t, k, childStarts, links)
 			// The sequence's last value is the sum of every sibling list's
 			// last key (lastWordKeys shifts each list by the one before).
 			var last uint64

@@ -221,7 +221,7 @@ func buildSections(t *tables.Tables) ([]section, error) {
 	}
 	starts, text := vocabularyBytes(t.Vocab)
 	out := []section{
-		{Section: Section{Kind: KindSummary}, data: summaryBytes(t)},
+		{Section: Section{Kind: KindSummary}, data: summaryBytes(t, linksOf(t))},
 		{Section: Section{Kind: KindBuildInfo}, data: info},
 		{Section: Section{Kind: KindWordStarts}, data: starts},
 		{Section: Section{Kind: KindWordText}, data: text},
@@ -267,14 +267,15 @@ func version(t *tables.Tables) uint32 {
 	return 1
 }
 
-func summaryBytes(t *tables.Tables) []byte {
+// summaryBytes returns the summary section of t, whose links are links.
+func summaryBytes(t *tables.Tables, links *tables.Links) []byte {
 	n := t.Order()
 	b := make([]byte, summaryFixedSize+8*n)
 	start, _ := t.ID(tables.SentenceStart)
 	end, _ := t.ID(tables.SentenceEnd)
 	unk, _ := t.ID(tables.Unknown)
 	var flags uint32
-	if suffixClosed(t) {
+	if suffixClosed(links) {
 		flags |= FlagSuffixClosed
 	}
 	putU32(b[0:], uint32(n))
@@ -291,10 +292,10 @@ func summaryBytes(t *tables.Tables) []byte {
 
 // suffixClosed reports whether every stored k-gram's (k-1)-word suffix is
 // stored.
-func suffixClosed(t *tables.Tables) bool {
-	for k := 2; k <= t.Order(); k++ {
-		for i := 0; i < t.Len(k); i++ {
-			if t.Find(t.Gram(k, i)[1:]) < 0 {
+func suffixClosed(links *tables.Links) bool {
+	for _, suffixes := range links.Suffix {
+		for _, s := range suffixes {
+			if s < 0 {
 				return false
 			}
 		}

@@ -40,8 +40,9 @@ func buildSections3(t *tables.Tables) ([]section, error) {
 	if wordHashSlots(len(t.Vocab)) > 1<<32-1 {
 		return nil, fmt.Errorf("ingot model: cannot write: a vocabulary of %d words is too large for the word hash", len(t.Vocab))
 	}
+	links := linksOf(t)
 	out := append([]section{
-		{Section: Section{Kind: KindSummary}, data: summaryBytes(t)},
+		{Section: Section{Kind: KindSummary}, data: summaryBytes(t, links)},
 		{Section: Section{Kind: KindBuildInfo}, data: info},
 	}, vocabularySections3(t.Vocab)...)
 	childStarts := make([][]uint32, n) // [k-1]: n_k+1 starts of order k < N
@@ -51,7 +52,7 @@ func buildSections3(t *tables.Tables) ([]section, error) {
 	for k := 1; k <= n; k++ {
 		lv := &t.Levels[k-1]
 		if k >= 2 {
-			data, enc := lastWordKeys(t, k, childStarts)
+			data, enc := lastWordKeys(t, k, childStarts, links)
 			out = append(out, section{Section: Section{Kind: KindLastWords, Order: k, Encoding: enc}, data: data})
 		}
 		out = append(out, columnSections(KindProbabilities, KindProbCodebook, k, lv.LogProb, lv.ProbCodebook)...)
@@ -102,8 +103,8 @@ func childStartValues(t *tables.Tables, k int) []uint32 {
 
 // lastWordKeys encodes the last words of order k >= 2 as keys under their
 // parents (wordKeys), one non-decreasing sequence per order.
-func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32) ([]byte, Encoding) {
-	keys, enc := wordKeys(t, k, childStarts)
+func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]byte, Encoding) {
+	keys, enc := wordKeys(t, k, childStarts, links)
 	// One non-decreasing sequence: each sibling list is shifted by the last
 	// value of the list before it.
 	x := make([]uint64, len(keys))
@@ -123,8 +124,8 @@ func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32) ([]byte, Enco
 // wordKeys returns the keys of the last words of order k >= 2 under their
 // parents: ranks among the successors of the parent's suffix when every
 // entry's suffix is stored and k >= 3 (encoding EliasFanoRanks), word ids
-// otherwise (EliasFano).
-func wordKeys(t *tables.Tables, k int, childStarts [][]uint32) ([]uint64, Encoding) {
+// otherwise (EliasFano). links are the tables' (linksOf).
+func wordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]uint64, Encoding) {
 	n := t.Len(k)
 	keys := make([]uint64, n)
 	for e := 0; e < n; e++ {
@@ -132,10 +133,10 @@ func wordKeys(t *tables.Tables, k int, childStarts [][]uint32) ([]uint64, Encodi
 	}
 	if k >= 3 {
 		ranks := make([]uint64, n)
+		parents, suffixes, contexts := links.Parent[k-1], links.Suffix[k-1], links.Suffix[k-2]
 		for e := 0; e < n; e++ {
-			g := t.Gram(k, e)
-			suffix := t.Find(g[1:])       // h'w, order k-1
-			context := t.Find(g[1 : k-1]) // h', order k-2
+			suffix := suffixes[e]           // h'w, order k-1
+			context := contexts[parents[e]] // h', order k-2
 			if suffix < 0 || context < 0 {
 				return keys, EliasFano
 			}
@@ -144,4 +145,18 @@ func wordKeys(t *tables.Tables, k int, childStarts [][]uint32) ([]uint64, Encodi
 		return ranks, EliasFanoRanks
 	}
 	return keys, EliasFano
+}
+
+// linksOf returns the links of the tables' orders (tables.Link), which
+// Check has made sure are prefix-closed.
+func linksOf(t *tables.Tables) *tables.Links {
+	words := make([][]uint32, t.Order())
+	for k := 2; k <= t.Order(); k++ {
+		words[k-1] = t.Levels[k-1].Words
+	}
+	l, err := tables.Link(len(t.Vocab), words)
+	if err != nil {
+		panic("format: tables not prefix-closed after Check: " + err.Error())
+	}
+	return l
 }

@@ -43,6 +43,10 @@ import (
 type Counts struct {
 	Vocab  []string
 	Levels []Level
+	// Links, when not nil, are the links of Levels (tables.Link), as Load
+	// found them while it checked the counts. Whoever changes the word
+	// ids of Levels sets it to nil.
+	Links *tables.Links
 }
 
 // Level holds the k-grams of one order and their counts.
@@ -99,6 +103,9 @@ func (c *Counts) Find(g []uint32) int {
 func (c *Counts) Truncate(n int) {
 	if n < len(c.Levels) {
 		c.Levels = c.Levels[:n]
+		if c.Links != nil && len(c.Links.Parent) > n {
+			c.Links = &tables.Links{Parent: c.Links.Parent[:n], Suffix: c.Links.Suffix[:n], Starts: c.Links.Starts[:n-1]}
+		}
 	}
 }
 

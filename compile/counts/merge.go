@@ -216,6 +216,7 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 		uni.Words[i] = uint32(i)
 	}
 	c.Levels[0] = uni
+	ln := tables.NewLinker(len(vocab))
 	var g []uint32
 	for {
 		var n uint64
@@ -237,17 +238,27 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 			c.Levels[0].Counts[g[0]] = n
 			continue
 		}
-		present := func(sub []uint32) bool {
-			if len(sub) == 1 {
-				return sub[0] == start || c.Levels[0].Counts[sub[0]] > 0
-			}
-			return c.Find(sub) >= 0
+		// The prefix and the suffix must be counted: unigrams are looked
+		// up directly, longer ones by the links of the orders so far
+		// (tables.Linker: a merge pass for prefixes, a search within one
+		// sibling list per suffix).
+		unigram := func(id uint32) bool { return id == start || c.Levels[0].Counts[id] > 0 }
+		var hasPrefix, hasSuffix bool
+		if k == 2 {
+			hasPrefix, hasSuffix = unigram(g[0]), unigram(g[1])
+		} else if k <= ln.Order()+1 {
+			var s int32
+			s, hasPrefix = ln.Add(g)
+			hasSuffix = s >= 0
+		}
+		if hasPrefix && k == 2 {
+			ln.Add(g)
 		}
 		miss, sub := "prefix", g[:k-1]
-		if present(sub) {
+		if hasPrefix {
 			miss, sub = "suffix", g[1:]
 		}
-		if !present(sub) {
+		if !hasPrefix || !hasSuffix {
 			msg := fmt.Sprintf("%q has no count for its %s %q", joinWords(vocab, g), miss, joinWords(vocab, sub))
 			if src := srcOf[from]; src >= 0 {
 				r := streams[from].(*readerStream).r
@@ -256,9 +267,12 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 			return nil, b.textError(g, vocab, sources, msg)
 		}
 		lv := &c.Levels[k-1]
-		lv.Words = append(lv.Words, g...)
 		lv.Counts = append(lv.Counts, n)
 	}
+	for k := 2; k <= ln.Order(); k++ {
+		c.Levels[k-1].Words = ln.Words[k-1]
+	}
+	c.Links = ln.Finish()
 	if maxSeen == 0 {
 		return nil, fmt.Errorf("no n-grams in %s", names(sources))
 	}

@@ -28,6 +28,7 @@
 package estimate
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"math/bits"
@@ -281,19 +282,28 @@ func newEstimator(c *counts.Counts, opt Options) (*estimator, error) {
 		prob: make([][]float64, N), bow: make([][]float64, N),
 		report: &Report{Method: opt.Method},
 	}
+	// Every entry's prefix and suffix, by the links of the trie (one merge
+	// pass per order and a search within one sibling list per suffix).
+	levels := make([][]uint32, N)
 	for k := 2; k <= N; k++ {
-		n := c.Len(k)
-		pre, suf := make([]int32, n), make([]int32, n)
-		for i := 0; i < n; i++ {
-			g := c.Gram(k, i)
-			p, s := c.Find(g[:k-1]), c.Find(g[1:])
-			if p < 0 || s < 0 {
-				return nil, fmt.Errorf("counts are not closed: %d-gram %q lacks its prefix or suffix", k, words(c, g))
-			}
-			pre[i], suf[i] = int32(p), int32(s)
-		}
-		e.prefix[k-1], e.suffix[k-1] = pre, suf
+		levels[k-1] = c.Levels[k-1].Words
 	}
+	links := c.Links
+	var err error
+	if links == nil || len(links.Parent) < N {
+		links, err = tables.Link(len(c.Vocab), levels)
+	}
+	var pe *tables.PrefixError
+	if errors.As(err, &pe) {
+		return nil, fmt.Errorf("counts are not closed: %d-gram %q lacks its prefix", pe.Order, words(c, c.Gram(pe.Order, pe.Index)))
+	}
+	for k := 2; k <= N; k++ {
+		if i := slices.Index(links.Suffix[k-1], -1); i >= 0 {
+			return nil, fmt.Errorf("counts are not closed: %d-gram %q lacks its suffix", k, words(c, c.Gram(k, i)))
+		}
+	}
+	copy(e.prefix, links.Parent)
+	copy(e.suffix, links.Suffix)
 	for k := 1; k < N; k++ {
 		e.bow[k-1] = make([]float64, c.Len(k))
 		for i := range e.bow[k-1] {

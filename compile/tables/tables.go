@@ -277,6 +277,9 @@ func (t *Tables) Check() error {
 			}
 			continue
 		}
+		// Entries are sorted, so their contexts come in order: one merge
+		// pass with the order below finds each.
+		lower, parent := t.Levels[k-2].Words, 0
 		for i := 0; i < n; i++ {
 			g := lv.Words[k*i : k*i+k]
 			for _, id := range g {
@@ -287,7 +290,13 @@ func (t *Tables) Check() error {
 			if i > 0 && Compare(lv.Words[k*(i-1):k*i], g) >= 0 {
 				return fmt.Errorf("tables: order %d entry %d out of order or duplicated", k, i)
 			}
-			if t.Find(g[:k-1]) < 0 {
+			if k == 2 {
+				continue // every word is a unigram
+			}
+			for parent < len(lower)/(k-1) && Compare(lower[(k-1)*parent:(k-1)*parent+k-1], g[:k-1]) < 0 {
+				parent++
+			}
+			if parent == len(lower)/(k-1) || Compare(lower[(k-1)*parent:(k-1)*parent+k-1], g[:k-1]) != 0 {
 				return fmt.Errorf("tables: order %d entry %d (%s): its context is not stored", k, i, t.Words(g))
 			}
 		}
