@@ -139,8 +139,10 @@ func (s *streamer) words(g []uint32) string {
 	return out
 }
 
-func (s *streamer) sorter(name string, width int, share int64) *extsort.Sorter {
-	return extsort.New(s.so.Dir, name, width, max(s.so.Memory/share, 64<<10))
+// sorter returns a sorter of records of width words ordered by their first
+// key words (stable), with a share of the memory.
+func (s *streamer) sorter(name string, width, key int, share int64) *extsort.Sorter {
+	return extsort.NewKeyed(s.so.Dir, name, width, key, max(s.so.Memory/share, 64<<10))
 }
 
 func (s *streamer) sorted(st *extsort.Sorter, what string) (*extsort.Iter, error) {
@@ -269,7 +271,7 @@ func (s *streamer) adjust() error {
 			s.adj1 = a
 			continue
 		}
-		st := s.sorter(fmt.Sprintf("suffix-%d", k+1), k, 2)
+		st := s.sorter(fmt.Sprintf("suffix-%d", k+1), k, k, 2)
 		err := s.each(k+1, func(g []uint32, _ uint64) error { return st.Add(g[1:]) })
 		if err != nil {
 			return err
@@ -549,7 +551,9 @@ func (j *joined) next() (float64, uint32, error) {
 // k-1 (its entries, probabilities, and the ranks within their sibling
 // lists), and sorts the result back into order k's entry order.
 func (s *streamer) join(k int) (*joined, error) {
-	st := s.sorter(fmt.Sprintf("join-%d", k), k, 3)
+	// Ordered by the suffix; the entry index, added in increasing order,
+	// keeps its order among equal suffixes (a stable sort).
+	st := s.sorter(fmt.Sprintf("join-%d", k), k, k-1, 3)
 	j := uint32(0)
 	rec := make([]uint32, k)
 	err := s.each(k, func(g []uint32, _ uint64) error {
@@ -566,7 +570,7 @@ func (s *streamer) join(k int) (*joined, error) {
 		return nil, err
 	}
 	defer it.Close()
-	back := s.sorter(fmt.Sprintf("back-%d", k), 4, 3)
+	back := s.sorter(fmt.Sprintf("back-%d", k), 4, 1, 3) // by entry index
 	r, err := s.sp.Open(k - 1)
 	if err != nil {
 		return nil, err

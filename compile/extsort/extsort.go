@@ -1,8 +1,12 @@
 // Package extsort sorts more fixed-width records than fit in memory: it
-// sorts what fits, spills each sorted run to a file, and merges the runs
-// (a k-way merge on a binary heap). Records are a fixed number of uint32
-// words, ordered lexicographically word by word; equal records are
-// interchangeable, so the output is the same whatever the budget.
+// sorts what fits (a least-significant-digit radix sort, H. H. Seward
+// (1954), "Information sorting in the application of electronic digital
+// computers to business operations", MIT; as in D. E. Knuth, The Art of
+// Computer Programming vol. 3, section 5.2.5), spills each sorted run to a
+// file, and merges the runs (a k-way merge on a binary heap). Records are
+// a fixed number of uint32 words, ordered lexicographically word by word;
+// equal records are interchangeable, so the output is the same whatever
+// the budget.
 package extsort
 
 import (
@@ -13,15 +17,16 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-	"slices"
 )
 
 // Sorter collects records and returns them sorted.
 type Sorter struct {
 	width   int
+	key     int // words that order the records
 	dir     string
 	name    string
 	buf     []uint32
+	tmp     []uint32 // the radix sort's second buffer
 	maxRecs int
 	runs    []string
 	spilled int64
@@ -33,12 +38,22 @@ type Sorter struct {
 // about budget bytes in memory, spilling runs to files in dir (which must
 // exist) named after name.
 func New(dir, name string, width int, budget int64) *Sorter {
-	per := int64(4*width + 4)
+	return NewKeyed(dir, name, width, width, budget)
+}
+
+// NewKeyed is New for records ordered by their first key words only:
+// records whose keys are equal come out in the order they were added (the
+// sort is stable), whatever the budget.
+func NewKeyed(dir, name string, width, key int, budget int64) *Sorter {
+	if key < 1 || key > width {
+		panic(fmt.Sprintf("extsort: key of %d words in records of %d", key, width))
+	}
+	per := int64(8 * width) // the records and the radix sort's copy
 	recs := budget / per
 	if recs < 1024 {
 		recs = 1024
 	}
-	return &Sorter{width: width, dir: dir, name: name, maxRecs: int(recs)}
+	return &Sorter{width: width, key: key, dir: dir, name: name, maxRecs: int(recs)}
 }
 
 // Spilled returns the bytes written to runs so far.
@@ -57,8 +72,10 @@ func (s *Sorter) Add(rec []uint32) error {
 			return err
 		}
 	}
-	if s.buf == nil {
-		s.buf = make([]uint32, 0, min(s.maxRecs, 1<<16)*s.width)
+	if len(s.buf)+s.width > cap(s.buf) {
+		// Grow, never beyond the budget's records.
+		c := min(max(2*cap(s.buf), (1<<16)*s.width), s.maxRecs*s.width)
+		s.buf = append(make([]uint32, 0, c), s.buf...)
 	}
 	s.buf = append(s.buf, rec...)
 	return nil
@@ -76,22 +93,69 @@ func compare(a, b []uint32) int {
 	return 0
 }
 
-// sorted returns the permutation that sorts the buffer.
-func (s *Sorter) sorted() []int32 {
-	w := s.width
-	n := len(s.buf) / w
-	perm := make([]int32, n)
-	for i := range perm {
-		perm[i] = int32(i)
+// sortBuf sorts the buffer's records.
+func (s *Sorter) sortBuf() {
+	if cap(s.tmp) < len(s.buf) {
+		s.tmp = make([]uint32, len(s.buf))
 	}
-	slices.SortFunc(perm, func(x, y int32) int {
-		return compare(s.buf[w*int(x):w*int(x)+w], s.buf[w*int(y):w*int(y)+w])
-	})
-	return perm
+	if sorted := radixSort(s.buf, s.tmp[:len(s.buf)], s.width, s.key); len(sorted) > 0 && &sorted[0] != &s.buf[0] {
+		s.buf, s.tmp = sorted, s.buf
+	}
+}
+
+// radixSort sorts the records of buf (width words each) by the bytes of
+// their first key words, least significant first: the last key word's low
+// byte to the first word's high byte, each pass a stable counting sort
+// from one buffer to the other (tmp, as long as buf). A byte that every
+// record shares is skipped, so word ids below 2^16 cost two passes a word.
+// It returns the buffer that holds the sorted records.
+func radixSort(buf, tmp []uint32, width, key int) []uint32 {
+	n := len(buf) / width
+	if n < 2 {
+		return buf
+	}
+	digits := 4 * key
+	counts := make([][256]int, digits)
+	for i := 0; i < len(buf); i += width {
+		for w, v := range buf[i : i+key] {
+			c := counts[4*w:]
+			c[0][v&0xff]++
+			c[1][v>>8&0xff]++
+			c[2][v>>16&0xff]++
+			c[3][v>>24]++
+		}
+	}
+	src, dst := buf, tmp
+	var offsets [256]int
+	for d := digits - 1; d >= 0; d-- {
+		// Digits in order of significance: d = 4w + 3 - b is byte b
+		// (from the low end) of word w.
+		w, b := d/4, 3-d%4
+		c := &counts[4*w+b]
+		if c[src[w]>>(8*b)&0xff] == n {
+			continue // every record has this byte
+		}
+		sum := 0
+		for x := range offsets {
+			offsets[x] = sum
+			sum += c[x] * width
+		}
+		shift := 8 * b
+		for i := 0; i < len(src); i += width {
+			x := src[i+w] >> shift & 0xff
+			o := offsets[x]
+			offsets[x] = o + width
+			for j := range width {
+				dst[o+j] = src[i+j]
+			}
+		}
+		src, dst = dst, src
+	}
+	return src
 }
 
 func (s *Sorter) spill() error {
-	perm := s.sorted()
+	s.sortBuf()
 	path := filepath.Join(s.dir, fmt.Sprintf("%s-%04d.run", s.name, len(s.runs)))
 	f, err := os.Create(path)
 	if err != nil {
@@ -99,16 +163,16 @@ func (s *Sorter) spill() error {
 	}
 	s.runs = append(s.runs, path)
 	s.nruns++
-	bw := bufio.NewWriterSize(f, 1<<18)
-	w := s.width
-	var b [4]byte
-	for _, i := range perm {
-		for _, v := range s.buf[w*int(i) : w*int(i)+w] {
-			binary.LittleEndian.PutUint32(b[:], v)
-			bw.Write(b[:])
+	b := make([]byte, 0, 1<<18)
+	for i, v := range s.buf {
+		b = binary.LittleEndian.AppendUint32(b, v)
+		if len(b) == cap(b) || i == len(s.buf)-1 {
+			if _, err = f.Write(b); err != nil {
+				break
+			}
+			b = b[:0]
 		}
 	}
-	err = bw.Flush()
 	if cerr := f.Close(); err == nil {
 		err = cerr
 	}
@@ -123,7 +187,7 @@ func (s *Sorter) spill() error {
 // Iter yields sorted records.
 type Iter struct {
 	s     *Sorter
-	perm  []int32 // in-memory case
+	mem   bool // in-memory case: the records are the sorter's buffer
 	pos   int
 	runs  []*run
 	heap  []int
@@ -160,7 +224,9 @@ func (s *Sorter) Sort() (*Iter, error) {
 	s.done = true
 	it := &Iter{s: s, first: true}
 	if len(s.runs) == 0 {
-		it.perm = s.sorted()
+		s.sortBuf()
+		s.tmp = nil
+		it.mem = true
 		return it, nil
 	}
 	if len(s.buf) > 0 {
@@ -168,7 +234,7 @@ func (s *Sorter) Sort() (*Iter, error) {
 			return nil, err
 		}
 	}
-	s.buf = nil
+	s.buf, s.tmp = nil, nil
 	readBuf := 1 << 16
 	for _, p := range s.runs {
 		f, err := os.Open(p)
@@ -194,7 +260,8 @@ func (s *Sorter) Sort() (*Iter, error) {
 }
 
 func (it *Iter) less(a, b int) bool {
-	c := compare(it.runs[it.heap[a]].rec, it.runs[it.heap[b]].rec)
+	k := it.s.key
+	c := compare(it.runs[it.heap[a]].rec[:k], it.runs[it.heap[b]].rec[:k])
 	return c < 0 || c == 0 && it.heap[a] < it.heap[b]
 }
 
@@ -220,14 +287,13 @@ func (it *Iter) down(i int) {
 // Next returns the next record (valid until the next call), or ok false at
 // the end.
 func (it *Iter) Next() (rec []uint32, ok bool, err error) {
-	if it.perm != nil || len(it.runs) == 0 {
-		if it.pos >= len(it.perm) {
+	if it.mem || len(it.runs) == 0 {
+		w := it.s.width
+		if it.pos+w > len(it.s.buf) {
 			return nil, false, nil
 		}
-		w := it.s.width
-		i := int(it.perm[it.pos])
-		it.pos++
-		return it.s.buf[w*i : w*i+w], true, nil
+		it.pos += w
+		return it.s.buf[it.pos-w : it.pos], true, nil
 	}
 	if !it.first {
 		// Advance the run whose record was returned last.
@@ -264,5 +330,6 @@ func (it *Iter) Close() {
 	}
 	it.s.runs = nil
 	it.s.buf = nil
-	it.perm = nil
+	it.s.tmp = nil
+	it.mem = false
 }
