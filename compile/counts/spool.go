@@ -1,22 +1,26 @@
 package counts
 
 import (
-	"bufio"
+	"encoding/binary"
 	"fmt"
 	"io"
 	"os"
 	"path/filepath"
 
-	"github.com/klauspost/compress/zstd"
-
 	"ingot/compile/tables"
 )
 
 // Spooled is a set of count files merged (duplicates summed) into one
-// sorted binary file per order in a directory, for a reader that passes
-// over each order several times without holding it in memory: the
-// bounded-memory estimator. Unigram counts are kept in memory, dense over
-// the vocabulary as in Counts.
+// sorted file per order in a directory, for a reader that passes over each
+// order several times without holding it in memory: the bounded-memory
+// estimator. Unigram counts are kept in memory, dense over the vocabulary
+// as in Counts.
+//
+// The files are private to the process and read several times each, so
+// they hold fixed-width records (k little-endian 32-bit word ids, then a
+// 64-bit count), which read back at the speed of a copy, rather than the
+// compressed, varint-coded blocks of a count file, whose decoding would
+// cost each pass as much as reading the input once.
 type Spooled struct {
 	Vocab    []string
 	Unigrams []uint64 // count of each word (0 for <s>)
@@ -50,12 +54,7 @@ func Spool(order int, sources []Source, dir string) (*Spooled, error) {
 	b = nil
 	vocab := ms.vocab
 	sp := &Spooled{Vocab: vocab, Unigrams: make([]uint64, len(vocab)), paths: make([]string, order)}
-	type out struct {
-		f  *os.File
-		bw *bufio.Writer
-		w  *Writer
-	}
-	outs := make([]*out, order+1)
+	outs := make([]*spoolWriter, order+1)
 	defer func() {
 		for _, o := range outs {
 			if o != nil && o.f != nil {
@@ -84,22 +83,17 @@ func Spool(order int, sources []Source, dir string) (*Spooled, error) {
 		}
 		o := outs[k]
 		if o == nil {
-			p := filepath.Join(dir, fmt.Sprintf("order-%d.counts", k))
+			p := filepath.Join(dir, fmt.Sprintf("order-%d.records", k))
 			f, err := os.Create(p)
 			if err != nil {
 				return nil, fmt.Errorf("spooling counts: %w", err)
 			}
-			bw := bufio.NewWriterSize(f, 1<<16)
-			w, err := newWriterLevel(bw, Header{Order: k, Vocab: vocab}, zstd.SpeedFastest)
-			if err != nil {
-				return nil, err
-			}
-			o = &out{f: f, bw: bw, w: w}
+			o = &spoolWriter{f: f, buf: make([]byte, 0, spoolBuffer)}
 			outs[k] = o
 			sp.paths[k-1] = p
 		}
-		if err := o.w.Add(g, n); err != nil {
-			return nil, err
+		if err := o.add(g, n); err != nil {
+			return nil, fmt.Errorf("spooling counts: %w", err)
 		}
 	}
 	if maxSeen == 0 {
@@ -112,17 +106,10 @@ func Spool(order int, sources []Source, dir string) (*Spooled, error) {
 		if o == nil {
 			return nil, fmt.Errorf("counts hold no %d-gram but some of order %d", k, maxSeen)
 		}
-		if err := o.w.Close(); err != nil {
-			return nil, err
+		if err := o.close(); err != nil {
+			return nil, fmt.Errorf("spooling counts: %w", err)
 		}
-		if err := o.bw.Flush(); err != nil {
-			return nil, err
-		}
-		if err := o.f.Close(); err != nil {
-			return nil, err
-		}
-		o.f = nil
-		sp.Entries[k-1] = o.w.Totals().Entries[k-1]
+		sp.Entries[k-1] = o.n
 	}
 	sp.paths = sp.paths[:maxSeen]
 	if maxSeen < order {
@@ -175,14 +162,77 @@ func (s *Spooled) wholeSentences(k int) (bool, error) {
 	}
 }
 
+// spoolBuffer is the size of a spool file's write and read buffers.
+const spoolBuffer = 1 << 18
+
+// spoolWriter writes the records of one order.
+type spoolWriter struct {
+	f   *os.File
+	buf []byte
+	n   uint64
+}
+
+func (w *spoolWriter) add(g []uint32, n uint64) error {
+	if len(w.buf)+4*len(g)+8 > cap(w.buf) {
+		if _, err := w.f.Write(w.buf); err != nil {
+			return err
+		}
+		w.buf = w.buf[:0]
+	}
+	for _, id := range g {
+		w.buf = binary.LittleEndian.AppendUint32(w.buf, id)
+	}
+	w.buf = binary.LittleEndian.AppendUint64(w.buf, n)
+	w.n++
+	return nil
+}
+
+func (w *spoolWriter) close() error {
+	_, err := w.f.Write(w.buf)
+	if cerr := w.f.Close(); err == nil {
+		err = cerr
+	}
+	w.f = nil
+	return err
+}
+
 // SpoolReader reads the entries of one order of Spooled counts.
 type SpoolReader struct {
-	*Reader
-	f *os.File
+	f    *os.File
+	path string
+	k    int
+	buf  []byte
+	pos  int
+	ids  []uint32
+	left uint64 // entries not yet read
 }
 
 // Close closes the file.
 func (r *SpoolReader) Close() error { return r.f.Close() }
+
+// Next returns the next entry (ids valid until the next call) and its
+// count, or io.EOF after the last.
+func (r *SpoolReader) Next() ([]uint32, uint64, error) {
+	if r.left == 0 {
+		return nil, 0, io.EOF
+	}
+	size := 4*r.k + 8
+	if r.pos+size > len(r.buf) {
+		rest := copy(r.buf[:cap(r.buf)], r.buf[r.pos:])
+		n, err := io.ReadAtLeast(r.f, r.buf[rest:cap(r.buf)], size-rest)
+		if err != nil {
+			return nil, 0, fmt.Errorf("%s: spooled order %d ends early: %w", r.path, r.k, err)
+		}
+		r.buf, r.pos = r.buf[:rest+n], 0
+	}
+	b := r.buf[r.pos : r.pos+size]
+	for i := range r.ids {
+		r.ids[i] = binary.LittleEndian.Uint32(b[4*i:])
+	}
+	r.pos += size
+	r.left--
+	return r.ids, binary.LittleEndian.Uint64(b[4*r.k:]), nil
+}
 
 // Open returns a reader of the entries of order k >= 2, in order.
 func (s *Spooled) Open(k int) (*SpoolReader, error) {
@@ -193,12 +243,7 @@ func (s *Spooled) Open(k int) (*SpoolReader, error) {
 	if err != nil {
 		return nil, err
 	}
-	r, err := NewReader(f)
-	if err != nil {
-		f.Close()
-		return nil, fmt.Errorf("%s: %w", s.paths[k-1], err)
-	}
-	return &SpoolReader{Reader: r, f: f}, nil
+	return &SpoolReader{f: f, path: s.paths[k-1], k: k, buf: make([]byte, 0, spoolBuffer), ids: make([]uint32, k), left: s.Entries[k-1]}, nil
 }
 
 // StatEntries returns the number of entries that a binary count file

@@ -112,7 +112,7 @@ func TestStreamedRefusesOpenCounts(t *testing.T) {
 		}
 		left, _ := os.ReadDir(dir)
 		for _, e := range left {
-			if e.Name() != "order-2.counts" && e.Name() != "order-3.counts" {
+			if e.Name() != "order-2.records" && e.Name() != "order-3.records" {
 				t.Errorf("%s: %s left behind", name, e.Name())
 			}
 		}
