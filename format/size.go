@@ -51,10 +51,7 @@ func FileSize(t *tables.Tables, plan Planned) (int64, error) {
 		lengths = append(lengths, 4*int64(levels), packedLen(entries, bitsFor(levels)))
 	}
 	links := linksOf(t)
-	childStarts := make([][]uint32, n)
-	for k := 1; k < n; k++ {
-		childStarts[k-1] = childStartValues(t, k)
-	}
+	childStarts := links.Starts
 	for k := 1; k <= n; k++ {
 		lv := &t.Levels[k-1]
 		nk := t.Len(k)

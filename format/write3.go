@@ -3,6 +3,8 @@ package format
 import (
 	"fmt"
 	"math"
+	"runtime"
+	"sync"
 
 	"ingot/compile/tables"
 )
@@ -45,35 +47,60 @@ func buildSections3(t *tables.Tables) ([]section, error) {
 		{Section: Section{Kind: KindSummary}, data: summaryBytes(t, links)},
 		{Section: Section{Kind: KindBuildInfo}, data: info},
 	}, vocabularySections3(t.Vocab)...)
-	childStarts := make([][]uint32, n) // [k-1]: n_k+1 starts of order k < N
-	for k := 1; k < n; k++ {
-		childStarts[k-1] = childStartValues(t, k)
+	childStarts := links.Starts // [k-1]: n_k+1 starts of order k < N
+	// The orders' sections are independent: built on GOMAXPROCS workers,
+	// placed in order.
+	perOrder := make([][]section, n)
+	work := make(chan int, n)
+	for k := n; k >= 1; k-- {
+		work <- k
 	}
-	for k := 1; k <= n; k++ {
-		lv := &t.Levels[k-1]
-		if k >= 2 {
-			data, enc := lastWordKeys(t, k, childStarts, links)
-			out = append(out, section{Section: Section{Kind: KindLastWords, Order: k, Encoding: enc}, data: data})
-		}
-		out = append(out, columnSections(KindProbabilities, KindProbCodebook, k, lv.LogProb, lv.ProbCodebook)...)
-		if k < n {
-			starts := childStarts[k-1]
-			isContext := func(i int) bool { return starts[i+1] > starts[i] || hasBackoff(lv.LogBackoff[i]) }
-			out = append(out, section{Section: Section{Kind: KindContexts, Order: k}, data: encodeMarks(len(lv.LogBackoff), isContext)})
-			var kept []float32
-			var x []uint64
-			for i, b := range lv.LogBackoff {
-				if isContext(i) {
-					kept = append(kept, b)
-					x = append(x, uint64(starts[i]))
-				}
+	close(work)
+	var wg sync.WaitGroup
+	for range min(runtime.GOMAXPROCS(0), n) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := range work {
+				perOrder[k-1] = orderSections3(t, k, childStarts, links)
 			}
-			x = append(x, uint64(starts[len(starts)-1]))
-			out = append(out, columnSections(KindBackoffs, KindBackoffCodebook, k, kept, lv.BackoffCodebook)...)
-			out = append(out, section{Section: Section{Kind: KindChildStarts, Order: k, Encoding: EliasFano}, data: encodeEliasFano(x)})
-		}
+		}()
+	}
+	wg.Wait()
+	for _, secs := range perOrder {
+		out = append(out, secs...)
 	}
 	return out, nil
+}
+
+// orderSections3 returns the sections of order k: its last words (k >= 2),
+// probabilities, contexts, back-offs and child starts (k < N).
+func orderSections3(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) []section {
+	n := t.Order()
+	lv := &t.Levels[k-1]
+	var out []section
+	if k >= 2 {
+		data, enc := lastWordKeys(t, k, childStarts, links)
+		out = append(out, section{Section: Section{Kind: KindLastWords, Order: k, Encoding: enc}, data: data})
+	}
+	out = append(out, columnSections(KindProbabilities, KindProbCodebook, k, lv.LogProb, lv.ProbCodebook)...)
+	if k < n {
+		starts := childStarts[k-1]
+		isContext := func(i int) bool { return starts[i+1] > starts[i] || hasBackoff(lv.LogBackoff[i]) }
+		out = append(out, section{Section: Section{Kind: KindContexts, Order: k}, data: encodeMarks(len(lv.LogBackoff), isContext)})
+		kept := make([]float32, 0, len(lv.LogBackoff))
+		x := make([]uint64, 0, len(lv.LogBackoff)+1)
+		for i, b := range lv.LogBackoff {
+			if isContext(i) {
+				kept = append(kept, b)
+				x = append(x, uint64(starts[i]))
+			}
+		}
+		x = append(x, uint64(starts[len(starts)-1]))
+		out = append(out, columnSections(KindBackoffs, KindBackoffCodebook, k, kept, lv.BackoffCodebook)...)
+		out = append(out, section{Section: Section{Kind: KindChildStarts, Order: k, Encoding: EliasFano}, data: encodeEliasFano(x)})
+	}
+	return out
 }
 
 // hasBackoff reports whether a log10 back-off weight is stored in version
@@ -127,22 +154,26 @@ func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables
 // otherwise (EliasFano). links are the tables' (linksOf).
 func wordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]uint64, Encoding) {
 	n := t.Len(k)
-	keys := make([]uint64, n)
-	for e := 0; e < n; e++ {
-		keys[e] = uint64(t.Gram(k, e)[k-1])
-	}
 	if k >= 3 {
 		ranks := make([]uint64, n)
 		parents, suffixes, contexts := links.Parent[k-1], links.Suffix[k-1], links.Suffix[k-2]
+		ok := true
 		for e := 0; e < n; e++ {
 			suffix := suffixes[e]           // h'w, order k-1
 			context := contexts[parents[e]] // h', order k-2
 			if suffix < 0 || context < 0 {
-				return keys, EliasFano
+				ok = false
+				break
 			}
 			ranks[e] = uint64(suffix) - uint64(childStarts[k-3][context])
 		}
-		return ranks, EliasFanoRanks
+		if ok {
+			return ranks, EliasFanoRanks
+		}
+	}
+	keys := make([]uint64, n)
+	for e := 0; e < n; e++ {
+		keys[e] = uint64(t.Gram(k, e)[k-1])
 	}
 	return keys, EliasFano
 }

@@ -5,6 +5,7 @@ import (
 	"context"
 	"os"
 	"path/filepath"
+	"runtime"
 	"testing"
 
 	"ingot/compile/bounded"
@@ -138,4 +139,56 @@ func boolInt(b bool) int {
 		return 1
 	}
 	return 0
+}
+
+// The model is the same bytes on one core as on every core, in memory and
+// on disk (sorting, linking and writing share work among GOMAXPROCS
+// workers).
+func TestSameModelOnOneCore(t *testing.T) {
+	dir := t.TempDir()
+	c := fixture.Counts(t, 4, fixture.Train(t, 1200))
+	path := filepath.Join(dir, "c.bin")
+	var bin bytes.Buffer
+	if err := c.WriteBinary(&bin); err != nil {
+		t.Fatal(err)
+	}
+	os.WriteFile(path, bin.Bytes(), 0o644)
+	o := Compile{Estimate: estimate.Options{Method: estimate.KneserNey, Order: 4}, ToolVersion: "test", Command: Record([]string{"ingot", "compile"}, "")}
+	build := func(procs int) (mem, disk []byte) {
+		defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(procs))
+		cc, _, err := LoadCounts(4, []string{path})
+		if err != nil {
+			t.Fatal(err)
+		}
+		r, err := o.Run(cc)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if mem, err = format.Marshal(r.Model); err != nil {
+			t.Fatal(err)
+		}
+		m, err := o.RunBounded(context.Background(), []string{path}, bounded.Options{Memory: 1 << 20, TempDir: t.TempDir()})
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer m.Close()
+		var got bytes.Buffer
+		if err := m.Write(&got, m.Info); err != nil {
+			t.Fatal(err)
+		}
+		return mem, got.Bytes()
+	}
+	mem1, disk1 := build(1)
+	memN, diskN := build(max(4, runtime.NumCPU()))
+	if !bytes.Equal(mem1, memN) {
+		t.Error("in memory: one core and every core give different models")
+	}
+	if !bytes.Equal(disk1, diskN) {
+		t.Error("on disk: one core and every core give different models")
+	}
+	// The command lines differ (provenance), so compare the disk models
+	// with each other only; TestRunBoundedSameModel compares the paths.
+	if len(mem1) == 0 || len(disk1) == 0 {
+		t.Error("empty model")
+	}
 }

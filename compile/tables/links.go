@@ -61,14 +61,24 @@ func (l *Linker) Add(g []uint32) (suffix int32, ok bool) {
 		}
 		l.endOrder()
 	}
-	l.Words[k-1] = append(l.Words[k-1], g...)
+	l.Words[k-1] = append(grow(l.Words[k-1], k), g...)
 	parent, suffix, ok := l.link(g, l.Words[k-2], &l.cur)
 	if !ok {
 		return -1, false
 	}
-	l.Parent[k-1] = append(l.Parent[k-1], parent)
-	l.Suffix[k-1] = append(l.Suffix[k-1], suffix)
+	l.Parent[k-1] = append(grow(l.Parent[k-1], 1), parent)
+	l.Suffix[k-1] = append(grow(l.Suffix[k-1], 1), suffix)
 	return suffix, true
+}
+
+// grow makes room for n more elements, growing the capacity by half when
+// it runs out (append grows large slices by a quarter, copying them more
+// often).
+func grow[E any](s []E, n int) []E {
+	if len(s)+n <= cap(s) {
+		return s
+	}
+	return append(make([]E, 0, max(cap(s)+cap(s)/2, len(s)+n, 1024)), s...)
 }
 
 // cursor is where linking one order stands.
