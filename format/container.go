@@ -9,10 +9,10 @@ import (
 )
 
 // Container is the header and directory of a model file as its bytes
-// record them, read leniently by ScanContainer: every problem is reported,
-// with its section and offset, and reading goes on wherever the bytes
-// allow. Open reads the same fields strictly and stops at the first
-// problem; ingot verify reports them all.
+// record them. scanContainer is the one parser of them: ScanContainer
+// reads leniently for ingot verify (every problem is reported, with its
+// section and offset, and reading goes on wherever the bytes allow), and
+// Open reads through the same function and stops at the first problem.
 type Container struct {
 	data []byte
 	// Version and SectionCount are the header's fields as recorded.
@@ -42,27 +42,50 @@ func (e DirectoryEntry) Where() string {
 	return fmt.Sprintf("directory entry %d (%s)", e.Index, e.Name())
 }
 
-// ScanContainer reads the header of data (which starts with the magic)
-// and, when it can, the directory, reporting every problem of the header.
-// readable is false when the directory cannot be read (the section count
-// or the file's length forbid it). An intact header that names a format
-// version this reader does not know is an error: the file is not damaged
-// but unreadable.
+// ScanContainer reads the header of data and, when it can, the directory,
+// reporting every problem of the header. readable is false when the
+// directory cannot be read (the section count or the file's length forbid
+// it). The error is for bytes that are no model file at all, which no
+// check can describe: fewer bytes than the magic, a wrong magic, or an
+// intact header that names a format version this reader does not know
+// (the file is not damaged but unreadable); it is a *FormatError.
 func ScanContainer(data []byte, report func(Problem)) (c *Container, readable bool, err error) {
+	c, readable, err = scanContainer(data, func(p Problem) bool { report(p); return true })
+	return c, readable, err
+}
+
+// scanContainer is the one parser of the header and the directory (spec
+// §3.1, §3.2 and §6.1 items 1 and 2). report hears each problem and says
+// whether to go on; when it says stop, scanContainer returns at once with
+// readable false.
+func scanContainer(data []byte, report func(Problem) bool) (c *Container, readable bool, err error) {
 	c = &Container{data: data}
+	if n := min(len(data), len(Magic)); string(data[:n]) != Magic[:n] {
+		return c, false, formatErr("header", 0, "bad magic %q: not an ingot model file, or damaged by a text-mode transfer", data[:n])
+	}
+	if len(data) < len(Magic) {
+		return c, false, formatErr("header", 0, "file is %d bytes, shorter than the %d-byte header and its %d-byte magic: not an ingot model file, or truncated", len(data), headerSize, len(Magic))
+	}
 	if len(data) < headerSize {
-		report(Problem{"header", 0, fmt.Sprintf("file is %d bytes, shorter than the %d-byte header: truncated", len(data), headerSize)})
+		report(Problem{"header", 0, fmt.Sprintf("file is %d bytes, shorter than the %d-byte header: not an ingot model file, or truncated", len(data), headerSize)})
 		return c, false, nil
 	}
 	version := u32(data[offVersion:])
 	count := u32(data[offSectionCount:])
 	c.Version, c.SectionCount = int(version), int(count)
+	known := version >= oldestVersion && version <= Version
 	if count > maxSections {
+		if !known {
+			report(Problem{"header", offVersion, fmt.Sprintf("file is format version %d; this reader reads versions %d to %d (the header cannot be checked: its section count is damaged too)", version, oldestVersion, Version)})
+		}
 		report(Problem{"header", offSectionCount, fmt.Sprintf("section count %d exceeds %d: header damaged", count, maxSections)})
 		return c, false, nil
 	}
 	dirEnd := int64(headerSize) + directoryEntry*int64(count)
 	if dirEnd > int64(len(data)) {
+		if !known {
+			report(Problem{"header", offVersion, fmt.Sprintf("file is format version %d; this reader reads versions %d to %d (the header cannot be checked: the file is too short for its directory)", version, oldestVersion, Version)})
+		}
 		report(Problem{"directory", headerSize, fmt.Sprintf("file is %d bytes, too short for a directory of %d sections ending at %d: truncated", len(data), count, dirEnd)})
 		return c, false, nil
 	}
@@ -70,23 +93,25 @@ func ScanContainer(data []byte, report func(Problem)) (c *Container, readable bo
 	want := u32(data[offHeaderCRC:])
 	got := updateChecksum(checksum(data[:offHeaderCRC]), data[headerSize:dirEnd])
 	c.HeaderIntact = got == want
-	if version < oldestVersion || version > Version {
+	if !known {
 		if c.HeaderIntact {
-			return c, false, fmt.Errorf("file is format version %d; this verifier reads versions %d to %d", version, oldestVersion, Version)
+			return c, false, formatErr("header", offVersion, "file is format version %d; this reader reads versions %d to %d", version, oldestVersion, Version)
 		}
-		report(Problem{"header", offVersion, fmt.Sprintf("format version field holds %d, and versions %d to %d exist: header damaged", version, oldestVersion, Version)})
+		if !report(Problem{"header", offVersion, fmt.Sprintf("file is format version %d; this reader reads versions %d to %d, and the header checksum fails: the format version field holds %d through damage, or the file is of a version whose header this reader cannot check", version, oldestVersion, Version, version)}) {
+			return c, false, nil
+		}
 	}
-	if !c.HeaderIntact {
-		report(Problem{"header", offHeaderCRC, fmt.Sprintf("checksum of the header and directory is %08x, the header records %08x: header or directory damaged", got, want)})
+	if !c.HeaderIntact && !report(Problem{"header", offHeaderCRC, fmt.Sprintf("header and directory checksum is %08x, the header records %08x: header or directory damaged", got, want)}) {
+		return c, false, nil
 	}
 	if length := u64(data[offFileLength:]); length != uint64(len(data)) {
-		report(Problem{"header", offFileLength, fmt.Sprintf("file is %d bytes but its header records %d: truncated or extended", len(data), length)})
-	}
-	if r := u32(data[offReserved:]); r != 0 {
-		report(Problem{"header", offReserved, fmt.Sprintf("reserved field is %08x, expected 0", r)})
+		if !report(Problem{"header", offFileLength, fmt.Sprintf("file is %d bytes but its header records %d: truncated or extended", len(data), length)}) {
+			return c, false, nil
+		}
 	}
 	size := uint64(len(data))
-	for i := range int(count) {
+	c.Entries = make([]DirectoryEntry, count)
+	for i := range c.Entries {
 		at := headerSize + directoryEntry*i
 		b := data[at : at+directoryEntry]
 		e := DirectoryEntry{Index: i, RecordedOrder: u32(b[8:]), RecordedOffset: u64(b[16:]), RecordedLength: u64(b[24:])}
@@ -98,38 +123,63 @@ func ScanContainer(data []byte, report func(Problem)) (c *Container, readable bo
 		if e.InFile {
 			e.Offset, e.Length = int64(e.RecordedOffset), int64(e.RecordedLength)
 		}
-		c.Entries = append(c.Entries, e)
+		c.Entries[i] = e
 	}
 	return c, true, nil
+}
+
+// CheckReserved reports a reserved header field that is not zero. Writers
+// write zero there; readers do not refuse a file for it at open (spec
+// §3.1), full verification does.
+func (c *Container) CheckReserved(report func(Problem)) {
+	if len(c.data) < headerSize {
+		return
+	}
+	if r := u32(c.data[offReserved:]); r != 0 {
+		report(Problem{"header", offReserved, fmt.Sprintf("reserved field is %08x, expected 0", r)})
+	}
 }
 
 // CheckDirectory applies the placement rules of spec §3.2 to every entry
 // and reports each problem.
 func (c *Container) CheckDirectory(report func(Problem)) {
+	c.checkDirectory(func(p Problem) bool { report(p); return true })
+}
+
+// checkDirectory is CheckDirectory; report says whether to go on.
+func (c *Container) checkDirectory(report func(Problem) bool) {
 	size := uint64(len(c.data))
 	prevEnd := uint64(c.DirectoryEnd)
-	seen := make(map[[2]uint32]int)
+	seen := make(map[[2]uint32]int, len(c.Entries))
 	for i := range c.Entries {
 		e := &c.Entries[i]
 		at := int64(headerSize + directoryEntry*i)
 		off, length := e.RecordedOffset, e.RecordedLength
-		if e.RecordedOrder > tables.MaxOrder {
-			report(Problem{e.Where(), at + 8, fmt.Sprintf("order %d exceeds %d", e.RecordedOrder, tables.MaxOrder)})
+		if e.RecordedOrder > tables.MaxOrder && !report(Problem{e.Where(), at + 8, fmt.Sprintf("order %d exceeds %d", e.RecordedOrder, tables.MaxOrder)}) {
+			return
 		}
-		if off%sectionAlignment != 0 {
-			report(Problem{e.Where(), at + 16, fmt.Sprintf("section offset %d is not a multiple of %d", off, sectionAlignment)})
+		if off%sectionAlignment != 0 && !report(Problem{e.Where(), at + 16, fmt.Sprintf("section offset %d is not a multiple of %d", off, sectionAlignment)}) {
+			return
 		}
-		if off < prevEnd {
-			report(Problem{e.Where(), at + 16, fmt.Sprintf("section offset %d overlaps the directory or the section before, which ends at %d", off, prevEnd)})
+		if off < prevEnd && !report(Problem{e.Where(), at + 16, fmt.Sprintf("section offset %d overlaps the directory or the section before, which ends at %d", off, prevEnd)}) {
+			return
 		}
 		if !e.InFile {
-			report(Problem{e.Where(), at + 16, fmt.Sprintf("section [%d, %d+%d) extends past the end of the %d-byte file: truncated, or the entry is damaged", off, off, length, size)})
+			if !report(Problem{e.Where(), at + 16, fmt.Sprintf("section [%d, %d+%d) lies outside the %d-byte file: it extends past the end of the file (truncated, or the entry is damaged)", off, off, length, size)}) {
+				return
+			}
 			continue
 		}
 		prevEnd = max(prevEnd, off+length)
+		if e.Kind < KindSummary || e.Kind > KindWordHash {
+			continue
+		}
 		key := [2]uint32{uint32(e.Kind), e.RecordedOrder}
-		if j, dup := seen[key]; dup && e.Kind >= KindSummary && e.Kind <= KindWordHash {
-			report(Problem{e.Where(), at, fmt.Sprintf("section appears twice in the directory, first as entry %d", j)})
+		if j, dup := seen[key]; dup {
+			if !report(Problem{e.Where(), at, fmt.Sprintf("section appears twice in the directory, first as entry %d", j)}) {
+				return
+			}
+			continue
 		}
 		seen[key] = i
 	}

@@ -100,65 +100,30 @@ func FromBytes(data []byte) (*Model, error) {
 func u32(b []byte) uint32 { return binary.LittleEndian.Uint32(b) }
 func u64(b []byte) uint64 { return binary.LittleEndian.Uint64(b) }
 
-// readHeader checks the header and the directory and records the sections.
+// readHeader reads the header and the directory with the one parser
+// (scanContainer), stopping at the first problem, and records the
+// sections.
 func (m *Model) readHeader() error {
-	data := m.data
-	if len(data) < headerSize {
-		return formatErr("header", 0, "file is %d bytes, shorter than the %d-byte header: not an ingot model file, or truncated", len(data), headerSize)
+	var first *FormatError
+	stop := func(p Problem) bool {
+		first = &FormatError{Section: p.Section, Offset: p.Offset, Msg: p.Msg}
+		return false
 	}
-	if string(data[:len(Magic)]) != Magic {
-		return formatErr("header", 0, "bad magic %q: not an ingot model file, or damaged by a text-mode transfer", data[:len(Magic)])
+	c, readable, err := scanContainer(m.data, stop)
+	if err != nil {
+		return err
 	}
-	v := u32(data[offVersion:])
-	if v < oldestVersion || v > Version {
-		return formatErr("header", offVersion, "file is format version %d; this reader reads versions %d to %d", v, oldestVersion, Version)
+	if first == nil && readable {
+		c.checkDirectory(stop)
 	}
-	m.version = int(v)
-	count := u32(data[offSectionCount:])
-	if count > maxSections {
-		return formatErr("header", offSectionCount, "section count %d exceeds %d", count, maxSections)
+	if first != nil {
+		return first
 	}
-	dirEnd := int64(headerSize) + directoryEntry*int64(count)
-	if dirEnd > int64(len(data)) {
-		return formatErr("directory", headerSize, "file is %d bytes, too short for a directory of %d sections ending at %d (truncated file?)", len(data), count, dirEnd)
-	}
-	want := u32(data[offHeaderCRC:])
-	if got := updateChecksum(checksum(data[:offHeaderCRC]), data[headerSize:dirEnd]); got != want {
-		return formatErr("header", offHeaderCRC, "header and directory checksum is %08x, expected %08x: header or directory damaged", got, want)
-	}
-	if length := u64(data[offFileLength:]); length != uint64(len(data)) {
-		return formatErr("header", offFileLength, "file is %d bytes but its header records %d (truncated or extended file?)", len(data), length)
-	}
-	copy(m.digest[:], data[offDigest:offDigest+32])
-
-	m.sections = make([]Section, count)
-	prevEnd := dirEnd
-	for i := range m.sections {
-		at := headerSize + directoryEntry*int64(i)
-		e := data[at:]
-		s := Section{
-			Kind:     SectionKind(u32(e[0:])),
-			Encoding: Encoding(u32(e[4:])),
-			Checksum: u32(e[12:]),
-		}
-		order, off, length := u32(e[8:]), u64(e[16:]), u64(e[24:])
-		where := func() string { return fmt.Sprintf("directory entry %d (%s)", i, s.Name()) }
-		if order > tables.MaxOrder {
-			return formatErr(where(), at+8, "order %d exceeds %d", order, tables.MaxOrder)
-		}
-		s.Order = int(order)
-		if off%sectionAlignment != 0 {
-			return formatErr(where(), at+16, "section offset %d is not a multiple of %d", off, sectionAlignment)
-		}
-		if off < uint64(prevEnd) {
-			return formatErr(where(), at+16, "section offset %d overlaps the directory or the previous section, which ends at %d", off, prevEnd)
-		}
-		if off > uint64(len(data)) || length > uint64(len(data))-off {
-			return formatErr(where(), at+16, "section [%d, %d+%d) lies outside the %d-byte file", off, off, length, len(data))
-		}
-		s.Offset, s.Length = int64(off), int64(length)
-		prevEnd = s.Offset + s.Length
-		m.sections[i] = s
+	m.version = c.Version
+	copy(m.digest[:], m.data[offDigest:offDigest+32])
+	m.sections = make([]Section, len(c.Entries))
+	for i, e := range c.Entries {
+		m.sections[i] = e.Section
 	}
 	return nil
 }

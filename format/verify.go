@@ -26,49 +26,39 @@ func (m *Model) Verify() error {
 }
 
 // VerifyChecksums checks the CRC-32C of every section, the SHA-256 content
-// digest, and that the padding and reserved header bytes are zero.
+// digest, and that the padding and reserved header bytes are zero: the
+// container checks ingot verify makes (see Container), stopping at the
+// first problem.
 func (m *Model) VerifyChecksums() error {
 	if len(m.data) < headerSize {
 		return m.withPath(formatErr("header", 0, "model is closed or empty"))
 	}
-	if r := u32(m.data[offReserved:]); r != 0 {
-		return m.withPath(formatErr("header", offReserved, "reserved field is %08x, expected 0", r))
+	var first *FormatError
+	keep := func(p Problem) {
+		if first == nil {
+			first = &FormatError{Section: p.Section, Offset: p.Offset, Msg: p.Msg}
+		}
 	}
-	digest := sha256.New()
-	pos := int64(headerSize + directoryEntry*len(m.sections))
-	for _, s := range m.sections {
-		if err := zeros(m.data[pos:s.Offset], "padding before "+s.Name(), pos); err != nil {
-			return m.withPath(err)
-		}
-		b := m.data[s.Offset : s.Offset+s.Length]
-		if got := checksum(b); got != s.Checksum {
-			return m.withPath(formatErr(s.Name(), s.Offset, "checksum is %08x, expected %08x: section damaged", got, s.Checksum))
-		}
-		if s.Kind != KindSignature {
-			digest.Write(digestRecord(s))
-			digest.Write(b)
-		}
-		pos = s.Offset + s.Length
-	}
-	if err := zeros(m.data[pos:], "padding at the end of the file", pos); err != nil {
+	c, readable, err := scanContainer(m.data, func(p Problem) bool { keep(p); return false })
+	if err != nil {
 		return m.withPath(err)
 	}
-	if int64(len(m.data))-pos >= sectionAlignment {
-		return m.withPath(formatErr("end of file", pos, "%d bytes follow the last section; at most %d bytes of padding may", int64(len(m.data))-pos, sectionAlignment-1))
+	if readable && first == nil {
+		c.checkDirectory(func(p Problem) bool { keep(p); return false })
 	}
-	var sum [32]byte
-	digest.Sum(sum[:0])
-	if sum != m.digest {
-		return m.withPath(formatErr("header", offDigest, "content digest is %x, expected %x", sum, m.digest))
-	}
-	return nil
-}
-
-func zeros(b []byte, what string, at int64) error {
-	for i, c := range b {
-		if c != 0 {
-			return formatErr(what, at+int64(i), "byte is %#02x, expected 0", c)
+	for _, check := range []func(report func(Problem)){
+		c.CheckReserved,
+		func(r func(Problem)) { c.CheckChecksums(r) },
+		c.CheckPadding,
+		func(r func(Problem)) { c.CheckDigest(r) },
+	} {
+		if first != nil {
+			return m.withPath(first)
 		}
+		check(keep)
+	}
+	if first != nil {
+		return m.withPath(first)
 	}
 	return nil
 }

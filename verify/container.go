@@ -18,14 +18,16 @@ func collect(c *Check) func(format.Problem) {
 }
 
 // checkHeader checks the fixed header and reports whether the directory can
-// be read. A file whose header checksum holds but whose version this
-// verifier does not know is unreadable, not damaged.
+// be read. Bytes that do not start with the magic, and a file whose header
+// checksum holds but whose version this verifier does not know, are
+// unreadable, not damaged (format.ScanContainer's error).
 func (v *verifier) checkHeader() (directoryReadable bool, err error) {
 	c := Check{Name: CheckHeader, Status: Pass}
 	cont, readable, err := format.ScanContainer(v.data, collect(&c))
 	if err != nil {
 		return false, err
 	}
+	cont.CheckReserved(collect(&c))
 	v.container = cont
 	v.version = cont.Version
 	if readable {

@@ -122,10 +122,6 @@ func unwrapPath(err error) error {
 
 // Bytes runs every check on a model held in memory; see File.
 func Bytes(data []byte, opt Options) (*Report, error) {
-	if len(data) < len(format.Magic) || string(data[:len(format.Magic)]) != format.Magic {
-		n := min(len(data), len(format.Magic))
-		return nil, &UnreadableError{Err: fmt.Errorf("the file does not start with the ingot magic (it starts %q)", data[:n])}
-	}
 	v := &verifier{data: data, opt: opt, rep: &Report{}}
 	if err := v.run(); err != nil {
 		return nil, &UnreadableError{Err: err}
