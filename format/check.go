@@ -266,56 +266,29 @@ func (c *checker) codebook(kind SectionKind, k int, col *column) {
 }
 
 // suffixClosed checks that the suffix of every stored n-gram of order 3 and
-// up is stored (a bigram's suffix is a unigram). It walks each order once:
-// the suffix of a child c of entry p is the child, with c's last word, of
-// the entry storing p's suffix, found by one search among that entry's
-// children.
+// up is stored (a bigram's suffix is a unigram), through the suffix links
+// (SuffixLink), which one pass per order finds.
 func (c *checker) suffixClosed() {
 	m := c.m
 	if m.order < 3 {
 		return
 	}
-	// link[p]: the entry of order k-1 storing the suffix of entry p of
-	// order k (noNode when it is not stored); for k = 2, the unigram.
-	link := make([]uint32, m.Count(2))
-	for i := range link {
-		link[i] = m.WordAt(2, i)
+	t := m.suffixes()
+	if t == nil {
+		return // the trie does not decode: reported by the child-start rule
 	}
-	for k := 2; k < m.order; k++ {
-		parents, _, _ := m.trie(k)
-		lowerStarts, _, _ := m.trie(k - 1)
-		_, lowerWords, _ := m.trie(k)
-		_, words, _ := m.trie(k + 1)
-		name, off := m.sectionOffset(KindLastWords, k+1, 0)
-		next := make([]uint32, m.Count(k+1))
-		for p := 0; p < m.Count(k); p++ {
-			a, b := int(u32(parents[4*p:])), int(u32(parents[4*p+4:]))
-			// The children of p and of its suffix h both ascend by word:
-			// each search starts where the last one ended.
-			var lo, hi uint64
-			if h := link[p]; h != noNode && 4*int(h)+8 <= len(lowerStarts) {
-				lo, hi = uint64(u32(lowerStarts[4*h:])), uint64(u32(lowerStarts[4*h+4:]))
-				hi = min(hi, uint64(len(lowerWords)/4))
+	for k := 3; k <= m.order; k++ {
+		name, off := m.sectionOffset(KindLastWords, k, 0)
+		for e, s := range t.link[k-1] {
+			if s != noNode {
+				continue
 			}
-			for e := a; e < b; e++ {
-				s := noNode
-				if lo < hi {
-					lo = gallop(lowerWords, lo, hi, u32(words[4*e:]))
-					if lo < hi && u32(lowerWords[4*lo:]) == u32(words[4*e:]) {
-						s = uint32(lo)
-					}
-				}
-				next[e] = s
-				if s == noNode {
-					g := m.Gram(k+1, e, nil)
-					c.problem(RuleSuffixClosed, name, off+4*int64(e), "entry %d (%q) is stored but its suffix %q is not, though the model is flagged suffix-closed", e, m.words(g), m.words(g[1:]))
-					if c.stop {
-						return
-					}
-				}
+			g := m.Gram(k, e, nil)
+			c.problem(RuleSuffixClosed, name, off+4*int64(e), "entry %d (%q) is stored but its suffix %q is not, though the model is flagged suffix-closed", e, m.words(g), m.words(g[1:]))
+			if c.stop {
+				return
 			}
 		}
-		link = next
 	}
 }
 

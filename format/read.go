@@ -37,6 +37,7 @@ type Model struct {
 	wordHash     *wordHashTable // version 3
 	levels       [tables.MaxOrder]level
 	decoded      *decodedTrie // version 3: plain child starts and last words, decoded on first use
+	links        *suffixTable // every entry's suffix link, found on first use (SuffixLink)
 }
 
 // level holds the columns of one order, as slices of the file's bytes.
@@ -70,7 +71,7 @@ func (m *Model) Close() error {
 // FromBytes opens a model held in data, with the same checks as Open. The
 // Model reads data in place: the caller must not change it afterwards.
 func FromBytes(data []byte) (*Model, error) {
-	m := &Model{data: data}
+	m := &Model{data: data, links: &suffixTable{}}
 	if err := m.readHeader(); err != nil {
 		return nil, err
 	}

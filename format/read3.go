@@ -197,8 +197,9 @@ func (m *Model) extensions3(s *State, w uint32, child *[tables.MaxOrder]uint32) 
 // trie: Entries, WordAt, ToTables, Verify. Queries never need it.
 type decodedTrie struct {
 	once   sync.Once
-	starts [tables.MaxOrder][]byte // [k-1]: n_k+1 child starts of order k < N
-	words  [tables.MaxOrder][]byte // [k-1]: last word ids of order k >= 2
+	starts [tables.MaxOrder][]byte   // [k-1]: n_k+1 child starts of order k < N
+	words  [tables.MaxOrder][]byte   // [k-1]: last word ids of order k >= 2
+	suffix [tables.MaxOrder][]uint32 // [k-1]: suffix links of order k >= 2 (see SuffixLink)
 	err    error
 	ready  atomic.Bool // decoded without error: Find may walk the plain columns
 }
@@ -332,6 +333,7 @@ func (m *Model) decodeTrie(d *decodedTrie) error {
 			}
 		}
 		d.words[k-1] = words
+		d.suffix[k-1] = next
 		suffix = next
 	}
 	return nil

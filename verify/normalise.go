@@ -28,12 +28,14 @@ type walker struct {
 	tolerance float64
 	// nodes[k-1], for orders k < N, holds per entry its S as a context and
 	// where its children start, with one more element closing the last
-	// range. Keeping the two side by side (and the words and probabilities
-	// of entries side by side in lower), in 8 bytes, costs memory but saves
-	// cache misses: looking up h' reads them together, at places that jump
-	// around the file.
+	// range. Keeping the two side by side, in 8 bytes, costs memory but
+	// saves cache misses: looking up h' reads them together, at places that
+	// jump around the file.
 	nodes [tables.MaxOrder][]node
-	lower [tables.MaxOrder][]lowerEntry // [k-1], orders 2..N-1
+	// lower[k-1], orders 2..N-1: the stored log10 probabilities of order
+	// k, read in place of P(x|h') when h'x is stored (its entry is the
+	// suffix link of hx, format.Model.SuffixLink).
+	lower [tables.MaxOrder][]float32
 	// link[k-1][i] and linkOrder[k-1][i], for orders 2..N-1, locate the
 	// longest stored suffix of h' (h without its oldest word): the context
 	// whose S stands for S(h'). For order 1 it is the empty context.
@@ -49,12 +51,6 @@ type walker struct {
 type node struct {
 	deviation float32
 	first     uint32
-}
-
-// lowerEntry is an entry's last word and stored log10 probability.
-type lowerEntry struct {
-	word uint32
-	logp float32
 }
 
 // tally is what one worker found: the counts of the normalisation check
@@ -124,8 +120,8 @@ type worker struct {
 }
 
 // walk runs the normalisation check. It reads the trie through the
-// model's walks (ChildRange, WordAt, Find, Gram) and its values through
-// LogProbAt and LogBackoffAt.
+// model's walks (ChildRange, WordAt, SuffixLink, Find, Gram) and its values
+// through LogProbAt and LogBackoffAt.
 func (v *verifier) walk() {
 	m := v.m
 	N := m.Order()
@@ -144,9 +140,9 @@ func (v *verifier) walk() {
 		nodes[n].first = uint32(m.Count(k + 1))
 		w.nodes[k-1] = nodes
 		if k >= 2 {
-			lower := make([]lowerEntry, n)
+			lower := make([]float32, n)
 			for i := range lower {
-				lower[i] = lowerEntry{m.WordAt(k, i), m.LogProbAt(k, i)}
+				lower[i] = m.LogProbAt(k, i)
 			}
 			w.lower[k-1] = lower
 		}
@@ -227,11 +223,11 @@ func (w *walker) backoff(k, i int) float64 { return float64(w.m.LogBackoffAt(k, 
 //
 // For each successor x it needs P(x|h'). When h'x is stored, that is its
 // stored probability: the back-off rule looks no further, so this is the
-// answer format.Model.Next gives. The successors of h and of h' both ascend
-// by word, so h'x is found by galloping forward through the children of h'
-// from where the previous search stopped. When h'x is not stored (h' itself
-// may not be), P(x|h') is asked of the model's query path, Next, from the
-// query state of h'.
+// answer format.Model.Next gives. h'x is the suffix of hx, whose entry the
+// model's suffix link names (found once per model, and shared with the
+// format's suffix rule). When h'x is not stored (h' itself may not be),
+// P(x|h') is asked of the model's query path, Next, from the query state of
+// h'.
 func (wk *worker) context(k, i int) {
 	w := wk.walker
 	lo, li := 0, uint32(0) // the longest stored suffix of h'
@@ -240,13 +236,8 @@ func (wk *worker) context(k, i int) {
 	}
 	a, b := w.children(k, i)
 	next := k + 1
-	var lower []lowerEntry
-	la, lb := 0, 0 // the children of h' still to search, when h' is stored
+	lower := w.lower[k-1]
 	below := w.empty
-	if k >= 2 && lo == k-1 && a < b {
-		la, lb = w.lowerChildren(k-1, int(li))
-		lower = w.lower[k-1]
-	}
 	if lo >= 1 {
 		below = 1 + float64(w.nodes[lo-1][li].deviation)
 	}
@@ -257,11 +248,10 @@ func (wk *worker) context(k, i int) {
 		x := w.m.WordAt(next, c)
 		so, si, found := 1, x, k == 1 // for k = 1, h'x is the unigram x
 		var lp float64
-		if la < lb {
-			la = lowerBound(lower, la, lb, x)
-			if la < lb && lower[la].word == x {
-				so, si, found = k, uint32(la), true
-				lp = float64(lower[la].logp)
+		if k >= 2 {
+			if s, ok := w.m.SuffixLink(next, c); ok && s < len(lower) {
+				so, si, found = k, uint32(s), true
+				lp = float64(lower[s])
 			}
 		}
 		if k == 1 {
@@ -289,53 +279,6 @@ func (wk *worker) context(k, i int) {
 	s := stored + exp10(w.backoff(k, i))*(below-lowerSum)
 	w.nodes[k-1][i].deviation = float32(s - 1)
 	wk.note(k, i, s, w.tolerance)
-}
-
-// lowerBound returns the first j in [lo, hi) whose word is at least x, or
-// hi: it gallops forward from lo (steps 1, 2, 4, ...) and then searches
-// the last step by halves, so a search that moves a short way forward
-// touches only nearby entries.
-func lowerBound(es []lowerEntry, lo, hi int, x uint32) int {
-	hi = min(hi, len(es))
-	if lo >= hi || es[lo].word >= x {
-		return lo
-	}
-	// es[lo].word < x from here on.
-	end := hi
-	for step := 1; ; step *= 2 {
-		probe := lo + step
-		if probe >= hi {
-			break
-		}
-		if es[probe].word >= x {
-			end = probe
-			break
-		}
-		lo = probe
-	}
-	// The answer lies in (lo, end].
-	lo++
-	for lo < end {
-		mid := int(uint(lo+end) >> 1)
-		if es[mid].word < x {
-			lo = mid + 1
-		} else {
-			end = mid
-		}
-	}
-	return lo
-}
-
-// lowerChildren returns the range of entry i of order k's children, from
-// the node table.
-func (w *walker) lowerChildren(k, i int) (int, int) {
-	nodes := w.nodes[k-1]
-	if i < 0 || i+1 >= len(nodes) {
-		return 0, 0
-	}
-	a, b := int(nodes[i].first), int(nodes[i+1].first)
-	b = min(b, len(w.lower[k]))
-	return min(a, b), b
 }
 
 // children returns the range of entry i of order k's children, from the

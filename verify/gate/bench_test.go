@@ -24,7 +24,8 @@ func denseKL(d *Divergence, tokens []string) float64 {
 		out := make([]float64, d.events)
 		for id := range s.event {
 			if ev := s.event[id]; ev >= 0 {
-				out[ev] += math.Pow(10, s.m.LogProb(s.history, uint32(id)))
+				st := s.state
+				out[ev] += math.Pow(10, s.m.Next(&st, uint32(id)))
 			}
 		}
 		return out

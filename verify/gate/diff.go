@@ -3,6 +3,8 @@ package gate
 import (
 	"math"
 
+	"github.com/RoaringBitmap/roaring/v2"
+
 	"ingot/format"
 )
 
@@ -70,9 +72,9 @@ func differs(a, b float32) bool {
 	return !(math.Abs(float64(a)-float64(b)) <= ChangeEpsilon)
 }
 
-// Diff counts, order by order, the n-grams the candidate added, removed
+// Diff finds, order by order, the n-grams the candidate added, removed
 // and changed with respect to the baseline, matching n-grams by their
-// words. It walks the entries of both models side by side, in one pass of
+// words, and collects each set in a roaring bitmap. It walks the entries of both models side by side, in one pass of
 // each. An n-gram of the highest order has no stored back-off weight; it
 // counts as weight 1 (log10 0), the weight the back-off rule gives it.
 func Diff(candidate, baseline *format.Model) ([]OrderDiff, error) {
@@ -80,7 +82,7 @@ func Diff(candidate, baseline *format.Model) ([]OrderDiff, error) {
 	n := max(candidate.Order(), baseline.Order())
 	out := make([]OrderDiff, n)
 	for k := 1; k <= n; k++ {
-		d := OrderDiff{Order: k}
+		d := OrderDiff{Order: k, AddedEntries: roaring.New(), RemovedEntries: roaring.New(), ChangedEntries: roaring.New()}
 		ic, ib := candidate.Entries(k), baseline.Entries(k)
 		okc, okb := ic.Next(), ib.Next()
 		for okc || okb {
@@ -95,16 +97,16 @@ func Diff(candidate, baseline *format.Model) ([]OrderDiff, error) {
 			}
 			switch {
 			case cmp < 0:
-				d.Added++
+				d.AddedEntries.Add(uint32(ic.Index()))
 				okc = ic.Next()
 			case cmp > 0:
-				d.Removed++
+				d.RemovedEntries.Add(uint32(ib.Index()))
 				okb = ib.Next()
 			default:
 				i, j := ic.Index(), ib.Index()
 				if differs(candidate.LogProbAt(k, i), baseline.LogProbAt(k, j)) ||
 					differs(candidate.LogBackoffAt(k, i), baseline.LogBackoffAt(k, j)) {
-					d.Changed++
+					d.ChangedEntries.Add(uint32(i))
 				}
 				okc, okb = ic.Next(), ib.Next()
 			}
@@ -115,6 +117,12 @@ func Diff(candidate, baseline *format.Model) ([]OrderDiff, error) {
 		if err := ib.Err(); err != nil {
 			return nil, err
 		}
+		for _, b := range []*roaring.Bitmap{d.AddedEntries, d.RemovedEntries, d.ChangedEntries} {
+			b.RunOptimize()
+		}
+		d.Added = int(d.AddedEntries.GetCardinality())
+		d.Removed = int(d.RemovedEntries.GetCardinality())
+		d.Changed = int(d.ChangedEntries.GetCardinality())
 		out[k-1] = d
 	}
 	return out, nil

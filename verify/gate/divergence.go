@@ -66,12 +66,11 @@ type distribution struct {
 	// Sums of unigram probabilities over every predictable word and over
 	// the words of the "any other word" event.
 	allUnigram, otherUnigram float64
-	stamp                    []uint32  // stamp[w] == gen: w stored after the current context
-	value                    []float64 // value[w]: its probability when stamped
-	gen                      uint32
-	stored                   []uint32 // the words stamped at this prediction
-	weight                   float64  // W: the product of the stored suffixes' back-off weights
-	history                  []uint32 // the sentence so far as this model's ids, <s> first
+	next                     *format.Successors // the distribution at this prediction, by the model's back-off rule
+	value                    []float64          // value[w]: P(w | context) of each word next lists
+	stored                   []uint32           // next's words
+	weight                   float64            // W: every other word's P(w | context) is W times its unigram probability
+	state                    format.State       // the sentence so far
 }
 
 // NewDivergence prepares to compare the models p and q.
@@ -121,7 +120,7 @@ func NewDivergence(p, q *format.Model) *Divergence {
 				s.unigram[id] = exp10(float64(s.m.LogProbAt(1, id)))
 			}
 		}
-		s.stamp = make([]uint32, len(s.event))
+		s.next = s.m.NewSuccessors()
 		s.value = make([]float64, len(s.event))
 		s.word = make([]uint32, shared)
 		for id, ev := range s.event {
@@ -238,7 +237,7 @@ func (d *Divergence) divergence() float64 {
 
 // prob is the model's probability of word w at the current prediction.
 func (s *distribution) prob(w uint32) float64 {
-	if s.stamp[w] == s.gen {
+	if s.next.Listed(w) {
 		return s.value[w]
 	}
 	return s.weight * s.unigram[w]
@@ -264,48 +263,25 @@ func (s *distribution) total(shared int32) (total, other float64) {
 	return total + s.weight*restAll, other + s.weight*restOther
 }
 
-func (s *distribution) begin() {
-	s.history = append(s.history[:0], s.m.StartID())
-}
+func (s *distribution) begin() { s.state = s.m.StartState() }
 
 func (s *distribution) read(token string) {
 	id, ok := s.m.ID(token)
 	if !ok || id == s.m.StartID() {
 		id = s.m.UnknownID()
 	}
-	s.history = append(s.history, id)
+	s.m.Next(&s.state, id)
 }
 
-// build finds, by the back-off rule, the words stored after some suffix of
-// the context with their probabilities (a word stored after the longest
-// stored suffix h_j that stores it gets the back-off weights of the longer
-// stored suffixes times its stored probability), and W, the product of
-// every stored suffix's weight, which every other word's unigram
-// probability is multiplied by.
+// build takes the distribution at this prediction from the model
+// (format.Successors, which applies the back-off rule): the words stored
+// after some suffix of the context with their probabilities, and W, which
+// every other word's unigram probability is multiplied by.
 func (s *distribution) build() {
-	if s.gen++; s.gen == 0 {
-		clear(s.stamp)
-		s.gen = 1
+	s.next.Build(s.state)
+	s.stored = s.next.Words()
+	for i, lp := range s.next.LogProbs() {
+		s.value[s.stored[i]] = exp10(lp)
 	}
-	s.stored = s.stored[:0]
-	m := s.m
-	weight := 1.0
-	for j := min(len(s.history), m.Order()-1); j >= 1; j-- {
-		e, ok := m.Find(s.history[len(s.history)-j:])
-		if !ok {
-			continue
-		}
-		a, b := m.ChildRange(j, e)
-		for c := a; c < b; c++ {
-			w := m.WordAt(j+1, c)
-			if int(w) >= len(s.stamp) || s.stamp[w] == s.gen {
-				continue
-			}
-			s.stamp[w] = s.gen
-			s.value[w] = weight * exp10(float64(m.LogProbAt(j+1, c)))
-			s.stored = append(s.stored, w)
-		}
-		weight *= exp10(float64(m.LogBackoffAt(j, e)))
-	}
-	s.weight = weight
+	s.weight = exp10(s.next.LogRest())
 }

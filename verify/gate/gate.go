@@ -21,6 +21,8 @@ import (
 	"io"
 	"math"
 
+	"github.com/RoaringBitmap/roaring/v2"
+
 	"ingot/compile/text"
 	"ingot/format"
 	"ingot/format/score"
@@ -47,13 +49,19 @@ type Side struct {
 	UnknownPredictions       int
 }
 
-// OrderDiff counts, for one order, the n-grams that only the candidate
+// OrderDiff holds, for one order, the n-grams that only the candidate
 // stores (added), that only the baseline stores (removed), and that both
 // store with a log10 probability or back-off weight more than ChangeEpsilon
-// apart (changed).
+// apart (changed): the sets as roaring bitmaps of entry indexes (Chambi,
+// Lemire, Kaser and Godin (2016), "Better bitmap performance with Roaring
+// bitmaps", Softw. Pract. Exper. 46(5); recalled from memory), and their
+// sizes. Model.Gram turns an index back into its words.
 type OrderDiff struct {
 	Order                   int
 	Added, Removed, Changed int
+	// AddedEntries and ChangedEntries index the candidate's entries of
+	// this order, RemovedEntries the baseline's.
+	AddedEntries, RemovedEntries, ChangedEntries *roaring.Bitmap
 }
 
 // Result is what Compare measured.

@@ -11,6 +11,8 @@ import (
 	"ingot/compile/estimate"
 	"ingot/compile/tables"
 	"ingot/format"
+
+	"github.com/RoaringBitmap/roaring/v2"
 )
 
 func model(t testing.TB, sentences []string, order int, opt estimate.Options) *format.Model {
@@ -169,10 +171,33 @@ func TestDiffByWords(t *testing.T) {
 	// probabilities, so the four shared unigrams all changed). Bigrams:
 	// "a c" and "0 a" added, "b </s>" removed, "<s> a" and "a b" changed
 	// (their probabilities differ between the two hand-built models).
-	want := []OrderDiff{{1, 2, 0, 4}, {2, 2, 1, 2}}
+	want := [][4]int{{1, 2, 0, 4}, {2, 2, 1, 2}}
 	for k := range want {
-		if d[k] != want[k] {
-			t.Errorf("order %d: %+v, want %+v", k+1, d[k], want[k])
+		if got := [4]int{d[k].Order, d[k].Added, d[k].Removed, d[k].Changed}; got != want[k] {
+			t.Errorf("order %d: %v, want %v", k+1, got, want[k])
+		}
+	}
+	// The sets themselves, read back through each model's words.
+	grams := func(m *format.Model, k int, set *roaring.Bitmap) string {
+		var out []string
+		for _, i := range set.ToArray() {
+			var ws []string
+			for _, id := range m.Gram(k, int(i), nil) {
+				ws = append(ws, m.Word(id))
+			}
+			out = append(out, strings.Join(ws, " "))
+		}
+		sort.Strings(out)
+		return strings.Join(out, ", ")
+	}
+	for _, c := range []struct{ what, got, want string }{
+		{"added unigrams", grams(cand, 1, d[0].AddedEntries), "0, c"},
+		{"added bigrams", grams(cand, 2, d[1].AddedEntries), "0 a, a c"},
+		{"removed bigrams", grams(base, 2, d[1].RemovedEntries), "b </s>"},
+		{"changed bigrams", grams(cand, 2, d[1].ChangedEntries), "<s> a, a b"},
+	} {
+		if c.got != c.want {
+			t.Errorf("%s: %q, want %q", c.what, c.got, c.want)
 		}
 	}
 }
