@@ -107,6 +107,23 @@ func (m *Model) Codebook(k int, backoff bool) []float32 {
 	return out
 }
 
+// IndexBits returns the width in bits of each stored codebook index of the
+// probabilities (backoff false) or back-off weights of order k, or 0 when
+// the column holds plain values.
+func (m *Model) IndexBits(k int, backoff bool) int {
+	if k < 1 || k > m.order {
+		return 0
+	}
+	c := &m.levels[k-1].probs
+	if backoff {
+		c = &m.levels[k-1].backoffs
+	}
+	if c.packed == nil {
+		return 0
+	}
+	return int(c.bits)
+}
+
 // bitsFor returns the index width for a codebook of n levels (at least 1).
 func bitsFor(n int) uint {
 	if n <= 2 {

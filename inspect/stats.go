@@ -2,7 +2,6 @@ package inspect
 
 import (
 	"math"
-	"math/bits"
 
 	"ingot/format"
 )
@@ -109,8 +108,8 @@ func Statistics(m *format.Model) Stats {
 			NGrams:          n,
 			Bytes:           perOrder[k],
 			BitsPerNGram:    Number(float64(perOrder[k]) * 8 / float64(n)),
-			ProbCodebook:    codebookStats(m.Codebook(k, false)),
-			BackoffCodebook: codebookStats(m.Codebook(k, true)),
+			ProbCodebook:    codebookStats(m.Codebook(k, false), m.IndexBits(k, false)),
+			BackoffCodebook: codebookStats(m.Codebook(k, true), m.IndexBits(k, true)),
 		}
 		if k < m.Order() {
 			o.Contexts, o.BackoffWeights = backoffStats(m, k)
@@ -121,13 +120,15 @@ func Statistics(m *format.Model) Stats {
 	return st
 }
 
-func codebookStats(levels []float32) *CodebookStats {
+// codebookStats summarises a codebook whose indexes the file stores in
+// indexBits bits each.
+func codebookStats(levels []float32, indexBits int) *CodebookStats {
 	if len(levels) == 0 {
 		return nil
 	}
 	c := &CodebookStats{
 		Levels:    len(levels),
-		IndexBits: max(1, bits.Len(uint(len(levels)-1))),
+		IndexBits: indexBits,
 		Min:       Number(levels[0]),
 		Max:       Number(levels[len(levels)-1]),
 	}
