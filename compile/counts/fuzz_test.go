@@ -2,6 +2,7 @@ package counts
 
 import (
 	"bytes"
+	"context"
 	"strings"
 	"testing"
 	"unicode/utf8"
@@ -50,19 +51,38 @@ func FuzzLoad(f *testing.F) {
 
 // FuzzCountText counts arbitrary bytes as training text: it never panics,
 // rejects invalid UTF-8 and markers with file and line, and every token it
-// counts is valid UTF-8 without white space.
+// counts is valid UTF-8 without white space. Count (its own tokeniser, its
+// own tables; with a table small enough to spill) writes the same bytes as
+// the Counter (strings.Fields, Go maps), or fails with the same error.
 func FuzzCountText(f *testing.F) {
 	f.Add([]byte("turn the beacon on\n\nmark waypoint\n"))
 	f.Add([]byte("a <s> b\n"))
 	f.Add([]byte("caf\xc3\xa9 \xe2\x80\x83 na\xc3\xafve\r\n"))
 	f.Add([]byte("\xff\n"))
+	f.Add([]byte("a\u00a0b\u0085c\u3000d\u2028e\u200bf\u180eg\vh\fi <unk>\n"))
+	f.Add([]byte("ok\nbad\rline\r\n"))
+	f.Add([]byte("\ufeffa b\nc\ufeff\n"))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		c, _ := NewCounter(3)
-		if err := c.AddText("t", bytes.NewReader(data)); err != nil {
+		err := c.AddText("t", bytes.NewReader(data))
+		var fast bytes.Buffer
+		_, ferr := Count(context.Background(), Options{Order: 3, Workers: 1, Memory: 1 << 10, TempDir: t.TempDir()},
+			[]Input{{"t", bytes.NewReader(data)}}, &fast)
+		if err != nil {
 			if !strings.HasPrefix(err.Error(), "t:") {
 				t.Fatalf("error does not name file and line: %v", err)
 			}
+			if ferr == nil || ferr.Error() != err.Error() {
+				t.Fatalf("Count: %v, Counter: %v", ferr, err)
+			}
 			return
+		}
+		if ferr != nil {
+			t.Fatalf("Count failed where the Counter did not: %v", ferr)
+		}
+		var slow bytes.Buffer
+		if c.Counts(1).WriteBinary(&slow); fast.Len() > 0 && !bytes.Equal(fast.Bytes(), slow.Bytes()) {
+			t.Fatalf("Count and the Counter differ on %q", data)
 		}
 		res := c.Counts(1)
 		for _, w := range res.Vocab {

@@ -13,6 +13,7 @@ import (
 	"slices"
 	"sync"
 
+	"ingot/compile/input"
 	"ingot/compile/tables"
 	"ingot/compile/text"
 	"ingot/compile/vocab"
@@ -191,7 +192,7 @@ func Count(ctx context.Context, opt Options, inputs []Input, out io.Writer) (*Re
 		}
 	}()
 	for _, w := range ws {
-		if spilled && w.sorter.set.len() > 0 {
+		if spilled && w.sorter.table.len() > 0 {
 			progress("spilling", 0)
 			if err := w.sorter.spill(); err != nil {
 				return nil, err
@@ -257,9 +258,15 @@ func splitChunks(ctx context.Context, inputs []Input, out chan<- chunk) (int, er
 			cut := len(buf)
 			if !eof {
 				cut = bytes.LastIndexByte(buf, '\n') + 1
-				if cut == 0 { // a line longer than the buffer: read on
+				// A line longer than the buffer: read on, unless it is
+				// already longer than the line-length cap (and its CR LF):
+				// then the worker reports it, and no more of it is held.
+				if cut == 0 && int64(len(buf)) <= input.MaxLine()+2 {
 					carry = buf
 					continue
+				}
+				if cut == 0 {
+					cut, eof = len(buf), true
 				}
 			}
 			carry = slices.Clone(buf[cut:])
@@ -278,61 +285,93 @@ func splitChunks(ctx context.Context, inputs []Input, out chan<- chunk) (int, er
 
 // worker counts chunks into its own word list and sorter.
 type worker struct {
-	order     int
-	list      *vocab.List
-	ids       map[string]uint32
-	words     []string
-	sorter    *sorter
-	sent      []uint32
-	sentences uint64
-	tokens    uint64
+	order      int
+	words      *interner
+	sorter     *sorter
+	sent       []uint32
+	prev, cur  []uint32 // records of the n-grams ending at the previous and the current position
+	sentences  uint64
+	tokens     uint64
+	start, end uint32 // ids of <s> and </s>
 }
 
 func newWorker(opt Options, budget int64, dir, name string) *worker {
-	w := &worker{order: opt.Order, list: opt.Vocabulary, ids: map[string]uint32{}}
-	for _, m := range []string{tables.SentenceStart, tables.SentenceEnd, tables.Unknown} {
-		w.id(m)
-	}
-	w.sorter = newSorter(opt.Order, &w.words, w.ids[tables.SentenceStart], budget, dir, name)
+	w := &worker{order: opt.Order, words: newInterner(opt.Vocabulary)}
+	w.start = w.words.wordID(tables.SentenceStart)
+	w.end = w.words.wordID(tables.SentenceEnd)
+	w.sorter = newSorter(opt.Order, &w.words.words, budget, dir, name)
 	return w
 }
 
-func (w *worker) id(t string) uint32 {
-	if id, ok := w.ids[t]; ok {
-		return id
-	}
-	id := uint32(len(w.words))
-	t = string(append([]byte(nil), t...))
-	w.ids[t] = id
-	w.words = append(w.words, t)
-	return id
-}
-
 func (w *worker) count(c chunk) error {
-	err := Sentences(c.name, bytes.NewReader(c.data), w.list, func(toks []string) error {
-		s := append(w.sent[:0], 0)
-		s[0] = w.ids[tables.SentenceStart]
-		for _, t := range toks {
-			s = append(s, w.id(t))
+	return eachLine(c, func(line []byte, n int) error {
+		s, err := w.words.appendSentence(append(w.sent[:0], w.start), line, n)
+		w.sent = s
+		if err != nil || len(s) == 1 {
+			return err
 		}
-		s = append(s, w.ids[tables.SentenceEnd])
+		s = append(s, w.end)
 		w.sent = s
 		w.sentences++
-		w.tokens += uint64(len(toks))
-		for i := 1; i < len(s); i++ {
-			for k := 1; k <= w.order && k <= i+1; k++ {
-				if err := w.sorter.add(s[i+1-k:i+1], 1); err != nil {
-					return err
-				}
-			}
-		}
-		return nil
+		w.tokens += uint64(len(s) - 2)
+		return w.countSentence(s)
 	})
-	var te *text.Error
-	if errors.As(err, &te) {
-		te.Line += c.line - 1
+}
+
+// countSentence counts the n-grams of the padded sentence s (eachSpan's
+// spans): at each position, the n-gram of order k is keyed by the record
+// of the n-gram of order k-1 that ended at the position before and the
+// word. When the table is full it spills between two positions and the
+// records of the n-grams ending at the position before are made again
+// (counted 0 times) in the emptied table.
+func (w *worker) countSentence(s []uint32) error {
+	t := w.sorter.table
+	t.setWords(len(w.words.words))
+	order := w.order
+	if !t.room(1) {
+		if err := w.sorter.spill(); err != nil {
+			return err
+		}
 	}
-	return err
+	prev := append(w.prev[:0], t.add(uint64(s[0]), 1, 0)) // <s>, never counted itself
+	cur := w.cur[:0]
+	var keys [tables.MaxOrder]uint64
+	for i := 1; i < len(s); i++ {
+		if !t.room(order) {
+			if err := w.sorter.spill(); err != nil {
+				return err
+			}
+			prev = w.context(prev[:0], s[:i])
+		}
+		word := s[i]
+		top := min(order, i+1)
+		keys[0] = uint64(word)
+		for k := 2; k <= top; k++ {
+			keys[k-1] = gramKey(prev[k-2], word)
+		}
+		cur = cur[:0]
+		for k := range top {
+			cur = append(cur, t.add(keys[k], k+1, 1))
+		}
+		prev, cur = cur, prev
+	}
+	w.prev, w.cur = prev, cur
+	return nil
+}
+
+// context appends the records of the n-grams of orders 1..order-1 that end
+// with the last word of s, adding them with count 0 where missing.
+func (w *worker) context(dst []uint32, s []uint32) []uint32 {
+	t := w.sorter.table
+	for k := 1; k < w.order && k <= len(s); k++ {
+		g := s[len(s)-k:]
+		r := t.add(uint64(g[0]), 1, 0)
+		for j := 1; j < k; j++ {
+			r = t.add(gramKey(r, g[j]), j+1, 0)
+		}
+		dst = append(dst, r)
+	}
+	return dst
 }
 
 // sink writes entries of a count file in either form.
@@ -458,7 +497,7 @@ func writeMinCount(opt Options, dir string, vocab []string, m *merger, out io.Wr
 		}
 	}
 	words := final
-	so := newSorter(opt.Order, &words, start, opt.Memory*3/4, dir, "min")
+	so := newSorter(opt.Order, &words, opt.Memory*3/4, dir, "min")
 	mapped := make([]uint32, 0, tables.MaxOrder)
 	add := func(g []uint32, n uint64) error {
 		mapped = mapped[:0]

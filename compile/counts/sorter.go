@@ -8,205 +8,250 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
+	"unsafe"
 
 	"github.com/klauspost/compress/zstd"
 
 	"ingot/compile/tables"
 )
 
-// gramSet is an open-addressing hash table of n-grams of orders 1..n with
-// their counts: fixed-size records (n ids, a length, a count) in segments
-// of segRecords, so that adding an n-gram costs one hash and, mostly, one
-// probe, memory grows with use without copying, and what it holds is
-// known exactly. The slot array doubles as it fills.
-type gramSet struct {
-	n      int
-	segs   []segment
-	size   int      // records held
-	slots  []uint32 // record+1, 0 when empty; at most half full
-	maxCap int      // records at most
+// gramHash is an open-addressing hash table, with linear probing, of the
+// n-grams of orders 1..n that one worker counts. An n-gram is keyed by two
+// integers packed in one uint64: the record index of its prefix (the
+// n-gram without its last word; none for a unigram) and its last word id.
+// Counting the n-grams that end at one position of a sentence, given the
+// records of those that ended at the position before, costs one probe per
+// order and one integer comparison per probe; no n-gram is ever hashed as
+// a list of words. Records are kept in insertion order, so a prefix's
+// record always comes before its extensions'; what the table holds is
+// known exactly (bytesPerRecord).
+type gramHash struct {
+	recs   []gramRec
+	order  []uint8  // order of each record
+	slots  []uint32 // record index + 1, 0 when empty; at most half full
+	maxCap int      // records the budget allows
+	limit  int      // records allowed now: maxCap, or less for a large vocabulary (see setWords)
 }
 
-type segment struct {
-	ids    []uint32 // n per record
-	klen   []uint8
-	counts []uint64
+type gramRec struct {
+	key   uint64 // (prefix record + 1) << 32 | last word; the prefix part is 0 for a unigram
+	count uint64
 }
 
-const segShift = 16
-const segRecords = 1 << segShift
+// bytesPerRecord bounds what one record costs, whatever the order: the
+// record (key and count, 16 bytes), its order (1), and three slots of 4
+// bytes (the slot array holds at most two per record the budget allows,
+// and while it doubles the old array, half as long, is still held). The
+// sort reuses the slot array (a uint64 per record), so it costs nothing
+// more.
+func bytesPerRecord(int) int64 { return 16 + 1 + 3*4 }
 
-// bytesPerRecord bounds what one record costs: n ids, a length, a count,
-// and three slots (two in the table, at most half full, and one more while
-// the slot array doubles).
-func bytesPerRecord(n int) int64 { return int64(4*n + 1 + 8 + 3*4) }
-
-// unlimited is the record cap of a set without a budget.
+// unlimited is the record cap of a table without a budget.
 const unlimited = 1 << 31
 
-func newGramSet(n, maxCap int) *gramSet {
-	return &gramSet{n: n, maxCap: maxCap, slots: make([]uint32, min(1<<12, 2*maxCap))}
-}
+func gramKey(prefix uint32, word uint32) uint64 { return uint64(prefix+1)<<32 | uint64(word) }
 
-func (s *gramSet) len() int { return s.size }
-
-// rec returns record i's ids (all n), length and count.
-func (s *gramSet) rec(i int) ([]uint32, *uint8, *uint64) {
-	sg := &s.segs[i>>segShift]
-	j := i & (segRecords - 1)
-	return sg.ids[s.n*j : s.n*j+s.n], &sg.klen[j], &sg.counts[j]
-}
-
-func (s *gramSet) gram(i int) []uint32 {
-	ids, k, _ := s.rec(i)
-	return ids[:*k]
-}
-
-func (s *gramSet) count(i int) uint64 {
-	_, _, c := s.rec(i)
-	return *c
-}
-
-func hashIDs(g []uint32) uint64 {
-	h := uint64(len(g)) * 0x9e3779b97f4a7c15
-	for _, id := range g {
-		h = (h ^ uint64(id)) * 0xff51afd7ed558ccd
-		h ^= h >> 32
+func newGramHash(maxCap int) *gramHash {
+	t := &gramHash{maxCap: maxCap, limit: maxCap, slots: make([]uint32, min(1<<12, 2*maxCap))}
+	if maxCap < unlimited {
+		// The whole budget at once: untouched pages cost no memory, and
+		// the records are never copied as they grow.
+		t.recs = make([]gramRec, 0, maxCap)
+		t.order = make([]uint8, 0, maxCap)
 	}
-	return h
+	return t
 }
 
-// slot maps a hash onto 0..len(slots)-1 (multiply and keep the high word).
-func (s *gramSet) slot(h uint64) int {
-	hi, _ := bits.Mul64(h, uint64(len(s.slots)))
+func (t *gramHash) len() int { return len(t.recs) }
+
+// setWords lowers the limit so that a sorted entry (sortEntries) fits in
+// 64 bits with a vocabulary of v words: two record positions and a word
+// rank. With 2^16 words or fewer, up to 2^24-1 records; with more
+// words, the table spills sooner.
+func (t *gramHash) setWords(v int) {
+	b := (64 - bits.Len(uint(v))) / 2
+	t.limit = t.maxCap
+	if b < 31 && 1<<b-1 < t.limit {
+		t.limit = 1<<b - 1
+	}
+}
+
+// room reports whether k more records fit.
+func (t *gramHash) room(k int) bool { return len(t.recs)+k <= t.limit }
+
+func (t *gramHash) slot(key uint64) int {
+	key ^= key >> 33
+	key *= 0xff51afd7ed558ccd
+	key ^= key >> 33
+	hi, _ := bits.Mul64(key, uint64(len(t.slots)))
 	return int(hi)
 }
 
-// add counts g n times; it reports false when a new record is needed and
-// the set is full. Counts saturate at the largest uint64 rather than wrap
-// (no text holds 2^64 tokens).
-func (s *gramSet) add(g []uint32, n uint64) bool {
-	h := s.slot(hashIDs(g))
+// add counts the n-gram key (of order k) n times and returns its record.
+// The caller makes sure there is room for a new record. Counts saturate at
+// the largest uint64 rather than wrap (no text holds 2^64 tokens).
+func (t *gramHash) add(key uint64, k int, n uint64) uint32 {
+	return t.addAt(t.slot(key), key, k, n)
+}
+
+// addAt is add with the key's slot already computed.
+func (t *gramHash) addAt(h int, key uint64, k int, n uint64) uint32 {
 	for {
-		r := s.slots[h]
+		r := t.slots[h]
 		if r == 0 {
 			break
 		}
-		ids, k, c := s.rec(int(r - 1))
-		if int(*k) == len(g) && slices.Equal(ids[:len(g)], g) {
-			v := *c + n
-			if v < n {
-				v = ^uint64(0)
+		if rec := &t.recs[r-1]; rec.key == key {
+			c := rec.count + n
+			if c < n {
+				c = ^uint64(0)
 			}
-			*c = v
-			return true
+			rec.count = c
+			return r - 1
 		}
-		if h++; h == len(s.slots) {
+		if h++; h == len(t.slots) {
 			h = 0
 		}
 	}
-	i := s.size
-	if i >= s.maxCap {
-		return false
+	i := uint32(len(t.recs))
+	if len(t.recs) == cap(t.recs) {
+		// Without a budget: double (append would grow by a quarter at a
+		// time, copying the records several times over).
+		c := max(1<<12, 2*cap(t.recs))
+		t.recs = append(make([]gramRec, 0, c), t.recs...)
+		t.order = append(make([]uint8, 0, c), t.order...)
 	}
-	if 2*(i+1) > len(s.slots) {
-		s.grow()
-		return s.add(g, n)
+	t.recs = append(t.recs, gramRec{key, n})
+	t.order = append(t.order, uint8(k))
+	t.slots[h] = i + 1
+	if 2*len(t.recs) > len(t.slots) {
+		t.grow()
 	}
-	if i>>segShift == len(s.segs) {
-		s.segs = append(s.segs, segment{
-			ids:  make([]uint32, s.n*segRecords),
-			klen: make([]uint8, segRecords), counts: make([]uint64, segRecords)})
+	return i
+}
+
+// addGram counts g n times, its prefixes (if new) with count 0; the caller
+// makes sure there is room for len(g) records.
+func (t *gramHash) addGram(g []uint32, n uint64) {
+	r := t.add(uint64(g[0]), 1, 0)
+	for k := 2; k <= len(g); k++ {
+		r = t.add(gramKey(r, g[k-1]), k, 0)
 	}
-	s.size++
-	ids, k, c := s.rec(i)
-	copy(ids, g)
-	clear(ids[len(g):])
-	*k, *c = uint8(len(g)), n
-	s.slots[h] = uint32(i + 1)
-	return true
+	t.recs[r].count = satAdd(t.recs[r].count, n)
+}
+
+func satAdd(a, b uint64) uint64 {
+	if c := a + b; c >= a {
+		return c
+	}
+	return ^uint64(0)
 }
 
 // grow doubles the slot array (to at most two slots per record allowed).
-func (s *gramSet) grow() {
-	size := min(2*len(s.slots), 2*s.maxCap)
-	s.slots = nil
-	s.slots = make([]uint32, size)
-	for i := 0; i < s.size; i++ {
-		h := s.slot(hashIDs(s.gram(i)))
-		for s.slots[h] != 0 {
-			if h++; h == len(s.slots) {
+func (t *gramHash) grow() {
+	size := min(2*len(t.slots), 2*t.maxCap)
+	t.slots = nil
+	t.slots = make([]uint32, size)
+	for i := range t.recs {
+		h := t.slot(t.recs[i].key)
+		for t.slots[h] != 0 {
+			if h++; h == len(t.slots) {
 				h = 0
 			}
 		}
-		s.slots[h] = uint32(i + 1)
+		t.slots[h] = uint32(i + 1)
 	}
 }
 
-// reset empties the set, keeping its memory.
-func (s *gramSet) reset() {
-	s.size = 0
-	clear(s.slots)
+// reset empties the table, keeping its memory.
+func (t *gramHash) reset() {
+	t.recs = t.recs[:0]
+	t.order = t.order[:0]
+	clear(t.slots)
 }
 
-// sortInPlace maps every id through rank (in place: the set can then only
-// be read in the returned order or reset) and returns the record indexes
-// in entry order (length, then ids), the unigram <s> (id start before
-// ranking) left out. The order is kept in the slot array: two counting
-// sorts (by first word, then, stably, by length) and a comparison sort of
-// each run of records sharing both, on the words after the first.
-func (s *gramSet) sortInPlace(rank []uint32, start uint32) []uint32 {
-	rs := uint32(len(rank))
-	if int(start) < len(rank) {
-		rs = rank[start]
-	}
-	a := s.slots[:0]
-	for i := 0; i < s.size; i++ {
-		ids, k, _ := s.rec(i)
-		for j := range ids[:*k] {
-			ids[j] = rank[ids[j]]
-		}
-		if *k == 1 && ids[0] == rs {
-			continue
-		}
-		a = append(a, uint32(i))
-	}
-	n := len(a)
-	tmp := s.slots[n : 2*n]
-	first := func(i uint32) int { ids, _, _ := s.rec(int(i)); return int(ids[0]) }
-	length := func(i uint32) int { _, k, _ := s.rec(int(i)); return int(*k) }
-	countingSort(a, tmp, len(rank), first)
-	countingSort(tmp, a, tables.MaxOrder+1, length)
-	for lo := 0; lo < n; {
-		k, f := length(a[lo]), first(a[lo])
-		hi := lo + 1
-		for hi < n && length(a[hi]) == k && first(a[hi]) == f {
-			hi++
-		}
-		if hi-lo > 1 && k > 1 {
-			slices.SortFunc(a[lo:hi], func(x, y uint32) int {
-				return tables.Compare(s.gram(int(x))[1:], s.gram(int(y))[1:])
-			})
-		}
-		lo = hi
-	}
-	return a
+// sortedEntries is a table's n-grams in entry order (by order, then by the
+// sorted ranks of their words): per order, a sorted list of entries, each
+// packing the position of its prefix in the list of the order below, the
+// rank of its last word and its count, in that order from the high bits
+// (while sorting, the record in place of the count). A count too large for
+// its nb bits is all ones there and is found in big.
+// nb bits hold any position or record (at most the table's length), so
+// 2nb+wb must not exceed 64: setWords keeps the table that small.
+type sortedEntries struct {
+	levels [][]uint64
+	wb, nb uint     // bits of a word rank and of a record (or position)
+	big    []uint64 // counts of 2^nb-1 or more, in entry order
 }
 
-// countingSort moves src into dst ordered by key (0..keys-1), stably.
-func countingSort(src, dst []uint32, keys int, key func(uint32) int) {
-	pos := make([]int, keys+1)
-	for _, i := range src {
-		pos[key(i)+1]++
+func (se *sortedEntries) word(e uint64) uint32 { return uint32(e>>se.nb) & (1<<se.wb - 1) }
+func (se *sortedEntries) prefix(e uint64) int  { return int(e >> (se.nb + se.wb)) }
+
+// gram writes into ids (len k) the word ranks of entry j of order k.
+func (se *sortedEntries) gram(k, j int, ids []uint32) {
+	e := se.levels[k-1][j]
+	for l := k - 1; ; l-- {
+		ids[l] = se.word(e)
+		if l == 0 {
+			return
+		}
+		e = se.levels[l-1][se.prefix(e)]
 	}
-	for j := 1; j <= keys; j++ {
-		pos[j] += pos[j-1]
+}
+
+// sortEntries sorts the records under the word ranks rank (rank[id] is the
+// position of word id in the sorted word list). The table can then only be
+// read through the result, and reset. Sorting order k needs the positions
+// of order k-1 in its sorted list: once an order is sorted, each of its
+// records keeps its position in place of its key, which only the records
+// of that order needed. The entries live in the slot array (at least two
+// uint32 per record), which counting no longer needs.
+func (t *gramHash) sortEntries(rank []uint32, order int) *sortedEntries {
+	n := len(t.recs)
+	se := &sortedEntries{wb: uint(bits.Len(uint(len(rank)))), nb: uint(bits.Len(uint(n)))}
+	if se.wb+2*se.nb > 64 {
+		panic(fmt.Sprintf("counts: %d records and %d words do not fit a sort key", n, len(rank)))
 	}
-	for _, i := range src {
-		k := key(i)
-		dst[pos[k]] = i
-		pos[k]++
+	var all []uint64
+	if n > 0 {
+		if len(t.slots) < 2*n || uintptr(unsafe.Pointer(&t.slots[0]))%8 != 0 {
+			panic("counts: slot array too short or misaligned for the sort")
+		}
+		all = unsafe.Slice((*uint64)(unsafe.Pointer(&t.slots[0])), n)
 	}
+	at := 0
+	for k := 1; k <= order; k++ {
+		lv := all[at:at]
+		for i, r := range t.recs {
+			if int(t.order[i]) != k {
+				continue
+			}
+			e := uint64(rank[uint32(r.key)])<<se.nb | uint64(i)
+			if k > 1 {
+				// The prefix's key now holds its position (sorted below).
+				e |= t.recs[r.key>>32-1].key << (se.nb + se.wb)
+			}
+			lv = append(lv, e)
+		}
+		slices.Sort(lv)
+		// The record's position replaces its key, and its count its
+		// record in the entry (the counts that do not fit, at least the
+		// table's length, go to a list in entry order).
+		full := uint64(1)<<se.nb - 1
+		for j, e := range lv {
+			r := &t.recs[e&full]
+			r.key = uint64(j)
+			c := r.count
+			if c >= full {
+				se.big = append(se.big, c)
+				c = full
+			}
+			lv[j] = e&^full | c
+		}
+		se.levels = append(se.levels, lv)
+		at += len(lv)
+	}
+	return se
 }
 
 // sorter gathers n-grams under ids of a growing word list (not sorted),
@@ -215,8 +260,7 @@ func countingSort(src, dst []uint32, keys int, key func(uint32) int) {
 type sorter struct {
 	order int
 	words *[]string // id -> word, appended to by the owner
-	start uint32    // id of <s>
-	set   *gramSet
+	table *gramHash
 	dir   string // where runs go ("" : never spill)
 	name  string // prefix of run file names
 	runs  []string
@@ -225,7 +269,7 @@ type sorter struct {
 
 // newSorter returns a sorter whose tables hold at most budget bytes (0: no
 // limit; then it never spills).
-func newSorter(order int, words *[]string, start uint32, budget int64, dir, name string) *sorter {
+func newSorter(order int, words *[]string, budget int64, dir, name string) *sorter {
 	maxCap := unlimited
 	if budget > 0 {
 		maxCap = int(min(budget/bytesPerRecord(order), unlimited-1))
@@ -233,17 +277,18 @@ func newSorter(order int, words *[]string, start uint32, budget int64, dir, name
 			maxCap = 1 << 10
 		}
 	}
-	return &sorter{order: order, words: words, start: start, set: newGramSet(order, maxCap), dir: dir, name: name}
+	return &sorter{order: order, words: words, table: newGramHash(maxCap), dir: dir, name: name}
 }
 
+// add counts g n times, spilling first if the table is full.
 func (s *sorter) add(g []uint32, n uint64) error {
-	if s.set.add(g, n) {
-		return nil
+	s.table.setWords(len(*s.words))
+	if !s.table.room(len(g)) {
+		if err := s.spill(); err != nil {
+			return err
+		}
 	}
-	if err := s.spill(); err != nil {
-		return err
-	}
-	s.set.add(g, n)
+	s.table.addGram(g, n)
 	return nil
 }
 
@@ -272,13 +317,13 @@ func (s *sorter) rank() ([]string, []uint32) {
 	return sorted, rank
 }
 
-// spill writes the set as one sorted run and empties it.
+// spill writes the table as one sorted run and empties it.
 func (s *sorter) spill() error {
 	if s.dir == "" {
 		return fmt.Errorf("counts: the n-gram table is full and there is no directory to spill to")
 	}
 	vocab, rank := s.rank()
-	perm := s.set.sortInPlace(rank, s.start)
+	st := newTableStream(s.table.sortEntries(rank, s.order))
 	path := filepath.Join(s.dir, fmt.Sprintf("%s-%04d.run", s.name, len(s.runs)))
 	f, err := os.OpenFile(path, os.O_CREATE|os.O_EXCL|os.O_WRONLY, 0o600)
 	if err != nil {
@@ -288,8 +333,12 @@ func (s *sorter) spill() error {
 	bw := bufio.NewWriterSize(f, 1<<20)
 	w, err := newWriterLevel(bw, Header{Order: s.order, Vocab: vocab}, zstd.SpeedFastest)
 	if err == nil {
-		for _, i := range perm {
-			if err = w.Add(s.set.gram(int(i)), s.set.count(int(i))); err != nil {
+		for {
+			g, n, nerr := st.next()
+			if nerr == io.EOF {
+				break
+			}
+			if err = w.Add(g, n); err != nil {
 				break
 			}
 		}
@@ -309,7 +358,7 @@ func (s *sorter) spill() error {
 	if err != nil {
 		return fmt.Errorf("spilling to %s: %w", path, err)
 	}
-	s.set.reset()
+	s.table.reset()
 	return nil
 }
 
@@ -339,38 +388,58 @@ func (s *sorter) streams() ([]stream, [][]string, func(), error) {
 		streams = append(streams, &readerStream{r: r, ids: make([]uint32, tables.MaxOrder)})
 		lists = append(lists, r.Header().Vocab)
 	}
-	if s.set.len() > 0 {
+	if s.table.len() > 0 {
 		vocab, rank := s.rank()
-		perm := s.set.sortInPlace(rank, s.start)
-		streams = append(streams, &setStream{s: s.set, perm: perm, ids: make([]uint32, tables.MaxOrder)})
+		streams = append(streams, newTableStream(s.table.sortEntries(rank, s.order)))
 		lists = append(lists, vocab)
 	}
 	return streams, lists, closeAll, nil
 }
 
-// setStream walks a gramSet in sorted order, ids mapped through a monotone
-// remap (set by the merge).
-type setStream struct {
-	s     *gramSet
-	perm  []uint32
-	pos   int
+// tableStream walks a sorted table in entry order, the records counted 0
+// times (prefixes kept only to key their extensions, and <s>) left out,
+// ids mapped through a monotone remap (set by the merge; nil: none).
+type tableStream struct {
+	se    *sortedEntries
+	k, j  int
+	big   int // next of se.big
 	remap []uint32
 	ids   []uint32
 }
 
-func (st *setStream) setRemap(m []uint32)    { st.remap = m }
+func newTableStream(se *sortedEntries) *tableStream {
+	return &tableStream{se: se, k: 1, ids: make([]uint32, tables.MaxOrder)}
+}
+
+func (st *tableStream) setRemap(m []uint32)  { st.remap = m }
 func (st *readerStream) setRemap(m []uint32) { st.remap = m }
 
-func (st *setStream) next() ([]uint32, uint64, error) {
-	if st.pos == len(st.perm) {
-		return nil, 0, io.EOF
+func (st *tableStream) next() ([]uint32, uint64, error) {
+	full := uint64(1)<<st.se.nb - 1
+	for st.k <= len(st.se.levels) {
+		lv := st.se.levels[st.k-1]
+		for st.j < len(lv) {
+			j := st.j
+			st.j++
+			n := lv[j] & full
+			if n == 0 {
+				continue
+			}
+			if n == full {
+				n = st.se.big[st.big]
+				st.big++
+			}
+			out := st.ids[:st.k]
+			st.se.gram(st.k, j, out)
+			if st.remap != nil {
+				for i, id := range out {
+					out[i] = st.remap[id]
+				}
+			}
+			return out, n, nil
+		}
+		st.k++
+		st.j = 0
 	}
-	i := int(st.perm[st.pos])
-	st.pos++
-	g := st.s.gram(i)
-	out := st.ids[:len(g)]
-	for j, id := range g {
-		out[j] = st.remap[id]
-	}
-	return out, st.s.count(i), nil
+	return nil, 0, io.EOF
 }
