@@ -18,7 +18,7 @@ type CountFile struct {
 	Blocks         uint64 `json:"blocks"`
 	// NGramsPerOrder are the entries stored per order, CountSumPerOrder
 	// the sum of their counts; unigrams first.
-	NGramsPerOrder   []uint64 `json:"ngrams_per_order"`
+	NGramsPerOrder   []uint64 `json:"ngrams"`
 	CountSumPerOrder []uint64 `json:"count_sum_per_order"`
 }
 

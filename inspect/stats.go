@@ -11,7 +11,7 @@ type Stats struct {
 	FileBytes int64 `json:"file_bytes"`
 	// NGrams holds the entries per order, unigrams first; TotalNGrams
 	// their sum.
-	NGrams      []int `json:"ngrams_per_order"`
+	NGrams      []int `json:"ngrams"`
 	TotalNGrams int   `json:"total_ngrams"`
 	// BitsPerNGram is FileBytes * 8 / TotalNGrams: the whole file, header
 	// and vocabulary included.

@@ -26,7 +26,7 @@ type Summary struct {
 	Order          int `json:"order"`
 	VocabularySize int `json:"vocabulary_size"`
 	// NGrams holds the entries per order, unigrams first.
-	NGrams []int `json:"ngrams_per_order"`
+	NGrams []int `json:"ngrams"`
 	// Method names the estimator recorded in the build information.
 	Method string `json:"method"`
 	// Discounts holds, per order (unigrams first), the discount parameters

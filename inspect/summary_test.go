@@ -69,7 +69,7 @@ func TestSummarizeGoldenMatchesSpecTable(t *testing.T) {
 		t.Errorf("empty_context_log10_backoff = %s, want null", keys["empty_context_log10_backoff"])
 	}
 	for _, k := range []string{"file_bytes", "magic_ok", "format_version", "sections", "order", "vocabulary_size",
-		"ngrams_per_order", "method", "discounts", "rules_applied", "build_options", "history", "quantization",
+		"ngrams", "method", "discounts", "rules_applied", "build_options", "history", "quantization",
 		"tool_version", "suffix_closed", "content_digest", "signature"} {
 		if _, ok := keys[k]; !ok {
 			t.Errorf("JSON lacks %q", k)

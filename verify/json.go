@@ -18,7 +18,7 @@ type JSONReport struct {
 	FormatVersion      int            `json:"format_version"`
 	Order              int            `json:"order"`
 	VocabularySize     int            `json:"vocabulary_size"`
-	NGramsPerOrder     []int          `json:"ngrams_per_order"`
+	NGramsPerOrder     []int          `json:"ngrams"`
 	ContextsChecked    int            `json:"contexts_checked"`
 	MaxAbsDeviation    inspect.Number `json:"max_abs_deviation"`
 	Tolerance          inspect.Number `json:"tolerance"`

@@ -22,7 +22,7 @@ func TestJSONReport(t *testing.T) {
 	}
 	s := string(b)
 	for _, want := range []string{`"ok":false`, `"failed":["header"]`, `"max_abs_deviation":null`, `"tolerance":null`,
-		`"ngrams_per_order":[]`, `"worst_contexts":[]`, `"deviation_histogram":[]`, `"section":"header","offset":0`} {
+		`"ngrams":[]`, `"worst_contexts":[]`, `"deviation_histogram":[]`, `"section":"header","offset":0`} {
 		if !strings.Contains(s, want) {
 			t.Errorf("no %s in %s", want, s)
 		}

@@ -20,7 +20,7 @@ timed "$work/t-small" "$work/ingot" count --order 5 --quiet --memory 48MiB --tmp
 runs=$(grep -o 'runs=[0-9]*' "$work/t-small" | tail -1 | cut -d= -f2)
 same_counts=no
 cmp -s "$work/full.bin" "$work/small.bin" && same_counts=yes
-ngrams=$("$work/ingot" inspect --json "$work/full.bin" | grep -o '"ngrams_per_order":\[[0-9,]*\]' | tr -dc '0-9,' | awk -F, '{for (i = 1; i <= NF; i++) s += $i} END {print s}')
+ngrams=$("$work/ingot" inspect --json "$work/full.bin" | grep -o '"ngrams":\[[0-9,]*\]' | tr -dc '0-9,' | awk -F, '{for (i = 1; i <= NF; i++) s += $i} END {print s}')
 tokens=$(wc -w <"$work/text.txt")
 timed "$work/c-full" "$work/ingot" compile --method kneser-ney --order 5 -o "$work/full.ingot" "$work/full.bin"
 timed "$work/c-small" "$work/ingot" compile --method kneser-ney --order 5 --memory 48MiB --tmp "$work" --log-level info -o "$work/small.ingot" "$work/small.bin"

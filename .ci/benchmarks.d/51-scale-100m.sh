@@ -26,7 +26,7 @@ rm "$work/text.txt"
 timed "$work/t-compile" "$work/ingot" compile --method kneser-ney --order 5 --quiet --memory "$memory" --tmp "$work" --log-level info -o "$work/model.ingot" "$work/counts.bin"
 timed "$work/t-verify" "$work/ingot" verify "$work/model.ingot"
 tokens=$(awk '/msg=counted/ {for (i = 1; i <= NF; i++) if ($i ~ /^tokens=/) {sub("tokens=", "", $i); print $i}}' "$work/t-count")
-ngrams=$("$work/ingot" inspect --json "$work/counts.bin" | grep -o '"ngrams_per_order":\[[0-9,]*\]' | tr -dc '0-9,' | awk -F, '{for (i = 1; i <= NF; i++) s += $i} END {print s}')
+ngrams=$("$work/ingot" inspect --json "$work/counts.bin" | grep -o '"ngrams":\[[0-9,]*\]' | tr -dc '0-9,' | awk -F, '{for (i = 1; i <= NF; i++) s += $i} END {print s}')
 runs=$(grep -c 'sorted on disk' "$work/t-compile" || true)
 budget=$(awk -v m="$memory" 'BEGIN {n = m + 0; u = m; sub(/^[0-9.]+/, "", u); f = (u == "GiB") ? 1024 : (u == "MiB") ? 1 : 0; printf "%.0f", n * f}')
 model=$(stat -c %s "$work/model.ingot")

@@ -71,7 +71,7 @@ func TestCountFileForms(t *testing.T) {
 	var info struct {
 		Counts         string
 		Order          int
-		NGramsPerOrder []uint64 `json:"ngrams_per_order"`
+		NGramsPerOrder []uint64 `json:"ngrams"`
 	}
 	if err := json.Unmarshal([]byte(out), &info); err != nil {
 		t.Fatal(err)

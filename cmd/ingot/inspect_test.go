@@ -63,7 +63,7 @@ func TestInspectSummary(t *testing.T) {
 	}
 	keys := inspectJSONKeys(t, out)
 	for _, k := range []string{"model", "file_bytes", "magic_ok", "format_version", "sections", "order",
-		"vocabulary_size", "ngrams_per_order", "method", "discounts", "rules_applied", "build_options", "history",
+		"vocabulary_size", "ngrams", "method", "discounts", "rules_applied", "build_options", "history",
 		"quantization", "empty_context_log10_backoff", "tool_version", "suffix_closed", "content_digest", "signature"} {
 		if _, ok := keys[k]; !ok {
 			t.Errorf("inspect --json lacks %q", k)
@@ -76,7 +76,7 @@ func TestInspectSummary(t *testing.T) {
 	defer m.Close()
 	var s struct {
 		FileBytes int64 `json:"file_bytes"`
-		NGrams    []int `json:"ngrams_per_order"`
+		NGrams    []int `json:"ngrams"`
 		Sections  []struct {
 			Name     string `json:"name"`
 			Checksum string `json:"checksum"`
@@ -133,14 +133,14 @@ func TestInspectStats(t *testing.T) {
 			t.Fatalf("exit %d: %s", code, e)
 		}
 		keys := inspectJSONKeys(t, out)
-		for _, k := range []string{"model", "file_bytes", "ngrams_per_order", "total_ngrams", "bits_per_ngram", "shared_bytes", "sections", "orders"} {
+		for _, k := range []string{"model", "file_bytes", "ngrams", "total_ngrams", "bits_per_ngram", "shared_bytes", "sections", "orders"} {
 			if _, ok := keys[k]; !ok {
 				t.Errorf("inspect --stats --json lacks %q", k)
 			}
 		}
 		var st struct {
 			FileBytes    int64   `json:"file_bytes"`
-			NGrams       []int   `json:"ngrams_per_order"`
+			NGrams       []int   `json:"ngrams"`
 			BitsPerNGram float64 `json:"bits_per_ngram"`
 			Orders       []struct {
 				Contexts     int `json:"contexts"`

@@ -38,7 +38,7 @@ func TestInterpolateFitReport(t *testing.T) {
 		Inputs         []float64 `json:"input_perplexities"`
 		Mixture        float64   `json:"mixture_perplexity"`
 		Written        float64   `json:"perplexity"`
-		NGramsPerOrder []int     `json:"ngrams_per_order"`
+		NGramsPerOrder []int     `json:"ngrams"`
 		VocabularySize int       `json:"vocabulary_size"`
 	}
 	if err := json.Unmarshal([]byte(out), &rep); err != nil {

@@ -34,7 +34,7 @@ func TestPruneToBudget(t *testing.T) {
 	}
 	var rep struct {
 		FileBytes  int64   `json:"file_bytes"`
-		Ngrams     []int   `json:"ngrams_per_order"`
+		Ngrams     []int   `json:"ngrams"`
 		Perplexity float64 `json:"perplexity"`
 	}
 	if err := json.Unmarshal([]byte(stdout), &rep); err != nil {

@@ -109,7 +109,7 @@ func DefaultRanking(m estimate.Method) estimate.Method {
 type Candidate struct {
 	Order     int     `json:"order"`
 	Threshold float64 `json:"threshold"`
-	NGrams    []int   `json:"ngrams_per_order"`
+	NGrams    []int   `json:"ngrams"`
 	// FileBytes is the written file's size for the chosen order; for the
 	// others it is their sizing (the quantized file's size through
 	// quantize.Placeholder, at least the real one).

@@ -43,7 +43,7 @@ type InterpolateReport struct {
 	Iterations     int       `json:"iterations,omitempty"`
 	Order          int       `json:"order"`
 	VocabularySize int       `json:"vocabulary_size"`
-	NGramsPerOrder []int     `json:"ngrams_per_order"`
+	NGramsPerOrder []int     `json:"ngrams"`
 	// Heldout names the text of the perplexities, Predictions counts its
 	// predictions; InputPerplexities are each input's (over the union
 	// vocabulary, as the mixture uses it), MixturePerplexity the exact

@@ -270,7 +270,7 @@ func TestReportsWriteNonFiniteAsNull(t *testing.T) {
 		t.Fatal(err)
 	}
 	n := fmt.Sprintf("[%d,%d]", tb.Len(1), tb.Len(2))
-	want := `{"baseline_file_bytes":0,"baseline_ngrams_per_order":` + n + `,"baseline_perplexity":null,"baseline_perplexity_without_unk":2,"file_bytes":0,"model":"m","ngrams_per_order":` + n + `,"perplexity":null,"perplexity_without_unk":3,"threshold":null}`
+	want := `{"baseline_file_bytes":0,"baseline_ngrams":` + n + `,"baseline_perplexity":null,"baseline_perplexity_without_unk":2,"file_bytes":0,"model":"m","ngrams":` + n + `,"perplexity":null,"perplexity_without_unk":3,"threshold":null}`
 	if string(b) != want {
 		t.Errorf("got  %s\nwant %s", b, want)
 	}

@@ -58,7 +58,7 @@ type BudgetReport struct {
 	MaxBytes       int64           `json:"max_bytes"`
 	Method         string          `json:"method"`
 	Model          string          `json:"model"`
-	NGramsPerOrder []int           `json:"ngrams_per_order"`
+	NGramsPerOrder []int           `json:"ngrams"`
 	Order          int             `json:"order"`
 	OrdersCompared []OrderCompared `json:"orders_compared"`
 	// Perplexity is the chosen model's held-out perplexity (absent without
@@ -73,7 +73,7 @@ type BudgetReport struct {
 type OrderCompared struct {
 	Order          int            `json:"order"`
 	Threshold      inspect.Number `json:"threshold"`
-	NGramsPerOrder []int          `json:"ngrams_per_order"`
+	NGramsPerOrder []int          `json:"ngrams"`
 	FileBytes      int64          `json:"file_bytes"`
 	// Perplexity is held-out perplexity before quantization (absent
 	// without held-out text); Problem says why no model of the order fits.
@@ -113,12 +113,12 @@ func NewBudgetReport(model string, method estimate.Method, maxBytes int64, res *
 type ShrinkReport struct {
 	BaselineFileBytes int64 `json:"baseline_file_bytes"`
 	// BaselineNGramsPerOrder and NGramsPerOrder: prune only.
-	BaselineNGramsPerOrder       []int           `json:"baseline_ngrams_per_order,omitempty"`
+	BaselineNGramsPerOrder       []int           `json:"baseline_ngrams,omitempty"`
 	BaselinePerplexity           *inspect.Number `json:"baseline_perplexity,omitempty"`
 	BaselinePerplexityWithoutUnk *inspect.Number `json:"baseline_perplexity_without_unk,omitempty"`
 	FileBytes                    int64           `json:"file_bytes"`
 	Model                        string          `json:"model"`
-	NGramsPerOrder               []int           `json:"ngrams_per_order,omitempty"`
+	NGramsPerOrder               []int           `json:"ngrams,omitempty"`
 	// Orders: quantize only.
 	Orders               []QuantizedOrder `json:"orders,omitempty"`
 	Perplexity           *inspect.Number  `json:"perplexity,omitempty"`
@@ -156,7 +156,7 @@ type CountReport struct {
 	Counts         string   `json:"counts"`
 	FileBytes      int64    `json:"file_bytes"`
 	Order          int      `json:"order"`
-	NGramsPerOrder []uint64 `json:"ngrams_per_order"`
+	NGramsPerOrder []uint64 `json:"ngrams"`
 }
 
 // NewCountReport describes the count file written to path (fileBytes

@@ -28,7 +28,7 @@ type Point struct {
 	Model      string         `json:"model"`
 	Threshold  inspect.Number `json:"threshold"` // nats
 	Bits       int            `json:"bits"`      // 0: not quantized (32-bit floats)
-	NGrams     []int          `json:"ngrams_per_order"`
+	NGrams     []int          `json:"ngrams"`
 	FileBytes  int64          `json:"file_bytes"`
 	Perplexity inspect.Number `json:"perplexity"`
 }
