@@ -42,17 +42,24 @@ func (c *column) at(i int) float32 {
 
 // index returns the codebook index of entry i of a packed column.
 func (c *column) index(i int) int {
-	bit := uint64(i) * uint64(c.bits)
-	at := int(bit >> 3)
+	return int(packedAt(c.packed, uint64(i), c.bits))
+}
+
+// packedAt returns value i of a sequence of width-bit values packed from
+// the least significant bit of b's first byte on (spec/FORMAT.md, packed
+// columns); bytes past b's end read as zero. width is at most 57.
+func packedAt(b []byte, i uint64, width uint) uint64 {
+	bit := i * uint64(width)
+	at := bit >> 3
 	var word uint64
-	if at+8 <= len(c.packed) {
-		word = binary.LittleEndian.Uint64(c.packed[at:])
+	if at+8 <= uint64(len(b)) {
+		word = binary.LittleEndian.Uint64(b[at:])
 	} else {
-		for j := 0; at+j < len(c.packed) && j < 8; j++ {
-			word |= uint64(c.packed[at+j]) << (8 * j)
+		for j := uint64(0); at+j < uint64(len(b)) && j < 8; j++ {
+			word |= uint64(b[at+j]) << (8 * j)
 		}
 	}
-	return int((word >> (bit & 7)) & (1<<c.bits - 1))
+	return (word >> (bit & 7)) & (1<<width - 1)
 }
 
 // Index returns the codebook index stored for entry i of order k, for the

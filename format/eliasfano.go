@@ -158,17 +158,7 @@ func (e *eliasFano) lowAt(i uint64) uint64 {
 	if e.l == 0 {
 		return 0
 	}
-	bit := i * uint64(e.l)
-	at := bit >> 3
-	var word uint64
-	if at+8 <= uint64(len(e.low)) {
-		word = binary.LittleEndian.Uint64(e.low[at:])
-	} else {
-		for j := uint64(0); at+j < uint64(len(e.low)) && j < 8; j++ {
-			word |= uint64(e.low[at+j]) << (8 * j)
-		}
-	}
-	return (word >> (bit & 7)) & (1<<e.l - 1)
+	return packedAt(e.low, i, e.l)
 }
 
 // efCursor walks an Elias-Fano sequence from one position onwards.

@@ -118,17 +118,7 @@ func (h *wordHashTable) slot(i uint64) uint32 {
 		}
 		return binary.LittleEndian.Uint32(h.slots[4*i:])
 	}
-	bit := i * uint64(h.bits)
-	at := bit >> 3
-	var word uint64
-	if at+8 <= uint64(len(h.slots)) {
-		word = binary.LittleEndian.Uint64(h.slots[at:])
-	} else {
-		for j := uint64(0); at+j < uint64(len(h.slots)) && j < 8; j++ {
-			word |= uint64(h.slots[at+j]) << (8 * j)
-		}
-	}
-	v := (word >> (bit & 7)) & (1<<h.bits - 1)
+	v := packedAt(h.slots, i, h.bits)
 	if v == 1<<h.bits-1 {
 		return emptySlot
 	}
