@@ -169,9 +169,8 @@ func WriteCSV(w io.Writer, points []Point) error {
 	return cw.Error()
 }
 
-// WriteJSON writes the points as one JSON array.
+// WriteJSON writes the points as one JSON array on one line, in the one
+// style of every JSON the tool prints.
 func WriteJSON(w io.Writer, points []Point) error {
-	enc := json.NewEncoder(w)
-	enc.SetIndent("", "  ")
-	return enc.Encode(points)
+	return json.NewEncoder(w).Encode(points)
 }

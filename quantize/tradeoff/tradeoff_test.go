@@ -11,6 +11,7 @@ import (
 	"ingot/compile/counts"
 	"ingot/compile/estimate"
 	"ingot/compile/fixture"
+	"ingot/inspect"
 	"ingot/quantize"
 )
 
@@ -106,5 +107,22 @@ func TestRunAllAndCheck(t *testing.T) {
 	}
 	if _, err := RunAll([]Model{{"q.ingot", q}}, held, opt); err == nil || !strings.Contains(err.Error(), "q.ingot is quantized") {
 		t.Errorf("a quantized model: %v", err)
+	}
+}
+
+// TestWriteJSONOneLine checks tradeoff.json is written as the reports are
+// printed: one line (README, JSON keys), non-finite numbers as null.
+func TestWriteJSONOneLine(t *testing.T) {
+	var b bytes.Buffer
+	pts := []Point{{Model: "a.ingot", Threshold: 1e-8, Bits: 8, NGrams: []int{3, 2}, FileBytes: 100, Perplexity: inspect.Number(math.Inf(1))}}
+	if err := WriteJSON(&b, pts); err != nil {
+		t.Fatal(err)
+	}
+	got := b.String()
+	if strings.Count(got, "\n") != 1 || !strings.HasSuffix(got, "\n") {
+		t.Fatalf("tradeoff.json is not one line: %q", got)
+	}
+	if !strings.Contains(got, `"perplexity":null`) || !strings.Contains(got, `"ngrams":[3,2]`) {
+		t.Fatalf("tradeoff.json = %q, want ngrams [3,2] and perplexity null", got)
 	}
 }
