@@ -43,7 +43,7 @@ echo "| --- | ---: |"
 for p in keys probs backoffs starts marks vocab other; do
 	name=$(case $p in
 		keys) echo "last-word keys (Elias-Fano; successor ranks from order 3)" ;;
-		probs) echo "probabilities (8-bit indexes, unigrams as floats)" ;;
+		probs) echo "probabilities (8-bit indexes; unigrams in a codebook of their own)" ;;
 		backoffs) echo "back-off weights (contexts only)" ;;
 		starts) echo "child starts (Elias-Fano, contexts only)" ;;
 		marks) echo "context marks and their rank counters" ;;
