@@ -30,7 +30,7 @@ echo "others), kneser-ney estimated again on the survivors (its unigrams"
 echo "interpolated or backed off, both compared), orders 2 to 5 compared on"
 echo "DEV before quantization and the best one written (the form chosen is"
 echo "in the log). Held-out perplexity on TEST (\`<unk>\` predictions"
-echo "included); the lowest of each budget in bold."
+echo "included; the per-model table also gives it without them); the lowest of each budget in bold."
 echo
 cat "$work/pruning.md"
 echo

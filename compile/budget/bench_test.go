@@ -34,8 +34,10 @@ type row struct {
 	order        int
 	bytes        int64
 	perplexity   float64
-	verified     bool
-	problem      string
+	// known is the held-out perplexity without the predictions of <unk>.
+	known    float64
+	verified bool
+	problem  string
 	// quantCost is, for the compile path, the chosen model's DEV perplexity
 	// quantized over unquantized, minus one.
 	quantCost float64
@@ -100,6 +102,7 @@ func BenchmarkPruningPaths(b *testing.B) {
 				b.Errorf("%s %s 1/%d: verify: %v %v", r.method, r.path, r.divisor, err, rep.Failed())
 			}
 			r.bytes, r.perplexity = int64(len(data)), mustPerplexity(b, m, test)
+			r.known = perplexityWithoutUnknown(b, m, test)
 		}
 		for _, method := range []estimate.Method{estimate.KneserNey, estimate.Katz, estimate.Absolute, estimate.WittenBell} {
 			began := time.Now()
@@ -287,13 +290,13 @@ func writePruningResults(dir string, rows []row, floors []floor) error {
 		}
 	}
 	md.WriteString("\nEvery model, budget by budget (\"order\" is the order written; seconds are this run's wall time for the model):\n\n")
-	md.WriteString("| budget | method | path | order | file bytes | held-out perplexity | cost of 8 bits (DEV) | verify | seconds |\n| --- | --- | --- | ---: | ---: | ---: | ---: | --- | ---: |\n")
+	md.WriteString("| budget | method | path | order | file bytes | held-out perplexity | without <unk> | cost of 8 bits (DEV) | verify | seconds |\n| --- | --- | --- | ---: | ---: | ---: | ---: | ---: | --- | ---: |\n")
 	csv.WriteString("method,path,budget_divisor,order,file_bytes,perplexity,verified\n")
 	sorted := slices.Clone(rows)
 	slices.SortStableFunc(sorted, func(a, b row) int { return int(a.divisor - b.divisor) })
 	for _, r := range sorted {
 		if r.problem != "" {
-			fmt.Fprintf(&md, "| %s | %s | %s | - | - | does not fit: %s | - | - | %.0f |\n", label(r.divisor), r.method, r.path, r.problem, r.seconds)
+			fmt.Fprintf(&md, "| %s | %s | %s | - | - | does not fit: %s | - | - | - | %.0f |\n", label(r.divisor), r.method, r.path, r.problem, r.seconds)
 			continue
 		}
 		v := "pass"
@@ -304,7 +307,7 @@ func writePruningResults(dir string, rows []row, floors []floor) error {
 		if r.path == "compile" {
 			cost = fmt.Sprintf("%+.2f%%", 100*r.quantCost)
 		}
-		fmt.Fprintf(&md, "| %s | %s | %s | %d | %d | %.3f | %s | %s | %.0f |\n", label(r.divisor), r.method, r.path, r.order, r.bytes, r.perplexity, cost, v, r.seconds)
+		fmt.Fprintf(&md, "| %s | %s | %s | %d | %d | %.3f | %.3f | %s | %s | %.0f |\n", label(r.divisor), r.method, r.path, r.order, r.bytes, r.perplexity, r.known, cost, v, r.seconds)
 		fmt.Fprintf(&csv, "%s,%s,%d,%d,%d,%.4f,%v\n", r.method, r.path, r.divisor, r.order, r.bytes, r.perplexity, r.verified)
 	}
 	if len(floors) > 0 {
