@@ -394,9 +394,27 @@ func pruningChart(f *os.File, rows []row) error {
 		p.Add(line, pts)
 		p.Legend.Add(s.name, line, pts)
 	}
-	p.Legend.Top = true
-	cv := vgsvg.New(7*vg.Inch, 4.5*vg.Inch)
-	p.Draw(draw.New(cv))
+	// Margins: a fifth of the span more on each side of the log axis and
+	// a tenth of the range above and below, so no point sits on an edge.
+	p.X.Min /= 1.25
+	p.X.Max *= 1.25
+	pad := (p.Y.Max - p.Y.Min) / 10
+	p.Y.Min -= pad
+	p.Y.Max += pad
+	// The legend beside the plot area, as wide as its longest entry with
+	// room for a third more (a viewer may substitute a wider font).
+	legend := p.Legend
+	legend.Top, legend.Left = true, true
+	var width vg.Length
+	for _, s := range series {
+		width = max(width, legend.TextStyle.Width(s.name))
+	}
+	width = width*4/3 + legend.ThumbnailWidth + legend.XOffs + vg.Points(12)
+	p.Legend = plot.NewLegend()
+	cv := vgsvg.New(9*vg.Inch, 4.5*vg.Inch)
+	dc := draw.New(cv)
+	p.Draw(draw.Crop(dc, 0, -width, 0, 0))
+	legend.Draw(draw.Crop(dc, dc.Max.X-dc.Min.X-width+vg.Points(6), 0, 0, -vg.Points(30)))
 	_, err := cv.WriteTo(f)
 	return err
 }
