@@ -11,6 +11,7 @@ import (
 	"github.com/apache/beam/sdks/v2/go/pkg/beam"
 	"github.com/apache/beam/sdks/v2/go/pkg/beam/testing/ptest"
 	"github.com/google/go-cmp/cmp"
+	"github.com/google/go-cmp/cmp/cmpopts"
 	"github.com/klauspost/compress/zstd"
 
 	"ingot/compile/counts"
@@ -153,7 +154,9 @@ func model(t testing.TB, c *counts.Counts, order int, method estimate.Method) []
 
 func sameModels(t testing.TB, got, want *counts.Counts, order int) {
 	t.Helper()
-	if d := cmp.Diff(want, got); d != "" {
+	// Links are derived from the levels (one side loads them, the other
+	// does not); the counts themselves must be equal.
+	if d := cmp.Diff(want, got, cmpopts.IgnoreFields(counts.Counts{}, "Links")); d != "" {
 		t.Fatalf("pipeline counts differ from one machine's (-one machine +pipeline):\n%.3000s", d)
 	}
 	for _, m := range []estimate.Method{estimate.KneserNey, estimate.Katz} {
