@@ -333,6 +333,7 @@ func (w *worker) countSentence(s []uint32) error {
 			return err
 		}
 	}
+	w.sorter.known = len(w.words.words)
 	prev := append(w.prev[:0], t.add(uint64(s[0]), 1, 0)) // <s>, never counted itself
 	cur := w.cur[:0]
 	var keys [tables.MaxOrder]uint64

@@ -133,3 +133,26 @@ func (tr *tracker) MkdirTemp(dir, pattern string) (string, error) {
 }
 
 func (tr *tracker) Forget(dir string) { *tr.made = append(*tr.made, "forget "+dir) }
+
+// TestCountSpillsAsTheVocabularyGrows narrows the sort key so that a small
+// text reaches what a 100 M n-gram corpus reached: a table filled up to
+// the limit of a vocabulary just below a power of two, then a sentence
+// whose new words cross it. The spill must rank only the words the
+// table's records name (it panicked: "do not fit a sort key"), and the
+// counts must equal the in-memory count's.
+func TestCountSpillsAsTheVocabularyGrows(t *testing.T) {
+	defer func(b int) { sortKeyBits = b }(sortKeyBits)
+	sortKeyBits = 30
+	data := generated(t, 400, 3000, 11)
+	want := inMemory(t, 3, data, 1, nil, false)
+	for _, workers := range []int{1, 2} {
+		var out bytes.Buffer
+		if _, err := Count(context.Background(), Options{Order: 3, Workers: workers, Memory: 64 << 20, TempDir: t.TempDir()},
+			[]Input{{"gen", bytes.NewReader(data)}}, &out); err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(want, out.Bytes()) {
+			t.Fatalf("%d workers: counts differ from the in-memory count's", workers)
+		}
+	}
+}

@@ -64,12 +64,16 @@ func newGramHash(maxCap int) *gramHash {
 
 func (t *gramHash) len() int { return len(t.recs) }
 
+// sortKeyBits is the width of a sorted entry's key: 64, narrower only in
+// tests, so that small inputs reach the limits large ones reach.
+var sortKeyBits = 64
+
 // setWords lowers the limit so that a sorted entry (sortEntries) fits in
 // 64 bits with a vocabulary of v words: two record positions and a word
 // rank. With 2^16 words or fewer, up to 2^24-1 records; with more
 // words, the table spills sooner.
 func (t *gramHash) setWords(v int) {
-	b := (64 - bits.Len(uint(v))) / 2
+	b := (sortKeyBits - bits.Len(uint(v))) / 2
 	t.limit = t.maxCap
 	if b < 31 && 1<<b-1 < t.limit {
 		t.limit = 1<<b - 1
@@ -209,7 +213,7 @@ func (se *sortedEntries) gram(k, j int, ids []uint32) {
 func (t *gramHash) sortEntries(rank []uint32, order int) *sortedEntries {
 	n := len(t.recs)
 	se := &sortedEntries{wb: uint(bits.Len(uint(len(rank)))), nb: uint(bits.Len(uint(n)))}
-	if se.wb+2*se.nb > 64 {
+	if se.wb+2*se.nb > uint(sortKeyBits) {
 		panic(fmt.Sprintf("counts: %d records and %d words do not fit a sort key", n, len(rank)))
 	}
 	var all []uint64
@@ -265,6 +269,13 @@ type sorter struct {
 	name  string // prefix of run file names
 	runs  []string
 	spilt int64 // bytes written to runs
+	// known is how many words (ids 0..known-1) the table's records can
+	// name: the list's length when the n-grams being added were admitted.
+	// The owner interns a sentence's words before counting it, so at the
+	// sentence's first spill check the list may already be longer, and a
+	// table filled under the shorter list's limit would not fit a sort key
+	// ranked over the longer one (setWords); a spill ranks these alone.
+	known int
 }
 
 // newSorter returns a sorter whose tables hold at most budget bytes (0: no
@@ -288,13 +299,15 @@ func (s *sorter) add(g []uint32, n uint64) error {
 			return err
 		}
 	}
+	s.known = len(*s.words)
 	s.table.addGram(g, n)
 	return nil
 }
 
-// rank returns the sorted word list and each id's position in it.
-func (s *sorter) rank() ([]string, []uint32) {
-	words := *s.words
+// rank returns the sorted list of the first n words and each id's
+// position in it.
+func (s *sorter) rank(n int) ([]string, []uint32) {
+	words := (*s.words)[:n]
 	order := make([]int32, len(words))
 	for i := range order {
 		order[i] = int32(i)
@@ -322,7 +335,7 @@ func (s *sorter) spill() error {
 	if s.dir == "" {
 		return fmt.Errorf("counts: the n-gram table is full and there is no directory to spill to")
 	}
-	vocab, rank := s.rank()
+	vocab, rank := s.rank(s.known)
 	st := newTableStream(s.table.sortEntries(rank, s.order))
 	path := filepath.Join(s.dir, fmt.Sprintf("%s-%04d.run", s.name, len(s.runs)))
 	f, err := os.OpenFile(path, os.O_CREATE|os.O_EXCL|os.O_WRONLY, 0o600)
@@ -389,7 +402,7 @@ func (s *sorter) streams() ([]stream, [][]string, func(), error) {
 		lists = append(lists, r.Header().Vocab)
 	}
 	if s.table.len() > 0 {
-		vocab, rank := s.rank()
+		vocab, rank := s.rank(len(*s.words))
 		streams = append(streams, newTableStream(s.table.sortEntries(rank, s.order)))
 		lists = append(lists, vocab)
 	}
