@@ -13,7 +13,6 @@ import (
 	"ingot/compile/prune"
 	"ingot/compile/tables"
 	"ingot/format"
-	"ingot/format/score"
 	"ingot/quantize"
 	"ingot/verify"
 )
@@ -429,18 +428,6 @@ func TestBuilderReuseWritesTheSameBytesAsAFreshFit(t *testing.T) {
 // the predictions of <unk>.
 func perplexityWithoutUnknown(t testing.TB, m *tables.Tables, sentences [][]string) float64 {
 	t.Helper()
-	data, err := format.Marshal(m)
-	if err != nil {
-		t.Fatal(err)
-	}
-	f, err := format.FromBytes(data)
-	if err != nil {
-		t.Fatal(err)
-	}
-	sc := score.NewScorer(f)
-	var sum score.Summary
-	for _, s := range sentences {
-		sum.Add(sc.Score(s))
-	}
-	return sum.PerplexityWithoutUnknown()
+	_, without, _ := pointScores(t, m, sentences)
+	return without
 }

@@ -120,7 +120,8 @@ var q8Points = quantize.Options{Bits: 8, Trainer: quantize.LeastSquares}
 
 // pointScores returns TEST perplexity with and without <unk> and the
 // unigram log10 probability of <unk>.
-func pointScores(b *testing.B, m *tables.Tables, sentences [][]string) (with, without, unk float64) {
+func pointScores(b testing.TB, m *tables.Tables, sentences [][]string) (with, without, unk float64) {
+	b.Helper()
 	data, err := format.Marshal(m)
 	if err != nil {
 		b.Fatal(err)
