@@ -103,5 +103,5 @@ func ExampleWrite() {
 	id, _ := m.ID("ahoy")
 	fmt.Printf("%d bytes, order %d, %d words, log10 P(ahoy) = %.1f\n", len(data), m.Order(), m.VocabSize(), m.LogProb(nil, id))
 	// Output:
-	// 416 bytes, order 1, 4 words, log10 P(ahoy) = -0.5
+	// 432 bytes, order 1, 4 words, log10 P(ahoy) = -0.5
 }

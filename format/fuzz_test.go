@@ -17,8 +17,8 @@ import (
 var fuzzKey = ed25519.NewKeyFromSeed(bytes.Repeat([]byte{0x5e}, ed25519.SeedSize))
 
 // fuzzSeeds returns the seed models: plain, quantized (version 2, every
-// column) and signed, whole and cut, and the tiny model with the damage of
-// hugeCountCases.
+// column) and signed, whole and cut, the tiny model with the damage of
+// hugeCountCases, and with each older word-hash encoding.
 func fuzzSeeds(t testing.TB) [][]byte {
 	tiny := mustMarshal(t, tinyModel(t))
 	random := mustMarshal(t, fixture.RandomTables(5, 12, []int{20, 30, 30}))
@@ -30,6 +30,15 @@ func fuzzSeeds(t testing.TB) [][]byte {
 		t.Fatal(err)
 	}
 	seeds := [][]byte{tiny, random, quantized, signed, tiny[:len(tiny)/2], quantized[:len(quantized)-8], bytes.Repeat([]byte{0xff}, 200)}
+	// The word hashes older writers wrote: 32-bit slots, packed ids
+	// without fingerprints.
+	for _, enc := range []Encoding{Plain, PackedIDs} {
+		data, err := MarshalWordHash(tinyModel(t), enc, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		seeds = append(seeds, data)
+	}
 	for _, c := range hugeCountCases() {
 		seeds = append(seeds, c.damage(t, mustMarshal(t, tinyModel(t))))
 	}

@@ -156,6 +156,11 @@ const (
 	// packed at the fewest bits that hold V, all ones marking an empty
 	// slot.
 	PackedIDs Encoding = 4
+	// TaggedIDs (version 3, the word hash; what the writer writes) is
+	// PackedIDs with a few bits of each word's hash, its fingerprint,
+	// stored above its id, so that a lookup skips almost every wrong slot
+	// without reading the word.
+	TaggedIDs Encoding = 5
 )
 
 // String returns the encoding's name.
@@ -171,6 +176,8 @@ func (e Encoding) String() string {
 		return "Elias-Fano successor ranks"
 	case PackedIDs:
 		return "packed word ids"
+	case TaggedIDs:
+		return "packed word ids with fingerprints"
 	}
 	return fmt.Sprintf("encoding %d", uint32(e))
 }

@@ -12,7 +12,7 @@ import (
 // fixed fields and sizes against the summary, reading nothing proportional
 // to the number of n-grams.
 func (m *Model) readLevels3() error {
-	s, b, err := m.needEncoded(KindWordHash, 0, -1, Plain, PackedIDs)
+	s, b, err := m.needEncoded(KindWordHash, 0, -1, Plain, PackedIDs, TaggedIDs)
 	if err != nil {
 		return err
 	}

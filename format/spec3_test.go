@@ -204,8 +204,9 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64)
 		return out
 	}
 	// The vocabulary (§4.3): word starts plain (u32) or Elias-Fano
-	// (§4.8.4); the word hash with 32-bit slots or slots packed at
-	// B = bits.Len(V) bits, all ones empty (§4.8.4).
+	// (§4.8.4); the word hash with 32-bit slots, slots packed at
+	// B = bits.Len(V) bits, all ones empty, or B-bit ids with F-bit
+	// fingerprints above them (§4.8.4).
 	text := sec(4, 0).data
 	var starts []uint64
 	if s := sec(3, 0); s.enc == 2 {
@@ -228,44 +229,90 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64)
 	if P != uint64(V+V/4+1) {
 		t.Fatalf("word hash has %d slots", P)
 	}
-	slot := func(s uint64) uint32 { return le.Uint32(hash[8+4*s:]) }
-	if hs.enc == 4 {
-		B := uint64(le.Uint32(hash[4:]))
-		if B != uint64(bits.Len(uint(V))) || uint64(len(hash)) != 8+(P*B+7)/8 {
-			t.Fatalf("packed word hash: B = %d, %d bytes", B, len(hash))
+	// slot returns the id in slot s (0xFFFFFFFF: empty) and its
+	// fingerprint (encoding 5; 0 otherwise).
+	slot := func(s uint64) (uint32, uint64) { return le.Uint32(hash[8+4*s:]), 0 }
+	var F uint64
+	if hs.enc == 4 || hs.enc == 5 {
+		B, head := uint64(le.Uint32(hash[4:])), uint64(8)
+		if hs.enc == 5 {
+			F, head = uint64(le.Uint32(hash[8:])), 16
+			if F < 1 || F > 16 || le.Uint32(hash[12:]) != 0 {
+				t.Fatalf("word hash: F = %d, reserved %d", F, le.Uint32(hash[12:]))
+			}
 		}
-		slot = func(s uint64) uint32 {
+		W := B + F
+		if B != uint64(bits.Len(uint(V))) || uint64(len(hash)) != head+(P*W+7)/8 {
+			t.Fatalf("packed word hash: B = %d, F = %d, %d bytes", B, F, len(hash))
+		}
+		slot = func(s uint64) (uint32, uint64) {
 			var v uint64
-			for j := uint64(0); j < B; j++ {
-				p := s*B + j
-				v |= uint64(hash[8+p/8]>>(p%8)) & 1 << j
+			for j := uint64(0); j < W; j++ {
+				p := s*W + j
+				v |= uint64(hash[head+p/8]>>(p%8)) & 1 << j
 			}
-			if v == 1<<B-1 {
-				return 0xFFFFFFFF
+			id, f := v&(1<<B-1), v>>B
+			if id == 1<<B-1 {
+				if f != 1<<F-1 {
+					t.Fatalf("word hash: empty slot %d has fingerprint bits %x", s, f)
+				}
+				return 0xFFFFFFFF, f
 			}
-			return uint32(v)
+			return uint32(id), f
 		}
 	}
-	lookup := func(w string) (uint32, bool) {
+	fnv := func(w string) uint64 {
 		h := uint64(14695981039346656037)
 		for i := 0; i < len(w); i++ {
 			h = (h ^ uint64(w[i])) * 1099511628211
 		}
+		return h
+	}
+	// lookup also counts the words it reads: with fingerprints, only
+	// those whose fingerprint matched.
+	reads := 0
+	lookup := func(w string) (uint32, bool) {
+		h := fnv(w)
 		for s, probes := h%P, uint64(0); probes < P; s, probes = (s+1)%P, probes+1 {
-			id := slot(s)
+			id, f := slot(s)
 			if id == 0xFFFFFFFF {
 				return 0, false
 			}
+			if F > 0 && f != h>>(64-F) {
+				continue
+			}
+			reads++
 			if vocab[id] == w {
 				return id, true
 			}
 		}
 		return 0, false
 	}
+	used := 0
+	for s := uint64(0); s < P; s++ {
+		if id, f := slot(s); id != 0xFFFFFFFF {
+			used++
+			if F > 0 && f != fnv(vocab[id])>>(64-F) {
+				t.Fatalf("word hash: slot %d holds %q with fingerprint %x, its hash gives %x", s, vocab[id], f, fnv(vocab[id])>>(64-F))
+			}
+		}
+	}
+	if used != V {
+		t.Fatalf("word hash: %d slots used for %d words", used, V)
+	}
 	for id, w := range vocab {
 		if got, ok := lookup(w); !ok || got != uint32(id) {
 			t.Fatalf("word hash: %q -> %d, %v", w, got, ok)
 		}
+	}
+	// With 8-bit fingerprints a lookup of a stored word reads its own
+	// word and, once in 256 wrong probes, another: the reference writer
+	// writes them (§4.8.4).
+	if hs.enc != 5 || F != 8 {
+		t.Fatalf("word hash: encoding %d, F = %d; the reference writer writes encoding 5 with F = 8", hs.enc, F)
+	}
+	if reads > V+V/8 {
+		t.Fatalf("word hash: looking up the %d words read %d of them", V, reads)
 	}
 
 	// A column value (§4.5): plain f32, or packed index into a codebook,

@@ -42,7 +42,7 @@ func Example() {
 	fmt.Println(small.Model.Info.History[0][:37])
 	// Output:
 	// bigrams: 12 then 4
-	// file bytes: 1128 then 1224
+	// file bytes: 1152 then 1248
 	// ingot compile --method witten-bell --order 2 -o m.ingot c.txt
 	// ingot prune --drop-below 0.05
 	// pruned by relative entropy below 0.05

@@ -50,6 +50,7 @@ enum {
 	ENCODING_CODED_IDS = 2,   /* version 3: Elias-Fano, keys are word ids */
 	ENCODING_CODED_RANKS = 3, /* version 3: Elias-Fano, keys are successor ranks */
 	ENCODING_PACKED_IDS = 4,  /* version 3: word hash slots packed at B bits */
+	ENCODING_TAGGED_IDS = 5,  /* version 3: B-bit word ids with F-bit fingerprints */
 	MAX_CODEBOOK = 65536
 };
 
@@ -695,14 +696,25 @@ static ingot_status open_version3(ingot_model *m, ingot_error *err, const index_
 		j = (uint32_t)t->at[KIND_WORD_HASH][0];
 		e = read_entry(m->data, j);
 		b = section_bytes(m, &e);
-		if (e.encoding == ENCODING_PACKED_IDS) {
-			uint32_t B = 1;
+		if (e.encoding == ENCODING_PACKED_IDS || e.encoding == ENCODING_TAGGED_IDS) {
+			uint32_t B = 1, F = 0, head = 8;
 			while (B < 32 && (V >> B) != 0)
 				B++; /* the smallest B >= 1 with V < 2^B */
-			if (e.length < 8 || u32le(b) != P || u32le(b + 4) != B || e.length != 8 + (P * B + 7) / 8)
+			if (e.encoding == ENCODING_TAGGED_IDS) {
+				/* section 4.8.4: P, B, F (1..16), reserved 0, slots of B + F bits */
+				if (e.length < 16 || u32le(b + 8) < 1 || u32le(b + 8) > 16 || u32le(b + 12) != 0)
+					return fail_at(err, INGOT_ERR_FORMAT, j, &e, "want fingerprints of 1 to 16 bits and a zero reserved field");
+				F = u32le(b + 8);
+				head = 16;
+			}
+			if (e.length < head || u32le(b) != P || u32le(b + 4) != B || e.length != head + (P * (B + F) + 7) / 8)
 				return fail_at(err, INGOT_ERR_FORMAT, j, &e, "want %llu slots of %u bits and length %llu",
-				               (unsigned long long)P, (unsigned)B, (unsigned long long)(8 + (P * B + 7) / 8));
+				               (unsigned long long)P, (unsigned)(B + F), (unsigned long long)(head + (P * (B + F) + 7) / 8));
 			m->word_slot_bits = B;
+			m->word_tag_bits = F;
+			m->word_slots = b + head;
+			m->word_slot_count = (uint32_t)P;
+			return INGOT_OK;
 		} else if (e.length < 8 || u32le(b) != P || u32le(b + 4) != 0 || e.length != 8 + 4 * P)
 			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "want %llu slots, a zero reserved field and length %llu",
 			               (unsigned long long)P, (unsigned long long)(8 + 4 * P));
@@ -863,7 +875,8 @@ static ingot_status open_buffer(ingot_model *m, const void *buf, size_t size, in
 		if (version >= 3 && (e.kind == KIND_LAST_WORDS || e.kind == KIND_CHILD_STARTS))
 			continue; /* coded: checked below */
 		if (version >= 3 && ((e.kind == KIND_WORD_STARTS && e.encoding == ENCODING_CODED_IDS) ||
-		                     (e.kind == KIND_WORD_HASH && e.encoding == ENCODING_PACKED_IDS)))
+		                     (e.kind == KIND_WORD_HASH && (e.encoding == ENCODING_PACKED_IDS ||
+		                                                     e.encoding == ENCODING_TAGGED_IDS))))
 			continue; /* section 4.8.4, 4.8.5: checked below */
 		if (e.kind != KIND_PROBABILITIES && e.kind != KIND_BACKOFFS && e.kind != KIND_SIGNATURE &&
 		    e.encoding != ENCODING_PLAIN)
@@ -1172,39 +1185,53 @@ static int compare_word(const ingot_model *m, uint32_t id, const unsigned char *
 }
 
 /* word_slot returns the id in slot i of the word hash, 0xFFFFFFFF when
- * empty: a u32 (encoding 0) or B bits read as a packed index (section
- * 4.8.4; bytes past the section read as 0). */
-static uint32_t word_slot(const ingot_model *m, uint32_t i)
+ * empty, and stores its fingerprint in *tag: a u32 (encoding 0), or
+ * B + F bits read as a packed index, the id in the low B bits and the
+ * fingerprint in the F bits above (encodings 4 and 5, F = 0 for 4;
+ * section 4.8.4; bytes past the section read as 0). */
+static uint32_t word_slot(const ingot_model *m, uint32_t i, uint32_t *tag)
 {
-	uint32_t B = m->word_slot_bits;
-	uint64_t bit, at, end, word = 0, v, j;
+	uint32_t B = m->word_slot_bits, W = B + m->word_tag_bits;
+	uint64_t bit, at, end, word = 0, v, j, mask;
+	*tag = 0;
 	if (B == 0)
 		return u32le(m->word_slots + 4 * (size_t)i);
-	bit = (uint64_t)i * B;
+	bit = (uint64_t)i * W;
 	at = bit >> 3;
-	end = ((uint64_t)m->word_slot_count * B + 7) / 8;
+	end = ((uint64_t)m->word_slot_count * W + 7) / 8;
 	for (j = 0; j < 8 && at + j < end; j++)
 		word |= (uint64_t)m->word_slots[at + j] << (8 * j);
-	v = (word >> (bit & 7)) & (((uint64_t)1 << B) - 1);
-	return v == ((uint64_t)1 << B) - 1 ? 0xFFFFFFFFu : (uint32_t)v;
+	v = (word >> (bit & 7)) & (((uint64_t)1 << W) - 1);
+	mask = ((uint64_t)1 << B) - 1;
+	*tag = (uint32_t)(v >> B);
+	return (v & mask) == mask ? 0xFFFFFFFFu : (uint32_t)(v & mask);
 }
 
 /* lookup_hash finds a word through the word hash of a version-3 file
- * (section 4.8.4): 64-bit FNV-1a, linear probing, at most P probes. */
+ * (section 4.8.4): 64-bit FNV-1a, linear probing, at most P probes; with
+ * fingerprints (encoding 5) a slot whose fingerprint is not the word's,
+ * the top F bits of its hash, is passed over without reading its word. */
 static int lookup_hash(const ingot_model *m, const unsigned char *key, size_t len, uint32_t *id)
 {
 	uint64_t h = 14695981039346656037ull;
-	uint32_t P = m->word_slot_count, slot, probes;
+	uint32_t P = m->word_slot_count, F = m->word_tag_bits, slot, probes, want = 0;
 	size_t i;
 	for (i = 0; i < len; i++)
 		h = (h ^ key[i]) * 1099511628211ull;
+	if (F > 0)
+		want = (uint32_t)(h >> (64 - F));
 	slot = (uint32_t)(h % P);
 	for (probes = 0; probes < P; probes++) {
-		uint32_t w = word_slot(m, slot);
+		uint32_t tag, w = word_slot(m, slot, &tag);
 		size_t n = 0;
 		const unsigned char *text;
 		if (w == 0xFFFFFFFFu)
 			return 0;
+		if (tag != want) {
+			if (++slot == P)
+				slot = 0;
+			continue;
+		}
 		text = word_range(m, w, &n);
 		if (text != NULL && n == len && (len == 0 || memcmp(text, key, len) == 0)) {
 			if (id)

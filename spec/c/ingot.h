@@ -108,7 +108,8 @@ typedef struct {
 	uint64_t word_text_length;
 	const unsigned char *word_slots;  /* version 3: the word hash's slots */
 	uint32_t word_slot_count;
-	uint32_t word_slot_bits;          /* 0: u32 slots (encoding 0); else B (encoding 4) */
+	uint32_t word_slot_bits;          /* 0: u32 slots (encoding 0); else B (encodings 4 and 5) */
+	uint32_t word_tag_bits;           /* F, bits of a fingerprint (encoding 5); else 0 */
 	ingot_level_ levels[INGOT_MAX_ORDER];
 } ingot_model;
 
