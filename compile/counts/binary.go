@@ -39,6 +39,11 @@ const (
 	maxVocabRaw = 1 << 30
 	// blockTarget is the decoded size at which the writer closes a block.
 	blockTarget = 1 << 20
+	// frameWindow is the zstd window: a frame holds one block (about
+	// blockTarget bytes) or the word list, so a longer reach back finds
+	// little, and the encoder's history buffer, made and cleared for each
+	// Writer, is twice the window.
+	frameWindow = 1 << 20
 )
 
 var castagnoli = crc32.MakeTable(crc32.Castagnoli)
@@ -122,7 +127,7 @@ func newWriterLevel(w io.Writer, h Header, level zstd.EncoderLevel) (*Writer, er
 	if len(list) > maxVocabRaw {
 		return nil, fmt.Errorf("count file: word list of %d bytes exceeds %d", len(list), maxVocabRaw)
 	}
-	enc, err := zstd.NewWriter(nil, zstd.WithEncoderConcurrency(1), zstd.WithEncoderCRC(false), zstd.WithEncoderLevel(level))
+	enc, err := zstd.NewWriter(nil, zstd.WithEncoderConcurrency(1), zstd.WithEncoderCRC(false), zstd.WithEncoderLevel(level), zstd.WithWindowSize(frameWindow))
 	if err != nil {
 		return nil, err
 	}

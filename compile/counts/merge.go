@@ -178,6 +178,9 @@ func (m *merger) next(out []uint32) ([]uint32, uint64, int, error) {
 	if len(m.live) == 0 {
 		return nil, 0, 0, io.EOF
 	}
+	if len(m.streams) == 1 {
+		return m.nextOfOne(out)
+	}
 	first := m.live[0]
 	out = append(out[:0], m.heads[first]...)
 	var sum uint64
@@ -200,6 +203,22 @@ func (m *merger) next(out []uint32) ([]uint32, uint64, int, error) {
 		m.down(0)
 	}
 	return out, sum, first, nil
+}
+
+// nextOfOne is next for a merge of one stream, which has nothing to sum:
+// its entries come in strictly increasing order (a Reader checks it; a
+// table holds each n-gram once), so the heap and the comparisons go.
+func (m *merger) nextOfOne(out []uint32) ([]uint32, uint64, int, error) {
+	out = append(out[:0], m.heads[0]...)
+	n := m.counts[0]
+	ok, err := m.advance(0)
+	if err != nil {
+		return nil, 0, 0, err
+	}
+	if !ok {
+		m.live = m.live[:0]
+	}
+	return out, n, 0, nil
 }
 
 // mergeSources merges the text counts gathered in b with binary sources.

@@ -24,13 +24,16 @@ import (
 // order and one integer comparison per probe; no n-gram is ever hashed as
 // a list of words. Records are kept in insertion order, so a prefix's
 // record always comes before its extensions'; what the table holds is
-// known exactly (bytesPerRecord).
+// known exactly (bytesPerRecord). A slot holds, above the record index, a
+// tag: bits of the key's hash, so that a probe passes over most slots of
+// other keys without reading their records.
 type gramHash struct {
-	recs   []gramRec
-	order  []uint8  // order of each record
-	slots  []uint32 // record index + 1, 0 when empty; at most half full
-	maxCap int      // records the budget allows
-	limit  int      // records allowed now: maxCap, or less for a large vocabulary (see setWords)
+	recs    []gramRec
+	order   []uint8  // order of each record
+	slots   []uint32 // tag | record index + 1, 0 when empty; at most half full
+	tagMask uint32   // the bits of a slot that hold the tag
+	maxCap  int      // records the budget allows
+	limit   int      // records allowed now: maxCap, or less for a large vocabulary (see setWords)
 }
 
 type gramRec struct {
@@ -52,7 +55,8 @@ const unlimited = 1 << 31
 func gramKey(prefix uint32, word uint32) uint64 { return uint64(prefix+1)<<32 | uint64(word) }
 
 func newGramHash(maxCap int) *gramHash {
-	t := &gramHash{maxCap: maxCap, limit: maxCap, slots: make([]uint32, min(1<<12, 2*maxCap))}
+	t := &gramHash{maxCap: maxCap, limit: maxCap}
+	t.makeSlots(min(1<<12, 2*maxCap))
 	if maxCap < unlimited {
 		// The whole budget at once: untouched pages cost no memory, and
 		// the records are never copied as they grow.
@@ -83,35 +87,41 @@ func (t *gramHash) setWords(v int) {
 // room reports whether k more records fit.
 func (t *gramHash) room(k int) bool { return len(t.recs)+k <= t.limit }
 
-func (t *gramHash) slot(key uint64) int {
+// makeSlots replaces the slot array by an empty one of size slots. A
+// record index + 1 is at most the number of records, at most half the
+// slots: the bits above bits.Len(size) are free for the tag.
+func (t *gramHash) makeSlots(size int) {
+	t.slots = nil // the old array can go before the new one is made
+	t.slots = make([]uint32, size)
+	t.tagMask = ^uint32(0) << bits.Len(uint(size))
+}
+
+// slot returns the key's first slot to probe and its tag.
+func (t *gramHash) slot(key uint64) (int, uint32) {
 	key ^= key >> 33
 	key *= 0xff51afd7ed558ccd
 	key ^= key >> 33
+	// The slot from the hash's high bits, the tag from its low ones.
 	hi, _ := bits.Mul64(key, uint64(len(t.slots)))
-	return int(hi)
+	return int(hi), uint32(key) & t.tagMask
 }
 
 // add counts the n-gram key (of order k) n times and returns its record.
 // The caller makes sure there is room for a new record. Counts saturate at
 // the largest uint64 rather than wrap (no text holds 2^64 tokens).
 func (t *gramHash) add(key uint64, k int, n uint64) uint32 {
-	return t.addAt(t.slot(key), key, k, n)
-}
-
-// addAt is add with the key's slot already computed.
-func (t *gramHash) addAt(h int, key uint64, k int, n uint64) uint32 {
+	h, tag := t.slot(key)
 	for {
-		r := t.slots[h]
-		if r == 0 {
+		s := t.slots[h]
+		if s == 0 {
 			break
 		}
-		if rec := &t.recs[r-1]; rec.key == key {
-			c := rec.count + n
-			if c < n {
-				c = ^uint64(0)
+		if s&t.tagMask == tag {
+			r := s &^ t.tagMask
+			if rec := &t.recs[r-1]; rec.key == key {
+				rec.count = satAdd(rec.count, n)
+				return r - 1
 			}
-			rec.count = c
-			return r - 1
 		}
 		if h++; h == len(t.slots) {
 			h = 0
@@ -127,7 +137,7 @@ func (t *gramHash) addAt(h int, key uint64, k int, n uint64) uint32 {
 	}
 	t.recs = append(t.recs, gramRec{key, n})
 	t.order = append(t.order, uint8(k))
-	t.slots[h] = i + 1
+	t.slots[h] = tag | (i + 1)
 	if 2*len(t.recs) > len(t.slots) {
 		t.grow()
 	}
@@ -153,17 +163,15 @@ func satAdd(a, b uint64) uint64 {
 
 // grow doubles the slot array (to at most two slots per record allowed).
 func (t *gramHash) grow() {
-	size := min(2*len(t.slots), 2*t.maxCap)
-	t.slots = nil
-	t.slots = make([]uint32, size)
+	t.makeSlots(min(2*len(t.slots), 2*t.maxCap))
 	for i := range t.recs {
-		h := t.slot(t.recs[i].key)
+		h, tag := t.slot(t.recs[i].key)
 		for t.slots[h] != 0 {
 			if h++; h == len(t.slots) {
 				h = 0
 			}
 		}
-		t.slots[h] = uint32(i + 1)
+		t.slots[h] = tag | uint32(i+1)
 	}
 }
 
@@ -191,15 +199,17 @@ type sortedEntries struct {
 func (se *sortedEntries) word(e uint64) uint32 { return uint32(e>>se.nb) & (1<<se.wb - 1) }
 func (se *sortedEntries) prefix(e uint64) int  { return int(e >> (se.nb + se.wb)) }
 
-// gram writes into ids (len k) the word ranks of entry j of order k.
-func (se *sortedEntries) gram(k, j int, ids []uint32) {
-	e := se.levels[k-1][j]
-	for l := k - 1; ; l-- {
+// gram writes into ids (len k) the word ranks of entry j of order k. at
+// holds, per order, the entry whose words ids holds (-1: none; ids[:l+1]
+// are the words of entry at[l] of order l+1): the walk down the prefixes
+// stops at the first it meets, so that, in entry order, where n-grams
+// share their prefixes, a call costs about one read.
+func (se *sortedEntries) gram(k, j int, ids []uint32, at []int) {
+	for l := k - 1; l >= 0 && at[l] != j; l-- {
+		e := se.levels[l][j]
 		ids[l] = se.word(e)
-		if l == 0 {
-			return
-		}
-		e = se.levels[l-1][se.prefix(e)]
+		at[l] = j
+		j = se.prefix(e)
 	}
 }
 
@@ -223,39 +233,67 @@ func (t *gramHash) sortEntries(rank []uint32, order int) *sortedEntries {
 		}
 		all = unsafe.Slice((*uint64)(unsafe.Pointer(&t.slots[0])), n)
 	}
-	at := 0
-	for k := 1; k <= order; k++ {
-		lv := all[at:at]
-		for i, r := range t.recs {
-			if int(t.order[i]) != k {
-				continue
-			}
-			e := uint64(rank[uint32(r.key)])<<se.nb | uint64(i)
-			if k > 1 {
-				// The prefix's key now holds its position (sorted below).
-				e |= t.recs[r.key>>32-1].key << (se.nb + se.wb)
-			}
-			lv = append(lv, e)
-		}
-		slices.Sort(lv)
-		// The record's position replaces its key, and its count its
-		// record in the entry (the counts that do not fit, at least the
-		// table's length, go to a list in entry order).
-		full := uint64(1)<<se.nb - 1
-		for j, e := range lv {
-			r := &t.recs[e&full]
-			r.key = uint64(j)
-			c := r.count
-			if c >= full {
-				se.big = append(se.big, c)
-				c = full
-			}
-			lv[j] = e&^full | c
-		}
-		se.levels = append(se.levels, lv)
-		at += len(lv)
+	se.levels = t.entriesByOrder(all, rank, order, se)
+	for _, lv := range se.levels {
+		t.placePrefixes(lv, se)
+		sortUint64s(lv)
+		t.settle(lv, se)
 	}
 	return se
+}
+
+// entriesByOrder fills all with one entry per record, grouped by order
+// (the records of each order in table order), and returns the groups. An
+// entry holds, from the high bits, its prefix's record + 1 (0 for a
+// unigram), its word's rank and its record.
+func (t *gramHash) entriesByOrder(all []uint64, rank []uint32, order int, se *sortedEntries) [][]uint64 {
+	var size [tables.MaxOrder + 1]int
+	for _, k := range t.order {
+		size[k]++
+	}
+	levels := make([][]uint64, order)
+	var next [tables.MaxOrder + 1]int
+	at := 0
+	for k := 1; k <= order; k++ {
+		levels[k-1] = all[at : at+size[k]]
+		next[k] = at
+		at += size[k]
+	}
+	for i, r := range t.recs {
+		k := t.order[i]
+		all[next[k]] = r.key>>32<<(se.nb+se.wb) | uint64(rank[uint32(r.key)])<<se.nb | uint64(i)
+		next[k]++
+	}
+	return levels
+}
+
+// placePrefixes replaces the prefix record in each entry of lv by the
+// prefix's position, which its key holds once its order is sorted.
+func (t *gramHash) placePrefixes(lv []uint64, se *sortedEntries) {
+	shift := se.nb + se.wb
+	for j, e := range lv {
+		if p := e >> shift; p > 0 {
+			lv[j] = t.recs[p-1].key<<shift | e&(1<<shift-1)
+		}
+	}
+}
+
+// settle gives each record of the sorted lv its position in place of its
+// key, and each entry its record's count in place of the record (the
+// counts that do not fit, at least the table's length, go to a list in
+// entry order).
+func (t *gramHash) settle(lv []uint64, se *sortedEntries) {
+	full := uint64(1)<<se.nb - 1
+	for j, e := range lv {
+		r := &t.recs[e&full]
+		r.key = uint64(j)
+		c := r.count
+		if c >= full {
+			se.big = append(se.big, c)
+			c = full
+		}
+		lv[j] = e&^full | c
+	}
 }
 
 // sorter gathers n-grams under ids of a growing word list (not sorted),
@@ -417,11 +455,17 @@ type tableStream struct {
 	k, j  int
 	big   int // next of se.big
 	remap []uint32
+	ranks []uint32 // words of the last n-gram, unmapped (sortedEntries.gram)
+	at    []int    // entries that ranks holds (sortedEntries.gram)
 	ids   []uint32
 }
 
 func newTableStream(se *sortedEntries) *tableStream {
-	return &tableStream{se: se, k: 1, ids: make([]uint32, tables.MaxOrder)}
+	st := &tableStream{se: se, k: 1, ranks: make([]uint32, tables.MaxOrder), at: make([]int, tables.MaxOrder), ids: make([]uint32, tables.MaxOrder)}
+	for i := range st.at {
+		st.at[i] = -1
+	}
+	return st
 }
 
 func (st *tableStream) setRemap(m []uint32)  { st.remap = m }
@@ -442,8 +486,10 @@ func (st *tableStream) next() ([]uint32, uint64, error) {
 				n = st.se.big[st.big]
 				st.big++
 			}
+			ranks := st.ranks[:st.k]
+			st.se.gram(st.k, j, ranks, st.at)
 			out := st.ids[:st.k]
-			st.se.gram(st.k, j, out)
+			copy(out, ranks) // a copy: ranks must stay as gram left it
 			if st.remap != nil {
 				for i, id := range out {
 					out[i] = st.remap[id]
