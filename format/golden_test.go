@@ -28,6 +28,8 @@ var (
 	// contexts, and back-offs are packed indexes over the contexts).
 	goldenModel3      = filepath.Join("..", "spec", "golden", "tiny.v3.ingot")
 	goldenCutModel3   = filepath.Join("..", "spec", "golden", "tiny-cut.v3.ingot")
+	goldenHash0Model3 = filepath.Join("..", "spec", "golden", "tiny.v3-hash0.ingot")
+	goldenHash4Model3 = filepath.Join("..", "spec", "golden", "tiny.v3-hash4.ingot")
 	goldenCutExpected = filepath.Join("..", "spec", "golden", "tiny-cut.expected.jsonl")
 	// The Marrowfen models: estimated from the first 120 commands of the
 	// invented demo scenario (marrowfen.txt), in 32-bit floats (version 3)
@@ -285,6 +287,21 @@ func TestGolden(t *testing.T) {
 	} {
 		checkGolden(t, c.model, c.expected, c.tb, c.version)
 	}
+	// The tiny model with the word hashes of older writers (32-bit slots,
+	// packed ids without fingerprints), which readers keep reading.
+	for _, c := range []struct {
+		model string
+		enc   Encoding
+	}{{goldenHash0Model3, Plain}, {goldenHash4Model3, PackedIDs}} {
+		data, err := MarshalWordHash(tiny, c.enc, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		checkGoldenData(t, c.model, goldenExpected, data, 3, goldenQueries(tiny))
+		if m := mustOpen(t, data); m.wordHash.bits != 0 != (c.enc == PackedIDs) || m.wordHash.tag != 0 {
+			t.Errorf("%s: not the %s word hash", c.model, c.enc)
+		}
+	}
 	m, err := Open(goldenCutModel3)
 	if err != nil {
 		t.Fatal(err)
@@ -358,6 +375,13 @@ func checkGoldenQueries(t *testing.T, model, expected string, tb *tables.Tables,
 	if err != nil {
 		t.Fatal(err)
 	}
+	checkGoldenData(t, model, expected, data, version, qs)
+}
+
+// checkGoldenData compares the committed golden model with data and its
+// committed answers with qs (rewriting both with -update), then checks
+// that the reader verifies the model and gives every answer.
+func checkGoldenData(t *testing.T, model, expected string, data []byte, version int, qs []goldenQuery) {
 	queries := marshalQueries(t, qs)
 	if *update {
 		if err := os.WriteFile(model, data, 0o644); err != nil {
