@@ -179,8 +179,18 @@ func wordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Lin
 }
 
 // linksOf returns the links of the tables' orders (tables.Link), which
-// Check has made sure are prefix-closed.
+// Check has made sure are prefix-closed: the ones the tables carry when
+// they have one link per entry of every order.
 func linksOf(t *tables.Tables) *tables.Links {
+	if l := t.Links; l != nil && len(l.Parent) == t.Order() && len(l.Starts) == t.Order()-1 {
+		fits := true
+		for k := 2; k <= t.Order(); k++ {
+			fits = fits && len(l.Parent[k-1]) == t.Len(k) && len(l.Suffix[k-1]) == t.Len(k) && len(l.Starts[k-2]) == t.Len(k-1)+1
+		}
+		if fits {
+			return l
+		}
+	}
 	words := make([][]uint32, t.Order())
 	for k := 2; k <= t.Order(); k++ {
 		words[k-1] = t.Levels[k-1].Words

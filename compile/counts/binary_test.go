@@ -3,7 +3,9 @@ package counts
 import (
 	"bytes"
 	"errors"
+	"fmt"
 	"io"
+	"runtime"
 	"strings"
 	"testing"
 
@@ -232,5 +234,43 @@ func TestIndependentWritersMerge(t *testing.T) {
 	_, err = Load(2, []Source{{"s4.bin", bytes.NewReader(s4)}})
 	if err == nil || !strings.Contains(err.Error(), `s4.bin: entry 2 (block at offset`) || !strings.Contains(err.Error(), `"b a" has no count for its prefix "b"`) {
 		t.Errorf("missing prefix: %v", err)
+	}
+}
+
+// A missing prefix early in a large file stops the load (the goroutine
+// that reads ahead stops with it) and names the entry that lacks it.
+func TestLoadStopsAtAMissingPrefix(t *testing.T) {
+	var vocab []string
+	for i := range 200 {
+		vocab = append(vocab, fmt.Sprintf("w%03d", i))
+	}
+	var b bytes.Buffer
+	w, err := NewWriter(&b, Header{Order: 2, Vocab: vocab})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := 1; i < len(vocab); i++ { // w000 has no count
+		if err := w.Add([]uint32{uint32(i)}, 1); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for i := range vocab {
+		for j := range vocab {
+			if err := w.Add([]uint32{uint32(i), uint32(j)}, 1); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+	if err := w.Close(); err != nil {
+		t.Fatal(err)
+	}
+	before := runtime.NumGoroutine()
+	_, err = Load(2, []Source{{"big.bin", bytes.NewReader(b.Bytes())}})
+	want := fmt.Sprintf(`big.bin: entry %d (block at offset`, len(vocab))
+	if err == nil || !strings.Contains(err.Error(), want) || !strings.Contains(err.Error(), `"w000 w000" has no count for its prefix "w000"`) {
+		t.Errorf("got %v, want %s...", err, want)
+	}
+	if after := runtime.NumGoroutine(); after > before {
+		t.Errorf("%d goroutines after the load, %d before", after, before)
 	}
 }

@@ -104,7 +104,7 @@ func (c *Counts) Truncate(n int) {
 	if n < len(c.Levels) {
 		c.Levels = c.Levels[:n]
 		if c.Links != nil && len(c.Links.Parent) > n {
-			c.Links = &tables.Links{Parent: c.Links.Parent[:n], Suffix: c.Links.Suffix[:n], Starts: c.Links.Starts[:n-1]}
+			c.Links = c.Links.Lowest(n)
 		}
 	}
 }

@@ -30,6 +30,16 @@ type readerStream struct {
 	ids   []uint32
 }
 
+// at is where the reader stands after the entry last returned: that
+// entry's index and its block's offset.
+func (s *readerStream) at() position { return position{s.r.Index(), s.r.Offset()} }
+
+// position is where an entry of a count file stands, for error messages.
+type position struct {
+	index  uint64
+	offset int64
+}
+
 func (s *readerStream) next() ([]uint32, uint64, error) {
 	ids, n, err := s.r.Next()
 	if err != nil {
@@ -104,11 +114,13 @@ type merger struct {
 	streams []stream
 	heads   [][]uint32 // current entry of each stream (copied)
 	counts  []uint64
-	live    []int // streams not exhausted, kept as a binary heap on heads
+	live    []int      // streams not exhausted, kept as a binary heap on heads
+	at      []position // where each count file's head stands
+	taken   position   // where the entry next returned stood in its first stream
 }
 
 func newMerger(streams []stream) (*merger, error) {
-	m := &merger{streams: streams, heads: make([][]uint32, len(streams)), counts: make([]uint64, len(streams))}
+	m := &merger{streams: streams, heads: make([][]uint32, len(streams)), counts: make([]uint64, len(streams)), at: make([]position, len(streams))}
 	for i := range streams {
 		m.heads[i] = make([]uint32, 0, tables.MaxOrder)
 		ok, err := m.advance(i)
@@ -144,6 +156,9 @@ func (m *merger) advance(i int) (bool, error) {
 	}
 	m.heads[i] = append(m.heads[i][:0], ids...)
 	m.counts[i] = n
+	if rs, ok := m.streams[i].(*readerStream); ok {
+		m.at[i] = rs.at()
+	}
 	return true, nil
 }
 
@@ -172,16 +187,17 @@ func (m *merger) down(i int) {
 }
 
 // next returns the next distinct entry with its summed count and the
-// lowest-numbered stream that held it, or io.EOF. The ids are valid until
-// the next call.
+// lowest-numbered stream that held it (where it stood there is in
+// m.taken), or io.EOF. The ids are valid until the next call.
 func (m *merger) next(out []uint32) ([]uint32, uint64, int, error) {
 	if len(m.live) == 0 {
 		return nil, 0, 0, io.EOF
 	}
+	first := m.live[0]
+	m.taken = m.at[first]
 	if len(m.streams) == 1 {
 		return m.nextOfOne(out)
 	}
-	first := m.live[0]
 	out = append(out[:0], m.heads[first]...)
 	var sum uint64
 	for len(m.live) > 0 && compareEntry(m.heads[m.live[0]], out) == 0 {
@@ -227,7 +243,7 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 	if err != nil {
 		return nil, err
 	}
-	m, vocab, textCounts, streams, srcOf, streamErr := ms.m, ms.vocab, ms.textCounts, ms.streams, ms.srcOf, ms.streamErr
+	m, vocab, textCounts, srcOf, streamErr := ms.m, ms.vocab, ms.textCounts, ms.srcOf, ms.streamErr
 	start, _ := find(vocab, tables.SentenceStart)
 	c := &Counts{Vocab: vocab, Levels: make([]Level, order)}
 	uni := Level{Words: make([]uint32, len(vocab)), Counts: make([]uint64, len(vocab))}
@@ -236,18 +252,19 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 	}
 	c.Levels[0] = uni
 	ln := tables.NewLinker(len(vocab))
-	var g []uint32
+	// The sources are decoded and merged on another goroutine while this
+	// one checks and links the entries.
+	a := readAhead(m)
+	defer a.Close()
 	for {
-		var n uint64
-		var from int
-		var err error
-		g, n, from, err = m.next(g)
+		e, err := a.next()
 		if err == io.EOF {
 			break
 		}
 		if err != nil {
 			return nil, streamErr(err)
 		}
+		g, n := e.ids, e.count
 		k := len(g)
 		if k > order {
 			continue
@@ -279,14 +296,13 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 		}
 		if !hasPrefix || !hasSuffix {
 			msg := fmt.Sprintf("%q has no count for its %s %q", joinWords(vocab, g), miss, joinWords(vocab, sub))
-			if src := srcOf[from]; src >= 0 {
-				r := streams[from].(*readerStream).r
-				return nil, fmt.Errorf("%s: entry %d (block at offset %d): %s", sources[src].Name, r.Index(), r.Offset(), msg)
+			if src := srcOf[e.from]; src >= 0 {
+				return nil, fmt.Errorf("%s: entry %d (block at offset %d): %s", sources[src].Name, e.at.index, e.at.offset, msg)
 			}
 			return nil, b.textError(g, vocab, sources, msg)
 		}
 		lv := &c.Levels[k-1]
-		lv.Counts = append(lv.Counts, n)
+		lv.Counts = append(tables.Grow(lv.Counts, 1), n)
 	}
 	for k := 2; k <= ln.Order(); k++ {
 		c.Levels[k-1].Words = ln.Words[k-1]

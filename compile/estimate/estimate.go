@@ -32,7 +32,9 @@ import (
 	"fmt"
 	"math"
 	"math/bits"
+	"runtime"
 	"slices"
+	"sync"
 
 	"ingot/compile/counts"
 	"ingot/compile/tables"
@@ -264,12 +266,13 @@ type estimator struct {
 	N      int
 	V      float64 // |V|: the predictable vocabulary (all words but <s>)
 	start  uint32
-	prefix [][]int32   // prefix[k-1][i]: index at order k-1 of entry i's context
-	suffix [][]int32   // suffix[k-1][i]: index at order k-1 of entry i without its first word
-	adj    [][]uint64  // kneser-ney adjusted counts
-	prob   [][]float64 // full probability of each entry given its context
-	bow    [][]float64 // back-off weight of each entry as a context (orders < N)
-	empty  float64     // back-off weight of the empty context
+	links  *tables.Links // of orders 1..N
+	prefix [][]int32     // prefix[k-1][i]: index at order k-1 of entry i's context
+	suffix [][]int32     // suffix[k-1][i]: index at order k-1 of entry i without its first word
+	adj    [][]uint64    // kneser-ney adjusted counts
+	prob   [][]float64   // full probability of each entry given its context
+	bow    [][]float64   // back-off weight of each entry as a context (orders < N)
+	empty  float64       // back-off weight of the empty context
 	report *Report
 }
 
@@ -302,6 +305,7 @@ func newEstimator(c *counts.Counts, opt Options) (*estimator, error) {
 			return nil, fmt.Errorf("counts are not closed: %d-gram %q lacks its suffix", k, words(c, c.Gram(k, i)))
 		}
 	}
+	e.links = links.Lowest(N)
 	copy(e.prefix, links.Parent)
 	copy(e.suffix, links.Suffix)
 	for k := 1; k < N; k++ {
@@ -731,20 +735,26 @@ func kneserNeyParams(k int, n []float64, rep *OrderReport) (D1, D2, D3 float64) 
 }
 
 func (e *estimator) tables() *tables.Tables {
-	t := &tables.Tables{Vocab: e.c.Vocab, Levels: make([]tables.Level, e.N)}
-	for k := 1; k <= e.N; k++ {
-		lv := tables.Level{Words: e.c.Levels[k-1].Words, LogProb: make([]float32, len(e.prob[k-1]))}
-		for i, p := range e.prob[k-1] {
-			lv.LogProb[i] = float32(math.Log10(p))
-		}
-		if k < e.N {
-			lv.LogBackoff = make([]float32, len(e.bow[k-1]))
-			for i, b := range e.bow[k-1] {
-				lv.LogBackoff[i] = float32(math.Log10(b))
+	t := &tables.Tables{Vocab: e.c.Vocab, Levels: make([]tables.Level, e.N), Links: e.links}
+	// Each column is converted on its own: GOMAXPROCS workers share them.
+	var columns []func()
+	log10 := func(out []float32, in []float64) func() {
+		return func() {
+			for i, x := range in {
+				out[i] = float32(math.Log10(x))
 			}
 		}
-		t.Levels[k-1] = lv
 	}
+	for k := 1; k <= e.N; k++ {
+		lv := &t.Levels[k-1]
+		lv.Words, lv.LogProb = e.c.Levels[k-1].Words, make([]float32, len(e.prob[k-1]))
+		columns = append(columns, log10(lv.LogProb, e.prob[k-1]))
+		if k < e.N {
+			lv.LogBackoff = make([]float32, len(e.bow[k-1]))
+			columns = append(columns, log10(lv.LogBackoff, e.bow[k-1]))
+		}
+	}
+	inParallel(columns)
 	t.Levels[0].LogProb[e.start] = tables.NoProb
 	t.Info = tables.Info{Method: string(e.opt.Method), EmptyContextLogBackoff: math.Log10(e.empty)}
 	for _, r := range e.report.Orders {
@@ -756,4 +766,24 @@ func (e *estimator) tables() *tables.Tables {
 		t.Info.Fallbacks = append(t.Info.Fallbacks, r.Fallbacks...)
 	}
 	return t
+}
+
+// inParallel runs the tasks on GOMAXPROCS workers and waits for them.
+func inParallel(tasks []func()) {
+	next := make(chan func(), len(tasks))
+	for _, task := range tasks {
+		next <- task
+	}
+	close(next)
+	var wg sync.WaitGroup
+	for range min(runtime.GOMAXPROCS(0), len(tasks)) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for task := range next {
+				task()
+			}
+		}()
+	}
+	wg.Wait()
 }

@@ -27,6 +27,15 @@ type Links struct {
 	Starts [][]uint32
 }
 
+// Lowest returns the links of orders 1..n (n at most the orders linked),
+// sharing l's slices.
+func (l *Links) Lowest(n int) *Links {
+	if len(l.Parent) == n {
+		return l
+	}
+	return &Links{Parent: l.Parent[:n], Suffix: l.Suffix[:n], Starts: l.Starts[:n-1]}
+}
+
 // Linker links n-grams given one at a time, as a merge or a reader yields
 // them: order by order from order 2, each order in increasing order. It
 // keeps the word ids of each order it was given (Words).
@@ -61,20 +70,20 @@ func (l *Linker) Add(g []uint32) (suffix int32, ok bool) {
 		}
 		l.endOrder()
 	}
-	l.Words[k-1] = append(grow(l.Words[k-1], k), g...)
+	l.Words[k-1] = append(Grow(l.Words[k-1], k), g...)
 	parent, suffix, ok := l.link(g, l.Words[k-2], &l.cur)
 	if !ok {
 		return -1, false
 	}
-	l.Parent[k-1] = append(grow(l.Parent[k-1], 1), parent)
-	l.Suffix[k-1] = append(grow(l.Suffix[k-1], 1), suffix)
+	l.Parent[k-1] = append(Grow(l.Parent[k-1], 1), parent)
+	l.Suffix[k-1] = append(Grow(l.Suffix[k-1], 1), suffix)
 	return suffix, true
 }
 
-// grow makes room for n more elements, growing the capacity by half when
+// Grow makes room for n more elements, growing the capacity by half when
 // it runs out (append grows large slices by a quarter, copying them more
 // often).
-func grow[E any](s []E, n int) []E {
+func Grow[E any](s []E, n int) []E {
 	if len(s)+n <= cap(s) {
 		return s
 	}
@@ -86,9 +95,29 @@ type cursor struct {
 	parent int32 // no greater than the next entry's parent
 	last   int32 // the last entry's parent (-1: none yet)
 	suffix int32 // the last entry's suffix
+	// lists[2p], lists[2p+1] bound, at the order below, the children of
+	// the suffix of parent p (empty when that suffix is not stored): the
+	// suffix of each child of p is among them.
+	lists []uint32
 }
 
-func newCursor() cursor { return cursor{last: -1, suffix: -1} }
+// newCursor starts linking order k, the links of the orders below it
+// known.
+func (l *Links) newCursor(k int) cursor {
+	cur := cursor{last: -1, suffix: -1}
+	if k >= 3 {
+		// Looked up for every parent at once, in one loop whose reads do
+		// not wait for each other, rather than one cache miss per entry.
+		suffixes, starts := l.Suffix[k-2], l.Starts[k-3]
+		cur.lists = make([]uint32, 2*len(suffixes))
+		for p, h := range suffixes {
+			if h >= 0 {
+				cur.lists[2*p], cur.lists[2*p+1] = starts[h], starts[h+1]
+			}
+		}
+	}
+	return cur
+}
 
 // link finds the parent and the suffix of g (order k = len(g) >= 2), given
 // lower, the entries of order k-1, the links of the orders below k, and
@@ -107,17 +136,13 @@ func (l *Links) link(g, lower []uint32, cur *cursor) (parent, suffix int32, ok b
 	if p == n || Compare(lower[int(p)*(k-1):int(p)*(k-1)+k-1], g[:k-1]) != 0 {
 		return -1, -1, false
 	}
-	suffix = -1
-	if h := l.Suffix[k-2][p]; h >= 0 {
-		starts := l.Starts[k-3]
-		lo := int32(starts[h])
-		if p == cur.last && cur.suffix >= lo {
-			// A sibling of the entry before, with a greater last word:
-			// the suffix lies after that entry's.
-			lo = cur.suffix + 1
-		}
-		suffix = searchLast(lower, k-1, lo, int32(starts[h+1]), g[k-1])
+	lo, hi := int32(cur.lists[2*p]), int32(cur.lists[2*p+1])
+	if p == cur.last && cur.suffix >= lo {
+		// A sibling of the entry before, with a greater last word: the
+		// suffix lies after that entry's.
+		lo = cur.suffix + 1
 	}
+	suffix = searchLast(lower, k-1, lo, hi, g[k-1])
 	cur.last = p
 	if suffix >= 0 {
 		cur.suffix = suffix
@@ -161,7 +186,7 @@ func (l *Linker) endOrder() {
 	l.Words = append(l.Words, nil)
 	l.Parent = append(l.Parent, nil)
 	l.Suffix = append(l.Suffix, nil)
-	l.cur = newCursor()
+	l.cur = l.newCursor(len(l.Words))
 }
 
 // finishOrder computes the child starts of the order below the highest
@@ -224,7 +249,7 @@ func Link(vocab int, words [][]uint32) (*Links, error) {
 		w, lower := words[k-1], words[k-2]
 		n := len(w) / k
 		parent, suffix := make([]int32, n), make([]int32, n)
-		cur := newCursor()
+		cur := l.newCursor(k)
 		for i := 0; i < n; i++ {
 			p, s, ok := l.link(w[k*i:k*i+k], lower, &cur)
 			if !ok {

@@ -54,6 +54,11 @@ type Tables struct {
 	// Info describes how the model was built; it travels in the file's
 	// metadata and changes no probability.
 	Info Info
+	// Links, when not nil, are the links of Levels (Link's result), handed
+	// on by whoever found them (the estimator takes the counts') so that
+	// the writer does not link the orders again. Whoever builds tables
+	// with other word ids leaves it nil.
+	Links *Links
 }
 
 // Level holds the n-grams of one order, sorted lexicographically by word ids.
