@@ -87,9 +87,10 @@ func (t *gramHash) setWords(v int) {
 // room reports whether k more records fit.
 func (t *gramHash) room(k int) bool { return len(t.recs)+k <= t.limit }
 
-// makeSlots replaces the slot array by an empty one of size slots. A
-// record index + 1 is at most the number of records, at most half the
-// slots: the bits above bits.Len(size) are free for the tag.
+// makeSlots replaces the slot array by an empty one of size entries. A
+// record index + 1 never exceeds the number of records, which never
+// exceeds size (the table is at most half full, one over while it grows),
+// so it fits the bits below bits.Len(size); those above hold the tag.
 func (t *gramHash) makeSlots(size int) {
 	t.slots = nil // the old array can go before the new one is made
 	t.slots = make([]uint32, size)
