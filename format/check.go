@@ -218,6 +218,7 @@ func (c *checker) values() {
 	for k := 1; k <= m.order; k++ {
 		lv := &m.levels[k-1]
 		c.codebook(KindProbCodebook, k, &lv.probs)
+		c.tiers(KindProbabilities, k, &lv.probs)
 		for i := 0; i < m.Count(k); i++ {
 			p := float64(lv.probs.at(i))
 			if !math.IsNaN(p) && !math.IsInf(p, 1) {
@@ -234,6 +235,7 @@ func (c *checker) values() {
 			break
 		}
 		c.codebook(KindBackoffCodebook, k, &lv.backoffs)
+		c.tiers(KindBackoffs, k, &lv.backoffs)
 		for i := 0; i < m.Count(k); i++ {
 			b := float64(m.LogBackoffAt(k, i))
 			if !math.IsNaN(b) && !math.IsInf(b, 1) {
@@ -262,6 +264,18 @@ func (c *checker) codebook(kind SectionKind, k int, col *column) {
 		case j > 0 && !(floatAt(col.codebook, j-1) < x):
 			c.problem(RuleValues, name, at, "codebook value %d (%v) does not ascend after %v", j, x, floatAt(col.codebook, j-1))
 		}
+	}
+}
+
+// tiers checks the table, escape counters and escape count of a tiered
+// column (spec/FORMAT.md §4.8.6).
+func (c *checker) tiers(kind SectionKind, k int, col *column) {
+	if col.tier == nil {
+		return
+	}
+	for _, p := range checkTiers(col.tier, col.packed, col.n, len(col.codebook)/4) {
+		name, at := c.m.sectionOffset(kind, k, int(p.Offset))
+		c.problem(RuleValues, name, at, "%s", p.Msg)
 	}
 }
 
@@ -311,6 +325,10 @@ func (m *Model) ValueOffset(k, i int, backoff bool) (section string, offset int6
 			return m.sectionOffset(KindContexts, k, 0)
 		}
 		i = int(r)
+	}
+	if col != nil && col.tier != nil {
+		t := col.tier
+		return m.sectionOffset(kind, k, tierHeader+len(t.table)+len(t.counters)+int(uint64(i)*uint64(t.bits)/8))
 	}
 	if col != nil && col.packed != nil {
 		return m.sectionOffset(kind, k, packedHeader+int(uint64(i)*uint64(col.bits)/8))

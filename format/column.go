@@ -15,10 +15,11 @@ const packedHeader = 8
 // either plain float32 values, or packed indexes into a float32 codebook.
 type column struct {
 	plain    []byte // n float32, when not quantized
-	packed   []byte // the index bits, when quantized
-	bits     uint   // bits per index
+	packed   []byte // the index bits, when quantized (the narrow column when tiered)
+	bits     uint   // bits per index (the wide width when tiered)
 	codebook []byte // float32 levels
 	n        int
+	tier     *tiers // a tiered column (encoding Tiered), or nil
 }
 
 // at returns value i, or NaN when i is out of range or the index points
@@ -42,6 +43,9 @@ func (c *column) at(i int) float32 {
 
 // index returns the codebook index of entry i of a packed column.
 func (c *column) index(i int) int {
+	if c.tier != nil {
+		return c.tier.index(c.packed, uint64(i), c.bits)
+	}
 	return int(packedAt(c.packed, uint64(i), c.bits))
 }
 
@@ -144,13 +148,10 @@ func packedLen(n int, b uint) int64 {
 	return packedHeader + int64((uint64(n)*uint64(b)+7)/8)
 }
 
-// packIndexes encodes values as indexes into codebook (which must hold
-// every value) in the Packed layout.
-func packIndexes(values, codebook []float32) ([]byte, bool) {
-	b := bitsFor(len(codebook))
-	out := make([]byte, packedLen(len(values), b))
-	binary.LittleEndian.PutUint32(out, uint32(b))
-	bitsOut := out[packedHeader:]
+// codebookIndexes returns the index of each value in codebook, or false
+// when a value is not one of its levels.
+func codebookIndexes(values, codebook []float32) ([]int, bool) {
+	idx := make([]int, len(values))
 	for i, v := range values {
 		j, ok := slices.BinarySearchFunc(codebook, v, func(c, v float32) int {
 			switch {
@@ -164,13 +165,42 @@ func packIndexes(values, codebook []float32) ([]byte, bool) {
 		if !ok {
 			return nil, false
 		}
-		bit := uint64(i) * uint64(b)
-		for x := uint(0); x < b; x++ {
-			if j>>x&1 != 0 {
-				p := bit + uint64(x)
-				bitsOut[p>>3] |= 1 << (p & 7)
-			}
+		idx[i] = j
+	}
+	return idx, true
+}
+
+// packIndexes encodes codebook indexes into a codebook of L levels in the
+// Packed layout.
+func packIndexes(idx []int, L int) []byte {
+	b := bitsFor(L)
+	out := make([]byte, packedHeader, packedLen(len(idx), b))
+	binary.LittleEndian.PutUint32(out, uint32(b))
+	values := make([]uint64, len(idx))
+	for i, j := range idx {
+		values[i] = uint64(j)
+	}
+	return appendPacked(out, values, b)
+}
+
+// encodeColumn encodes the values of a quantized column as codebook
+// indexes: packed, or tiered when tiered is allowed (version 3) and takes
+// fewer bytes. values must all be levels of codebook (checkWritable).
+func encodeColumn(values, codebook []float32, tiered bool) ([]byte, Encoding) {
+	idx, _ := codebookIndexes(values, codebook)
+	if tiered {
+		if plan := planTiers(idx, len(codebook)); plan.narrow != 0 {
+			return encodeTiers(idx, len(codebook), plan), Tiered
 		}
 	}
-	return out, true
+	return packIndexes(idx, len(codebook)), Packed
+}
+
+// columnLength is the length of the section encodeColumn writes.
+func columnLength(values, codebook []float32, tiered bool) int64 {
+	idx, _ := codebookIndexes(values, codebook)
+	if tiered {
+		return planTiers(idx, len(codebook)).length
+	}
+	return packedLen(len(idx), bitsFor(len(codebook)))
 }

@@ -90,10 +90,11 @@ func TestPackedIndexesAtEveryWidth(t *testing.T) {
 		for i := range values {
 			values[i] = cb[(i*7919)%levels]
 		}
-		b, ok := packIndexes(values, cb)
+		idx, ok := codebookIndexes(values, cb)
 		if !ok {
 			t.Fatal("value outside codebook")
 		}
+		b := packIndexes(idx, len(cb))
 		width := bitsFor(levels)
 		c := column{packed: b[packedHeader:], bits: width, codebook: floatBytes(cb), n: len(values)}
 		for i, v := range values {

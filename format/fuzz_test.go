@@ -7,6 +7,8 @@ import (
 	"errors"
 	"ingot/compile/fixture"
 	"math"
+	"os"
+	"path/filepath"
 	"runtime"
 	"strings"
 	"testing"
@@ -18,7 +20,8 @@ var fuzzKey = ed25519.NewKeyFromSeed(bytes.Repeat([]byte{0x5e}, ed25519.SeedSize
 
 // fuzzSeeds returns the seed models: plain, quantized (version 2, every
 // column) and signed, whole and cut, the tiny model with the damage of
-// hugeCountCases, and with each older word-hash encoding.
+// hugeCountCases, with each older word-hash encoding, and the 8-bit
+// golden (tiered columns).
 func fuzzSeeds(t testing.TB) [][]byte {
 	tiny := mustMarshal(t, tinyModel(t))
 	random := mustMarshal(t, fixture.RandomTables(5, 12, []int{20, 30, 30}))
@@ -39,6 +42,12 @@ func fuzzSeeds(t testing.TB) [][]byte {
 		}
 		seeds = append(seeds, data)
 	}
+	// The 8-bit golden holds tiered columns (encoding 6) of both kinds.
+	tiered, err := os.ReadFile(filepath.Join("..", "spec", "golden", "marrowfen.q8.v3.ingot"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seeds = append(seeds, tiered)
 	for _, c := range hugeCountCases() {
 		seeds = append(seeds, c.damage(t, mustMarshal(t, tinyModel(t))))
 	}

@@ -161,6 +161,11 @@ const (
 	// stored above its id, so that a lookup skips almost every wrong slot
 	// without reading the word.
 	TaggedIDs Encoding = 5
+	// Tiered (version 3, probability and back-off sections only) stores
+	// codebook indexes in two tiers: a narrow column of the most frequent
+	// levels through a table, its all-ones value escaping to a wide column
+	// of full indexes found by rank (spec/FORMAT.md §4.8.6).
+	Tiered Encoding = 6
 )
 
 // String returns the encoding's name.
@@ -178,6 +183,8 @@ func (e Encoding) String() string {
 		return "packed word ids"
 	case TaggedIDs:
 		return "packed word ids with fingerprints"
+	case Tiered:
+		return "tiered codebook indexes"
 	}
 	return fmt.Sprintf("encoding %d", uint32(e))
 }

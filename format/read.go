@@ -354,10 +354,10 @@ func (m *Model) readColumn(kind, codebookKind SectionKind, k int, n int64) (colu
 		_, b, err := m.need(kind, k, 4*n)
 		return column{plain: b, n: int(n)}, err
 	}
-	if s.Encoding != Packed {
-		return column{}, formatErr(s.Name(), s.Offset, "section has %s; this reader knows %s and %s", s.Encoding, Plain, Packed)
+	if s.Encoding != Packed && s.Encoding != Tiered {
+		return column{}, formatErr(s.Name(), s.Offset, "section has %s; this reader knows %s, %s and %s", s.Encoding, Plain, Packed, Tiered)
 	}
-	if m.version < 2 {
+	if m.version < 2 || (s.Encoding == Tiered && m.version < 3) {
 		return column{}, formatErr(s.Name(), s.Offset, "section has %s, which format version %d does not allow", s.Encoding, m.version)
 	}
 	cb, err := m.needChecked(codebookKind, k, 4<<16)
@@ -370,6 +370,13 @@ func (m *Model) readColumn(kind, codebookKind SectionKind, k int, n int64) (colu
 		return column{}, formatErr(cs.Name(), cs.Offset, "codebook is %d bytes; expected 1 to 65536 float32 values", len(cb))
 	}
 	b := m.data[s.Offset : s.Offset+s.Length : s.Offset+s.Length]
+	if s.Encoding == Tiered {
+		narrow, t, err := parseTiers(b, n, levels)
+		if err != nil {
+			return column{}, formatErr(s.Name(), s.Offset, "%v", err)
+		}
+		return column{packed: narrow, bits: bitsFor(levels), codebook: cb, n: int(n), tier: t}, nil
+	}
 	if len(b) < packedHeader {
 		return column{}, formatErr(s.Name(), s.Offset, "section is %d bytes, shorter than its %d-byte header", len(b), packedHeader)
 	}

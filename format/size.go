@@ -39,16 +39,18 @@ func FileSize(t *tables.Tables, plan Planned) (int64, error) {
 		int64(summaryFixedSize + 8*n),
 		int64(len(infoBytes)),
 	}, vocabularyLengths3(t.Vocab)...)
-	column := func(entries int, codebook []float32, planned int) {
-		levels := len(codebook)
-		if planned != 0 {
-			levels = planned
-		}
-		if levels == 0 {
+	// A column to be quantized is counted packed, which a tiered column
+	// never exceeds (the writer chooses it only when it is shorter); a
+	// quantized one exactly as the writer encodes it.
+	column := func(values []float32, entries int, codebook []float32, planned int) {
+		switch {
+		case planned != 0:
+			lengths = append(lengths, 4*int64(planned), packedLen(entries, bitsFor(planned)))
+		case codebook == nil:
 			lengths = append(lengths, 4*int64(entries))
-			return
+		default:
+			lengths = append(lengths, 4*int64(len(codebook)), columnLength(values, codebook, true))
 		}
-		lengths = append(lengths, 4*int64(levels), packedLen(entries, bitsFor(levels)))
 	}
 	links := linksOf(t)
 	childStarts := links.Starts
@@ -72,18 +74,22 @@ func FileSize(t *tables.Tables, plan Planned) (int64, error) {
 		if k == 1 {
 			probLevels = plan.UnigramLevels
 		}
-		column(nk, lv.ProbCodebook, probLevels)
+		column(lv.LogProb, nk, lv.ProbCodebook, probLevels)
 		if k < n {
 			starts := childStarts[k-1]
 			words, counters := marksSizes(uint64(nk))
 			lengths = append(lengths, marksHeader+8*int64(words)+4*int64(counters))
 			contexts := 0
+			var kept []float32
 			for i, b := range lv.LogBackoff {
 				if starts[i+1] > starts[i] || (plan.BackoffLevels == 0 && hasBackoff(b)) {
 					contexts++
+					if lv.BackoffCodebook != nil && plan.BackoffLevels == 0 {
+						kept = append(kept, b)
+					}
 				}
 			}
-			column(contexts, lv.BackoffCodebook, plan.BackoffLevels)
+			column(kept, contexts, lv.BackoffCodebook, plan.BackoffLevels)
 			lengths = append(lengths, efLength(uint64(contexts)+1, uint64(starts[len(starts)-1])))
 		}
 	}

@@ -18,7 +18,9 @@ import (
 	"ingot/compile/corpus"
 	"ingot/compile/counts"
 	"ingot/compile/estimate"
+	"ingot/compile/tables"
 	"ingot/format"
+	"ingot/quantize"
 )
 
 // TestSpecificationAloneVersion3 reads the version-3 golden models the way
@@ -79,7 +81,13 @@ func specAlone3(t *testing.T, model, expected string, tolerance float64) (hashEn
 	if len(queries) < 100 {
 		t.Fatalf("only %d expected answers", len(queries))
 	}
-	return specDecode3(t, f, queries, tolerance)
+	enc, F, tiered := specDecode3(t, f, queries, tolerance)
+	// The 8-bit golden holds tiered columns of both kinds: the decoding
+	// of §4.8.6 is exercised.
+	if strings.Contains(model, ".q8.") && !(tiered[6] && tiered[7]) {
+		t.Errorf("%s: tiered probabilities read %v, tiered back-offs %v; expected both", model, tiered[6], tiered[7])
+	}
+	return enc, F
 }
 
 type specQuery struct {
@@ -108,35 +116,48 @@ func TestSpecificationAloneVersion3Large(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	f, err := format.Marshal(tb)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var queries []specQuery
-	for k := 1; k <= 3; k++ {
-		for i := 0; i < tb.Len(k); i += 7 {
-			g := tb.Gram(k, i)
-			q := specQuery{Log10: tb.LogProb(g)}
-			for _, id := range g[:k-1] {
-				q.Context = append(q.Context, tb.Vocab[id])
-			}
-			q.Word = tb.Vocab[g[k-1]]
-			queries = append(queries, q)
-		}
-	}
 	if tb.Len(3) < 4*512 {
 		t.Fatalf("only %d trigrams", tb.Len(3))
 	}
-	if enc, F := specDecode3(t, f, queries, 0); enc != 5 || F != 8 {
-		t.Fatalf("word hash: encoding %d, F = %d; the reference writer writes encoding 5 with F = 8", enc, F)
+	// Quantized to 8 bits with 12-bit back-off weights (the width the
+	// quantizer widens to when contexts need it), its back-off weights are
+	// stored tiered, over several escape counters.
+	q8, _, err := quantize.Model(tb, quantize.Options{Bits: 8, BackoffBits: 12, Trainer: quantize.LeastSquares})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range []*tables.Tables{tb, q8} {
+		f, err := format.Marshal(m)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var queries []specQuery
+		for k := 1; k <= 3; k++ {
+			for i := 0; i < m.Len(k); i += 7 {
+				g := m.Gram(k, i)
+				q := specQuery{Log10: m.LogProb(g)}
+				for _, id := range g[:k-1] {
+					q.Context = append(q.Context, m.Vocab[id])
+				}
+				q.Word = m.Vocab[g[k-1]]
+				queries = append(queries, q)
+			}
+		}
+		enc, F, tiered := specDecode3(t, f, queries, 0)
+		if enc != 5 || F != 8 {
+			t.Fatalf("word hash: encoding %d, F = %d; the reference writer writes encoding 5 with F = 8", enc, F)
+		}
+		if m == q8 && !tiered[7] {
+			t.Error("the 8-bit model's back-off weights were not read tiered")
+		}
 	}
 }
 
 // specDecode3 decodes a version-3 file by the document, compares the
 // queries' answers exactly and, when tolerance > 0, checks the sums of
 // every context (specSums). It returns the word hash's encoding and
-// fingerprint width.
-func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64) (hashEncoding uint32, fingerprintBits uint64) {
+// fingerprint width, and the kinds of the columns it read tiered.
+func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64) (hashEncoding uint32, fingerprintBits uint64, tieredSeen map[int]bool) {
 	le := binary.LittleEndian
 	castagnoli := crc32.MakeTable(crc32.Castagnoli)
 	if string(f[:8]) != "\x89INGOT\r\n" || le.Uint32(f[8:]) != 3 || le.Uint64(f[16:]) != uint64(len(f)) {
@@ -325,7 +346,20 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64)
 	hashEncoding, fingerprintBits = hs.enc, F
 
 	// A column value (§4.5): plain f32, or packed index into a codebook,
-	// read bit by bit.
+	// read bit by bit, or (§4.8.6) tiered: a narrow value, through the
+	// table or, when it is the escape, the wide index at the entry's rank
+	// among the escaped entries.
+	bitsAt := func(stream []byte, i, w uint64) uint64 {
+		var v uint64
+		for j := uint64(0); j < w; j++ {
+			p := i*w + j
+			if p/8 < uint64(len(stream)) {
+				v |= uint64(stream[p/8]>>(p%8)) & 1 << j
+			}
+		}
+		return v
+	}
+	tieredSeen = map[int]bool{}
 	value := func(kind, cbKind, k int, i uint64) float64 {
 		s := sec(kind, k)
 		if s.enc == 0 {
@@ -333,13 +367,44 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64)
 		}
 		B := uint64(le.Uint32(s.data))
 		L := uint64(len(sec(cbKind, k).data) / 4)
-		if L < 1 || 1<<B < L || (B > 1 && 1<<(B-1) >= L) || le.Uint32(s.data[4:]) != 0 {
+		if L < 1 || 1<<B < L || (B > 1 && 1<<(B-1) >= L) || (s.enc == 1 && le.Uint32(s.data[4:]) != 0) {
 			t.Fatalf("kind %d order %d: B = %d for a codebook of %d levels", kind, k, B, L)
 		}
 		var idx uint64
-		for j := uint64(0); j < B; j++ {
-			p := i*B + j
-			idx |= uint64(s.data[8+p/8]>>(p%8)) & 1 << j
+		switch s.enc {
+		case 1:
+			idx = bitsAt(s.data[8:], i, B)
+		case 6:
+			tieredSeen[kind] = true
+			b := uint64(le.Uint32(s.data[4:]))
+			E := le.Uint64(s.data[8:])
+			n := counts[k]
+			if kind == 7 {
+				n = le.Uint64(sec(12, k).data[8:]) // m_k
+			}
+			T, C := uint64(1)<<b-1, (n+255)/256
+			narrowAt := 16 + 2*T + 4*C
+			wideAt := narrowAt + (n*b+7)/8
+			if b < 1 || b >= B || E > n || uint64(len(s.data)) != wideAt+(E*B+7)/8 {
+				t.Fatalf("kind %d order %d: tiered section of %d bytes with B %d, b %d, E %d, n %d", kind, k, len(s.data), B, b, E, n)
+			}
+			narrow, wide := s.data[narrowAt:wideAt], s.data[wideAt:]
+			if v := bitsAt(narrow, i, b); v != T {
+				idx = uint64(le.Uint16(s.data[16+2*v:]))
+				break
+			}
+			r := uint64(le.Uint32(s.data[16+2*T+4*(i/256):]))
+			for j := i / 256 * 256; j < i; j++ {
+				if bitsAt(narrow, j, b) == T {
+					r++
+				}
+			}
+			if r >= E {
+				t.Fatalf("kind %d order %d entry %d: escape rank %d of %d", kind, k, i, r, E)
+			}
+			idx = bitsAt(wide, r, B)
+		default:
+			t.Fatalf("kind %d order %d: encoding %d", kind, k, s.enc)
 		}
 		if idx >= L {
 			t.Fatalf("kind %d order %d entry %d: index %d of %d levels", kind, k, i, idx, L)
@@ -469,5 +534,5 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64)
 		}
 		specSums(t, vocab, order, all, logProb, tolerance)
 	}
-	return hashEncoding, fingerprintBits
+	return hashEncoding, fingerprintBits, tieredSeen
 }

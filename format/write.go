@@ -198,7 +198,7 @@ func checkWritable(t *tables.Tables) error {
 					return fmt.Errorf("cannot write the model: order %d %s codebook is not strictly ascending at %d", k, c.name, j)
 				}
 			}
-			if _, ok := packIndexes(c.values, c.codebook); !ok {
+			if _, ok := codebookIndexes(c.values, c.codebook); !ok {
 				return fmt.Errorf("cannot write the model: order %d holds a %s value outside its codebook", k, c.name)
 			}
 		}
@@ -235,9 +235,9 @@ func buildSections(t *tables.Tables) ([]section, error) {
 			}
 			out = append(out, section{Section: Section{Kind: KindLastWords, Order: k}, data: last})
 		}
-		out = append(out, columnSections(KindProbabilities, KindProbCodebook, k, lv.LogProb, lv.ProbCodebook)...)
+		out = append(out, columnSections(KindProbabilities, KindProbCodebook, k, lv.LogProb, lv.ProbCodebook, false)...)
 		if k < n {
-			out = append(out, columnSections(KindBackoffs, KindBackoffCodebook, k, lv.LogBackoff, lv.BackoffCodebook)...)
+			out = append(out, columnSections(KindBackoffs, KindBackoffCodebook, k, lv.LogBackoff, lv.BackoffCodebook, false)...)
 			out = append(out, section{Section: Section{Kind: KindChildStarts, Order: k}, data: childStarts(t, k)})
 		}
 	}
@@ -245,15 +245,16 @@ func buildSections(t *tables.Tables) ([]section, error) {
 }
 
 // columnSections encodes one column: plain float32 values, or its codebook
-// followed by the packed indexes.
-func columnSections(kind, codebookKind SectionKind, k int, values, codebook []float32) []section {
+// followed by the indexes, packed or (when tiered is allowed, version 3)
+// tiered, whichever takes fewer bytes.
+func columnSections(kind, codebookKind SectionKind, k int, values, codebook []float32, tiered bool) []section {
 	if codebook == nil {
 		return []section{{Section: Section{Kind: kind, Order: k}, data: floatBytes(values)}}
 	}
-	packed, _ := packIndexes(values, codebook) // checkWritable made sure every value is there
+	data, enc := encodeColumn(values, codebook, tiered) // checkWritable made sure every value is there
 	return []section{
 		{Section: Section{Kind: codebookKind, Order: k}, data: floatBytes(codebook)},
-		{Section: Section{Kind: kind, Order: k, Encoding: Packed}, data: packed},
+		{Section: Section{Kind: kind, Order: k, Encoding: enc}, data: data},
 	}
 }
 

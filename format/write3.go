@@ -83,7 +83,7 @@ func orderSections3(t *tables.Tables, k int, childStarts [][]uint32, links *tabl
 		data, enc := lastWordKeys(t, k, childStarts, links)
 		out = append(out, section{Section: Section{Kind: KindLastWords, Order: k, Encoding: enc}, data: data})
 	}
-	out = append(out, columnSections(KindProbabilities, KindProbCodebook, k, lv.LogProb, lv.ProbCodebook)...)
+	out = append(out, columnSections(KindProbabilities, KindProbCodebook, k, lv.LogProb, lv.ProbCodebook, true)...)
 	if k < n {
 		starts := childStarts[k-1]
 		isContext := func(i int) bool { return starts[i+1] > starts[i] || hasBackoff(lv.LogBackoff[i]) }
@@ -97,7 +97,7 @@ func orderSections3(t *tables.Tables, k int, childStarts [][]uint32, links *tabl
 			}
 		}
 		x = append(x, uint64(starts[len(starts)-1]))
-		out = append(out, columnSections(KindBackoffs, KindBackoffCodebook, k, kept, lv.BackoffCodebook)...)
+		out = append(out, columnSections(KindBackoffs, KindBackoffCodebook, k, kept, lv.BackoffCodebook, true)...)
 		out = append(out, section{Section: Section{Kind: KindChildStarts, Order: k, Encoding: EliasFano}, data: encodeEliasFano(x)})
 	}
 	return out

@@ -619,19 +619,49 @@ func Placeholder(t *tables.Tables, opt Options) *tables.Tables {
 		}
 		return cb
 	}
+	// Every level used equally often, in turn: no index column so spread
+	// is written shorter than packed (a tiered column pays only where a
+	// few levels are frequent), so the file is as large as any
+	// quantized model of this shape.
+	cycle := func(n int, cb []float32) []float32 {
+		v := make([]float32, n)
+		for i := range v {
+			v[i] = cb[i%len(cb)]
+		}
+		return v
+	}
+	var starts [][]uint32
+	if N > 1 {
+		words := make([][]uint32, N)
+		for k := 2; k <= N; k++ {
+			words[k-1] = t.Levels[k-1].Words
+		}
+		if l, err := tables.Link(len(t.Vocab), words); err == nil {
+			starts = l.Starts
+		}
+	}
 	for k := 1; k <= N; k++ {
 		src := &t.Levels[k-1]
 		lv := tables.Level{Words: src.Words, LogProb: src.LogProb, LogBackoff: src.LogBackoff}
 		if k >= 2 {
-			lv.LogProb = make([]float32, len(src.LogProb))
 			lv.ProbCodebook = book(opt.Bits)
+			lv.LogProb = cycle(len(src.LogProb), lv.ProbCodebook)
 		} else if UnigramsPay(len(src.LogProb), 1<<opt.UnigramBits) {
-			lv.LogProb = make([]float32, len(src.LogProb))
 			lv.ProbCodebook = book(opt.UnigramBits)
+			lv.LogProb = cycle(len(src.LogProb), lv.ProbCodebook)
 		}
 		if k < N {
-			lv.LogBackoff = make([]float32, len(src.LogBackoff))
 			lv.BackoffCodebook = book(opt.BackoffBits)
+			lv.LogBackoff = make([]float32, len(src.LogBackoff))
+			// Only entries with children keep a weight (the others
+			// stay at log10 0, level 0), the levels in turn among them.
+			c := 0
+			for i := range lv.LogBackoff {
+				if starts != nil && starts[k-1][i+1] > starts[k-1][i] {
+					lv.LogBackoff[i] = lv.BackoffCodebook[c%len(lv.BackoffCodebook)]
+					c++
+				}
+			}
 		}
 		q.Levels[k-1] = lv
 	}

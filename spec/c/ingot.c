@@ -51,6 +51,7 @@ enum {
 	ENCODING_CODED_RANKS = 3, /* version 3: Elias-Fano, keys are successor ranks */
 	ENCODING_PACKED_IDS = 4,  /* version 3: word hash slots packed at B bits */
 	ENCODING_TAGGED_IDS = 5,  /* version 3: B-bit word ids with F-bit fingerprints */
+	ENCODING_TIERED = 6,      /* version 3: tiered codebook indexes (section 4.8.6) */
 	MAX_CODEBOOK = 65536
 };
 
@@ -361,7 +362,7 @@ static ingot_status open_column(ingot_model *m, ingot_error *err, const index_ta
 		col->length = e.length;
 		return INGOT_OK;
 	}
-	if (e.encoding != ENCODING_PACKED || m->version < 2)
+	if (!(e.encoding == ENCODING_PACKED && m->version >= 2) && !(e.encoding == ENCODING_TIERED && m->version >= 3))
 		return fail_at(err, INGOT_ERR_FORMAT, (uint32_t)j, &e,
 		               "encoding %u, which this reader does not know in a version-%u file",
 		               (unsigned)e.encoding, (unsigned)m->version);
@@ -387,6 +388,42 @@ static ingot_status open_column(ingot_model *m, ingot_error *err, const index_ta
 		if (B != bits_for((uint32_t)L))
 			return fail_at(err, INGOT_ERR_FORMAT, (uint32_t)j, &e, "%u bits per index for a codebook of %llu values",
 			               (unsigned)B, (unsigned long long)L);
+		if (e.encoding == ENCODING_TIERED) {
+			/* Section 4.8.6: B, b, E, table, counters, narrow, wide. */
+			uint32_t b;
+			uint64_t E, T, C, narrow;
+			if (e.length < 16)
+				return fail_at(err, INGOT_ERR_FORMAT, (uint32_t)j, &e, "length %llu, shorter than its 16-byte head",
+				               (unsigned long long)e.length);
+			b = u32le(col->data + 4);
+			E = u64le(col->data + 8);
+			if (b < 1 || b >= B)
+				return fail_at(err, INGOT_ERR_FORMAT, (uint32_t)j, &e, "%u narrow bits for %u-bit indexes",
+				               (unsigned)b, (unsigned)B);
+			if (E > n)
+				return fail_at(err, INGOT_ERR_FORMAT, (uint32_t)j, &e, "%llu escaped entries of %llu",
+				               (unsigned long long)E, (unsigned long long)n);
+			T = ((uint64_t)1 << b) - 1;
+			C = (n + 255) / 256;
+			narrow = (n * b + 7) / 8;
+			want = 16 + 2 * T + 4 * C + narrow + (E * B + 7) / 8; /* n, E < 2^32, B <= 16: no overflow */
+			if (e.length != want)
+				return fail_at(err, INGOT_ERR_FORMAT, (uint32_t)j, &e, "length %llu, want %llu for a tiered column",
+				               (unsigned long long)e.length, (unsigned long long)want);
+			col->table = col->data + 16;
+			col->counters = col->table + 2 * T;
+			col->counter_count = C;
+			col->wide = col->counters + 4 * C + narrow;
+			col->wide_length = (E * B + 7) / 8;
+			col->escapes = E;
+			col->narrow_bits = b;
+			col->data = col->counters + 4 * C;
+			col->length = narrow;
+			col->codebook = section_bytes(m, &c);
+			col->codebook_length = (uint32_t)L;
+			col->bits = B;
+			return INGOT_OK;
+		}
 		want = 8 + (n * B + 7) / 8; /* n < 2^32, B <= 16: no overflow */
 		if (e.length != want)
 			return fail_at(err, INGOT_ERR_FORMAT, (uint32_t)j, &e, "length %llu, want %llu for %llu indexes of %u bits",
@@ -1283,24 +1320,52 @@ void ingot_begin_sentence(const ingot_model *m, ingot_state *s)
 	}
 }
 
+/* packed_at reads value i of a stream of width-bit values (section 4.5),
+ * bytes past its length reading as 0. */
+static uint32_t packed_at(const unsigned char *data, uint64_t length, uint64_t i, uint32_t width)
+{
+	uint64_t bit = i * width, w = 0;
+	size_t at = (size_t)(bit >> 3);
+	if (at + 8 <= length) {
+		w = u64le(data + at);
+	} else {
+		unsigned b;
+		for (b = 0; at + b < length; b++)
+			w |= (uint64_t)data[at + b] << (8 * b);
+	}
+	return (uint32_t)(w >> (bit & 7)) & (((uint32_t)1 << width) - 1);
+}
+
+/* tiered_index reads the codebook index of entry i of a tiered column
+ * (section 4.8.6), or UINT32_MAX when the column is damaged. */
+static uint32_t tiered_index(const ingot_column_ *c, uint64_t i)
+{
+	uint32_t escape = ((uint32_t)1 << c->narrow_bits) - 1;
+	uint32_t s = packed_at(c->data, c->length, i, c->narrow_bits);
+	uint64_t r, j;
+	if (s != escape)
+		return (uint32_t)c->table[2 * (size_t)s] | (uint32_t)c->table[2 * (size_t)s + 1] << 8;
+	if (i / 256 >= c->counter_count)
+		return UINT32_MAX;
+	r = u32le(c->counters + 4 * (size_t)(i / 256));
+	for (j = i / 256 * 256; j < i; j++)
+		if (packed_at(c->data, c->length, j, c->narrow_bits) == escape)
+			r++;
+	if (r >= c->escapes)
+		return UINT32_MAX;
+	return packed_at(c->wide, c->wide_length, r, c->bits);
+}
+
 /* value reads entry i of a column (i below the order's count). */
 static double value(const ingot_column_ *c, uint64_t i)
 {
-	uint64_t bit, w = 0;
 	uint32_t idx;
-	size_t at;
 	if (c->bits == 0)
 		return (double)f32le(c->data + 4 * (size_t)i);
-	bit = i * c->bits;
-	at = (size_t)(bit >> 3);
-	if (at + 8 <= c->length) {
-		w = u64le(c->data + at);
-	} else {
-		unsigned b;
-		for (b = 0; at + b < c->length; b++)
-			w |= (uint64_t)c->data[at + b] << (8 * b);
-	}
-	idx = (uint32_t)(w >> (bit & 7)) & (((uint32_t)1 << c->bits) - 1);
+	if (c->narrow_bits != 0)
+		idx = tiered_index(c, i);
+	else
+		idx = packed_at(c->data, c->length, i, c->bits);
 	if (idx >= c->codebook_length)
 		return NAN; /* a damaged file */
 	return (double)f32le(c->codebook + 4 * (size_t)idx);

@@ -62,11 +62,18 @@ typedef struct {
 /* The private parts of a model, exposed only so that the caller can
  * allocate an ingot_model. Read them through the functions below. */
 typedef struct {
-	const unsigned char *data; /* plain: f32 x count; packed: the bit stream */
+	const unsigned char *data; /* plain: f32 x count; packed: the bit stream; tiered: the narrow values */
 	uint64_t length;           /* bytes at data */
 	const unsigned char *codebook; /* packed: f32 x codebook_length */
 	uint32_t codebook_length;
-	uint32_t bits; /* 0 for a plain column, else bits per index */
+	uint32_t bits; /* 0 for a plain column, else bits per index (the wide width when tiered) */
+	uint32_t narrow_bits;           /* tiered (encoding 5): b, else 0 */
+	const unsigned char *table;     /* tiered: u16 x (2^b - 1) levels */
+	const unsigned char *counters;  /* tiered: u32 per 256 entries */
+	uint64_t counter_count;
+	const unsigned char *wide;      /* tiered: the escaped entries' indexes */
+	uint64_t wide_length;           /* bytes at wide */
+	uint64_t escapes;               /* tiered: E */
 } ingot_column_;
 
 /* An Elias-Fano sequence (format version 3). */

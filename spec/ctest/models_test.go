@@ -3,6 +3,7 @@ package ctest
 import (
 	"bytes"
 	"crypto/ed25519"
+	"encoding/binary"
 	"ingot/compile/fixture"
 	"math"
 	"os"
@@ -195,6 +196,27 @@ func TestScoresEqualGoReader(t *testing.T) {
 			t.Errorf("%s model: format version %d, want %d", models[i].name, v, want)
 		}
 	}
+	// The 8-bit model's widened back-off weights are stored tiered
+	// (spec/FORMAT.md 4.8.6), so the comparison above read them through
+	// the escape counters.
+	if len(narrowWidths(models[1].data, 7)) == 0 {
+		t.Error("8-bit model: no back-off column tiered")
+	}
+}
+
+// narrowWidths counts the sections of a kind with encoding 6 (tiered) by
+// their narrow width b.
+func narrowWidths(data []byte, kind uint32) map[uint32]int {
+	out := map[uint32]int{}
+	s := le32(data[12:])
+	for j := range s {
+		e := data[64+32*j:]
+		if le32(e) == kind && le32(e[4:]) == 6 {
+			off := binary.LittleEndian.Uint64(e[16:])
+			out[le32(data[off+4:])]++
+		}
+	}
+	return out
 }
 
 func le32(b []byte) uint32 {
