@@ -140,9 +140,12 @@ func (s *streamer) words(g []uint32) string {
 }
 
 // sorter returns a sorter of records of width words ordered by their first
-// key words (stable), with a share of the memory.
-func (s *streamer) sorter(name string, width, key int, share int64) *extsort.Sorter {
-	return extsort.NewKeyed(s.so.Dir, name, width, key, max(s.so.Memory/share, 64<<10))
+// key words (stable), with a share of the memory, room made for the
+// records that will be added.
+func (s *streamer) sorter(name string, width, key int, share int64, records uint64) *extsort.Sorter {
+	st := extsort.NewKeyed(s.so.Dir, name, width, key, max(s.so.Memory/share, 64<<10))
+	st.Expect(int(records))
+	return st
 }
 
 func (s *streamer) sorted(st *extsort.Sorter, what string) (*extsort.Iter, error) {
@@ -271,7 +274,7 @@ func (s *streamer) adjust() error {
 			s.adj1 = a
 			continue
 		}
-		st := s.sorter(fmt.Sprintf("suffix-%d", k+1), k, k, 2)
+		st := s.sorter(fmt.Sprintf("suffix-%d", k+1), k, k, 2, s.sp.Entries[k])
 		err := s.each(k+1, func(g []uint32, _ uint64) error { return st.Add(g[1:]) })
 		if err != nil {
 			return err
@@ -553,7 +556,7 @@ func (j *joined) next() (float64, uint32, error) {
 func (s *streamer) join(k int) (*joined, error) {
 	// Ordered by the suffix; the entry index, added in increasing order,
 	// keeps its order among equal suffixes (a stable sort).
-	st := s.sorter(fmt.Sprintf("join-%d", k), k, k-1, 3)
+	st := s.sorter(fmt.Sprintf("join-%d", k), k, k-1, 3, s.sp.Entries[k-1])
 	j := uint32(0)
 	rec := make([]uint32, k)
 	err := s.each(k, func(g []uint32, _ uint64) error {
@@ -570,7 +573,7 @@ func (s *streamer) join(k int) (*joined, error) {
 		return nil, err
 	}
 	defer it.Close()
-	back := s.sorter(fmt.Sprintf("back-%d", k), 4, 1, 3) // by entry index
+	back := s.sorter(fmt.Sprintf("back-%d", k), 4, 1, 3, s.sp.Entries[k-1]) // by entry index
 	r, err := s.sp.Open(k - 1)
 	if err != nil {
 		return nil, err

@@ -56,6 +56,15 @@ func NewKeyed(dir, name string, width, key int, budget int64) *Sorter {
 	return &Sorter{width: width, key: key, dir: dir, name: name, maxRecs: int(recs)}
 }
 
+// Expect makes room at once for n records to come (as many as the budget
+// holds, at most), so that the buffer is not grown and copied as they
+// are added.
+func (s *Sorter) Expect(n int) {
+	if c := min(n, s.maxRecs) * s.width; cap(s.buf) < c {
+		s.buf = append(make([]uint32, 0, c), s.buf...)
+	}
+}
+
 // Spilled returns the bytes written to runs so far.
 func (s *Sorter) Spilled() int64 { return s.spilled }
 

@@ -20,9 +20,17 @@ func TestSortSpills(t *testing.T) {
 	input = append(input, input[7], input[9]) // duplicates stay
 	want := slices.Clone(input)
 	slices.SortFunc(want, compare)
-	for _, budget := range []int64{1 << 30, 16 * 1024} {
+	for _, c := range []struct {
+		budget int64
+		expect int // records announced by Expect (0: none)
+	}{{1 << 30, 0}, {16 * 1024, 0}, {1 << 30, len(input)}, {16 * 1024, len(input)}} {
+		budget := c.budget
 		dir := t.TempDir()
 		s := New(dir, "t", width, budget)
+		s.Expect(c.expect)
+		if cap(s.buf) > s.maxRecs*width {
+			t.Errorf("budget %d: Expect(%d) made room for %d words, beyond the budget's %d", budget, c.expect, cap(s.buf), s.maxRecs*width)
+		}
 		for _, r := range input {
 			if err := s.Add(r); err != nil {
 				t.Fatal(err)
