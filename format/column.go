@@ -32,12 +32,14 @@ func (c *column) at(i int) float32 {
 		if 4*i+4 > len(c.plain) {
 			return float32(math.NaN())
 		}
+		noteRead(c.plain, uint64(4*i))
 		return math.Float32frombits(binary.LittleEndian.Uint32(c.plain[4*i:]))
 	}
 	j := c.index(i)
 	if 4*j+4 > len(c.codebook) {
 		return float32(math.NaN())
 	}
+	noteRead(c.codebook, uint64(4*j))
 	return math.Float32frombits(binary.LittleEndian.Uint32(c.codebook[4*j:]))
 }
 
@@ -56,6 +58,7 @@ func packedAt(b []byte, i uint64, width uint) uint64 {
 	bit := i * uint64(width)
 	at := bit >> 3
 	var word uint64
+	noteRead(b, at)
 	if at+8 <= uint64(len(b)) {
 		word = binary.LittleEndian.Uint64(b[at:])
 	} else {

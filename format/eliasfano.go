@@ -150,6 +150,7 @@ func (e *eliasFano) highWord(w uint64) uint64 {
 	if w >= uint64(len(e.high)/8) {
 		return 0
 	}
+	noteRead(e.high, 8*w)
 	return binary.LittleEndian.Uint64(e.high[8*w:])
 }
 
@@ -177,6 +178,7 @@ func (e *eliasFano) seek(i uint64) efCursor {
 	if i >= e.n || 8*(i/efSample)+8 > uint64(len(e.samples)) {
 		return c
 	}
+	noteRead(e.samples, 8*(i/efSample))
 	pos := binary.LittleEndian.Uint64(e.samples[8*(i/efSample):])
 	w := pos / 64
 	if w >= uint64(len(e.high)/8) {
@@ -439,6 +441,7 @@ func (c *efCursor) jump(hw, limit uint64) {
 	first, last := c.i/efSample+1, (limit-1)/efSample // samples inside (c.i, limit)
 	last = min(last, uint64(len(e.samples)/8)-1)
 	high := func(s uint64) uint64 { // high part of value s*efSample; ^0 when damaged
+		noteRead(e.samples, 8*s)
 		pos := binary.LittleEndian.Uint64(e.samples[8*s:])
 		if pos < s*efSample || pos/64 >= uint64(len(e.high)/8) {
 			return ^uint64(0)

@@ -100,6 +100,9 @@ func (m *marks) rank(i uint64) (marked bool, before uint64) {
 		return false, 0
 	}
 	before = uint64(le.Uint32(m.counters[4*block:]))
+	noteRead(m.counters, 4*block)
+	noteRead(m.words, 8*block*(marksBlock/64)) // the words of the block up to w:
+	noteRead(m.words, 8*w)                     // one 64-byte block, at most two lines
 	for j := block * (marksBlock / 64); j < w; j++ {
 		before += uint64(bits.OnesCount64(le.Uint64(m.words[8*j:])))
 	}

@@ -345,6 +345,7 @@ func findIn(words []byte, lo, hi uint64, word uint32) uint32 {
 	end := hi
 	for lo < hi {
 		mid := lo + (hi-lo)/2
+		noteRead(words, 4*mid)
 		if binary.LittleEndian.Uint32(words[4*mid:]) < word {
 			lo = mid + 1
 		} else {

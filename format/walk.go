@@ -74,6 +74,8 @@ func plainChild(starts, words []byte, parent, w uint32) uint32 {
 	if uint64(parent) >= uint64(len(starts)/4) || 4*p+8 > len(starts) {
 		return noNode
 	}
+	noteRead(starts, uint64(4*p))
+	noteRead(starts, uint64(4*p+4))
 	lo, hi := uint64(u32(starts[4*p:])), uint64(u32(starts[4*p+4:]))
 	hi = min(hi, uint64(len(words)/4))
 	if lo >= hi {
