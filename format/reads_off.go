@@ -8,3 +8,6 @@ package format
 // measurement of the layout (BenchmarkReadsPerWord); this build compiles the
 // calls away.
 func noteRead(b []byte, at uint64) {}
+
+// noteReadRange is noteRead for the bytes b[from:to], all read.
+func noteReadRange(b []byte, from, to uint64) {}

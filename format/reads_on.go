@@ -110,3 +110,12 @@ func (r *ReadCount) PerQuery() (lines, cold float64, bySection map[string][2]flo
 	}
 	return lines, cold, bySection
 }
+
+func noteReadRange(b []byte, from, to uint64) {
+	for at := from; at < to; at += 64 {
+		noteRead(b, at)
+	}
+	if from < to {
+		noteRead(b, to-1) // the last line, when b's lines are not 64-aligned
+	}
+}

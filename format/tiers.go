@@ -55,6 +55,7 @@ func (t *tiers) index(narrow []byte, i uint64, wide uint) int {
 		if 2*s+2 > uint64(len(t.table)) {
 			return badIndex
 		}
+		noteRead(t.table, 2*s)
 		return int(binary.LittleEndian.Uint16(t.table[2*s:]))
 	}
 	r, ok := t.rank(narrow, i)
@@ -71,6 +72,8 @@ func (t *tiers) rank(narrow []byte, i uint64) (uint64, bool) {
 	if at+4 > uint64(len(t.counters)) {
 		return 0, false
 	}
+	noteRead(t.counters, at)
+	noteReadRange(narrow, (i&^(tierBlock-1))*uint64(t.bits)>>3, (i*uint64(t.bits)+7)>>3)
 	return uint64(u32(t.counters[at:])) + countEscapes(narrow, i&^(tierBlock-1), i, t.bits), true
 }
 
