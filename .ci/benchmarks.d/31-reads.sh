@@ -4,15 +4,21 @@
 # hooks of format/reads_on.go, compiled in by the build tag ingotreads),
 # and the cost of a step whose lines are all in cache, against the step as
 # it runs, on the generated model of the format section.
+# The two runs share the models through a directory: $INGOT_BENCH_CACHE
+# when set (it then keeps them for later runs), a temporary one otherwise.
 set -euo pipefail
-cache=$(mktemp -d)
-trap 'rm -rf "$cache"' EXIT
-cmd1="INGOT_BENCH_CACHE=DIR go test -tags ingotreads ./format -run '^\$' -bench 'ReadsPerWord\$' -benchtime 1x"
-cmd2="INGOT_BENCH_CACHE=DIR INGOT_BENCH_KEEP_V3=1 go test ./format -run '^\$' -bench 'ScoringGenerated\$' -benchtime 1x"
+if [ -n "${INGOT_BENCH_CACHE:-}" ]; then
+	cache=$INGOT_BENCH_CACHE
+else
+	cache=$(mktemp -d)
+	trap 'rm -rf "$cache"' EXIT
+fi
+cmd1="INGOT_BENCH_CACHE=DIR go test -tags ingotreads ./format -run '^\$' -bench 'ReadsPerWord\$' -benchtime 1x -timeout 60m"
+cmd2="INGOT_BENCH_CACHE=DIR INGOT_BENCH_KEEP_V3=1 go test ./format -run '^\$' -bench 'ScoringGenerated\$' -benchtime 1x -timeout 60m"
 up1=$(cut -d' ' -f1-3 /proc/loadavg)
-reads=$(INGOT_BENCH_CACHE=$cache go test -tags ingotreads ./format -run '^$' -bench 'ReadsPerWord$' -benchtime 1x)
+reads=$(INGOT_BENCH_CACHE=$cache go test -tags ingotreads ./format -run '^$' -bench 'ReadsPerWord$' -benchtime 1x -timeout 60m)
 up2=$(cut -d' ' -f1-3 /proc/loadavg)
-score=$(INGOT_BENCH_CACHE=$cache INGOT_BENCH_KEEP_V3=1 go test ./format -run '^$' -bench 'ScoringGenerated$' -benchtime 1x)
+score=$(INGOT_BENCH_CACHE=$cache INGOT_BENCH_KEEP_V3=1 go test ./format -run '^$' -bench 'ScoringGenerated$' -benchtime 1x -timeout 60m)
 up3=$(cut -d' ' -f1-3 /proc/loadavg)
 line=$(printf '%s\n' "$score" | grep '^BenchmarkScoringGenerated-')
 get() { printf '%s\n' "$line" | awk -v k="$1" '{ for (i = 3; i <= NF; i++) if ($i == k) { print $(i-1); exit } }'; }
