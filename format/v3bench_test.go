@@ -304,8 +304,10 @@ func compileAgainstParse(b *testing.B, c *counts.Counts) {
 // starts, the context marks, the probabilities and the back-off weights
 // (codebooks included), and the rest (header, directory, summary, build
 // information, alignment). For the quantized columns it also reports the
-// mean stored index width and the entropy of the stored indexes, the bound
-// that any coding of the same indexes one by one meets.
+// mean stored index width (the bits of the value sections, packed or
+// tiered, per stored value, codebooks left out), the mean codebook index
+// width, and the entropy of the stored indexes, the bound that any coding
+// of the same indexes one by one meets.
 func reportComponents(b *testing.B, path string, ngrams int) {
 	m, err := format.Open(path)
 	if err != nil {
@@ -337,11 +339,17 @@ func reportComponents(b *testing.B, path string, ngrams int) {
 	b.ReportMetric(8*float64(sum["keys"])/float64(keys), "keys-bits/key")
 	b.ReportMetric(float64(keys), "keys")
 	for _, backoff := range []bool{false, true} {
-		var stored, width, entropy float64
+		var stored, width, written, entropy float64
 		for k := 1; k <= m.Order(); k++ {
 			cb := m.Codebook(k, backoff)
 			if cb == nil {
 				continue
+			}
+			kind := map[bool]format.SectionKind{false: format.KindProbabilities, true: format.KindBackoffs}[backoff]
+			for _, s := range m.Sections() {
+				if s.Kind == kind && s.Order == k {
+					written += 8 * float64(s.Length)
+				}
 			}
 			hist := make([]int, len(cb))
 			n := 0
@@ -371,7 +379,8 @@ func reportComponents(b *testing.B, path string, ngrams int) {
 		}
 		name := map[bool]string{false: "probs", true: "backoffs"}[backoff]
 		b.ReportMetric(stored, name+"-stored")
-		b.ReportMetric(width/stored, name+"-bits/value")
+		b.ReportMetric(written/stored, name+"-bits/value")
+		b.ReportMetric(width/stored, name+"-index-bits/value")
 		b.ReportMetric(entropy/stored, name+"-entropy-bits/value")
 	}
 }
