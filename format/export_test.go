@@ -53,3 +53,41 @@ func MarshalWordHash(t *tables.Tables, enc Encoding, tag uint) ([]byte, error) {
 	}
 	return b.Bytes(), nil
 }
+
+// MarshalPacked is MarshalVersion(t, 3) with every quantized column
+// packed (encoding 1), none tiered: the file a writer without tiered
+// columns writes, which BenchmarkTieredScoring scores against.
+func MarshalPacked(t *tables.Tables) ([]byte, error) {
+	if err := checkWritable(t); err != nil {
+		return nil, err
+	}
+	sections, err := buildSections3(t)
+	if err != nil {
+		return nil, err
+	}
+	for i := range sections {
+		s := &sections[i]
+		if s.Kind != KindProbabilities && s.Kind != KindBackoffs || s.Encoding != Tiered {
+			continue
+		}
+		lv := &t.Levels[s.Order-1]
+		values, codebook := lv.LogProb, lv.ProbCodebook
+		if s.Kind == KindBackoffs {
+			// The stored weights: those of the contexts, as
+			// orderSections3 keeps them.
+			starts := linksOf(t).Starts[s.Order-1]
+			codebook, values = lv.BackoffCodebook, nil
+			for j, b := range lv.LogBackoff {
+				if starts[j+1] > starts[j] || hasBackoff(b) {
+					values = append(values, b)
+				}
+			}
+		}
+		s.data, s.Encoding = encodeColumn(values, codebook, false)
+	}
+	var b bytes.Buffer
+	if err := writeFile(&b, assemble(sections, 3), sections); err != nil {
+		return nil, err
+	}
+	return b.Bytes(), nil
+}

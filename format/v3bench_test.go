@@ -523,3 +523,73 @@ func siblingKeyBits(t *tables.Tables) (withOffsets, listsAlone float64) {
 	}
 	return total / keys, alone / keys
 }
+
+// BenchmarkTieredScoring measures what tiered codebook indexes
+// (spec/FORMAT.md 4.8.6) cost a query: the 8-bit 5-gram Kneser-Ney model
+// of nine tenths of the bundled corpus, written as the writer writes it
+// (its widened back-off columns tiered) and with every column packed, both
+// score the held-out tenth word by word with Model.Next, in alternating
+// order for 11 rounds; it reports both files' bytes per n-gram, the
+// medians and the median of the rounds' time ratios (tiered over packed).
+// go test ./format -run '^$' -bench TieredScoring -benchtime 1x
+func BenchmarkTieredScoring(b *testing.B) {
+	all, err := corpus.SOTU()
+	if err != nil {
+		b.Fatal(err)
+	}
+	train, held := corpus.Split(all, 0)
+	c, err := counts.NewCounter(5)
+	if err != nil {
+		b.Fatal(err)
+	}
+	for _, s := range train {
+		c.AddSentence(strings.Fields(s))
+	}
+	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 5})
+	if err != nil {
+		b.Fatal(err)
+	}
+	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
+	if err != nil {
+		b.Fatal(err)
+	}
+	tiered, err := format.Marshal(q)
+	if err != nil {
+		b.Fatal(err)
+	}
+	packed, err := format.MarshalPacked(q)
+	if err != nil {
+		b.Fatal(err)
+	}
+	mt, mp := mustFromBytes(b, tiered), mustFromBytes(b, packed)
+	if err := mp.Verify(); err != nil {
+		b.Fatal(err)
+	}
+	ngrams := 0
+	for k := 1; k <= q.Order(); k++ {
+		ngrams += q.Len(k)
+	}
+	ids := heldIDs(mt, held)
+	scoreText(mt, ids) // both files' pages touched once
+	scoreText(mp, ids)
+	var tt, tp, ratios []float64
+	for r := range 11 {
+		var a, p, st, sp float64
+		if r%2 == 0 {
+			a, st = scoreText(mt, ids)
+			p, sp = scoreText(mp, ids)
+		} else {
+			p, sp = scoreText(mp, ids)
+			a, st = scoreText(mt, ids)
+		}
+		if st != sp {
+			b.Fatalf("held-out log10 sums differ: tiered %v, packed %v", st, sp)
+		}
+		tt, tp, ratios = append(tt, a), append(tp, p), append(ratios, a/p)
+	}
+	b.ReportMetric(float64(len(tiered))/float64(ngrams), "tiered-bytes/ngram")
+	b.ReportMetric(float64(len(packed))/float64(ngrams), "packed-bytes/ngram")
+	b.ReportMetric(median(tt), "tiered-ns/word")
+	b.ReportMetric(median(tp), "packed-ns/word")
+	b.ReportMetric(median(ratios), "tiered/packed")
+}
