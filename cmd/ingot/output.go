@@ -11,6 +11,7 @@ import (
 	"strings"
 	"sync"
 	"syscall"
+	"time"
 
 	"github.com/klauspost/compress/gzip"
 	"github.com/klauspost/compress/zstd"
@@ -178,8 +179,22 @@ func (p *pendingOutputs) removeAll() {
 	defer p.mu.Unlock()
 	p.stopped = true
 	for name := range p.files {
-		os.RemoveAll(name)
+		removeWhileWritten(name)
 		delete(p.files, name)
+	}
+}
+
+// removeWhileWritten removes a file or a directory that another goroutine
+// may still be adding files to (a spill run started just before the
+// interrupt): os.RemoveAll fails when a file appears between its listing
+// and the directory's own removal, so it is tried again until the
+// directory is gone, after which nothing can be created in it.
+func removeWhileWritten(name string) {
+	for attempt := 0; attempt < 200; attempt++ {
+		if err := os.RemoveAll(name); err == nil {
+			return
+		}
+		time.Sleep(5 * time.Millisecond)
 	}
 }
 
