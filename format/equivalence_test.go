@@ -8,8 +8,8 @@ import (
 	"testing"
 
 	"ingot/compile/corpus"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
+	"ingot/compile/fixture"
 	"ingot/compile/tables"
 	"ingot/format"
 	"ingot/inspect"
@@ -57,17 +57,7 @@ func sotuSplit(t testing.TB) (train, held []string) {
 }
 
 func compareVersions(t testing.TB, train, held []string) {
-	c, err := counts.NewCounter(5)
-	if err != nil {
-		t.Fatal(err)
-	}
-	for _, s := range train {
-		c.AddSentence(strings.Fields(s))
-	}
-	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 5})
-	if err != nil {
-		t.Fatal(err)
-	}
+	tb := fixture.Estimate(t, train, 5, estimate.Options{Method: estimate.KneserNey})
 	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
 	if err != nil {
 		t.Fatal(err)

@@ -12,8 +12,8 @@ import (
 	"strings"
 	"testing"
 
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
+	"ingot/compile/fixture"
 	"ingot/compile/tables"
 	"ingot/quantize"
 )
@@ -49,17 +49,7 @@ func demoModels(t testing.TB) (float, q8, q4 *tables.Tables) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	c, err := counts.NewCounter(3)
-	if err != nil {
-		t.Fatal(err)
-	}
-	for _, s := range strings.Split(strings.TrimSpace(string(data)), "\n") {
-		c.AddSentence(strings.Fields(s))
-	}
-	float, _, err = estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 3})
-	if err != nil {
-		t.Fatal(err)
-	}
+	float = fixture.Estimate(t, strings.Split(strings.TrimSpace(string(data)), "\n"), 3, estimate.Options{Method: estimate.KneserNey})
 	quant := func(bits int) *tables.Tables {
 		q, _, err := quantize.Model(float, quantize.Options{Bits: bits, Trainer: quantize.LeastSquares})
 		if err != nil {

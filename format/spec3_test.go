@@ -16,8 +16,8 @@ import (
 	"testing"
 
 	"ingot/compile/corpus"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
+	"ingot/compile/fixture"
 	"ingot/compile/tables"
 	"ingot/format"
 	"ingot/quantize"
@@ -105,17 +105,7 @@ func TestSpecificationAloneVersion3Large(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	c, err := counts.NewCounter(3)
-	if err != nil {
-		t.Fatal(err)
-	}
-	for _, s := range all[:1500] {
-		c.AddSentence(strings.Fields(s))
-	}
-	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 3})
-	if err != nil {
-		t.Fatal(err)
-	}
+	tb := fixture.Estimate(t, all[:1500], 3, estimate.Options{Method: estimate.KneserNey})
 	if tb.Len(3) < 4*512 {
 		t.Fatalf("only %d trigrams", tb.Len(3))
 	}

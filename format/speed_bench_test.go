@@ -10,8 +10,8 @@ import (
 	"time"
 
 	"ingot/compile/corpus"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
+	"ingot/compile/fixture"
 	"ingot/format"
 	"ingot/quantize"
 )
@@ -114,18 +114,7 @@ func cachedModels(b *testing.B, name string, train []string) (m3, m2 *format.Mod
 		if err := os.MkdirAll(dir, 0o755); err != nil {
 			b.Fatal(err)
 		}
-		c, err := counts.NewCounter(5)
-		if err != nil {
-			b.Fatal(err)
-		}
-		for _, s := range train {
-			c.AddSentence(strings.Fields(s))
-		}
-		tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 5})
-		if err != nil {
-			b.Fatal(err)
-		}
-		c = nil
+		tb := fixture.Estimate(b, train, 5, estimate.Options{Method: estimate.KneserNey})
 		q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
 		if err != nil {
 			b.Fatal(err)

@@ -14,6 +14,7 @@ import (
 	"ingot/compile/corpus"
 	"ingot/compile/counts"
 	"ingot/compile/estimate"
+	"ingot/compile/fixture"
 	"ingot/compile/tables"
 	"ingot/format"
 	"ingot/quantize"
@@ -34,18 +35,12 @@ func BenchmarkLayouts(b *testing.B) {
 		b.Fatal(err)
 	}
 	train, held := corpus.Split(all, 0)
-	c, err := counts.NewCounter(5)
+	cs := fixture.Counts(b, 5, train)
+	tb, _, err := estimate.Estimate(cs, estimate.Options{Method: estimate.KneserNey, Order: 5})
 	if err != nil {
 		b.Fatal(err)
 	}
-	for _, s := range train {
-		c.AddSentence(strings.Fields(s))
-	}
-	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 5})
-	if err != nil {
-		b.Fatal(err)
-	}
-	compileAgainstParse(b, c.Counts(1))
+	compileAgainstParse(b, cs)
 	models := map[string]*tables.Tables{"float": tb}
 	for _, bits := range []int{8, 4} {
 		q, _, err := quantize.Model(tb, quantize.Options{Bits: bits, Trainer: quantize.LeastSquares})
@@ -155,19 +150,8 @@ func BenchmarkLayoutsGenerated(b *testing.B) {
 	}
 	train, held := corpus.Split(strings.Split(strings.TrimSpace(text.String()), "\n"), 0)
 	text = bytes.Buffer{}
-	c, err := counts.NewCounter(5)
-	if err != nil {
-		b.Fatal(err)
-	}
-	for _, s := range train {
-		c.AddSentence(strings.Fields(s))
-	}
+	tb := fixture.Estimate(b, train, 5, estimate.Options{Method: estimate.KneserNey})
 	train = nil
-	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 5})
-	if err != nil {
-		b.Fatal(err)
-	}
-	c = nil
 	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
 	if err != nil {
 		b.Fatal(err)
@@ -538,17 +522,7 @@ func BenchmarkTieredScoring(b *testing.B) {
 		b.Fatal(err)
 	}
 	train, held := corpus.Split(all, 0)
-	c, err := counts.NewCounter(5)
-	if err != nil {
-		b.Fatal(err)
-	}
-	for _, s := range train {
-		c.AddSentence(strings.Fields(s))
-	}
-	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 5})
-	if err != nil {
-		b.Fatal(err)
-	}
+	tb := fixture.Estimate(b, train, 5, estimate.Options{Method: estimate.KneserNey})
 	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
 	if err != nil {
 		b.Fatal(err)

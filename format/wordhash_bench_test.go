@@ -8,8 +8,8 @@ import (
 	"time"
 
 	"ingot/compile/corpus"
-	"ingot/compile/counts"
 	"ingot/compile/estimate"
+	"ingot/compile/fixture"
 	"ingot/format"
 )
 
@@ -48,17 +48,7 @@ func BenchmarkID(b *testing.B) {
 }
 
 func benchID(b *testing.B, train, held []string) {
-	c, err := counts.NewCounter(2)
-	if err != nil {
-		b.Fatal(err)
-	}
-	for _, s := range train {
-		c.AddSentence(strings.Fields(s))
-	}
-	tb, _, err := estimate.Estimate(c.Counts(1), estimate.Options{Method: estimate.KneserNey, Order: 2})
-	if err != nil {
-		b.Fatal(err)
-	}
+	tb := fixture.Estimate(b, train, 2, estimate.Options{Method: estimate.KneserNey})
 	type variant struct {
 		name string
 		m    *format.Model
