@@ -58,13 +58,22 @@ holds() { awk -v a="$1" -v b="$2" 'BEGIN {print (a / b <= 4) ? "holds" : "does n
 # collection, spinning), so a one-worker count's CPU time moved with the
 # neighbours' load (0.89 M tokens per CPU-second on an idle machine, 1.03 to
 # 1.39 M at load averages 2 to 10, measured on 2026-12-02).
-bench=$(go test -run '^$' -bench '^(BenchmarkCount|BenchmarkCounter)$' -benchtime 3x -count 3 -cpu 1 ./compile/counts
+bench=$(go test -run '^$' -bench '^(BenchmarkCount|BenchmarkCounter)$' -benchtime 3x -count 7 -cpu 1 ./compile/counts
 	go test -run '^$' -bench '^BenchmarkCountAllCores$' -benchtime 3x -count 3 ./compile/counts)
 median() {
 	printf '%s\n' "$bench" | awk -v b="$1" -v unit="$2" '$1 ~ "^"b"(-[0-9]+)?$" {for (i = 2; i < NF; i++) if ($(i+1) == unit) print $i}' |
 		sort -g | awk '{v[NR] = $1} END {printf "%.0f", v[int((NR+1)/2)]}'
 }
 new_cpu=$(median BenchmarkCount tokens/cpu-s)
+# The spread of the one-worker runs: the lowest and the highest.
+extreme() {
+	printf '%s\n' "$bench" | awk -v b="$1" -v unit="$2" '$1 ~ "^"b"(-[0-9]+)?$" {for (i = 2; i < NF; i++) if ($(i+1) == unit) print $i}' |
+		sort -g | awk -v end="$3" 'NR == 1 {lo = $1} {hi = $1} END {printf "%.0f", end == "low" ? lo : hi}'
+}
+new_lo=$(extreme BenchmarkCount tokens/cpu-s low)
+new_hi=$(extreme BenchmarkCount tokens/cpu-s high)
+old_lo=$(extreme BenchmarkCounter tokens/cpu-s low)
+old_hi=$(extreme BenchmarkCounter tokens/cpu-s high)
 old_cpu=$(median BenchmarkCounter tokens/cpu-s)
 all_wall=$(median BenchmarkCountAllCores tokens/s)
 one_wall=$(median BenchmarkCount tokens/s)
@@ -113,8 +122,8 @@ echo "core) and writing (24%, the orders' sections on every core, with the"
 echo "counts' links)."
 echo
 echo "Counting throughput at order 5 on \`corpus.Generate(seed 1, 20000"
-echo "sentences, 20000 words)\`, medians of 3 runs measured side by side in one"
-echo "process (\`go test -run '^\$' -bench '^(BenchmarkCount|BenchmarkCounter)\$' -benchtime 3x -count 3 -cpu 1 ./compile/counts\`"
+echo "sentences, 20000 words)\`, medians of 7 runs measured side by side in one"
+echo "process (\`go test -run '^\$' -bench '^(BenchmarkCount|BenchmarkCounter)\$' -benchtime 3x -count 7 -cpu 1 ./compile/counts\`"
 echo "for one core, \`go test -run '^\$' -bench '^BenchmarkCountAllCores\$' -benchtime 3x -count 3 ./compile/counts\` for all)."
 echo "Tokens per CPU-second with GOMAXPROCS 1 is the per-core figure: each"
 echo "counter runs on one core, garbage collection included (with two, the Go"
@@ -128,4 +137,6 @@ echo "| in-memory Counter (string-keyed maps, before issue 12; GOMAXPROCS 1) | $
 echo "| Count, one worker (GOMAXPROCS 1) | $new_cpu | $one_wall |"
 echo "| Count, all cores | - | $all_wall |"
 echo
-echo "Per core: $(awk -v a="$new_cpu" -v b="$old_cpu" 'BEGIN {printf "%.2f", a/b}')x the in-memory Counter. Reproduce: \`bash .ci/benchmarks 50-scale\`."
+echo "Per core: $(awk -v a="$new_cpu" -v b="$old_cpu" 'BEGIN {printf "%.2f", a/b}')x the in-memory Counter (medians; target 5x). The runs"
+echo "spread: Count $new_lo to $new_hi, the Counter $old_lo to $old_hi tokens per CPU-second."
+echo "Reproduce: \`bash .ci/benchmarks 50-scale\`."
