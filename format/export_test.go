@@ -25,17 +25,9 @@ func StoresBackoff(m *Model, k, i int) bool {
 // fingerprints; the files older writers wrote, and the fingerprint widths
 // BenchmarkID compares.
 func MarshalWordHash(t *tables.Tables, enc Encoding, tag uint) ([]byte, error) {
-	if err := checkWritable(t); err != nil {
-		return nil, err
-	}
-	sections, err := buildSections3(t)
-	if err != nil {
-		return nil, err
-	}
-	for i := range sections {
-		s := &sections[i]
+	return marshalEdited(t, func(s *section) {
 		if s.Kind != KindWordHash {
-			continue
+			return
 		}
 		s.Encoding = enc
 		switch enc {
@@ -46,6 +38,21 @@ func MarshalWordHash(t *tables.Tables, enc Encoding, tag uint) ([]byte, error) {
 		default:
 			s.data = encodePackedWordHash(t.Vocab, tag)
 		}
+	})
+}
+
+// marshalEdited writes t in version 3 as Marshal does, after edit has seen
+// (and may have re-encoded) every section.
+func marshalEdited(t *tables.Tables, edit func(s *section)) ([]byte, error) {
+	if err := checkWritable(t); err != nil {
+		return nil, err
+	}
+	sections, err := buildSections3(t)
+	if err != nil {
+		return nil, err
+	}
+	for i := range sections {
+		edit(&sections[i])
 	}
 	var b bytes.Buffer
 	if err := writeFile(&b, assemble(sections, 3), sections); err != nil {
@@ -58,17 +65,9 @@ func MarshalWordHash(t *tables.Tables, enc Encoding, tag uint) ([]byte, error) {
 // packed (encoding 1), none tiered: the file a writer without tiered
 // columns writes, which BenchmarkTieredScoring scores against.
 func MarshalPacked(t *tables.Tables) ([]byte, error) {
-	if err := checkWritable(t); err != nil {
-		return nil, err
-	}
-	sections, err := buildSections3(t)
-	if err != nil {
-		return nil, err
-	}
-	for i := range sections {
-		s := &sections[i]
+	return marshalEdited(t, func(s *section) {
 		if s.Kind != KindProbabilities && s.Kind != KindBackoffs || s.Encoding != Tiered {
-			continue
+			return
 		}
 		lv := &t.Levels[s.Order-1]
 		values, codebook := lv.LogProb, lv.ProbCodebook
@@ -84,10 +83,5 @@ func MarshalPacked(t *tables.Tables) ([]byte, error) {
 			}
 		}
 		s.data, s.Encoding = encodeColumn(values, codebook, false)
-	}
-	var b bytes.Buffer
-	if err := writeFile(&b, assemble(sections, 3), sections); err != nil {
-		return nil, err
-	}
-	return b.Bytes(), nil
+	})
 }
