@@ -33,22 +33,23 @@ same_model=no
 
 # Compile against reading its counts: medians of 3 runs, side by side.
 cbench=$(go test -run '^$' -bench '^(BenchmarkDecodeCounts|BenchmarkCompileOnDisk|BenchmarkCompileInMemory)$' -benchtime 2x -count 3 ./compile/bounded)
-cmedian() {
-	printf '%s\n' "$cbench" | awk -v b="$1" '$1 ~ "^"b"(-[0-9]+)?$" {for (i = 2; i < NF; i++) if ($(i+1) == "ns/op") print $i}' |
-		sort -g | awk '{v[NR] = $1} END {printf "%.0f", v[int((NR+1)/2)]}'
+# values OUTPUT BENCH UNIT: the figures of one unit that one benchmark
+# reported in a go test output, sorted; median FORMAT OUTPUT BENCH UNIT the
+# middle one, lowest and highest the ends.
+values() {
+	printf '%s\n' "$1" | awk -v b="$2" -v unit="$3" '$1 ~ "^"b"(-[0-9]+)?$" {for (i = 2; i < NF; i++) if ($(i+1) == unit) print $i}' | sort -g
 }
-decode_ns=$(cmedian BenchmarkDecodeCounts)
-disk_ns=$(cmedian BenchmarkCompileOnDisk)
-mem_ns=$(cmedian BenchmarkCompileInMemory)
+median() { values "$2" "$3" "$4" | awk -v f="$1" '{v[NR] = $1} END {printf f, v[int((NR+1)/2)]}'; }
+lowest() { values "$1" "$2" "$3" | awk 'NR == 1 {printf "%.0f", $1}'; }
+highest() { values "$1" "$2" "$3" | awk '{v = $1} END {printf "%.0f", v}'; }
+decode_ns=$(median %.0f "$cbench" BenchmarkDecodeCounts ns/op)
+disk_ns=$(median %.0f "$cbench" BenchmarkCompileOnDisk ns/op)
+mem_ns=$(median %.0f "$cbench" BenchmarkCompileInMemory ns/op)
 # CPU seconds per run (every core's): the work, which the load of a shared
 # machine does not inflate as it does the wall time.
-cpumedian() {
-	printf '%s\n' "$cbench" | awk -v b="$1" '$1 ~ "^"b"(-[0-9]+)?$" {for (i = 2; i < NF; i++) if ($(i+1) == "cpu-s/op") print $i}' |
-		sort -g | awk '{v[NR] = $1} END {printf "%.3f", v[int((NR+1)/2)]}'
-}
-decode_cpu=$(cpumedian BenchmarkDecodeCounts)
-disk_cpu=$(cpumedian BenchmarkCompileOnDisk)
-mem_cpu=$(cpumedian BenchmarkCompileInMemory)
+decode_cpu=$(median %.3f "$cbench" BenchmarkDecodeCounts cpu-s/op)
+disk_cpu=$(median %.3f "$cbench" BenchmarkCompileOnDisk cpu-s/op)
+mem_cpu=$(median %.3f "$cbench" BenchmarkCompileInMemory cpu-s/op)
 load=$(cut -d' ' -f1-3 /proc/loadavg)
 holds() { awk -v a="$1" -v b="$2" 'BEGIN {print (a / b <= 4) ? "holds" : "does not hold"}'; }
 
@@ -60,24 +61,16 @@ holds() { awk -v a="$1" -v b="$2" 'BEGIN {print (a / b <= 4) ? "holds" : "does n
 # 1.39 M at load averages 2 to 10, measured on 2026-12-02).
 bench=$(go test -run '^$' -bench '^(BenchmarkCount|BenchmarkCounter)$' -benchtime 3x -count 7 -cpu 1 ./compile/counts
 	go test -run '^$' -bench '^BenchmarkCountAllCores$' -benchtime 3x -count 3 ./compile/counts)
-median() {
-	printf '%s\n' "$bench" | awk -v b="$1" -v unit="$2" '$1 ~ "^"b"(-[0-9]+)?$" {for (i = 2; i < NF; i++) if ($(i+1) == unit) print $i}' |
-		sort -g | awk '{v[NR] = $1} END {printf "%.0f", v[int((NR+1)/2)]}'
-}
-new_cpu=$(median BenchmarkCount tokens/cpu-s)
-# The spread of the one-worker runs: the lowest and the highest.
-extreme() {
-	printf '%s\n' "$bench" | awk -v b="$1" -v unit="$2" '$1 ~ "^"b"(-[0-9]+)?$" {for (i = 2; i < NF; i++) if ($(i+1) == unit) print $i}' |
-		sort -g | awk -v end="$3" 'NR == 1 {lo = $1} {hi = $1} END {printf "%.0f", end == "low" ? lo : hi}'
-}
-new_lo=$(extreme BenchmarkCount tokens/cpu-s low)
-new_hi=$(extreme BenchmarkCount tokens/cpu-s high)
-old_lo=$(extreme BenchmarkCounter tokens/cpu-s low)
-old_hi=$(extreme BenchmarkCounter tokens/cpu-s high)
-old_cpu=$(median BenchmarkCounter tokens/cpu-s)
-all_wall=$(median BenchmarkCountAllCores tokens/s)
-one_wall=$(median BenchmarkCount tokens/s)
-old_wall=$(median BenchmarkCounter tokens/s)
+new_cpu=$(median %.0f "$bench" BenchmarkCount tokens/cpu-s)
+# The spread of the runs: the lowest and the highest.
+new_lo=$(lowest "$bench" BenchmarkCount tokens/cpu-s)
+new_hi=$(highest "$bench" BenchmarkCount tokens/cpu-s)
+old_lo=$(lowest "$bench" BenchmarkCounter tokens/cpu-s)
+old_hi=$(highest "$bench" BenchmarkCounter tokens/cpu-s)
+old_cpu=$(median %.0f "$bench" BenchmarkCounter tokens/cpu-s)
+all_wall=$(median %.0f "$bench" BenchmarkCountAllCores tokens/s)
+one_wall=$(median %.0f "$bench" BenchmarkCount tokens/s)
+old_wall=$(median %.0f "$bench" BenchmarkCounter tokens/s)
 
 echo "## Scale: counting and compiling within a budget (issue 12)"
 echo
