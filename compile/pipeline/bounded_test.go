@@ -19,13 +19,7 @@ import (
 // after Close.
 func TestRunBoundedSameModel(t *testing.T) {
 	dir := t.TempDir()
-	c := fixture.Counts(t, 4, fixture.Train(t, 1200))
-	path := filepath.Join(dir, "c.bin")
-	var bin bytes.Buffer
-	if err := c.WriteBinary(&bin); err != nil {
-		t.Fatal(err)
-	}
-	os.WriteFile(path, bin.Bytes(), 0o644)
+	path := bundledCountsFile(t, dir)
 	for _, opt := range []estimate.Options{{Method: estimate.KneserNey, Order: 4}, {Method: estimate.Absolute, AutoDiscount: true, Order: 3}} {
 		o := Compile{Estimate: opt, Discount: "auto", ToolVersion: "test", Command: Record([]string{"ingot", "compile"}, "")}
 		cc, ins, err := LoadCounts(opt.Order, []string{path})
@@ -146,13 +140,7 @@ func boolInt(b bool) int {
 // workers).
 func TestSameModelOnOneCore(t *testing.T) {
 	dir := t.TempDir()
-	c := fixture.Counts(t, 4, fixture.Train(t, 1200))
-	path := filepath.Join(dir, "c.bin")
-	var bin bytes.Buffer
-	if err := c.WriteBinary(&bin); err != nil {
-		t.Fatal(err)
-	}
-	os.WriteFile(path, bin.Bytes(), 0o644)
+	path := bundledCountsFile(t, dir)
 	o := Compile{Estimate: estimate.Options{Method: estimate.KneserNey, Order: 4}, ToolVersion: "test", Command: Record([]string{"ingot", "compile"}, "")}
 	build := func(procs int) (mem, disk []byte) {
 		defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(procs))
@@ -191,4 +179,19 @@ func TestSameModelOnOneCore(t *testing.T) {
 	if len(mem1) == 0 || len(disk1) == 0 {
 		t.Error("empty model")
 	}
+}
+
+// bundledCountsFile writes the order-4 counts of the first 1,200 sentences'
+// training part (fixture.Train) as a binary count file in dir.
+func bundledCountsFile(t *testing.T, dir string) string {
+	t.Helper()
+	var bin bytes.Buffer
+	if err := fixture.Counts(t, 4, fixture.Train(t, 1200)).WriteBinary(&bin); err != nil {
+		t.Fatal(err)
+	}
+	path := filepath.Join(dir, "c.bin")
+	if err := os.WriteFile(path, bin.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return path
 }
