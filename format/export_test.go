@@ -85,3 +85,17 @@ func MarshalPacked(t *tables.Tables) ([]byte, error) {
 		s.data, s.Encoding = encodeColumn(values, codebook, false)
 	})
 }
+
+// MarshalKeysEF is MarshalVersion(t, 3) with the last words of every order
+// in one Elias-Fano sequence per order (encodings 2 and 3), as version-3
+// files written before key lists hold them.
+func MarshalKeysEF(t *tables.Tables) ([]byte, error) {
+	links := linksOf(t)
+	return marshalEdited(t, func(s *section) {
+		if s.Kind != KindLastWords {
+			return
+		}
+		s.data, s.Encoding = lastWordKeysEF(t, s.Order, links.Starts, links)
+	})
+}
+

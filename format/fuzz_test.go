@@ -6,6 +6,7 @@ import (
 	"encoding/binary"
 	"errors"
 	"ingot/compile/fixture"
+	"ingot/compile/tables"
 	"math"
 	"os"
 	"path/filepath"
@@ -37,6 +38,15 @@ func fuzzSeeds(t testing.TB) [][]byte {
 	// without fingerprints.
 	for _, enc := range []Encoding{Plain, PackedIDs} {
 		data, err := MarshalWordHash(tinyModel(t), enc, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		seeds = append(seeds, data)
+	}
+	// Key lists (encodings 7 and 8), which the tiny model is too small
+	// for the writer to choose.
+	for _, tb := range []*tables.Tables{tinyModel(t), fixture.RandomTables(5, 12, []int{20, 30, 30})} {
+		data, err := MarshalKeyLists(tb)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -31,6 +31,11 @@ var (
 	goldenHash0Model3 = filepath.Join("..", "spec", "golden", "tiny.v3-hash0.ingot")
 	goldenHash4Model3 = filepath.Join("..", "spec", "golden", "tiny.v3-hash4.ingot")
 	goldenCutExpected = filepath.Join("..", "spec", "golden", "tiny-cut.expected.jsonl")
+	// The tiny models with their last words in key lists (encodings 7
+	// and 8), which the writer chooses only where lists are shorter, as
+	// they are on larger models.
+	goldenListsModel3    = filepath.Join("..", "spec", "golden", "tiny.v3-lists.ingot")
+	goldenCutListsModel3 = filepath.Join("..", "spec", "golden", "tiny-cut.v3-lists.ingot")
 	// The Marrowfen models: estimated from the first 120 commands of the
 	// invented demo scenario (marrowfen.txt), in 32-bit floats (version 3)
 	// and quantized by package quantize at --bits 8 and --bits 4 (back-off
@@ -290,6 +295,23 @@ func TestGolden(t *testing.T) {
 		checkGoldenData(t, c.model, goldenExpected, data, 3, goldenQueries(tiny))
 		if m := mustOpen(t, data); m.wordHash.bits != 0 != (c.enc == PackedIDs) || m.wordHash.tag != 0 {
 			t.Errorf("%s: not the %s word hash", c.model, c.enc)
+		}
+	}
+	// The tiny models with key lists at every order: ids at order 2,
+	// successor ranks (tiny) and ids (cut) at order 3, and in the cut
+	// model contexts without children, whose lists are empty.
+	for _, c := range []struct {
+		model, expected string
+		tb              *tables.Tables
+		ranked          bool
+	}{{goldenListsModel3, goldenExpected, tiny, true}, {goldenCutListsModel3, goldenCutExpected, cut, false}} {
+		data, err := MarshalKeyLists(c.tb)
+		if err != nil {
+			t.Fatal(err)
+		}
+		checkGoldenData(t, c.model, c.expected, data, 3, goldenQueries(c.tb))
+		if m := mustOpen(t, data); !m.levels[1].listed || !m.levels[2].listed || m.levels[2].ranked != c.ranked {
+			t.Errorf("%s: orders 2 and 3 not in key lists, or order 3 keyed otherwise than expected", c.model)
 		}
 	}
 	m, err := Open(goldenCutModel3)

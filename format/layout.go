@@ -166,6 +166,15 @@ const (
 	// levels through a table, its all-ones value escaping to a wide column
 	// of full indexes found by rank (spec/FORMAT.md §4.8.6).
 	Tiered Encoding = 6
+	// ListIDs (version 3, last words of order 2 and up) stores the keys
+	// one sibling list at a time, each list at the fixed width of its
+	// largest key, found through an Elias-Fano sequence of the lists'
+	// starting bits indexed by the parent's rank among the contexts
+	// (spec/FORMAT.md §4.8.7); keys are word ids.
+	ListIDs Encoding = 7
+	// ListRanks (version 3, last words of orders 3 and up) is ListIDs
+	// whose keys are ranks among the successors of the parent's suffix.
+	ListRanks Encoding = 8
 )
 
 // String returns the encoding's name.
@@ -185,6 +194,10 @@ func (e Encoding) String() string {
 		return "packed word ids with fingerprints"
 	case Tiered:
 		return "tiered codebook indexes"
+	case ListIDs:
+		return "word ids in sibling lists"
+	case ListRanks:
+		return "successor ranks in sibling lists"
 	}
 	return fmt.Sprintf("encoding %d", uint32(e))
 }

@@ -50,7 +50,9 @@ type level struct {
 	// Version 3.
 	childStarts eliasFano // orders below the top: n+1 child starts
 	keys        eliasFano // orders >= 2: last-word keys, shifted per sibling list
-	ranked      bool      // keys are successor ranks (EliasFanoRanks)
+	lists       keyLists  // orders >= 2: the keys in sibling lists (ListIDs, ListRanks)
+	listed      bool      // the keys are in lists, not in keys
+	ranked      bool      // keys are successor ranks (EliasFanoRanks, ListRanks)
 	marks       marks     // orders below the top: entries with a back-off weight
 }
 

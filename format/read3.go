@@ -25,18 +25,24 @@ func (m *Model) readLevels3() error {
 		n := uint64(m.counts[k-1])
 		lv := &m.levels[k-1]
 		if k >= 2 {
-			encodings := []Encoding{EliasFano}
+			encodings := []Encoding{EliasFano, ListIDs}
 			if k >= 3 {
-				encodings = append(encodings, EliasFanoRanks)
+				encodings = append(encodings, EliasFanoRanks, ListRanks)
 			}
 			s, b, err := m.needEncoded(KindLastWords, k, -1, encodings...)
 			if err != nil {
 				return err
 			}
-			if lv.keys, err = parseEliasFano(b, n); err != nil {
+			lv.listed = s.Encoding == ListIDs || s.Encoding == ListRanks
+			if lv.listed {
+				lv.lists, err = parseKeyLists(b, m.levels[k-2].marks.count)
+			} else {
+				lv.keys, err = parseEliasFano(b, n)
+			}
+			if err != nil {
 				return formatErr(s.Name(), s.Offset, "%v", err)
 			}
-			lv.ranked = s.Encoding == EliasFanoRanks
+			lv.ranked = s.Encoding == EliasFanoRanks || s.Encoding == ListRanks
 		}
 		if lv.probs, err = m.readColumn(KindProbabilities, KindProbCodebook, k, int64(n)); err != nil {
 			return err
@@ -160,11 +166,29 @@ func (m *Model) extensions3(s *State, w uint32, child *[tables.MaxOrder]uint32) 
 			touched += lv.childStarts.touch(r[j])
 		}
 	}
+	// With key lists, the list's start is found by the same rank as the
+	// child start, and the list itself is touched here: the searches
+	// below, which at ranked orders run one order after another, then
+	// read lines already on their way.
+	var listAt [tables.MaxOrder]uint64
+	var width [tables.MaxOrder]uint
+	var listOK [tables.MaxOrder]bool
+	for j := 1; j <= n; j++ {
+		if marked[j] && m.levels[j].listed {
+			touched += m.levels[j].lists.touch(r[j])
+		}
+	}
 	for j := 1; j <= n; j++ {
 		if marked[j] {
 			lo[j], hi[j] = m.childRangeAt(j, r[j])
-			if lo[j] < hi[j] {
-				touched += m.levels[j].keys.touch(lo[j] - min(lo[j], 1))
+			if lo[j] >= hi[j] {
+				continue
+			}
+			if next := &m.levels[j]; next.listed {
+				listAt[j], width[j], listOK[j] = next.lists.list(r[j], hi[j]-lo[j])
+				touched += next.lists.touchAt(listAt[j])
+			} else {
+				touched += next.keys.touch(lo[j] - min(lo[j], 1))
 			}
 		}
 	}
@@ -184,6 +208,12 @@ func (m *Model) extensions3(s *State, w uint32, child *[tables.MaxOrder]uint32) 
 			}
 			key = uint64(below) - lo[j-1]
 		} else if child[0] == noNode {
+			continue
+		}
+		if next := &m.levels[j]; next.listed {
+			if i, ok := next.lists.find(listAt[j], width[j], hi[j]-lo[j], key); ok && listOK[j] {
+				child[j] = uint32(lo[j] + i)
+			}
 			continue
 		}
 		child[j] = m.searchKeys(j+1, lo[j], hi[j], key)
@@ -274,30 +304,53 @@ func (m *Model) decodeTrie(d *decodedTrie) error {
 		if k == 1 {
 			continue
 		}
-		x := make([]uint64, n)
-		if err := lv.keys.decodeAll(x); err != nil {
-			name, at := m.sectionOffset(KindLastWords, k, 0)
-			return formatErr(name, at, "%v", err)
+		// keys[e]: the key of entry e under its parent.
+		keys := make([]uint64, n)
+		parents := startsVals[k-2]
+		if lv.listed {
+			// Lists by the rank of their parent among the contexts.
+			ctxStarts := make([]uint64, 0, m.levels[k-2].marks.count+1)
+			for p := 0; p+1 < len(parents); p++ {
+				if marked, _ := m.levels[k-2].marks.rank(uint64(p)); marked {
+					ctxStarts = append(ctxStarts, parents[p])
+				}
+			}
+			ctxStarts = append(ctxStarts, parents[len(parents)-1])
+			if err := lv.lists.decodeLists(keys, func(r uint64) (a, b uint64) { return ctxStarts[r], ctxStarts[r+1] }); err != nil {
+				name, at := m.sectionOffset(KindLastWords, k, 0)
+				return formatErr(name, at, "%v", err)
+			}
+		} else {
+			x := make([]uint64, n)
+			if err := lv.keys.decodeAll(x); err != nil {
+				name, at := m.sectionOffset(KindLastWords, k, 0)
+				return formatErr(name, at, "%v", err)
+			}
+			for p := 0; p+1 < len(parents); p++ {
+				lo, hi := parents[p], parents[p+1]
+				var base uint64
+				if lo > 0 {
+					base = x[lo-1]
+				}
+				for e := lo; e < hi; e++ {
+					if e > lo && x[e] == x[e-1] {
+						name, at := m.sectionOffset(KindLastWords, k, 0)
+						return formatErr(name, at, "entry %d repeats the key of its sibling", e)
+					}
+					keys[e] = x[e] - base
+				}
+			}
 		}
 		words := make([]byte, 4*n)
 		next := make([]uint32, n)
-		parents := startsVals[k-2]
 		var prevWords []byte
 		if k >= 3 {
 			prevWords = d.words[k-2]
 		}
 		for p := 0; p+1 < len(parents); p++ {
 			lo, hi := parents[p], parents[p+1]
-			var base uint64
-			if lo > 0 {
-				base = x[lo-1]
-			}
 			for e := lo; e < hi; e++ {
-				key := x[e] - base
-				if e > lo && x[e] == x[e-1] {
-					name, at := m.sectionOffset(KindLastWords, k, 0)
-					return formatErr(name, at, "entry %d repeats the key of its sibling", e)
-				}
+				key := keys[e]
 				var word, suf uint32
 				switch {
 				case lv.ranked:

@@ -59,16 +59,13 @@ func FileSize(t *tables.Tables, plan Planned) (int64, error) {
 		nk := t.Len(k)
 		if k >= 2 {
 			keys, _ := wordKeys(t, k, childStarts, links)
-			// The sequence's last value is the sum of every sibling list's
-			// last key (lastWordKeys shifts each list by the one before).
-			var last uint64
+			below := &t.Levels[k-2]
 			starts := childStarts[k-2]
-			for p := 0; p+1 < len(starts); p++ {
-				if starts[p+1] > starts[p] {
-					last += keys[starts[p+1]-1]
-				}
-			}
-			lengths = append(lengths, efLength(uint64(nk), last))
+			listBits := keyListsBits(keys, starts, func(i int) bool {
+				return starts[i+1] > starts[i] || (plan.BackoffLevels == 0 && hasBackoff(below.LogBackoff[i]))
+			})
+			m := uint64(len(listBits) - 1)
+			lengths = append(lengths, min(keyListsLength(m, listBits[m]), efLength(uint64(nk), shiftedLast(keys, starts))))
 		}
 		probLevels := plan.ProbLevels
 		if k == 1 {

@@ -43,6 +43,9 @@ func TestSpecificationAloneVersion3(t *testing.T) {
 		// The word hashes of older writers.
 		{"tiny.v3-hash0.ingot", "tiny.expected.jsonl", floatTolerance, 0},
 		{"tiny.v3-hash4.ingot", "tiny.expected.jsonl", floatTolerance, 4},
+		// Key lists (§4.8.7) at every order.
+		{"tiny.v3-lists.ingot", "tiny.expected.jsonl", floatTolerance, 5},
+		{"tiny-cut.v3-lists.ingot", "tiny-cut.expected.jsonl", 0, 5},
 	} {
 		t.Run(c.model, func(t *testing.T) {
 			enc, F := specAlone3(t, c.model, c.expected, c.tolerance)
@@ -451,21 +454,55 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64)
 			break
 		}
 		s := sec(5, k+1)
-		x := ef(s.data)
+		// keyOf(r, parent, e): the key of entry e, a child of the parent
+		// of rank r among the contexts of order k.
+		var keyOf func(r uint64, parent node, e uint64) uint64
+		switch s.enc {
+		case 2, 3:
+			x := ef(s.data)
+			keyOf = func(_ uint64, parent node, e uint64) uint64 {
+				var base uint64
+				if parent.lo > 0 {
+					base = x[parent.lo-1]
+				}
+				return x[e] - base
+			}
+		case 7, 8:
+			// §4.8.7: the Elias-Fano list starts, then the key stream.
+			n, last, L := le.Uint64(s.data), le.Uint64(s.data[8:]), uint64(le.Uint32(s.data[16:]))
+			size := 24 + 8*((n*L+63)/64+((last>>L)+n+63)/64+(n+255)/256)
+			if uint64(len(s.data)) != size+8*((last+63)/64) {
+				t.Fatalf("key lists of order %d: %d bytes, the specification says %d", k+1, len(s.data), size+8*((last+63)/64))
+			}
+			b := ef(s.data[:size])
+			stream := s.data[size:]
+			keyOf = func(r uint64, parent node, e uint64) uint64 {
+				w := (b[r+1] - b[r]) / (parent.hi - parent.lo)
+				if w*(parent.hi-parent.lo) != b[r+1]-b[r] {
+					t.Fatalf("order %d list %d: %d bits for %d keys", k+1, r, b[r+1]-b[r], parent.hi-parent.lo)
+				}
+				var key uint64
+				for j := uint64(0); j < w; j++ {
+					p := b[r] + (e-parent.lo)*w + j
+					key |= uint64(stream[p/8]>>(p%8)) & 1 << j
+				}
+				return key
+			}
+		default:
+			t.Fatalf("last words of order %d: encoding %d", k+1, s.enc)
+		}
 		next := make([]node, counts[k+1])
+		r := ^uint64(0)
 		for p := range levels[k] {
 			parent := levels[k][p]
 			if !parent.isParent {
 				continue
 			}
-			var base uint64
-			if parent.lo > 0 {
-				base = x[parent.lo-1]
-			}
+			r++
 			for e := parent.lo; e < parent.hi; e++ {
-				key := x[e] - base
+				key := keyOf(r, parent, e)
 				var w string
-				if s.enc == 2 {
+				if s.enc == 2 || s.enc == 7 {
 					w = vocab[key]
 				} else { // successor rank among the children of the parent's suffix
 					h := parent.words[1:]

@@ -40,9 +40,14 @@ type StreamWriter struct {
 	n      uint64           // entries of order k added so far
 	prev   []uint32
 	// per-order state
-	keys        *valueSpill // last-word keys (k >= 2)
+	keysSec     *streamSection // last words (k >= 2): key lists or one sequence
+	keys        *valueSpill    // the keys shifted into one sequence (k >= 2)
 	keyBase     uint64
 	lastKey     uint64
+	list        []uint64    // the keys of the sibling list being added
+	listEnds    *valueSpill // the bit where each non-empty list ends
+	keyStream   *bitSpill   // the keys' bit stream
+	prevStarts  *valueSpill // the child starts of the order below, kept for its lists
 	probs       *streamSection
 	marks       *markStream
 	backoffs    *streamSection
@@ -136,7 +141,10 @@ func (w *StreamWriter) Close() error {
 			s.f = nil
 		}
 	}
-	for _, v := range []*valueSpill{w.keys, w.childStarts} {
+	if w.keyStream != nil {
+		w.keyStream.close()
+	}
+	for _, v := range []*valueSpill{w.keys, w.listEnds, w.childStarts, w.prevStarts} {
 		if v != nil {
 			v.close()
 		}
@@ -203,14 +211,20 @@ func (w *StreamWriter) add(ids []uint32, rank uint32, logProb, logBackoff float3
 		return fmt.Errorf("cannot write the model: order %d entry %d has log10 probability %v", k, i, logProb)
 	}
 	if k >= 2 {
-		newParent := i == 0 || tables.Compare(w.prev[:k-1], ids[:k-1]) != 0
-		if newParent && i > 0 {
+		if i > 0 && tables.Compare(w.prev[:k-1], ids[:k-1]) != 0 {
+			if err := w.flushList(); err != nil {
+				return err
+			}
 			w.keyBase = w.lastKey
 		}
 		key := uint64(ids[k-1])
 		if k >= 3 {
 			key = uint64(rank)
 		}
+		if n := len(w.list); n > 0 && key <= w.list[n-1] {
+			return fmt.Errorf("ingot model: order %d entry %d: key %d does not ascend under its parent", k, i, key)
+		}
+		w.list = append(w.list, key)
 		w.lastKey = w.keyBase + key
 		if err := w.keys.add(w.lastKey); err != nil {
 			return err
@@ -251,17 +265,23 @@ func (w *StreamWriter) startOrder(k int) error {
 	N := len(w.counts)
 	w.k, w.n = k, 0
 	w.keyBase, w.lastKey, w.childRun = 0, 0, 0
+	w.list = w.list[:0]
 	var err error
 	if k >= 2 {
-		enc := EliasFano
+		enc := ListIDs
 		if k >= 3 {
-			enc = EliasFanoRanks
+			enc = ListRanks
 		}
-		s, err := w.newSection(KindLastWords, enc, k)
-		if err != nil {
+		if w.keysSec, err = w.newSection(KindLastWords, enc, k); err != nil {
 			return err
 		}
-		if w.keys, err = newValueSpill(w.dir, fmt.Sprintf("keys-%d", k), s); err != nil {
+		if w.keys, err = newValueSpill(w.dir, fmt.Sprintf("keys-%d", k), w.keysSec); err != nil {
+			return err
+		}
+		if w.listEnds, err = newValueSpill(w.dir, fmt.Sprintf("list-ends-%d", k), nil); err != nil {
+			return err
+		}
+		if w.keyStream, err = newBitSpill(filepath.Join(w.dir, fmt.Sprintf("key-bits-%d", k))); err != nil {
 			return err
 		}
 	}
@@ -296,11 +316,10 @@ func (w *StreamWriter) endOrder() error {
 	if w.n != w.counts[w.k-1] {
 		return fmt.Errorf("ingot model: order %d has %d entries, %d announced", w.k, w.n, w.counts[w.k-1])
 	}
-	if w.keys != nil {
-		if err := w.keys.encode(); err != nil {
+	if w.keysSec != nil {
+		if err := w.endKeys(); err != nil {
 			return err
 		}
-		w.keys = nil
 	}
 	if err := w.probs.close(); err != nil {
 		return err
@@ -318,10 +337,13 @@ func (w *StreamWriter) endOrder() error {
 		if err := w.childStarts.add(w.childRun); err != nil {
 			return err
 		}
-		if err := w.childStarts.encode(); err != nil {
+		if err := w.childStarts.encodeKeep(); err != nil {
 			return err
 		}
-		w.childStarts = nil
+		if err := w.childStarts.sec.close(); err != nil {
+			return err
+		}
+		w.prevStarts, w.childStarts = w.childStarts, nil
 	}
 	return nil
 }
@@ -522,6 +544,31 @@ func (v *valueSpill) values(fn func(i, x uint64) error) error {
 // value file.
 func (v *valueSpill) encode() error {
 	defer v.close()
+	return v.encodeKeep()
+}
+
+// next returns a function that reads the values in order, one per call,
+// from the start of the file.
+func (v *valueSpill) next() (func() (uint64, error), error) {
+	if err := v.w.Flush(); err != nil {
+		return nil, err
+	}
+	if _, err := v.f.Seek(0, io.SeekStart); err != nil {
+		return nil, err
+	}
+	r := bufio.NewReaderSize(v.f, 1<<16)
+	return func() (uint64, error) {
+		var b [8]byte
+		if _, err := io.ReadFull(r, b[:]); err != nil {
+			return 0, err
+		}
+		return binary.LittleEndian.Uint64(b[:]), nil
+	}, nil
+}
+
+// encodeKeep is encode that keeps the value file, for values() and next();
+// neither closes the section, to which more bytes may follow.
+func (v *valueSpill) encodeKeep() error {
 	if err := v.w.Flush(); err != nil {
 		return err
 	}
@@ -607,7 +654,7 @@ func (v *valueSpill) encode() error {
 			return err
 		}
 	}
-	return s.close()
+	return nil
 }
 
 // markStream writes a marks section (encodeMarks, streamed): the bits go
@@ -676,4 +723,172 @@ func (m *markStream) finish() error {
 		return err
 	}
 	return m.s.close()
+}
+
+// flushList writes the sibling list being added to the key stream, at the
+// width of its largest key, and records where it ends.
+func (w *StreamWriter) flushList() error {
+	if len(w.list) == 0 {
+		return nil
+	}
+	width := keyWidth(w.list[len(w.list)-1])
+	for _, key := range w.list {
+		if err := w.keyStream.put(key, width); err != nil {
+			return err
+		}
+	}
+	w.list = w.list[:0]
+	return w.listEnds.add(w.keyStream.bits)
+}
+
+// endKeys completes the last words of the order being added: key lists
+// (encodeKeyLists: the bit start of each context's list of the order
+// below, empty lists included, in Elias-Fano, then the key stream) or one
+// Elias-Fano sequence, whichever is shorter, as lastWordKeys chooses.
+func (w *StreamWriter) endKeys() error {
+	if err := w.flushList(); err != nil {
+		return err
+	}
+	m := w.prevStarts.n - 1 // contexts of the order below
+	if keyListsLength(m, w.keyStream.bits) > efLength(w.keys.n, w.keys.last) {
+		w.keysSec.Encoding = EliasFano
+		if w.k >= 3 {
+			w.keysSec.Encoding = EliasFanoRanks
+		}
+		err := w.keys.encode()
+		if err == nil {
+			err = w.keysSec.close()
+		}
+		w.keyStream.close()
+		w.listEnds.close()
+		w.prevStarts.close()
+		w.keys, w.keyStream, w.listEnds, w.prevStarts, w.keysSec = nil, nil, nil, nil, nil
+		return err
+	}
+	w.keys.close()
+	w.keys = nil
+	starts, err := newValueSpill(w.dir, fmt.Sprintf("list-starts-%d", w.k), w.keysSec)
+	if err != nil {
+		return err
+	}
+	defer starts.close()
+	childStart, err := w.prevStarts.next()
+	if err != nil {
+		return err
+	}
+	listEnd, err := w.listEnds.next()
+	if err != nil {
+		return err
+	}
+	var bit uint64
+	c, err := childStart()
+	for r := uint64(1); err == nil && r < w.prevStarts.n; r++ {
+		if err = starts.add(bit); err != nil {
+			break
+		}
+		var d uint64
+		if d, err = childStart(); err == nil && d > c {
+			bit, err = listEnd()
+		}
+		c = d
+	}
+	if err == nil {
+		err = starts.add(bit)
+	}
+	if err == nil && bit != w.keyStream.bits {
+		err = fmt.Errorf("ingot model: order %d: lists of %d key bits, %d written", w.k, bit, w.keyStream.bits)
+	}
+	if err != nil {
+		return fmt.Errorf("writing the last words of order %d: %w", w.k, err)
+	}
+	if err := starts.encode(); err != nil {
+		return err
+	}
+	if err := w.keyStream.copyTo(w.keysSec); err != nil {
+		return err
+	}
+	err = w.keysSec.close()
+	w.keyStream.close()
+	w.listEnds.close()
+	w.prevStarts.close()
+	w.keyStream, w.listEnds, w.prevStarts, w.keysSec = nil, nil, nil, nil
+	return err
+}
+
+// bitSpill collects a bit stream in a file, 64 bits at a time.
+type bitSpill struct {
+	path string
+	f    *os.File
+	w    *bufio.Writer
+	cur  uint64 // the bits of the word being filled
+	bits uint64 // bits written
+}
+
+func newBitSpill(path string) (*bitSpill, error) {
+	f, err := os.Create(path)
+	if err != nil {
+		return nil, err
+	}
+	return &bitSpill{path: path, f: f, w: bufio.NewWriterSize(f, 1<<16)}, nil
+}
+
+// put appends the width low bits of v.
+func (b *bitSpill) put(v uint64, width uint) error {
+	if width == 0 {
+		return nil
+	}
+	off := uint(b.bits % 64)
+	b.cur |= v << off
+	b.bits += uint64(width)
+	if off+width < 64 {
+		return nil
+	}
+	var word [8]byte
+	binary.LittleEndian.PutUint64(word[:], b.cur)
+	b.cur = 0
+	if off+width > 64 {
+		b.cur = v >> (64 - off)
+	}
+	_, err := b.w.Write(word[:])
+	return err
+}
+
+// copyTo appends the stream, its last word padded with zeros, to s.
+func (b *bitSpill) copyTo(s *streamSection) error {
+	if b.bits%64 != 0 {
+		var word [8]byte
+		binary.LittleEndian.PutUint64(word[:], b.cur)
+		if _, err := b.w.Write(word[:]); err != nil {
+			return err
+		}
+	}
+	if err := b.w.Flush(); err != nil {
+		return err
+	}
+	if _, err := b.f.Seek(0, io.SeekStart); err != nil {
+		return err
+	}
+	buf := make([]byte, 1<<16)
+	for {
+		n, err := b.f.Read(buf)
+		if n > 0 {
+			if werr := s.write(buf[:n]); werr != nil {
+				return werr
+			}
+		}
+		if err == io.EOF {
+			return nil
+		}
+		if err != nil {
+			return err
+		}
+	}
+}
+
+func (b *bitSpill) close() {
+	if b.f != nil {
+		b.f.Close()
+		b.f = nil
+	}
+	os.Remove(b.path)
 }

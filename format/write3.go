@@ -1,6 +1,7 @@
 package format
 
 import (
+	"bytes"
 	"fmt"
 	"math"
 	"runtime"
@@ -86,7 +87,7 @@ func orderSections3(t *tables.Tables, k int, childStarts [][]uint32, links *tabl
 	out = append(out, columnSections(KindProbabilities, KindProbCodebook, k, lv.LogProb, lv.ProbCodebook, true)...)
 	if k < n {
 		starts := childStarts[k-1]
-		isContext := func(i int) bool { return starts[i+1] > starts[i] || hasBackoff(lv.LogBackoff[i]) }
+		isContext := contextsOf(t, k, childStarts)
 		out = append(out, section{Section: Section{Kind: KindContexts, Order: k}, data: encodeMarks(len(lv.LogBackoff), isContext)})
 		kept := make([]float32, 0, len(lv.LogBackoff))
 		x := make([]uint64, 0, len(lv.LogBackoff)+1)
@@ -129,13 +130,45 @@ func childStartValues(t *tables.Tables, k int) []uint32 {
 }
 
 // lastWordKeys encodes the last words of order k >= 2 as keys under their
-// parents (wordKeys), one non-decreasing sequence per order.
+// parents (wordKeys), in sibling lists (encodeKeyLists) or in one
+// Elias-Fano sequence for the order, whichever is shorter (lists when
+// equal): lists cost the bits of each list's largest key per key plus a
+// list start per context below, which pays where lists are short and
+// their keys small (successor ranks at the higher orders), while one
+// sequence codes long lists of word ids closer to their entropy.
 func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]byte, Encoding) {
 	keys, enc := wordKeys(t, k, childStarts, links)
-	// One non-decreasing sequence: each sibling list is shifted by the last
-	// value of the list before it.
+	isContext := contextsOf(t, k-1, childStarts)
+	if keysListed(keys, childStarts[k-2], isContext) {
+		return encodeKeyLists(keys, childStarts[k-2], isContext), listEncoding(enc)
+	}
+	return encodeEliasFano(shiftedKeys(keys, childStarts[k-2])), enc
+}
+
+// keysListed reports whether the writer stores an order's keys as key
+// lists: when they are not longer than one Elias-Fano sequence.
+func keysListed(keys []uint64, starts []uint32, isContext func(int) bool) bool {
+	listBits := keyListsBits(keys, starts, isContext)
+	m := uint64(len(listBits) - 1)
+	return keyListsLength(m, listBits[m]) <= efLength(uint64(len(keys)), shiftedLast(keys, starts))
+}
+
+// shiftedLast is the last value of shiftedKeys(keys, starts): the sum of
+// every sibling list's last key.
+func shiftedLast(keys []uint64, starts []uint32) uint64 {
+	var last uint64
+	for p := 0; p+1 < len(starts); p++ {
+		if starts[p+1] > starts[p] {
+			last += keys[starts[p+1]-1]
+		}
+	}
+	return last
+}
+
+// shiftedKeys makes an order's keys one non-decreasing sequence: each
+// sibling list is shifted by the last value of the list before it.
+func shiftedKeys(keys []uint64, starts []uint32) []uint64 {
 	x := make([]uint64, len(keys))
-	starts := childStarts[k-2]
 	for p := 0; p+1 < len(starts); p++ {
 		var base uint64
 		if s := starts[p]; s > 0 {
@@ -145,7 +178,38 @@ func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables
 			x[e] = base + keys[e]
 		}
 	}
-	return encodeEliasFano(x), enc
+	return x
+}
+
+// listEncoding is the key-lists encoding with the keys of enc.
+func listEncoding(enc Encoding) Encoding {
+	if enc == EliasFanoRanks {
+		return ListRanks
+	}
+	return ListIDs
+}
+
+// contextsOf returns whether entry i of order k < N is a context: it has
+// children or a back-off weight other than +0.0.
+func contextsOf(t *tables.Tables, k int, childStarts [][]uint32) func(i int) bool {
+	starts, lv := childStarts[k-1], &t.Levels[k-1]
+	return func(i int) bool { return starts[i+1] > starts[i] || hasBackoff(lv.LogBackoff[i]) }
+}
+
+// lastWordKeysEF encodes the last words of order k >= 2 as keys under
+// their parents (wordKeys), one non-decreasing Elias-Fano sequence per
+// order (encodings EliasFano and EliasFanoRanks, which version-3 files
+// written before key lists hold).
+func lastWordKeysEF(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]byte, Encoding) {
+	keys, enc := wordKeys(t, k, childStarts, links)
+	return encodeEliasFano(shiftedKeys(keys, childStarts[k-2])), enc
+}
+
+// lastWordKeysListed encodes the last words of order k >= 2 in key lists
+// whatever their length (encodings ListIDs and ListRanks).
+func lastWordKeysListed(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]byte, Encoding) {
+	keys, enc := wordKeys(t, k, childStarts, links)
+	return encodeKeyLists(keys, childStarts[k-2], contextsOf(t, k-1, childStarts)), listEncoding(enc)
 }
 
 // wordKeys returns the keys of the last words of order k >= 2 under their
@@ -200,4 +264,30 @@ func linksOf(t *tables.Tables) *tables.Links {
 		panic("format: tables not prefix-closed after Check: " + err.Error())
 	}
 	return l
+}
+
+// MarshalKeyLists is Marshal (version 3) with the last words of every
+// order stored in key lists (encodings ListIDs and ListRanks,
+// spec/FORMAT.md §4.8.7) whether or not they are shorter than one
+// Elias-Fano sequence: small files that exercise a reader's key-list path,
+// which Marshal chooses only where lists are shorter, as on large models.
+func MarshalKeyLists(t *tables.Tables) ([]byte, error) {
+	if err := checkWritable(t); err != nil {
+		return nil, err
+	}
+	sections, err := buildSections3(t)
+	if err != nil {
+		return nil, err
+	}
+	links := linksOf(t)
+	for i := range sections {
+		if s := &sections[i]; s.Kind == KindLastWords {
+			s.data, s.Encoding = lastWordKeysListed(t, s.Order, links.Starts, links)
+		}
+	}
+	var b bytes.Buffer
+	if err := writeFile(&b, assemble(sections, 3), sections); err != nil {
+		return nil, err
+	}
+	return b.Bytes(), nil
 }

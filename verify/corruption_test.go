@@ -25,8 +25,9 @@ const demoText = "../cmd/ingot/demodata/commands.txt"
 // which passes every check: an order-3 model of the first 40 demo
 // sentences (format version 1), the same quantized (version 2, with both
 // kinds of codebook), and the same signed; and the same in format version
-// 3 (plain, quantized, quantized and signed), whose Elias-Fano, contexts
-// and word-hash sections are damaged too.
+// 3 (plain, quantized, quantized and signed, quantized with key lists),
+// whose Elias-Fano, key-list, contexts and word-hash sections are damaged
+// too.
 func corruptionModels(t *testing.T) []struct {
 	name string
 	data []byte
@@ -52,12 +53,19 @@ func corruptionModels(t *testing.T) []struct {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// The quantized model with its last words in key lists (encodings 7
+	// and 8), which the writer chooses on larger models.
+	lists, err := format.MarshalKeyLists(q)
+	if err != nil {
+		t.Fatal(err)
+	}
 	models := []struct {
 		name string
 		data []byte
 	}{
 		{"plain", plain}, {"quantized", quantized}, {"signed", signed},
 		{"plain v3", marshal3(t, tb)}, {"quantized v3", marshal3(t, q)}, {"signed quantized v3", signed3},
+		{"key lists v3", lists},
 	}
 	for _, m := range models {
 		if rep := run(t, m.data, Options{}); !rep.OK() {

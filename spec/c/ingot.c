@@ -52,6 +52,8 @@ enum {
 	ENCODING_PACKED_IDS = 4,  /* version 3: word hash slots packed at B bits */
 	ENCODING_TAGGED_IDS = 5,  /* version 3: B-bit word ids with F-bit fingerprints */
 	ENCODING_TIERED = 6,      /* version 3: tiered codebook indexes (section 4.8.6) */
+	ENCODING_LIST_IDS = 7,    /* version 3: word ids in sibling lists (section 4.8.7) */
+	ENCODING_LIST_RANKS = 8,  /* version 3: successor ranks in sibling lists (section 4.8.7) */
 	MAX_CODEBOOK = 65536
 };
 
@@ -619,6 +621,39 @@ static uint32_t ef_find(const ingot_sequence_ *q, uint64_t s, uint64_t t, uint64
 	return ef_get(q, s, &x) && x == target ? (uint32_t)s : INGOT_NONE;
 }
 
+/* list_key returns the width-bit key at bit of a level's key stream (0
+ * past its end). */
+static uint64_t list_key(const ingot_level_ *lv, uint64_t bit, unsigned width)
+{
+	uint64_t at = bit >> 3, v = 0;
+	unsigned i;
+	for (i = 0; i < 8 && at + i < lv->key_stream_length; i++)
+		v |= (uint64_t)lv->key_stream[at + i] << (8 * i);
+	return width == 0 ? 0 : (v >> (bit & 7)) & (((uint64_t)1 << width) - 1);
+}
+
+/* list_find returns the position of key in the sibling list of count
+ * keys held in bits [s0, s1) of a level's key stream (section 4.8.7), or
+ * INGOT_NONE. The width is the list's bits over its keys. */
+static uint32_t list_find(const ingot_level_ *lv, uint64_t s0, uint64_t s1, uint64_t count, uint64_t key)
+{
+	uint64_t width, lo = 0, hi = count;
+	if (count == 0)
+		return INGOT_NONE;
+	width = (s1 - s0) / count;
+	if (width * count != s1 - s0 || width > 32)
+		return INGOT_NONE;
+	/* The last key at most key; keys ascend. */
+	while (hi - lo > 1) {
+		uint64_t mid = lo + (hi - lo) / 2;
+		if (list_key(lv, s0 + mid * width, (unsigned)width) <= key)
+			lo = mid;
+		else
+			hi = mid;
+	}
+	return list_key(lv, s0 + lo * width, (unsigned)width) == key ? (uint32_t)lo : INGOT_NONE;
+}
+
 /* context_rank tells whether entry i (below n_k) of a level is a context
  * and sets *rank to the number of contexts before it. */
 static int context_rank(const ingot_level_ *lv, uint64_t i, uint64_t *rank)
@@ -635,9 +670,11 @@ static int context_rank(const ingot_level_ *lv, uint64_t i, uint64_t *rank)
 }
 
 /* open_sequence checks the head and length of an Elias-Fano section
- * (section 4.8.1) holding want values and points q at its parts. */
+ * (section 4.8.1) holding want values and points q at its parts. With
+ * rest NULL the sequence is the whole section; otherwise it starts the
+ * section and *rest is set to the number of bytes after it. */
 static ingot_status open_sequence(ingot_model *m, ingot_error *err, uint32_t j, const entry *e, uint64_t want,
-                                  ingot_sequence_ *q)
+                                  ingot_sequence_ *q, uint64_t *rest)
 {
 	const unsigned char *b = section_bytes(m, e);
 	uint64_t n, U, quotient, w_low, w_high, w_samples;
@@ -666,9 +703,11 @@ static ingot_status open_sequence(ingot_model *m, ingot_error *err, uint32_t j, 
 	w_low = (n * L + 63) / 64;
 	w_high = ((U >> L) + n + 63) / 64;
 	w_samples = (n + 255) / 256;
-	if (e->length != 24 + 8 * (w_low + w_high + w_samples))
-		return fail_at(err, INGOT_ERR_FORMAT, j, e, "length %llu, want %llu", (unsigned long long)e->length,
-		               (unsigned long long)(24 + 8 * (w_low + w_high + w_samples)));
+	if (rest ? e->length < 24 + 8 * (w_low + w_high + w_samples) : e->length != 24 + 8 * (w_low + w_high + w_samples))
+		return fail_at(err, INGOT_ERR_FORMAT, j, e, "length %llu, want %s%llu", (unsigned long long)e->length,
+		               rest ? "at least " : "", (unsigned long long)(24 + 8 * (w_low + w_high + w_samples)));
+	if (rest)
+		*rest = e->length - (24 + 8 * (w_low + w_high + w_samples));
 	q->n = n;
 	q->low_bits = L;
 	q->low = b + 24;
@@ -707,7 +746,7 @@ static ingot_status open_version3(ingot_model *m, ingot_error *err, const index_
 		e = read_entry(m->data, j);
 		if (e.encoding != ENCODING_CODED_IDS)
 			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "encoding %u, want 2 in a version-3 file", (unsigned)e.encoding);
-		st = open_sequence(m, err, j, &e, lv->contexts + 1, &lv->context_starts);
+		st = open_sequence(m, err, j, &e, lv->contexts + 1, &lv->context_starts, NULL);
 		if (st != INGOT_OK)
 			return st;
 		if (u64le(section_bytes(m, &e) + 8) != m->levels[k].count || !ef_get(&lv->context_starts, 0, &first) ||
@@ -719,13 +758,28 @@ static ingot_status open_version3(ingot_model *m, ingot_error *err, const index_
 		ingot_level_ *lv = &m->levels[k - 1];
 		j = (uint32_t)t->at[KIND_LAST_WORDS][k];
 		e = read_entry(m->data, j);
-		if (e.encoding != ENCODING_CODED_IDS && !(e.encoding == ENCODING_CODED_RANKS && k >= 3))
+		if (e.encoding != ENCODING_CODED_IDS && !(e.encoding == ENCODING_CODED_RANKS && k >= 3) &&
+		    e.encoding != ENCODING_LIST_IDS && !(e.encoding == ENCODING_LIST_RANKS && k >= 3))
 			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "encoding %u, which a version-3 file does not allow here",
 			               (unsigned)e.encoding);
 		lv->key_encoding = e.encoding;
-		st = open_sequence(m, err, j, &e, lv->count, &lv->keys);
-		if (st != INGOT_OK)
-			return st;
+		if (e.encoding == ENCODING_LIST_IDS || e.encoding == ENCODING_LIST_RANKS) {
+			/* Section 4.8.7: the lists' bit starts, then the key stream. */
+			uint64_t rest, bits, first;
+			st = open_sequence(m, err, j, &e, m->levels[k - 2].contexts + 1, &lv->list_starts, &rest);
+			if (st != INGOT_OK)
+				return st;
+			bits = u64le(section_bytes(m, &e) + 8);
+			if (rest != 8 * ((bits + 63) / 64) || !ef_get(&lv->list_starts, 0, &first) || first != 0)
+				return fail_at(err, INGOT_ERR_FORMAT, j, &e, "key stream of %llu bytes for %llu bits, or lists not starting at bit 0",
+				               (unsigned long long)rest, (unsigned long long)bits);
+			lv->key_stream = section_bytes(m, &e) + (e.length - rest);
+			lv->key_stream_length = rest;
+		} else {
+			st = open_sequence(m, err, j, &e, lv->count, &lv->keys, NULL);
+			if (st != INGOT_OK)
+				return st;
+		}
 	}
 	{
 		uint64_t V = m->vocabulary_size, P = V + V / 4 + 1;
@@ -950,7 +1004,7 @@ static ingot_status open_buffer(ingot_model *m, const void *buf, size_t size, in
 		if (e.encoding == ENCODING_CODED_IDS) {
 			entry w = read_entry(d, (uint32_t)t.at[KIND_WORD_TEXT][0]);
 			uint64_t first = 1;
-			st = open_sequence(m, err, j, &e, V + 1, &m->word_starts_seq);
+			st = open_sequence(m, err, j, &e, V + 1, &m->word_starts_seq, NULL);
 			if (st != INGOT_OK)
 				return st;
 			m->word_starts_coded = 1;
@@ -1433,13 +1487,22 @@ static double next_version3(const ingot_model *m, ingot_state *s, uint32_t w)
 			b = next->count;
 		if (a >= b)
 			continue;
-		if (next->key_encoding == ENCODING_CODED_RANKS) {
+		if (next->key_encoding == ENCODING_CODED_RANKS || next->key_encoding == ENCODING_LIST_RANKS) {
 			if (found[j - 1] == INGOT_NONE)
 				continue; /* h_{j-1} w is not stored, so neither is h_j w */
 			key = found[j - 1] - first[j - 1];
 		} else
 			key = w;
-		{
+		if (next->key_encoding == ENCODING_LIST_IDS || next->key_encoding == ENCODING_LIST_RANKS) {
+			/* The keys of h_j's list: same rank as its child start. */
+			uint64_t p = ef_position(&next->list_starts, rank[j]), s0, s1;
+			if (!ef_value(&next->list_starts, rank[j], p, &s0) ||
+			    !ef_value(&next->list_starts, rank[j] + 1, ef_next_position(&next->list_starts, p), &s1) || s1 < s0)
+				continue;
+			found[j] = list_find(next, s0, s1, b - a, key);
+			if (found[j] != INGOT_NONE)
+				found[j] += (uint32_t)a;
+		} else {
 			/* The keys under h_j are offsets from x_{a-1}. */
 			uint64_t base = 0, pa;
 			if (a > 0) {
