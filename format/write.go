@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"sync"
 	"unicode/utf8"
 
 	"ingot/compile/tables"
@@ -157,50 +158,71 @@ func checkWritable(t *tables.Tables) error {
 	if uint64(text) > math.MaxUint32 {
 		return fmt.Errorf("cannot write the model: vocabulary text of %d bytes exceeds 4 GiB", text)
 	}
-	start, _ := t.ID(tables.SentenceStart)
+	// The orders are checked on their own goroutines; the error of the
+	// lowest order that has one is reported.
+	errs := make([]error, t.Order())
+	var wg sync.WaitGroup
 	for k := 1; k <= t.Order(); k++ {
-		lv := &t.Levels[k-1]
-		if uint64(len(lv.LogProb)) > math.MaxUint32 {
-			return fmt.Errorf("cannot write the model: order %d has %d entries, more than 32-bit offsets address", k, len(lv.LogProb))
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			errs[k-1] = checkWritableOrder(t, k)
+		}()
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil {
+			return err
 		}
-		for i, p := range lv.LogProb {
-			// Every value is finite but the unigram <s>, which is never
-			// predicted: a probability of 0 (log10 -Inf) anywhere else is a
-			// word the model could never produce, which verify refuses.
-			if k == 1 && uint32(i) == start && math.IsInf(float64(p), -1) {
-				continue
-			}
-			if math.IsNaN(float64(p)) || math.IsInf(float64(p), 0) {
-				return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 probability %v", k, i, t.Words(t.Gram(k, i)), p)
+	}
+	return nil
+}
+
+// checkWritableOrder checks order k of tables that pass Check for
+// checkWritable.
+func checkWritableOrder(t *tables.Tables, k int) error {
+	start, _ := t.ID(tables.SentenceStart)
+	lv := &t.Levels[k-1]
+	if uint64(len(lv.LogProb)) > math.MaxUint32 {
+		return fmt.Errorf("cannot write the model: order %d has %d entries, more than 32-bit offsets address", k, len(lv.LogProb))
+	}
+	for i, p := range lv.LogProb {
+		// Every value is finite but the unigram <s>, which is never
+		// predicted: a probability of 0 (log10 -Inf) anywhere else is a
+		// word the model could never produce, which verify refuses.
+		if k == 1 && uint32(i) == start && math.IsInf(float64(p), -1) {
+			continue
+		}
+		if math.IsNaN(float64(p)) || math.IsInf(float64(p), 0) {
+			return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 probability %v", k, i, t.Words(t.Gram(k, i)), p)
+		}
+	}
+	for i, b := range lv.LogBackoff {
+		if math.IsNaN(float64(b)) || math.IsInf(float64(b), 0) {
+			return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 back-off %v", k, i, t.Words(t.Gram(k, i)), b)
+		}
+	}
+	for _, c := range []struct {
+		name     string
+		values   []float32
+		codebook []float32
+	}{{"probability", lv.LogProb, lv.ProbCodebook}, {"back-off", lv.LogBackoff, lv.BackoffCodebook}} {
+		if c.codebook == nil {
+			continue
+		}
+		if c.values == nil {
+			return fmt.Errorf("cannot write the model: order %d has a %s codebook but no %s column", k, c.name, c.name)
+		}
+		if len(c.codebook) > 1<<16 {
+			return fmt.Errorf("cannot write the model: order %d %s codebook has %d values, more than 65536", k, c.name, len(c.codebook))
+		}
+		for j := 1; j < len(c.codebook); j++ {
+			if !(c.codebook[j-1] < c.codebook[j]) {
+				return fmt.Errorf("cannot write the model: order %d %s codebook is not strictly ascending at %d", k, c.name, j)
 			}
 		}
-		for i, b := range lv.LogBackoff {
-			if math.IsNaN(float64(b)) || math.IsInf(float64(b), 0) {
-				return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 back-off %v", k, i, t.Words(t.Gram(k, i)), b)
-			}
-		}
-		for _, c := range []struct {
-			name     string
-			values   []float32
-			codebook []float32
-		}{{"probability", lv.LogProb, lv.ProbCodebook}, {"back-off", lv.LogBackoff, lv.BackoffCodebook}} {
-			if c.codebook == nil {
-				continue
-			}
-			if c.values == nil {
-				return fmt.Errorf("cannot write the model: order %d has a %s codebook but no %s column", k, c.name, c.name)
-			}
-			if len(c.codebook) > 1<<16 {
-				return fmt.Errorf("cannot write the model: order %d %s codebook has %d values, more than 65536", k, c.name, len(c.codebook))
-			}
-			for j := 1; j < len(c.codebook); j++ {
-				if !(c.codebook[j-1] < c.codebook[j]) {
-					return fmt.Errorf("cannot write the model: order %d %s codebook is not strictly ascending at %d", k, c.name, j)
-				}
-			}
-			if _, ok := codebookIndexes(c.values, c.codebook); !ok {
-				return fmt.Errorf("cannot write the model: order %d holds a %s value outside its codebook", k, c.name)
-			}
+		if _, ok := codebookIndexes(c.values, c.codebook); !ok {
+			return fmt.Errorf("cannot write the model: order %d holds a %s value outside its codebook", k, c.name)
 		}
 	}
 	return nil

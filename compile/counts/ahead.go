@@ -38,7 +38,6 @@ type ahead struct {
 	stop       chan struct{}
 	wg         sync.WaitGroup
 	cur        *batch
-	pos        int
 }
 
 // readAhead starts reading m ahead. Close must be called.
@@ -49,6 +48,12 @@ func readAhead(m *merger) *ahead {
 		// Room for the longest entries: ids never move once appended.
 		a.free <- &batch{ids: make([]uint32, 0, aheadBatch*tables.MaxOrder), entries: make([]merged, 0, aheadBatch)}
 	}
+	// One count file, the common case, is read straight into the batches.
+	one, _ := m.streams[0].(*readerStream)
+	if len(m.streams) != 1 {
+		one = nil
+	}
+	identity := one != nil && one.identity()
 	a.wg.Add(1)
 	go func() {
 		defer a.wg.Done()
@@ -62,6 +67,9 @@ func readAhead(m *merger) *ahead {
 				return
 			}
 			b.ids, b.entries, b.err = b.ids[:0], b.entries[:0], nil
+			if one != nil {
+				b.err = m.fillOne(one, identity, b)
+			}
 			for len(b.entries) < aheadBatch && b.err == nil {
 				var n uint64
 				var from int
@@ -82,29 +90,64 @@ func readAhead(m *merger) *ahead {
 	return a
 }
 
-// next returns the next merged entry (valid until the next call) or the
-// error that ended the merge (io.EOF at its end).
-func (a *ahead) next() (*merged, error) {
-	for a.cur == nil || a.pos == len(a.cur.entries) {
-		if a.cur != nil {
-			if a.cur.err != nil {
-				return nil, a.cur.err
-			}
-			a.free <- a.cur
+// nextBatch returns the next batch of merged entries, handing the one
+// returned before back to the merge goroutine. Its err, when not nil, ends
+// the merge after its entries (io.EOF at the merge's end). It returns nil
+// after a batch that ended the merge.
+func (a *ahead) nextBatch() *batch {
+	if a.cur != nil {
+		if a.cur.err != nil {
+			return nil
 		}
-		b, ok := <-a.full
-		if !ok {
-			return nil, io.EOF
-		}
-		a.cur, a.pos = b, 0
+		a.free <- a.cur
+		a.cur = nil
 	}
-	e := &a.cur.entries[a.pos]
-	a.pos++
-	return e, nil
+	b, ok := <-a.full
+	if !ok {
+		return &batch{err: io.EOF}
+	}
+	a.cur = b
+	return b
 }
 
 // Close stops the merge goroutine and waits for it.
 func (a *ahead) Close() {
 	close(a.stop)
 	a.wg.Wait()
+}
+
+// fillOne fills b with the entries of a merge of the one count file s
+// (m.streams[0]): the head the merger holds, then entries read straight
+// from the file, without the copies into the merger's heads (nor the
+// remap when identity says it keeps every id). It returns
+// what ended the merge, or nil when b is full.
+func (m *merger) fillOne(s *readerStream, identity bool, b *batch) error {
+	if len(m.live) == 0 {
+		return io.EOF
+	}
+	if !m.headTaken {
+		m.headTaken = true
+		b.ids = append(b.ids, m.heads[0]...)
+		b.entries = append(b.entries, merged{ids: b.ids[len(b.ids)-len(m.heads[0]):], count: m.counts[0], at: m.at[0]})
+	}
+	for len(b.entries) < aheadBatch {
+		ids, n, err := s.r.Next()
+		if err == io.EOF {
+			m.live = m.live[:0]
+			return io.EOF
+		}
+		if err != nil {
+			return &errStream{0, err}
+		}
+		from := len(b.ids)
+		if identity {
+			b.ids = append(b.ids, ids...)
+		} else {
+			for _, id := range ids {
+				b.ids = append(b.ids, s.remap[id])
+			}
+		}
+		b.entries = append(b.entries, merged{ids: b.ids[from:], count: n, at: s.at()})
+	}
+	return nil
 }

@@ -40,6 +40,16 @@ type position struct {
 	offset int64
 }
 
+// identity reports whether the remap keeps every id.
+func (s *readerStream) identity() bool {
+	for i, id := range s.remap {
+		if id != uint32(i) {
+			return false
+		}
+	}
+	return true
+}
+
 func (s *readerStream) next() ([]uint32, uint64, error) {
 	ids, n, err := s.r.Next()
 	if err != nil {
@@ -117,6 +127,9 @@ type merger struct {
 	live    []int      // streams not exhausted, kept as a binary heap on heads
 	at      []position // where each count file's head stands
 	taken   position   // where the entry next returned stood in its first stream
+	// headTaken is set when fillOne has handed on the head of the one
+	// stream.
+	headTaken bool
 }
 
 func newMerger(streams []stream) (*merger, error) {
@@ -251,63 +264,110 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 		uni.Words[i] = uint32(i)
 	}
 	c.Levels[0] = uni
-	ln := tables.NewLinker(len(vocab))
 	// The sources are decoded and merged on another goroutine while this
-	// one checks and links the entries.
+	// one stores the entries, and orders 3 and up are linked (checking that
+	// each entry's prefix and suffix are counted) on others, each order
+	// once the order below it is complete (linkBehind).
 	a := readAhead(m)
 	defer a.Close()
-	for {
-		e, err := a.next()
-		if err == io.EOF {
-			break
-		}
-		if err != nil {
-			return nil, streamErr(err)
-		}
-		g, n := e.ids, e.count
-		k := len(g)
-		if k > order {
-			continue
-		}
-		maxSeen = max(maxSeen, k)
-		if k == 1 {
-			c.Levels[0].Counts[g[0]] = n
-			continue
-		}
-		// The prefix and the suffix must be counted: unigrams are looked
-		// up directly, longer ones by the links of the orders so far
-		// (tables.Linker: a merge pass for prefixes, a search within one
-		// sibling list per suffix).
-		unigram := func(id uint32) bool { return id == start || c.Levels[0].Counts[id] > 0 }
-		var hasPrefix, hasSuffix bool
-		if k == 2 {
-			hasPrefix, hasSuffix = unigram(g[0]), unigram(g[1])
-		} else if k <= ln.Order()+1 {
-			var s int32
-			s, hasPrefix = ln.Add(g)
-			hasSuffix = s >= 0
-		}
-		if hasPrefix && k == 2 {
-			ln.Add(g)
-		}
-		miss, sub := "prefix", g[:k-1]
-		if hasPrefix {
+	lb := startLinkBehind(len(vocab))
+	defer lb.finish()
+	// missing reports an entry g whose prefix (or suffix) is not counted.
+	missing := func(g []uint32, prefixMissing bool, w where) error {
+		miss, sub := "prefix", g[:len(g)-1]
+		if !prefixMissing {
 			miss, sub = "suffix", g[1:]
 		}
-		if !hasPrefix || !hasSuffix {
-			msg := fmt.Sprintf("%q has no count for its %s %q", joinWords(vocab, g), miss, joinWords(vocab, sub))
-			if src := srcOf[e.from]; src >= 0 {
-				return nil, fmt.Errorf("%s: entry %d (block at offset %d): %s", sources[src].Name, e.at.index, e.at.offset, msg)
-			}
-			return nil, b.textError(g, vocab, sources, msg)
+		msg := fmt.Sprintf("%q has no count for its %s %q", joinWords(vocab, g), miss, joinWords(vocab, sub))
+		if src := srcOf[w.from]; src >= 0 {
+			return fmt.Errorf("%s: entry %d (block at offset %d): %s", sources[src].Name, w.at.index, w.at.offset, msg)
 		}
-		lv := &c.Levels[k-1]
-		lv.Counts = append(tables.Grow(lv.Counts, 1), n)
+		return b.textError(g, vocab, sources, msg)
 	}
-	for k := 2; k <= ln.Order(); k++ {
-		c.Levels[k-1].Words = ln.Words[k-1]
+	// failed reports the first entry linkBehind found lacking its prefix
+	// or suffix, once every entry sent to it is linked, or nil.
+	failed := func() error {
+		if f := lb.finish(); f != nil {
+			return missing(c.Levels[f.k-1].Words[f.k*f.i:f.k*f.i+f.k], f.prefixMissing, f.where)
+		}
+		return nil
 	}
-	c.Links = ln.Finish()
+	unigram := func(id uint32) bool { return id == start || c.Levels[0].Counts[id] > 0 }
+	var parent2, suffix2 []int32 // the links of order 2, found here
+	var task *linkTask           // the run of entries being gathered
+	send := func() {
+		if task != nil {
+			k := task.k
+			task.words = c.Levels[k-1].Words[k*task.lo : k*(task.lo+len(task.where))]
+			lb.tasks <- task
+			task = nil
+		}
+	}
+	top := 1 // the highest order stored so far
+	endOrder := func() {
+		send()
+		if top >= 2 {
+			lb.tasks <- &linkTask{k: top, end: true, words: c.Levels[top-1].Words, parent: parent2, suffix: suffix2}
+		}
+	}
+	for {
+		bt := a.nextBatch()
+		for x := range bt.entries {
+			e := &bt.entries[x]
+			g, n := e.ids, e.count
+			k := len(g)
+			if k > order {
+				continue
+			}
+			maxSeen = max(maxSeen, k)
+			if k == 1 {
+				c.Levels[0].Counts[g[0]] = n
+				continue
+			}
+			for top < k {
+				endOrder()
+				top++
+			}
+			if k == 2 {
+				// Unigrams are looked up directly.
+				if hasPrefix, hasSuffix := unigram(g[0]), unigram(g[1]); !hasPrefix || !hasSuffix {
+					return nil, missing(g, !hasPrefix, where{e.from, e.at})
+				}
+				parent2 = append(tables.Grow(parent2, 1), int32(g[0]))
+				suffix2 = append(tables.Grow(suffix2, 1), int32(g[1]))
+			}
+			lv := &c.Levels[k-1]
+			lv.Words = append(tables.Grow(lv.Words, k), g...)
+			lv.Counts = append(tables.Grow(lv.Counts, 1), n)
+			if k >= 3 {
+				if task == nil {
+					task = &linkTask{k: k, lo: len(lv.Counts) - 1, where: lb.whereRoom()}
+				}
+				task.where = append(task.where, where{e.from, e.at})
+			}
+		}
+		send()
+		if lb.failed.Load() {
+			return nil, failed()
+		}
+		if bt.err == io.EOF {
+			break
+		}
+		if bt.err != nil {
+			// An entry read before the error that lacks its prefix or
+			// suffix comes first.
+			if err := failed(); err != nil {
+				return nil, err
+			}
+			return nil, streamErr(bt.err)
+		}
+	}
+	endOrder()
+	if err := failed(); err != nil {
+		return nil, err
+	}
+	links := lb.links
+	c.Links = &links
 	if maxSeen == 0 {
 		return nil, fmt.Errorf("no n-grams in %s", names(sources))
 	}

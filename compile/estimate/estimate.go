@@ -336,32 +336,49 @@ func words(c *counts.Counts, g []uint32) string {
 // words seen before the n-gram, N1+(. g).
 func (e *estimator) adjust() {
 	e.adj = make([][]uint64, e.N)
-	for k := e.N; k >= 1; k-- {
-		raw := e.c.Levels[k-1].Counts
-		a := make([]uint64, len(raw))
-		if k == e.N {
-			copy(a, raw)
-		} else {
-			above := e.adj[k] // order k+1, already adjusted
-			var kept []bool
-			if e.opt.Survivors != nil {
-				kept = e.opt.Survivors[k]
-			}
-			for j, s := range e.suffix[k] {
-				if kept == nil || kept[j] {
-					a[s]++
-				} else {
-					a[s] += above[j]
-				}
-			}
-			for i := range a {
-				if e.c.Gram(k, i)[0] == e.start {
-					a[i] = raw[i]
-				}
-			}
+	if e.opt.Survivors == nil {
+		// Each order needs the links of the order above only: the orders
+		// are adjusted on GOMAXPROCS workers.
+		tasks := make([]func(), e.N)
+		for k := e.N; k >= 1; k-- {
+			tasks[e.N-k] = func() { e.adjustOrder(k) }
 		}
-		e.adj[k-1] = a
+		inParallel(tasks)
+		return
 	}
+	for k := e.N; k >= 1; k-- {
+		e.adjustOrder(k)
+	}
+}
+
+// adjustOrder computes the adjusted counts of order k, those of order k+1
+// done when Options.Survivors is set.
+func (e *estimator) adjustOrder(k int) {
+	raw := e.c.Levels[k-1].Counts
+	a := make([]uint64, len(raw))
+	if k == e.N {
+		copy(a, raw)
+		e.adj[k-1] = a
+		return
+	}
+	var kept []bool
+	var above []uint64
+	if e.opt.Survivors != nil {
+		kept, above = e.opt.Survivors[k], e.adj[k] // order k+1, already adjusted
+	}
+	for j, s := range e.suffix[k] {
+		if kept == nil || kept[j] {
+			a[s]++
+		} else {
+			a[s] += above[j]
+		}
+	}
+	for i := range a {
+		if e.c.Gram(k, i)[0] == e.start {
+			a[i] = raw[i]
+		}
+	}
+	e.adj[k-1] = a
 }
 
 // countOfCounts returns n_1..n_max of the given counts.
@@ -391,7 +408,7 @@ func absoluteAuto(n []float64) float64 {
 // one, backing off to the uniform level 0 (1/V). It returns every word's
 // probability (0 for <s>, which is never predicted) and the empty context's
 // left-over mass. The in-memory and the streamed estimators both use it.
-func unigramLevel(cnt []uint64, start uint32, V float64, disc discounter, exactTotal func(k int, cnt []uint64, context []uint32) (float64, error)) (prob []float64, bow float64, err error) {
+func unigramLevel(cnt []uint64, start uint32, V float64, disc discounter, t *tally, exactTotal func(k int, cnt []uint64, context []uint32) (float64, error)) (prob []float64, bow float64, err error) {
 	var idx []int
 	var sc []uint64
 	var lower []float64
@@ -407,7 +424,7 @@ func unigramLevel(cnt []uint64, start uint32, V float64, disc discounter, exactT
 	if err != nil {
 		return nil, 0, err
 	}
-	bow = disc(sc, total, lower, p)
+	bow = disc(sc, total, lower, p, t)
 	prob = make([]float64, len(cnt))
 	for w := range prob {
 		prob[w] = bow / V
@@ -419,7 +436,60 @@ func unigramLevel(cnt []uint64, start uint32, V float64, disc discounter, exactT
 	return prob, bow, nil
 }
 
-type discounter func(cnt []uint64, total float64, lower []float64, p []float64) (bow float64)
+// A discounter keeps no state: the contexts where a corner-case rule
+// applied are counted in the tally it is given, so that the contexts of
+// one order can be discounted on several goroutines, each with its own
+// tally, merged in the order of the contexts.
+type discounter func(cnt []uint64, total float64, lower []float64, p []float64, t *tally) (bow float64)
+
+// rule names a corner-case rule that a discounter applies per context.
+type rule int
+
+const (
+	ruleCovered  rule = iota // followed by every predictable word: undiscounted
+	ruleAllAbove             // Katz: every successor above K: absolute discounting
+	rules
+)
+
+// tally counts the contexts of one order (or of a run of them) that each
+// rule decided, and lists the rules in the order they first applied.
+type tally struct {
+	first []rule
+	count [rules]int
+}
+
+func (t *tally) add(r rule) {
+	if t.count[r] == 0 {
+		t.first = append(t.first, r)
+	}
+	t.count[r]++
+}
+
+// merge adds the tally of the contexts that follow t's.
+func (t *tally) merge(u *tally) {
+	for _, r := range u.first {
+		if t.count[r] == 0 {
+			t.first = append(t.first, r)
+		}
+		t.count[r] += u.count[r]
+	}
+}
+
+// noteFallbacks appends to rep one line per rule that t counted at order
+// k, whose count of counts is n (as given to discounter), in the order the
+// rules first applied.
+func (o Options) noteFallbacks(k int, n []float64, t *tally, rep *OrderReport) {
+	for _, r := range t.first {
+		switch r {
+		case ruleCovered:
+			rep.Fallbacks = append(rep.Fallbacks, fmt.Sprintf(
+				"order %d: %d context(s) followed by every predictable word keep undiscounted estimates with back-off weight 1", rep.Order, t.count[r]))
+		case ruleAllAbove:
+			rep.Fallbacks = append(rep.Fallbacks, fmt.Sprintf(
+				"order %d: %d context(s) whose successors all have counts above %d use absolute discounting with D = %.6g", k, t.count[r], o.KatzThreshold, absoluteAuto(n)))
+		}
+	}
+}
 
 func (e *estimator) order(k int) error {
 	rep := OrderReport{Order: k, NGrams: e.c.Len(k)}
@@ -427,12 +497,15 @@ func (e *estimator) order(k int) error {
 	if e.opt.Method == KneserNey {
 		cnt = e.adj[k-1]
 	}
-	disc := e.opt.discounter(k, countOfCounts(cnt, e.opt.countOfCountsMax()), &rep)
+	n := countOfCounts(cnt, e.opt.countOfCountsMax())
+	disc := e.opt.discounter(k, n, &rep)
 	if k == 1 {
-		prob, bow, err := unigramLevel(cnt, e.start, e.V, disc, e.exactTotal)
+		var t tally
+		prob, bow, err := unigramLevel(cnt, e.start, e.V, disc, &t, e.exactTotal)
 		if err != nil {
 			return err
 		}
+		e.opt.noteFallbacks(k, n, &t, &rep)
 		e.prob[0] = prob
 		e.empty = bow
 		rep.Contexts = 1
@@ -440,14 +513,69 @@ func (e *estimator) order(k int) error {
 		return nil
 	}
 	e.prob[k-1] = make([]float64, len(cnt))
-	prob := e.prob[k-1]
+	// The contexts are discounted in runs on GOMAXPROCS workers, each run
+	// with its own tally; the first error of the first run that has one
+	// is the first of the order.
+	pre := e.prefix[k-1]
+	bounds := contextRuns(pre, runsPerCore*runtime.GOMAXPROCS(0))
+	runs := make([]contextRun, len(bounds)-1)
+	tasks := make([]func(), len(runs))
+	for r := range runs {
+		tasks[r] = func() { runs[r] = e.discountRun(k, cnt, disc, bounds[r], bounds[r+1]) }
+	}
+	inParallel(tasks)
+	var t tally
+	for r := range runs {
+		if runs[r].err != nil {
+			return runs[r].err
+		}
+		t.merge(&runs[r].tally)
+		rep.Contexts += runs[r].contexts
+	}
+	e.opt.noteFallbacks(k, n, &t, &rep)
+	e.report.Orders = append(e.report.Orders, rep)
+	return nil
+}
 
+// runsPerCore is how many runs of contexts an order is split into per
+// core (a variable so that tests can split it into one run or many).
+var runsPerCore = 4
+
+// contextRuns splits the entries of an order, whose parent (context)
+// indexes are pre, into at most n runs of whole contexts of about the same
+// length: the boundaries, from 0 to len(pre).
+func contextRuns(pre []int32, n int) []int {
+	bounds := []int{0}
+	for r := 1; r < n; r++ {
+		i := max(len(pre)*r/n, bounds[len(bounds)-1]+1)
+		for i < len(pre) && pre[i] == pre[i-1] {
+			i++
+		}
+		if i >= len(pre) {
+			break
+		}
+		bounds = append(bounds, i)
+	}
+	return append(bounds, len(pre))
+}
+
+// contextRun is what discounting a run of contexts found.
+type contextRun struct {
+	tally    tally
+	contexts int
+	err      error
+}
+
+// discountRun discounts the contexts of order k >= 2 whose successors are
+// the entries [i0, i1) with counts cnt.
+func (e *estimator) discountRun(k int, cnt []uint64, disc discounter, i0, i1 int) contextRun {
+	var run contextRun
 	pre, suf := e.prefix[k-1], e.suffix[k-1]
-	lowerProb := e.prob[k-2]
+	prob, lowerProb := e.prob[k-1], e.prob[k-2]
 	var lower, p []float64
-	for i := 0; i < len(cnt); {
+	for i := i0; i < i1; {
 		j := i + 1
-		for j < len(cnt) && pre[j] == pre[i] {
+		for j < i1 && pre[j] == pre[i] {
 			j++
 		}
 		lower = lower[:0]
@@ -457,15 +585,15 @@ func (e *estimator) order(k int) error {
 		p = slices.Grow(p[:0], j-i)[:j-i]
 		total, err := e.exactTotal(k, cnt[i:j], e.c.Gram(k, i)[:k-1])
 		if err != nil {
-			return err
+			run.err = err
+			return run
 		}
-		e.bow[k-2][pre[i]] = disc(cnt[i:j], total, lower, p)
+		e.bow[k-2][pre[i]] = disc(cnt[i:j], total, lower, p, &run.tally)
 		copy(prob[i:j], p)
-		rep.Contexts++
+		run.contexts++
 		i = j
 	}
-	e.report.Orders = append(e.report.Orders, rep)
-	return nil
+	return run
 }
 
 // countOfCountsMax returns the largest r whose count of counts n_r the
@@ -502,7 +630,7 @@ func (o Options) discounter(k int, n []float64, rep *OrderReport) discounter {
 			D = absoluteAuto(n)
 		}
 		rep.Discounts = []Param{{"D", D}}
-		return backoff(absolute(D), rep)
+		return backoff(absolute(D))
 	default:
 		return o.katz(k, n, rep)
 	}
@@ -514,9 +642,8 @@ func (o Options) discounter(k int, n []float64, rep *OrderReport) discounter {
 // the left-over mass 1 - sum p, computed from the discounts themselves (a
 // sum of small terms) rather than by subtracting the probabilities from
 // one, which cancels to nothing when the counts are large.
-func backoff(discount func(cnt []uint64, total float64, p []float64) (left float64), rep *OrderReport) discounter {
-	covered, idx := 0, -1
-	return func(cnt []uint64, total float64, lower []float64, p []float64) float64 {
+func backoff(discount func(cnt []uint64, total float64, p []float64, t *tally) (left float64)) discounter {
+	return func(cnt []uint64, total float64, lower []float64, p []float64, t *tally) float64 {
 		var sumL float64
 		for _, l := range lower {
 			sumL += l
@@ -525,24 +652,18 @@ func backoff(discount func(cnt []uint64, total float64, p []float64) (left float
 			for j, r := range cnt {
 				p[j] = float64(r) / total
 			}
-			covered++
-			if idx < 0 {
-				idx = len(rep.Fallbacks)
-				rep.Fallbacks = append(rep.Fallbacks, "")
-			}
-			rep.Fallbacks[idx] = fmt.Sprintf(
-				"order %d: %d context(s) followed by every predictable word keep undiscounted estimates with back-off weight 1", rep.Order, covered)
+			t.add(ruleCovered)
 			return 1
 		}
-		left := discount(cnt, total, p)
+		left := discount(cnt, total, p, t)
 		return left / (1 - sumL)
 	}
 }
 
 // absolute discounts every count by D: p = (c - D) / c(h), leaving
 // D |A(h)| / c(h).
-func absolute(D float64) func(cnt []uint64, total float64, p []float64) float64 {
-	return func(cnt []uint64, total float64, p []float64) float64 {
+func absolute(D float64) func(cnt []uint64, total float64, p []float64, t *tally) float64 {
+	return func(cnt []uint64, total float64, p []float64, _ *tally) float64 {
 		for j, r := range cnt {
 			p[j] = (float64(r) - D) / total
 		}
@@ -561,14 +682,12 @@ func (o Options) katz(k int, n []float64, rep *OrderReport) discounter {
 		rep.Discounts = []Param{{"D", Dabs}}
 		rep.Fallbacks = append(rep.Fallbacks, fmt.Sprintf(
 			"order %d: Good-Turing discounts unusable (%s); absolute discounting with D = %.6g used instead", k, why, Dabs))
-		return backoff(absolute(Dabs), rep)
+		return backoff(absolute(Dabs))
 	}
 	for r := 1; r <= K; r++ {
 		rep.Discounts = append(rep.Discounts, Param{fmt.Sprintf("d%d", r), d[r]})
 	}
-	allAbove := 0
-	idx := -1
-	return backoff(func(cnt []uint64, total float64, p []float64) float64 {
+	return backoff(func(cnt []uint64, total float64, p []float64, t *tally) float64 {
 		above := true
 		for _, r := range cnt {
 			if r <= uint64(K) {
@@ -578,14 +697,8 @@ func (o Options) katz(k int, n []float64, rep *OrderReport) discounter {
 		}
 		if above {
 			// Rule: no mass would be left for unseen words.
-			left := absolute(Dabs)(cnt, total, p)
-			allAbove++
-			if idx < 0 {
-				idx = len(rep.Fallbacks)
-				rep.Fallbacks = append(rep.Fallbacks, "")
-			}
-			rep.Fallbacks[idx] = fmt.Sprintf(
-				"order %d: %d context(s) whose successors all have counts above %d use absolute discounting with D = %.6g", k, allAbove, K, Dabs)
+			left := absolute(Dabs)(cnt, total, p, t)
+			t.add(ruleAllAbove)
 			return left
 		}
 		// The left-over mass is the sum of what the discounts remove,
@@ -600,7 +713,7 @@ func (o Options) katz(k int, n []float64, rep *OrderReport) discounter {
 			p[j] = dr * float64(r) / total
 		}
 		return left
-	}, rep)
+	})
 }
 
 // katzDiscounts returns d_1..d_K (index r), or the reason they are unusable.
@@ -637,7 +750,7 @@ func GoodTuring(n []float64) []float64 {
 
 // wittenBell: P(w|h) = (c(hw) + T(h) P(w|h')) / (c(h) + T(h)) and
 // bow(h) = T(h) / (c(h) + T(h)), T(h) the number of distinct successors.
-func wittenBell(cnt []uint64, total float64, lower []float64, p []float64) float64 {
+func wittenBell(cnt []uint64, total float64, lower []float64, p []float64, _ *tally) float64 {
 	var T float64
 	for _, r := range cnt {
 		if r > 0 {
@@ -680,7 +793,7 @@ func KneserNeyDiscounts(n []float64) (Y, D1, D2, D3 float64, why string) {
 func kneserNey(k int, n []float64, rep *OrderReport) discounter {
 	D1, D2, D3 := kneserNeyParams(k, n, rep)
 	D := [4]float64{0, D1, D2, D3}
-	return func(a []uint64, total float64, lower []float64, p []float64) float64 {
+	return func(a []uint64, total float64, lower []float64, p []float64, _ *tally) float64 {
 		var N [4]float64
 		for _, r := range a {
 			N[min(r, 3)]++
@@ -705,7 +818,7 @@ func kneserNey(k int, n []float64, rep *OrderReport) discounter {
 func kneserNeyBackedOff(k int, n []float64, rep *OrderReport) discounter {
 	D1, D2, D3 := kneserNeyParams(k, n, rep)
 	D := [4]float64{0, D1, D2, D3}
-	backedOff := backoff(func(a []uint64, total float64, p []float64) float64 {
+	backedOff := backoff(func(a []uint64, total float64, p []float64, _ *tally) float64 {
 		var left float64
 		for j, r := range a {
 			d := D[min(r, 3)]
@@ -713,13 +826,13 @@ func kneserNeyBackedOff(k int, n []float64, rep *OrderReport) discounter {
 			left += d
 		}
 		return left / total
-	}, rep)
-	return func(a []uint64, total float64, lower []float64, p []float64) float64 {
+	})
+	return func(a []uint64, total float64, lower []float64, p []float64, t *tally) float64 {
 		if total == 0 { // as the interpolated form: the lower order alone
 			copy(p, lower)
 			return 1
 		}
-		return backedOff(a, total, lower, p)
+		return backedOff(a, total, lower, p, t)
 	}
 }
 

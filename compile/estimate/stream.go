@@ -367,11 +367,14 @@ func (s *streamer) counts(k int) []uint64 {
 func (s *streamer) unigrams() error {
 	rep := OrderReport{Order: 1, NGrams: len(s.sp.Vocab)}
 	cnt := s.counts(1)
-	disc := s.opt.discounter(1, countOfCounts(cnt, s.opt.countOfCountsMax()), &rep)
-	prob, bow, err := unigramLevel(cnt, s.start, s.V, disc, s.exactTotal)
+	n := countOfCounts(cnt, s.opt.countOfCountsMax())
+	disc := s.opt.discounter(1, n, &rep)
+	var t tally
+	prob, bow, err := unigramLevel(cnt, s.start, s.V, disc, &t, s.exactTotal)
 	if err != nil {
 		return err
 	}
+	s.opt.noteFallbacks(1, n, &t, &rep)
 	s.empty = bow
 	rep.Contexts = 1
 	s.report.Orders = append(s.report.Orders, rep)
@@ -675,6 +678,7 @@ func (s *streamer) order(k int) error {
 		}
 	}
 	disc := s.opt.discounter(k, n, &rep)
+	var fallbacks tally
 	var jn *joined
 	if k >= 3 {
 		var err error
@@ -732,7 +736,7 @@ func (s *streamer) order(k int) error {
 		if err != nil {
 			return err
 		}
-		bow := disc(cnt, total, lower, p)
+		bow := disc(cnt, total, lower, p, &fallbacks)
 		for j, v := range p {
 			if badProb == nil && bad(v) {
 				g := append(slices.Clone(prefix), lastWords[j])
@@ -801,6 +805,7 @@ func (s *streamer) order(k int) error {
 			return err
 		}
 	}
+	s.opt.noteFallbacks(k, n, &fallbacks, &rep)
 	s.report.Orders = append(s.report.Orders, rep)
 	if badProb != nil {
 		return s.wrap(badProb)

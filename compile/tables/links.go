@@ -264,3 +264,62 @@ func Link(vocab int, words [][]uint32) (*Links, error) {
 	}
 	return l, nil
 }
+
+// OrderLinker links the entries of one order k >= 3 in ranges that may be
+// linked in any order and at the same time (on several goroutines), once
+// the orders below k are linked: their Parent and Suffix, and the Starts
+// of order k-2. Each range finds its first parent by a binary search, then
+// walks as Link does, so that the links are Link's whatever the ranges.
+type OrderLinker struct {
+	k     int
+	lower []uint32 // the entries of order k-1
+	lists []uint32 // as cursor.lists
+}
+
+// OrderLinker prepares the linking of order k >= 3 whose order below holds
+// the entries lower (k-1 ids each).
+func (l *Links) OrderLinker(k int, lower []uint32) *OrderLinker {
+	if k < 3 {
+		panic(fmt.Sprintf("tables: OrderLinker of order %d", k))
+	}
+	return &OrderLinker{k: k, lower: lower, lists: l.newCursor(k).lists}
+}
+
+// Link links the entries words (k ids each, sorted), writing the parent
+// and the suffix (-1: not stored) of entry i to parent[i] and suffix[i].
+// It returns the index within words of the first entry whose prefix is
+// not stored, whose links and those of the entries after it are not
+// written, or -1 when every prefix is stored.
+func (o *OrderLinker) Link(words []uint32, parent, suffix []int32) int {
+	k := o.k
+	n := len(words) / k
+	if n == 0 {
+		return -1
+	}
+	cur := cursor{last: -1, suffix: -1, lists: o.lists}
+	// The first entry's parent: the first entry of the order below not
+	// less than its prefix.
+	lo, hi := 0, len(o.lower)/(k-1)
+	for lo < hi {
+		m := int(uint(lo+hi) >> 1)
+		if Compare(o.lower[m*(k-1):m*(k-1)+k-1], words[:k-1]) < 0 {
+			lo = m + 1
+		} else {
+			hi = m
+		}
+	}
+	cur.parent = int32(lo)
+	var l *Links
+	for i := range n {
+		p, s, ok := l.link(words[k*i:k*i+k], o.lower, &cur)
+		if !ok {
+			return i
+		}
+		parent[i], suffix[i] = p, s
+	}
+	return -1
+}
+
+// StartsOf returns the n+1 child starts of the n entries of an order from
+// the parent index of each entry of the order above, in order (Links.Starts).
+func StartsOf(parent []int32, n int) []uint32 { return startsOf(parent, n) }

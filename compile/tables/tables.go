@@ -30,6 +30,7 @@ package tables
 import (
 	"fmt"
 	"math"
+	"sync"
 )
 
 // The three markers of the trade.
@@ -258,52 +259,72 @@ func (t *Tables) Check() error {
 			return fmt.Errorf("tables: vocabulary lacks %s", m)
 		}
 	}
-	V := uint32(len(t.Vocab))
+	// The orders are checked on their own goroutines; the error of the
+	// lowest order that has one is reported.
+	errs := make([]error, len(t.Levels))
+	var wg sync.WaitGroup
 	for k := 1; k <= len(t.Levels); k++ {
-		lv := &t.Levels[k-1]
-		n := len(lv.LogProb)
-		if len(lv.Words) != k*n {
-			return fmt.Errorf("tables: order %d has %d word ids for %d entries", k, len(lv.Words), n)
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			errs[k-1] = t.checkOrder(k)
+		}()
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil {
+			return err
 		}
-		if k < len(t.Levels) && len(lv.LogBackoff) != n {
-			return fmt.Errorf("tables: order %d has %d back-off weights for %d entries", k, len(lv.LogBackoff), n)
+	}
+	return nil
+}
+
+// checkOrder checks order k's entries for Check.
+func (t *Tables) checkOrder(k int) error {
+	V := uint32(len(t.Vocab))
+	lv := &t.Levels[k-1]
+	n := len(lv.LogProb)
+	if len(lv.Words) != k*n {
+		return fmt.Errorf("tables: order %d has %d word ids for %d entries", k, len(lv.Words), n)
+	}
+	if k < len(t.Levels) && len(lv.LogBackoff) != n {
+		return fmt.Errorf("tables: order %d has %d back-off weights for %d entries", k, len(lv.LogBackoff), n)
+	}
+	if k == len(t.Levels) && lv.LogBackoff != nil {
+		return fmt.Errorf("tables: highest order %d carries back-off weights", k)
+	}
+	if k == 1 {
+		if n != len(t.Vocab) {
+			return fmt.Errorf("tables: %d unigrams for a vocabulary of %d words", n, len(t.Vocab))
 		}
-		if k == len(t.Levels) && lv.LogBackoff != nil {
-			return fmt.Errorf("tables: highest order %d carries back-off weights", k)
-		}
-		if k == 1 {
-			if n != len(t.Vocab) {
-				return fmt.Errorf("tables: %d unigrams for a vocabulary of %d words", n, len(t.Vocab))
-			}
-			for i := 0; i < n; i++ {
-				if lv.Words[i] != uint32(i) {
-					return fmt.Errorf("tables: unigram %d holds word id %d", i, lv.Words[i])
-				}
-			}
-			continue
-		}
-		// Entries are sorted, so their contexts come in order: one merge
-		// pass with the order below finds each.
-		lower, parent := t.Levels[k-2].Words, 0
 		for i := 0; i < n; i++ {
-			g := lv.Words[k*i : k*i+k]
-			for _, id := range g {
-				if id >= V {
-					return fmt.Errorf("tables: order %d entry %d: word id %d outside vocabulary of %d", k, i, id, V)
-				}
+			if lv.Words[i] != uint32(i) {
+				return fmt.Errorf("tables: unigram %d holds word id %d", i, lv.Words[i])
 			}
-			if i > 0 && Compare(lv.Words[k*(i-1):k*i], g) >= 0 {
-				return fmt.Errorf("tables: order %d entry %d out of order or duplicated", k, i)
+		}
+		return nil
+	}
+	// Entries are sorted, so their contexts come in order: one merge
+	// pass with the order below finds each.
+	lower, parent := t.Levels[k-2].Words, 0
+	for i := 0; i < n; i++ {
+		g := lv.Words[k*i : k*i+k]
+		for _, id := range g {
+			if id >= V {
+				return fmt.Errorf("tables: order %d entry %d: word id %d outside vocabulary of %d", k, i, id, V)
 			}
-			if k == 2 {
-				continue // every word is a unigram
-			}
-			for parent < len(lower)/(k-1) && Compare(lower[(k-1)*parent:(k-1)*parent+k-1], g[:k-1]) < 0 {
-				parent++
-			}
-			if parent == len(lower)/(k-1) || Compare(lower[(k-1)*parent:(k-1)*parent+k-1], g[:k-1]) != 0 {
-				return fmt.Errorf("tables: order %d entry %d (%s): its context is not stored", k, i, t.Words(g))
-			}
+		}
+		if i > 0 && Compare(lv.Words[k*(i-1):k*i], g) >= 0 {
+			return fmt.Errorf("tables: order %d entry %d out of order or duplicated", k, i)
+		}
+		if k == 2 {
+			continue // every word is a unigram
+		}
+		for parent < len(lower)/(k-1) && Compare(lower[(k-1)*parent:(k-1)*parent+k-1], g[:k-1]) < 0 {
+			parent++
+		}
+		if parent == len(lower)/(k-1) || Compare(lower[(k-1)*parent:(k-1)*parent+k-1], g[:k-1]) != 0 {
+			return fmt.Errorf("tables: order %d entry %d (%s): its context is not stored", k, i, t.Words(g))
 		}
 	}
 	return nil
