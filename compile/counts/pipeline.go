@@ -221,14 +221,28 @@ func Count(ctx context.Context, opt Options, inputs []Input, out io.Writer) (*Re
 	for i, st := range streams {
 		st.(interface{ setRemap([]uint32) }).setRemap(remaps[i])
 	}
-	m, err := newMerger(streams)
-	if err != nil {
-		return nil, err
-	}
+	var err error
 	if opt.MinWordCount > 1 && opt.Vocabulary == nil {
+		var m *merger
+		m, err = newMerger(streams)
+		if err != nil {
+			return nil, err
+		}
 		rep.Entries, rep.Words, err = writeMinCount(opt, dir, vocab, m, out)
 	} else {
-		rep.Entries, err = writeMerged(opt.Order, vocab, m, opt.Text, out)
+		// One stream (one worker that never spilled) is written as it
+		// comes: it has nothing to merge.
+		var src stream
+		if len(streams) == 1 {
+			src = streams[0]
+		} else {
+			var m *merger
+			if m, err = newMerger(streams); err != nil {
+				return nil, err
+			}
+			src = &mergedStream{m: m}
+		}
+		rep.Entries, err = writeMerged(opt.Order, vocab, src, opt.Text, out)
 		rep.Words = len(vocab)
 	}
 	if err != nil {
@@ -299,7 +313,7 @@ func newWorker(opt Options, budget int64, dir, name string) *worker {
 	w := &worker{order: opt.Order, words: newInterner(opt.Vocabulary)}
 	w.start = w.words.wordID(tables.SentenceStart)
 	w.end = w.words.wordID(tables.SentenceEnd)
-	w.sorter = newSorter(opt.Order, &w.words.words, budget, dir, name)
+	w.sorter = newSorter(opt.Order, &w.words.words, budget, dir, name, true)
 	return w
 }
 
@@ -350,10 +364,7 @@ func (w *worker) countSentence(s []uint32) error {
 		for k := 2; k <= top; k++ {
 			keys[k-1] = gramKey(prev[k-2], word)
 		}
-		cur = cur[:0]
-		for k := range top {
-			cur = append(cur, t.add(keys[k], k+1, 1))
-		}
+		cur = t.addRow(cur[:0], keys[:top])
 		prev, cur = cur, prev
 	}
 	w.prev, w.cur = prev, cur
@@ -415,16 +426,28 @@ func (s *sink) close() error {
 	return nil
 }
 
-// writeMerged writes the merged streams as they come.
-func writeMerged(order int, vocab []string, m *merger, asText bool, out io.Writer) ([]uint64, error) {
+// mergedStream is a merge read as one stream.
+type mergedStream struct {
+	m *merger
+	g []uint32
+}
+
+func (ms *mergedStream) next() ([]uint32, uint64, error) {
+	var n uint64
+	var err error
+	ms.g, n, _, err = ms.m.next(ms.g)
+	return ms.g, n, err
+}
+
+// writeMerged writes the entries of src (a merge, or one sorted stream) as
+// they come.
+func writeMerged(order int, vocab []string, src stream, asText bool, out io.Writer) ([]uint64, error) {
 	s, err := newSink(order, vocab, asText, out)
 	if err != nil {
 		return nil, err
 	}
-	var g []uint32
 	for {
-		var n uint64
-		g, n, _, err = m.next(g)
+		g, n, err := src.next()
 		if err == io.EOF {
 			break
 		}
@@ -498,7 +521,7 @@ func writeMinCount(opt Options, dir string, vocab []string, m *merger, out io.Wr
 		}
 	}
 	words := final
-	so := newSorter(opt.Order, &words, opt.Memory*3/4, dir, "min")
+	so := newSorter(opt.Order, &words, opt.Memory*3/4, dir, "min", false)
 	mapped := make([]uint32, 0, tables.MaxOrder)
 	add := func(g []uint32, n uint64) error {
 		mapped = mapped[:0]

@@ -27,12 +27,25 @@ import (
 // known exactly (bytesPerRecord). A slot holds, above the record index, a
 // tag: bits of the key's hash, so that a probe passes over most slots of
 // other keys without reading their records.
+//
+// The n-grams of the highest order, when top is set, take no record: no
+// n-gram extends them, so nothing needs their record, and most of them
+// are new (a record, a probe that misses the cache, and a share of the
+// slot array's doublings each). Each occurrence appends its key to tops
+// instead, and the sort (sortEntries) sums the repeated ones.
 type gramHash struct {
-	recs    []gramRec
+	// pages hold the records, recPage to a page: a table grows a page at
+	// a time and never copies its records (nor clears them twice).
+	pages   [][]gramRec
+	n       int      // records held
 	order   []uint8  // order of each record
 	slots   []uint32 // tag | record index + 1, 0 when empty; at most half full
 	tagMask uint32   // the bits of a slot that hold the tag
-	maxCap  int      // records the budget allows
+	touched uint64   // what addRow read ahead (kept so that the reads stay)
+	uni     []uint32 // record + 1 of each word's unigram, 0 when none: unigrams take no slot
+	top     int      // the order counted in tops (0: none, every order in records)
+	tops    []uint64 // key of each occurrence of an n-gram of order top
+	maxCap  int      // records the budget allows (and keys in tops)
 	limit   int      // records allowed now: maxCap, or less for a large vocabulary (see setWords)
 }
 
@@ -44,29 +57,50 @@ type gramRec struct {
 // bytesPerRecord bounds what one record costs, whatever the order: the
 // record (key and count, 16 bytes), its order (1), and three slots of 4
 // bytes (the slot array holds at most two per record the budget allows,
-// and while it doubles the old array, half as long, is still held). The
-// sort reuses the slot array (a uint64 per record), so it costs nothing
-// more.
-func bytesPerRecord(int) int64 { return 16 + 1 + 3*4 }
+// and while it doubles the old array, half as long, is still held), and,
+// with a list of the top order's keys (withTops), one key of 8 bytes there
+// (the list holds at most as many keys as the table records). The sort
+// reuses the slot array (a uint64 per record) and sorts the list in place,
+// so it costs nothing more. The records are allocated a page at a time:
+// up to one page (4 MiB) beyond.
+func bytesPerRecord(withTops bool) int64 {
+	if withTops {
+		return 16 + 1 + 3*4 + 8
+	}
+	return 16 + 1 + 3*4
+}
 
 // unlimited is the record cap of a table without a budget.
 const unlimited = 1 << 31
 
 func gramKey(prefix uint32, word uint32) uint64 { return uint64(prefix+1)<<32 | uint64(word) }
 
-func newGramHash(maxCap int) *gramHash {
+// recPageBits is the log2 of the records in a page.
+const recPageBits = 18
+
+// newGramHash returns a table of at most maxCap records; top > 1 counts
+// the n-grams of that order in a list of keys (at most maxCap too).
+func newGramHash(maxCap, top int) *gramHash {
 	t := &gramHash{maxCap: maxCap, limit: maxCap}
+	if top > 1 {
+		t.top = top
+	}
 	t.makeSlots(min(1<<12, 2*maxCap))
 	if maxCap < unlimited {
-		// The whole budget at once: untouched pages cost no memory, and
-		// the records are never copied as they grow.
-		t.recs = make([]gramRec, 0, maxCap)
-		t.order = make([]uint8, 0, maxCap)
+		t.order = make([]uint8, 0, maxCap) // untouched pages cost nothing
+		if t.top > 0 {
+			t.tops = make([]uint64, 0, maxCap)
+		}
 	}
 	return t
 }
 
-func (t *gramHash) len() int { return len(t.recs) }
+func (t *gramHash) len() int { return t.n }
+
+// rec returns record i.
+func (t *gramHash) rec(i uint32) *gramRec {
+	return &t.pages[i>>recPageBits][i&(1<<recPageBits-1)]
+}
 
 // sortKeyBits is the width of a sorted entry's key: 64, narrower only in
 // tests, so that small inputs reach the limits large ones reach.
@@ -85,7 +119,9 @@ func (t *gramHash) setWords(v int) {
 }
 
 // room reports whether k more records fit.
-func (t *gramHash) room(k int) bool { return len(t.recs)+k <= t.limit }
+func (t *gramHash) room(k int) bool {
+	return t.n+k <= t.limit && (t.top == 0 || len(t.tops) < t.maxCap)
+}
 
 // makeSlots replaces the slot array by an empty one of size entries. A
 // record index + 1 never exceeds the number of records, which never
@@ -94,6 +130,7 @@ func (t *gramHash) room(k int) bool { return len(t.recs)+k <= t.limit }
 func (t *gramHash) makeSlots(size int) {
 	t.slots = nil // the old array can go before the new one is made
 	t.slots = make([]uint32, size)
+	hugePages(unsafe.Slice((*byte)(unsafe.Pointer(&t.slots[0])), 4*size))
 	t.tagMask = ^uint32(0) << bits.Len(uint(size))
 }
 
@@ -111,7 +148,96 @@ func (t *gramHash) slot(key uint64) (int, uint32) {
 // The caller makes sure there is room for a new record. Counts saturate at
 // the largest uint64 rather than wrap (no text holds 2^64 tokens).
 func (t *gramHash) add(key uint64, k int, n uint64) uint32 {
+	if k == t.top {
+		panic("counts: the top order is counted by addRow")
+	}
+	if k == 1 {
+		return t.addUnigram(uint32(key), n)
+	}
 	h, tag := t.slot(key)
+	return t.addAt(key, k, n, h, tag)
+}
+
+// addUnigram counts the unigram word n times and returns its record.
+func (t *gramHash) addUnigram(word uint32, n uint64) uint32 {
+	if int(word) >= len(t.uni) {
+		t.uni = append(t.uni, make([]uint32, max(int(word)+1, 2*len(t.uni), 1<<10)-len(t.uni))...)
+	}
+	if r := t.uni[word]; r != 0 {
+		rec := t.rec(r - 1)
+		rec.count = satAdd(rec.count, n)
+		return r - 1
+	}
+	i := t.newRecord(uint64(word), 1, n)
+	t.uni[word] = i + 1
+	return i
+}
+
+// newRecord appends a record.
+func (t *gramHash) newRecord(key uint64, k int, n uint64) uint32 {
+	i := uint32(t.n)
+	p := int(i >> recPageBits)
+	if p == len(t.pages) {
+		page := make([]gramRec, 1<<recPageBits)
+		hugePages(unsafe.Slice((*byte)(unsafe.Pointer(&page[0])), 16<<recPageBits))
+		t.pages = append(t.pages, page)
+	}
+	t.pages[p][i&(1<<recPageBits-1)] = gramRec{key, n}
+	t.n++
+	t.order = append(t.order, uint8(k))
+	return i
+}
+
+// addRow counts once each the n-grams keys[k] of order k+1 (those ending
+// at one position of a sentence; keys[0] a unigram, at least one) and
+// appends their records to dst (for the top order, which has none,
+// noRecord). Their
+// first slots, and the records these name when the tags match, are read
+// before any is counted: the keys do not depend on one another, so the
+// cache misses of the probes overlap instead of coming one after another.
+func (t *gramHash) addRow(dst []uint32, keys []uint64) []uint32 {
+	var at [tables.MaxOrder]int
+	var tags [tables.MaxOrder]uint32
+	var first [tables.MaxOrder]uint32
+	keys = keys[:min(len(keys), tables.MaxOrder)]
+	var topKey uint64
+	withTop := len(keys) == t.top
+	if withTop {
+		topKey = keys[len(keys)-1]
+		keys = keys[:len(keys)-1]
+	}
+	for k := 1; k < len(keys); k++ {
+		at[k], tags[k] = t.slot(keys[k])
+		first[k] = t.slots[at[k]]
+	}
+	var touch uint64
+	for k := 1; k < len(keys); k++ {
+		if s := first[k]; s != 0 && s&t.tagMask == tags[k] {
+			touch += t.rec((s &^ t.tagMask) - 1).count
+		}
+	}
+	t.touched = touch
+	size := len(t.slots)
+	dst = append(dst, t.addUnigram(uint32(keys[0]), 1))
+	for k := 1; k < len(keys); k++ {
+		key := keys[k]
+		if len(t.slots) != size { // grown: the slots moved
+			at[k], tags[k] = t.slot(key)
+		}
+		dst = append(dst, t.addAt(key, k+1, 1, at[k], tags[k]))
+	}
+	if withTop {
+		t.tops = append(t.tops, topKey)
+		dst = append(dst, noRecord)
+	}
+	return dst
+}
+
+// noRecord stands for the record of an n-gram of the top order.
+const noRecord = ^uint32(0)
+
+// addAt is add from the key's first slot h and its tag.
+func (t *gramHash) addAt(key uint64, k int, n uint64, h int, tag uint32) uint32 {
 	for {
 		s := t.slots[h]
 		if s == 0 {
@@ -119,7 +245,7 @@ func (t *gramHash) add(key uint64, k int, n uint64) uint32 {
 		}
 		if s&t.tagMask == tag {
 			r := s &^ t.tagMask
-			if rec := &t.recs[r-1]; rec.key == key {
+			if rec := t.rec(r - 1); rec.key == key {
 				rec.count = satAdd(rec.count, n)
 				return r - 1
 			}
@@ -128,18 +254,9 @@ func (t *gramHash) add(key uint64, k int, n uint64) uint32 {
 			h = 0
 		}
 	}
-	i := uint32(len(t.recs))
-	if len(t.recs) == cap(t.recs) {
-		// Without a budget: double (append would grow by a quarter at a
-		// time, copying the records several times over).
-		c := max(1<<12, 2*cap(t.recs))
-		t.recs = append(make([]gramRec, 0, c), t.recs...)
-		t.order = append(make([]uint8, 0, c), t.order...)
-	}
-	t.recs = append(t.recs, gramRec{key, n})
-	t.order = append(t.order, uint8(k))
+	i := t.newRecord(key, k, n)
 	t.slots[h] = tag | (i + 1)
-	if 2*len(t.recs) > len(t.slots) {
+	if 2*t.n > len(t.slots) {
 		t.grow()
 	}
 	return i
@@ -152,7 +269,8 @@ func (t *gramHash) addGram(g []uint32, n uint64) {
 	for k := 2; k <= len(g); k++ {
 		r = t.add(gramKey(r, g[k-1]), k, 0)
 	}
-	t.recs[r].count = satAdd(t.recs[r].count, n)
+	rec := t.rec(r)
+	rec.count = satAdd(rec.count, n)
 }
 
 func satAdd(a, b uint64) uint64 {
@@ -165,22 +283,41 @@ func satAdd(a, b uint64) uint64 {
 // grow doubles the slot array (to at most two slots per record allowed).
 func (t *gramHash) grow() {
 	t.makeSlots(min(2*len(t.slots), 2*t.maxCap))
-	for i := range t.recs {
-		h, tag := t.slot(t.recs[i].key)
-		for t.slots[h] != 0 {
-			if h++; h == len(t.slots) {
-				h = 0
-			}
+	// A batch of records at a time: their first slots are read before any
+	// is placed, so that the cache misses overlap.
+	const batch = 16
+	var at [batch]int
+	var tags [batch]uint32
+	var first [batch]uint32
+	for lo := 0; lo < t.n; lo += batch {
+		hi := min(lo+batch, t.n)
+		for i := lo; i < hi; i++ {
+			at[i-lo], tags[i-lo] = t.slot(t.rec(uint32(i)).key)
+			first[i-lo] = t.slots[at[i-lo]]
 		}
-		t.slots[h] = tag | uint32(i+1)
+		for i := lo; i < hi; i++ {
+			if t.order[i] == 1 {
+				continue // unigrams are found through t.uni
+			}
+			h := at[i-lo]
+			for t.slots[h] != 0 {
+				if h++; h == len(t.slots) {
+					h = 0
+				}
+			}
+			t.slots[h] = tags[i-lo] | uint32(i+1)
+		}
+		t.touched += uint64(first[0])
 	}
 }
 
 // reset empties the table, keeping its memory.
 func (t *gramHash) reset() {
-	t.recs = t.recs[:0]
+	t.n = 0
 	t.order = t.order[:0]
 	clear(t.slots)
+	clear(t.uni)
+	t.tops = t.tops[:0]
 }
 
 // sortedEntries is a table's n-grams in entry order (by order, then by the
@@ -222,7 +359,7 @@ func (se *sortedEntries) gram(k, j int, ids []uint32, at []int) {
 // of that order needed. The entries live in the slot array (at least two
 // uint32 per record), which counting no longer needs.
 func (t *gramHash) sortEntries(rank []uint32, order int) *sortedEntries {
-	n := len(t.recs)
+	n := t.n
 	se := &sortedEntries{wb: uint(bits.Len(uint(len(rank)))), nb: uint(bits.Len(uint(n)))}
 	if se.wb+2*se.nb > uint(sortKeyBits) {
 		panic(fmt.Sprintf("counts: %d records and %d words do not fit a sort key", n, len(rank)))
@@ -235,12 +372,47 @@ func (t *gramHash) sortEntries(rank []uint32, order int) *sortedEntries {
 		all = unsafe.Slice((*uint64)(unsafe.Pointer(&t.slots[0])), n)
 	}
 	se.levels = t.entriesByOrder(all, rank, order, se)
-	for _, lv := range se.levels {
+	for k, lv := range se.levels {
+		if k+1 == t.top {
+			se.levels[k] = t.sortTops(rank, se)
+			continue
+		}
 		t.placePrefixes(lv, se)
 		sortUint64s(lv)
 		t.settle(lv, se)
 	}
 	return se
+}
+
+// sortTops makes the entries of the top order from the list of its keys,
+// once the order below is settled: in place, each key becomes an entry
+// (its prefix's position, its word's rank), the list is sorted, and each
+// run of equal entries becomes one with the run's length as its count.
+func (t *gramHash) sortTops(rank []uint32, se *sortedEntries) []uint64 {
+	shift := se.nb + se.wb
+	lv := t.tops
+	for j, key := range lv {
+		lv[j] = t.rec(uint32(key>>32)-1).key<<shift | uint64(rank[uint32(key)])<<se.nb
+	}
+	sortUint64s(lv)
+	full := uint64(1)<<se.nb - 1
+	m := 0
+	for i := 0; i < len(lv); {
+		e := lv[i]
+		j := i + 1
+		for j < len(lv) && lv[j] == e {
+			j++
+		}
+		c := uint64(j - i)
+		if c >= full {
+			se.big = append(se.big, c)
+			c = full
+		}
+		lv[m] = e | c
+		m++
+		i = j
+	}
+	return lv[:m]
 }
 
 // entriesByOrder fills all with one entry per record, grouped by order
@@ -260,7 +432,8 @@ func (t *gramHash) entriesByOrder(all []uint64, rank []uint32, order int, se *so
 		next[k] = at
 		at += size[k]
 	}
-	for i, r := range t.recs {
+	for i := range t.n {
+		r := t.rec(uint32(i))
 		k := t.order[i]
 		all[next[k]] = r.key>>32<<(se.nb+se.wb) | uint64(rank[uint32(r.key)])<<se.nb | uint64(i)
 		next[k]++
@@ -274,7 +447,7 @@ func (t *gramHash) placePrefixes(lv []uint64, se *sortedEntries) {
 	shift := se.nb + se.wb
 	for j, e := range lv {
 		if p := e >> shift; p > 0 {
-			lv[j] = t.recs[p-1].key<<shift | e&(1<<shift-1)
+			lv[j] = t.rec(uint32(p-1)).key<<shift | e&(1<<shift-1)
 		}
 	}
 }
@@ -286,7 +459,7 @@ func (t *gramHash) placePrefixes(lv []uint64, se *sortedEntries) {
 func (t *gramHash) settle(lv []uint64, se *sortedEntries) {
 	full := uint64(1)<<se.nb - 1
 	for j, e := range lv {
-		r := &t.recs[e&full]
+		r := t.rec(uint32(e & full))
 		r.key = uint64(j)
 		c := r.count
 		if c >= full {
@@ -319,15 +492,23 @@ type sorter struct {
 
 // newSorter returns a sorter whose tables hold at most budget bytes (0: no
 // limit; then it never spills).
-func newSorter(order int, words *[]string, budget int64, dir, name string) *sorter {
+//
+// withTops counts the n-grams of the highest order in a list of keys (see
+// gramHash), for a sorter fed by counting only (worker.countSentence):
+// each occurrence once.
+func newSorter(order int, words *[]string, budget int64, dir, name string, withTops bool) *sorter {
 	maxCap := unlimited
 	if budget > 0 {
-		maxCap = int(min(budget/bytesPerRecord(order), unlimited-1))
+		maxCap = int(min(budget/bytesPerRecord(withTops), unlimited-1))
 		if maxCap < 1<<10 {
 			maxCap = 1 << 10
 		}
 	}
-	return &sorter{order: order, words: words, table: newGramHash(maxCap), dir: dir, name: name}
+	top := 0
+	if withTops {
+		top = order
+	}
+	return &sorter{order: order, words: words, table: newGramHash(maxCap, top), dir: dir, name: name}
 }
 
 // add counts g n times, spilling first if the table is full.
@@ -469,7 +650,16 @@ func newTableStream(se *sortedEntries) *tableStream {
 	return st
 }
 
-func (st *tableStream) setRemap(m []uint32)  { st.remap = m }
+func (st *tableStream) setRemap(m []uint32) {
+	for i, id := range m {
+		if id != uint32(i) {
+			st.remap = m
+			return
+		}
+	}
+	st.remap = nil // the identity (one worker's words are the union)
+}
+
 func (st *readerStream) setRemap(m []uint32) { st.remap = m }
 
 func (st *tableStream) next() ([]uint32, uint64, error) {

@@ -163,7 +163,7 @@ func TestTableStreamRemap(t *testing.T) {
 	words := []string{"<s>", "</s>", "<unk>", "c", "a", "b"}
 	grams := [][]uint32{{0, 4, 5, 3}, {0, 4, 5, 1}, {0, 4, 3, 1}, {4, 5, 3}, {4, 5, 1}, {5, 3, 1}, {3}, {4}, {5}, {1}}
 	read := func(remap []uint32) [][]uint32 {
-		s := newSorter(4, &words, 0, "", "t")
+		s := newSorter(4, &words, 0, "", "t", false)
 		for i, g := range grams {
 			if err := s.add(g, uint64(i+1)); err != nil {
 				t.Fatal(err)
