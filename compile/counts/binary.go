@@ -218,7 +218,26 @@ func (w *Writer) Add(ids []uint32, count uint64) error {
 	case count == 0:
 		return fmt.Errorf("count file: zero count for %s", joinIDs(w.hdr.Vocab, ids))
 	}
-	for i, id := range ids {
+	// same: how many leading ids ids shares with the entry before when it
+	// has the same order (those passed the checks below at the same
+	// positions already), else 0.
+	same := 0
+	if w.lastK > 0 {
+		if k < w.lastK {
+			return w.notAfter(ids)
+		}
+		if k == w.lastK {
+			last := w.last[:k]
+			for same < k && last[same] == ids[same] {
+				same++
+			}
+			if same == k || ids[same] < last[same] {
+				return w.notAfter(ids)
+			}
+		}
+	}
+	for i := same; i < k; i++ {
+		id := ids[i]
 		if int(id) >= len(w.hdr.Vocab) {
 			return fmt.Errorf("count file: word id %d outside the word list of %d", id, len(w.hdr.Vocab))
 		}
@@ -228,9 +247,6 @@ func (w *Writer) Add(ids []uint32, count uint64) error {
 	}
 	if k == 1 && ids[0] == w.start {
 		return fmt.Errorf("count file: the unigram %s is never counted", tables.SentenceStart)
-	}
-	if w.lastK > 0 && compareEntry(w.last[:w.lastK], ids) >= 0 {
-		return fmt.Errorf("count file: %s does not come after %s", joinIDs(w.hdr.Vocab, ids), joinIDs(w.hdr.Vocab, w.last[:w.lastK]))
 	}
 	if s := w.totals.Sums[k-1] + count; s < count {
 		return fmt.Errorf("count file: counts of order %d overflow 64 bits", k)
@@ -242,9 +258,7 @@ func (w *Writer) Add(ids []uint32, count uint64) error {
 	}
 	shared := 0
 	if w.entries > 0 {
-		for shared < k-1 && w.last[shared] == ids[shared] {
-			shared++
-		}
+		shared = min(same, k-1) // a block's first entry shares nothing
 	}
 	w.blockK = k
 	w.raw = binary.AppendUvarint(w.raw, uint64(shared))
@@ -303,6 +317,11 @@ func (w *Writer) Close() error {
 	_, err := w.w.Write(encodeEnd(w.totals))
 	w.err = err
 	return err
+}
+
+// notAfter is the error for ids out of order.
+func (w *Writer) notAfter(ids []uint32) error {
+	return fmt.Errorf("count file: %s does not come after %s", joinIDs(w.hdr.Vocab, ids), joinIDs(w.hdr.Vocab, w.last[:w.lastK]))
 }
 
 // Totals returns the totals written so far.

@@ -12,7 +12,8 @@ import (
 // A stream yields entries in increasing order (by length, then
 // lexicographically) under ids of one shared vocabulary.
 type stream interface {
-	// next returns the next entry (ids valid until the next call) or io.EOF.
+	// next returns the next entry (ids valid until the next call, read
+	// only) or io.EOF.
 	next() ([]uint32, uint64, error)
 }
 

@@ -679,12 +679,12 @@ func (st *tableStream) next() ([]uint32, uint64, error) {
 			}
 			ranks := st.ranks[:st.k]
 			st.se.gram(st.k, j, ranks, st.at)
-			out := st.ids[:st.k]
-			copy(out, ranks) // a copy: ranks must stay as gram left it
-			if st.remap != nil {
-				for i, id := range out {
-					out[i] = st.remap[id]
-				}
+			if st.remap == nil {
+				return ranks, n, nil // the caller only reads them
+			}
+			out := st.ids[:st.k] // mapped apart: ranks must stay as gram left it
+			for i, id := range ranks {
+				out[i] = st.remap[id]
 			}
 			return out, n, nil
 		}
