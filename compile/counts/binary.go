@@ -98,6 +98,15 @@ type Writer struct {
 	err     error
 	closed  bool
 	scratch []byte
+	pipe    *blockPipe // nil: blocks compressed by Add and Close
+}
+
+// abort stops a Writer's compressors without writing the end record (for
+// a write given up half-way).
+func (w *Writer) abort() {
+	if w.pipe != nil {
+		w.pipe.close()
+	}
 }
 
 // NewWriter writes the header of a binary count file for h and returns a
@@ -110,6 +119,17 @@ func NewWriter(w io.Writer, h Header) (*Writer, error) {
 // newWriterLevel is NewWriter with a compression level (spill runs favour
 // speed).
 func newWriterLevel(w io.Writer, h Header, level zstd.EncoderLevel) (*Writer, error) {
+	return newWriterOptions(w, h, level, 0)
+}
+
+// newWriterParallel is NewWriter compressing the blocks on compressors
+// goroutines (blockPipe): the same bytes, written sooner on several cores.
+// Its Close, or abort, must be called.
+func newWriterParallel(w io.Writer, h Header, compressors int) (*Writer, error) {
+	return newWriterOptions(w, h, zstd.SpeedDefault, compressors)
+}
+
+func newWriterOptions(w io.Writer, h Header, level zstd.EncoderLevel, compressors int) (*Writer, error) {
 	if h.Order < 1 || h.Order > tables.MaxOrder {
 		return nil, fmt.Errorf("count file: order %d outside 1..%d", h.Order, tables.MaxOrder)
 	}
@@ -127,7 +147,10 @@ func newWriterLevel(w io.Writer, h Header, level zstd.EncoderLevel) (*Writer, er
 	if len(list) > maxVocabRaw {
 		return nil, fmt.Errorf("count file: word list of %d bytes exceeds %d", len(list), maxVocabRaw)
 	}
-	enc, err := zstd.NewWriter(nil, zstd.WithEncoderConcurrency(1), zstd.WithEncoderCRC(false), zstd.WithEncoderLevel(level), zstd.WithWindowSize(frameWindow))
+	newEnc := func() (*zstd.Encoder, error) {
+		return zstd.NewWriter(nil, zstd.WithEncoderConcurrency(1), zstd.WithEncoderCRC(false), zstd.WithEncoderLevel(level), zstd.WithWindowSize(frameWindow))
+	}
+	enc, err := newEnc()
 	if err != nil {
 		return nil, err
 	}
@@ -156,6 +179,11 @@ func newWriterLevel(w io.Writer, h Header, level zstd.EncoderLevel) (*Writer, er
 	}
 	if _, err := w.Write(packed); err != nil {
 		return nil, err
+	}
+	if compressors > 0 {
+		if cw.pipe, err = newBlockPipe(w, compressors, newEnc); err != nil {
+			return nil, err
+		}
 	}
 	return cw, nil
 }
@@ -278,24 +306,22 @@ func (w *Writer) flush() error {
 	if w.entries == 0 {
 		return nil
 	}
-	w.packed = w.enc.EncodeAll(w.raw, w.packed[:0])
-	var h [blockHeaderSize]byte
-	le := binary.LittleEndian
-	h[0] = byte(w.blockK)
-	le.PutUint32(h[1:], uint32(w.entries))
-	le.PutUint32(h[5:], uint32(len(w.raw)))
-	le.PutUint32(h[9:], uint32(len(w.packed)))
-	le.PutUint32(h[13:], crc32.Checksum(w.packed, castagnoli))
-	if _, err := w.w.Write(h[:]); err != nil {
-		w.err = err
-		return err
-	}
-	if _, err := w.w.Write(w.packed); err != nil {
-		w.err = err
-		return err
+	if w.pipe != nil {
+		raw, err := w.pipe.put(w.raw, w.blockK, w.entries)
+		if err != nil {
+			w.err = err
+			return err
+		}
+		w.raw = raw
+	} else {
+		w.packed = w.enc.EncodeAll(w.raw, w.packed[:0])
+		if err := writeBlock(w.w, w.blockK, w.entries, len(w.raw), w.packed); err != nil {
+			w.err = err
+			return err
+		}
+		w.raw = w.raw[:0]
 	}
 	w.totals.Blocks++
-	w.raw = w.raw[:0]
 	w.entries = 0 // a block starts afresh: its first entry shares nothing
 	return nil
 }
@@ -304,16 +330,24 @@ func (w *Writer) flush() error {
 // underlying writer.
 func (w *Writer) Close() error {
 	if w.err != nil {
+		w.abort()
 		return w.err
 	}
 	if w.closed {
 		return nil
 	}
 	if err := w.flush(); err != nil {
+		w.abort()
 		return err
 	}
 	w.closed = true
 	w.enc.Close()
+	if w.pipe != nil {
+		if err := w.pipe.close(); err != nil {
+			w.err = err
+			return err
+		}
+	}
 	_, err := w.w.Write(encodeEnd(w.totals))
 	w.err = err
 	return err

@@ -191,20 +191,43 @@ func Count(ctx context.Context, opt Options, inputs []Input, out io.Writer) (*Re
 			c()
 		}
 	}()
-	for _, w := range ws {
-		if spilled && w.sorter.table.len() > 0 {
-			progress("spilling", 0)
-			if err := w.sorter.spill(); err != nil {
-				return nil, err
+	// Each worker spills or sorts its table on its own goroutine.
+	type sorted struct {
+		streams   []stream
+		lists     [][]string
+		closeRuns func()
+		err       error
+	}
+	done := make([]sorted, len(ws))
+	if spilled {
+		progress("spilling", 0)
+	}
+	for i, w := range ws {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			d := &done[i]
+			if spilled && w.sorter.table.len() > 0 {
+				if d.err = w.sorter.spill(); d.err != nil {
+					return
+				}
 			}
+			d.streams, d.lists, d.closeRuns, d.err = w.sorter.streams()
+		}()
+	}
+	wg.Wait()
+	for _, d := range done {
+		if d.closeRuns != nil {
+			closers = append(closers, d.closeRuns)
 		}
-		st, ls, closeRuns, err := w.sorter.streams()
-		if err != nil {
-			return nil, err
+	}
+	for i, w := range ws {
+		d := done[i]
+		if d.err != nil {
+			return nil, d.err
 		}
-		closers = append(closers, closeRuns)
-		streams = append(streams, st...)
-		lists = append(lists, ls...)
+		streams = append(streams, d.streams...)
+		lists = append(lists, d.lists...)
 		rep.Runs += len(w.sorter.runs)
 		rep.Spilled += w.sorter.spilt
 	}
@@ -228,7 +251,7 @@ func Count(ctx context.Context, opt Options, inputs []Input, out io.Writer) (*Re
 		if err != nil {
 			return nil, err
 		}
-		rep.Entries, rep.Words, err = writeMinCount(opt, dir, vocab, m, out)
+		rep.Entries, rep.Words, err = writeMinCount(opt, workers, dir, vocab, m, out)
 	} else {
 		// One stream (one worker that never spilled) is written as it
 		// comes: it has nothing to merge.
@@ -242,7 +265,7 @@ func Count(ctx context.Context, opt Options, inputs []Input, out io.Writer) (*Re
 			}
 			src = &mergedStream{m: m}
 		}
-		rep.Entries, err = writeMerged(opt.Order, vocab, src, opt.Text, out)
+		rep.Entries, err = writeMerged(opt.Order, vocab, src, opt.Text, compressors(workers), out)
 		rep.Words = len(vocab)
 	}
 	if err != nil {
@@ -395,13 +418,16 @@ type sink struct {
 	entries []uint64
 }
 
-func newSink(order int, vocab []string, asText bool, out io.Writer) (*sink, error) {
+// newSink returns a sink writing to out; a binary file's blocks are
+// compressed on compressors goroutines (0: by the caller's). close or
+// abort must be called.
+func newSink(order int, vocab []string, asText bool, compressors int, out io.Writer) (*sink, error) {
 	s := &sink{vocab: vocab, entries: make([]uint64, order)}
 	if asText {
 		s.text = out
 		return s, nil
 	}
-	w, err := NewWriter(out, Header{Order: order, Vocab: vocab})
+	w, err := newWriterParallel(out, Header{Order: order, Vocab: vocab}, compressors)
 	if err != nil {
 		return nil, err
 	}
@@ -426,6 +452,24 @@ func (s *sink) close() error {
 	return nil
 }
 
+// abort stops what close would have finished (nothing once closed).
+func (s *sink) abort() {
+	if s.bin != nil {
+		s.bin.abort()
+	}
+}
+
+// compressors is how many goroutines compress the output's blocks for
+// workers counting goroutines: none for one (the writing goroutine does),
+// else as many as the workers, up to four (each holds a zstd encoder of a
+// few MiB).
+func compressors(workers int) int {
+	if workers <= 1 {
+		return 0
+	}
+	return min(workers, 4)
+}
+
 // mergedStream is a merge read as one stream.
 type mergedStream struct {
 	m *merger
@@ -441,11 +485,12 @@ func (ms *mergedStream) next() ([]uint32, uint64, error) {
 
 // writeMerged writes the entries of src (a merge, or one sorted stream) as
 // they come.
-func writeMerged(order int, vocab []string, src stream, asText bool, out io.Writer) ([]uint64, error) {
-	s, err := newSink(order, vocab, asText, out)
+func writeMerged(order int, vocab []string, src stream, asText bool, compressors int, out io.Writer) ([]uint64, error) {
+	s, err := newSink(order, vocab, asText, compressors, out)
 	if err != nil {
 		return nil, err
 	}
+	defer s.abort()
 	for {
 		g, n, err := src.next()
 		if err == io.EOF {
@@ -466,7 +511,7 @@ func writeMerged(order int, vocab []string, src stream, asText bool, out io.Writ
 // merge and decide the replacement; the longer n-grams, whose order the
 // replacement changes, go through a second sorter (spilling within the
 // same budget).
-func writeMinCount(opt Options, dir string, vocab []string, m *merger, out io.Writer) ([]uint64, int, error) {
+func writeMinCount(opt Options, workers int, dir string, vocab []string, m *merger, out io.Writer) ([]uint64, int, error) {
 	freq := make([]uint64, len(vocab))
 	var g []uint32
 	var pending []uint32
@@ -508,10 +553,11 @@ func writeMinCount(opt Options, dir string, vocab []string, m *merger, out io.Wr
 	for id, n := range freq {
 		uni[to[id]] += n
 	}
-	s, err := newSink(opt.Order, final, opt.Text, out)
+	s, err := newSink(opt.Order, final, opt.Text, compressors(workers), out)
 	if err != nil {
 		return nil, 0, err
 	}
+	defer s.abort()
 	start, _ := find(final, tables.SentenceStart)
 	for id, n := range uni {
 		if n > 0 && uint32(id) != start {
