@@ -177,6 +177,11 @@ func TestWriterRejectsBadEntries(t *testing.T) {
 		{"bad id", [][]uint32{{5}}, "word id 5 outside the word list of 5"},
 		{"start unigram", [][]uint32{{1}}, "unigram <s> is never counted"},
 		{"end inside", [][]uint32{{0, 3}}, `misplaced marker in "</s> a"`},
+		// After a first word shared with the entry before, the rest is
+		// checked as carefully.
+		{"bad id after a shared word", [][]uint32{{3, 4}, {3, 5}}, "word id 5 outside the word list of 5"},
+		{"start after a shared word", [][]uint32{{3, 0}, {3, 1}}, `misplaced marker in "a <s>"`},
+		{"down after a shared word", [][]uint32{{3, 4}, {3, 3}}, `"a a" does not come after "a b"`},
 	} {
 		w, err := NewWriter(io.Discard, Header{Order: 2, Vocab: vocab})
 		if err != nil {
@@ -197,6 +202,31 @@ func TestWriterRejectsBadEntries(t *testing.T) {
 	}
 	if _, err := NewWriter(io.Discard, Header{Order: 2, Vocab: []string{"a b"}}); err == nil {
 		t.Error("word with a space accepted")
+	}
+}
+
+// Each entry of a block is coded as the words it shares with the entry
+// before, the rest of its words and its count, all uvarints
+// (spec/COUNTS.md, section 3.5): the writer shares the longest prefix it
+// can (at most k-1 words), and nothing across a change of order, so that
+// the file's bytes stay what they were.
+func TestWriterSharesTheLongestPrefix(t *testing.T) {
+	vocab := []string{"</s>", "<s>", "<unk>", "a", "b", "c"}
+	w, err := NewWriter(io.Discard, Header{Order: 3, Vocab: vocab})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, e := range [][]uint32{{3, 4, 5}, {3, 5, 0}, {3, 5, 4}, {4, 3, 0}} {
+		if err := w.Add(e, 7); err != nil {
+			t.Fatal(err)
+		}
+	}
+	want := []byte{0, 3, 4, 5, 7, 1, 5, 0, 7, 2, 4, 7, 0, 4, 3, 0, 7}
+	if !bytes.Equal(w.raw, want) {
+		t.Fatalf("block codes %v, want %v", w.raw, want)
+	}
+	if err := w.Add([]uint32{4, 3, 0, 0}[:3], 1); err == nil {
+		t.Fatal("a duplicate entry accepted")
 	}
 }
 

@@ -195,3 +195,32 @@ func TestTableStreamRemap(t *testing.T) {
 		}
 	}
 }
+
+// failAfter accepts n bytes, fails the write that would pass them, and
+// accepts every write after it: an error that only the failed write tells.
+type failAfter struct {
+	n      int
+	failed bool
+}
+
+func (f *failAfter) Write(p []byte) (int, error) {
+	if !f.failed && len(p) > f.n {
+		f.failed = true
+		return 0, errors.New("disk full")
+	}
+	f.n -= len(p)
+	return len(p), nil
+}
+
+// A write that fails while several goroutines compress the output's
+// blocks (blockPipe) is the error Count returns, at any point of the file.
+func TestCountReportsAFailedWriteWithSeveralWorkers(t *testing.T) {
+	data := generated(t, 3000, 3000, 4)
+	full, _ := countBytes(t, Options{Order: 4, Workers: 2}, data)
+	for _, n := range []int{0, 100, len(full) / 2, len(full) - 1} {
+		_, err := Count(context.Background(), Options{Order: 4, Workers: 2}, []Input{{"gen", bytes.NewReader(data)}}, &failAfter{n: n})
+		if err == nil || !strings.Contains(err.Error(), "disk full") {
+			t.Errorf("failing after %d of %d bytes: got %v", n, len(full), err)
+		}
+	}
+}
