@@ -5,6 +5,7 @@ import (
 	"bytes"
 	"fmt"
 	"io"
+	"os"
 	"strconv"
 	"strings"
 	"unicode/utf8"
@@ -59,7 +60,7 @@ func readSources(order int, sources []Source) (*builder, []binSource, int, error
 			if err != nil {
 				return nil, nil, 0, fmt.Errorf("%s: %w", src.Name, err)
 			}
-			bins = append(bins, binSource{src: fi, r: r})
+			bins = append(bins, binSource{src: fi, r: r, entries: announced(src.R, r.Header().Order)})
 			continue
 		}
 		seen, err := b.addTextFile(order, fi, src.Name, br)
@@ -69,6 +70,33 @@ func readSources(order int, sources []Source) (*builder, []binSource, int, error
 		maxSeen = max(maxSeen, seen)
 	}
 	return b, bins, maxSeen, nil
+}
+
+// announced returns the entries per order that the end record of the
+// binary count file read from r announces, when r can read at an offset
+// without moving (an *os.File, an input.Hashed read as stored), or nil.
+// Load makes room for them at once: a hint, checked by nothing but the
+// Reader at the end; so it is capped at 16 entries per byte of the file.
+func announced(r io.Reader, order int) []uint64 {
+	ra, ok := r.(interface {
+		io.ReaderAt
+		Stat() (os.FileInfo, error)
+	})
+	if !ok {
+		return nil
+	}
+	fi, err := ra.Stat()
+	if err != nil || !fi.Mode().IsRegular() {
+		return nil
+	}
+	t, err := ReadEnd(ra, fi.Size(), order)
+	if err != nil {
+		return nil
+	}
+	for k, n := range t.Entries {
+		t.Entries[k] = min(n, uint64(fi.Size())*16)
+	}
+	return t.Entries
 }
 
 // result finishes a load of text files only.

@@ -2,7 +2,11 @@ package counts
 
 import (
 	"bytes"
+	"encoding/binary"
 	"fmt"
+	"hash/crc32"
+	"os"
+	"path/filepath"
 	"runtime"
 	"strings"
 	"testing"
@@ -119,5 +123,60 @@ func TestLoadReportsTheFirstUnlinkedEntry(t *testing.T) {
 				}
 			}
 		}
+	}
+}
+
+// Load reads the end record of a count file it can read at an offset (an
+// *os.File) to make room for each order at once: the counts and links are
+// those of the same bytes read as a stream. An end record that announces
+// far more entries than the file can hold (2^40 per order here) costs no
+// more than 16 entries per byte of the file, and the Reader still refuses
+// it at the end.
+func TestLoadAnnouncedEntries(t *testing.T) {
+	c := linkCounts(t)
+	var bin bytes.Buffer
+	if err := c.WriteBinary(&bin); err != nil {
+		t.Fatal(err)
+	}
+	path := filepath.Join(t.TempDir(), "c.bin")
+	if err := os.WriteFile(path, bin.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	if got := announced(f, 4); len(got) != 4 || got[3] != uint64(c.Len(4)) {
+		t.Fatalf("announced %v, want order 4's %d entries", got, c.Len(4))
+	}
+	got, err := Load(4, []Source{{"c.bin", f}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if diff := cmp.Diff(c, got); diff != "" {
+		t.Fatalf("loaded from a file (-stream +file):\n%s", diff)
+	}
+	// The end record claims 2^40 entries per order.
+	b := bytes.Clone(bin.Bytes())
+	n := endSize(4)
+	end := b[len(b)-n:]
+	for k := range 4 {
+		binary.LittleEndian.PutUint64(end[9+16*k:], 1<<40)
+	}
+	binary.LittleEndian.PutUint32(end[n-4:], crc32.Checksum(end[:n-4], castagnoli))
+	if err := os.WriteFile(path, b, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	g, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer g.Close()
+	if got := announced(g, 4); got[3] != uint64(len(b))*16 {
+		t.Errorf("announced %v, want the cap %d", got, len(b)*16)
+	}
+	if _, err := Load(4, []Source{{"c.bin", g}}); err == nil {
+		t.Error("a false end record accepted")
 	}
 }

@@ -21,6 +21,9 @@ type stream interface {
 type binSource struct {
 	src int
 	r   *Reader
+	// entries, when not nil, are the entries per order its end record
+	// announces (announced).
+	entries []uint64
 }
 
 // readerStream maps a Reader's ids through a monotone remap (so the order
@@ -295,6 +298,22 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 	}
 	unigram := func(id uint32) bool { return id == start || c.Levels[0].Counts[id] > 0 }
 	var parent2, suffix2 []int32 // the links of order 2, found here
+	// Room at once for the entries of each order that the largest file
+	// announces (the merge holds at least as many).
+	for k := 2; k <= order; k++ {
+		var n uint64
+		for _, s := range bins {
+			if k <= len(s.entries) {
+				n = max(n, s.entries[k-1])
+			}
+		}
+		if n > 0 {
+			c.Levels[k-1] = Level{Words: make([]uint32, 0, uint64(k)*n), Counts: make([]uint64, 0, n)}
+			if k == 2 {
+				parent2, suffix2 = make([]int32, 0, n), make([]int32, 0, n)
+			}
+		}
+	}
 	var task *linkTask           // the run of entries being gathered
 	send := func() {
 		if task != nil {

@@ -3,6 +3,7 @@ package input
 import (
 	"crypto/sha256"
 	"encoding/hex"
+	"errors"
 	"hash"
 	"io"
 	"os"
@@ -16,6 +17,9 @@ import (
 type Hashed struct {
 	io.ReadCloser
 	raw io.Reader // the file through the hash
+	// stored is the file when it is read as stored (not decompressed,
+	// not standard input), for ReadAt and Stat.
+	stored *os.File
 	h   hash.Hash
 	n   counter
 }
@@ -42,12 +46,15 @@ func OpenRegularHashed(name string) (*Hashed, error) {
 	if name == Stdin {
 		shown = "stdin"
 	}
-	r, err := Decompress(shown, h.raw)
+	r, plain, err := decompress(shown, h.raw)
 	if err != nil {
 		if f != os.Stdin {
 			f.Close()
 		}
 		return nil, err
+	}
+	if plain && f != os.Stdin {
+		h.stored = f
 	}
 	h.ReadCloser = &closer{Reader: r, close: func() error {
 		r.Close()
@@ -67,4 +74,27 @@ func (h *Hashed) Digest() (int64, string, error) {
 		return 0, "", err
 	}
 	return int64(h.n), hex.EncodeToString(h.h.Sum(nil)), nil
+}
+
+// errNotStored is ReadAt's and Stat's error for an input that is not read
+// as stored.
+var errNotStored = errors.New("input: not a regular file read as stored")
+
+// ReadAt reads the file as stored at off, without moving the stream nor
+// passing the bytes through the digest (a reader of a count file looks at
+// its end record first this way). It fails for a decompressed file and
+// standard input.
+func (h *Hashed) ReadAt(p []byte, off int64) (int, error) {
+	if h.stored == nil {
+		return 0, errNotStored
+	}
+	return h.stored.ReadAt(p, off)
+}
+
+// Stat describes the file as stored, when ReadAt can read it.
+func (h *Hashed) Stat() (os.FileInfo, error) {
+	if h.stored == nil {
+		return nil, errNotStored
+	}
+	return h.stored.Stat()
 }

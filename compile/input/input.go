@@ -139,30 +139,37 @@ var (
 // used in errors, and its extension (.gz, .zst) makes the matching magic
 // required.
 func Decompress(name string, r io.Reader) (io.ReadCloser, error) {
+	rc, _, err := decompress(name, r)
+	return rc, err
+}
+
+// decompress is Decompress that also reports whether r is read as stored
+// (no decompressor).
+func decompress(name string, r io.Reader) (io.ReadCloser, bool, error) {
 	br := bufio.NewReaderSize(r, 1<<16)
 	head, err := br.Peek(len(zstdMagic))
 	if err != nil && err != io.EOF && err != bufio.ErrBufferFull {
-		return nil, fmt.Errorf("%s: %w", name, err)
+		return nil, false, fmt.Errorf("%s: %w", name, err)
 	}
 	switch {
 	case bytes.HasPrefix(head, gzipMagic):
 		z, err := gzip.NewReader(br)
 		if err != nil {
-			return nil, fmt.Errorf("%s: not a gzip stream: %w", name, err)
+			return nil, false, fmt.Errorf("%s: not a gzip stream: %w", name, err)
 		}
-		return z, nil
+		return z, false, nil
 	case bytes.HasPrefix(head, zstdMagic):
 		z, err := zstd.NewReader(br, zstd.WithDecoderConcurrency(1), zstd.WithDecoderMaxWindow(maxZstdWindow))
 		if err != nil {
-			return nil, fmt.Errorf("%s: not a zstd stream: %w", name, err)
+			return nil, false, fmt.Errorf("%s: not a zstd stream: %w", name, err)
 		}
-		return z.IOReadCloser(), nil
+		return z.IOReadCloser(), false, nil
 	case strings.HasSuffix(name, ".gz"):
-		return nil, fmt.Errorf("%s: not a gzip stream: it does not start with the gzip magic bytes 1f 8b", name)
+		return nil, false, fmt.Errorf("%s: not a gzip stream: it does not start with the gzip magic bytes 1f 8b", name)
 	case strings.HasSuffix(name, ".zst"):
-		return nil, fmt.Errorf("%s: not a zstd stream: it does not start with the zstd magic bytes 28 b5 2f fd", name)
+		return nil, false, fmt.Errorf("%s: not a zstd stream: it does not start with the zstd magic bytes 28 b5 2f fd", name)
 	}
-	return io.NopCloser(br), nil
+	return io.NopCloser(br), true, nil
 }
 
 type closer struct {

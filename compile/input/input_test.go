@@ -65,3 +65,46 @@ func TestLinesHandlesEndingsAndLongLines(t *testing.T) {
 		}
 	}
 }
+
+// A Hashed input read as stored reads at an offset without moving its
+// stream or its digest; a compressed one refuses (its stored bytes are not
+// what it reads).
+func TestHashedReadAt(t *testing.T) {
+	dir := t.TempDir()
+	plain := filepath.Join(dir, "c.txt")
+	os.WriteFile(plain, []byte("0123456789"), 0o644)
+	h, err := OpenRegularHashed(plain)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer h.Close()
+	var b [3]byte
+	if n, err := h.ReadAt(b[:], 7); n != 3 || err != nil || string(b[:]) != "789" {
+		t.Fatalf("ReadAt: %q %d %v", b, n, err)
+	}
+	if fi, err := h.Stat(); err != nil || fi.Size() != 10 {
+		t.Fatalf("Stat: %v %v", fi, err)
+	}
+	all, _ := io.ReadAll(h)
+	n, _, err := h.Digest()
+	if string(all) != "0123456789" || n != 10 || err != nil {
+		t.Fatalf("stream %q, digest of %d bytes, %v", all, n, err)
+	}
+	var gz bytes.Buffer
+	w := gzip.NewWriter(&gz)
+	w.Write([]byte("0123456789"))
+	w.Close()
+	packed := filepath.Join(dir, "c.txt.gz")
+	os.WriteFile(packed, gz.Bytes(), 0o644)
+	g, err := OpenRegularHashed(packed)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer g.Close()
+	if _, err := g.ReadAt(b[:], 0); err == nil {
+		t.Error("a compressed input read at an offset")
+	}
+	if _, err := g.Stat(); err == nil {
+		t.Error("a compressed input gave its stored size")
+	}
+}
