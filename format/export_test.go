@@ -98,4 +98,3 @@ func MarshalKeysEF(t *tables.Tables) ([]byte, error) {
 		s.data, s.Encoding = lastWordKeysEF(t, s.Order, links.Starts, links)
 	})
 }
-

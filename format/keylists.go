@@ -39,7 +39,7 @@ func keyListsBits(keys []uint64, starts []uint32, isContext func(int) bool) []ui
 		}
 		out = append(out, bit)
 		if a, b := starts[p], starts[p+1]; a < b {
-			bit += uint64(b-a)*uint64(keyWidth(keys[b-1]))
+			bit += uint64(b-a) * uint64(keyWidth(keys[b-1]))
 		}
 	}
 	return append(out, bit)
@@ -164,25 +164,62 @@ func bitsAt(b []byte, bit uint64, width uint) uint64 {
 }
 
 // find returns the position in its list of key in the list of cnt keys
-// at start of the given width, or false.
+// at start of the given width, or false. A long list is entered where
+// the key would sit if the keys spread evenly below 2^width, then searched
+// outwards in doubling steps and by bisection, so that a search reads the
+// lines near that point rather than those of a bisection of the whole
+// list.
 func (kl *keyLists) find(start uint64, width uint, cnt, key uint64) (uint64, bool) {
-	if width < keyWidth(key) {
+	if width < keyWidth(key) || cnt == 0 {
 		return 0, false // the list's keys are all smaller
 	}
+	at := func(i uint64) uint64 { return kl.keyAt(start+i*uint64(width), width) }
+	// The first position whose key is at least key lies in [lo, hi]
+	// (hi = cnt: none).
 	lo, hi := uint64(0), cnt
+	if cnt > 16 {
+		g := min(key*cnt>>width, cnt-1) // key < 2^width, so no overflow for cnt < 2^32
+		if at(g) >= key {
+			hi = g
+			for step := uint64(1); ; step *= 2 {
+				if step > hi-lo {
+					break
+				}
+				if at(hi-step) < key {
+					lo = hi - step + 1
+					break
+				}
+				hi -= step
+			}
+		} else {
+			lo = g + 1
+			for step := uint64(1); ; step *= 2 {
+				if lo+step-1 >= hi {
+					break
+				}
+				if at(lo+step-1) >= key {
+					hi = lo + step - 1
+					break
+				}
+				lo += step
+			}
+		}
+	}
 	for hi-lo > 8 {
 		mid := lo + (hi-lo)/2
-		if kl.keyAt(start+mid*uint64(width), width) <= key {
-			lo = mid
+		if at(mid) < key {
+			lo = mid + 1
 		} else {
 			hi = mid
 		}
 	}
 	for i := lo; i < hi; i++ {
-		v := kl.keyAt(start+i*uint64(width), width)
-		if v >= key {
+		if v := at(i); v >= key {
 			return i, v == key
 		}
+	}
+	if hi < cnt && at(hi) == key {
+		return hi, true
 	}
 	return 0, false
 }

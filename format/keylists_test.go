@@ -150,3 +150,47 @@ func TestKeyListsChosenWhenShorter(t *testing.T) {
 		}
 	}
 }
+
+// TestKeyListsFindAnyList checks the search of a list against every key
+// and every gap, on lists of every length up to 200 and keys spread evenly,
+// crowded at the low end and crowded at the high end of their width.
+func TestKeyListsFindAnyList(t *testing.T) {
+	for n := 1; n <= 200; n++ {
+		for shape := 0; shape < 3; shape++ {
+			keys := make([]uint64, n)
+			for i := range keys {
+				switch shape {
+				case 0:
+					keys[i] = uint64(3*i + 1)
+				case 1:
+					keys[i] = uint64(i)
+					if i == n-1 {
+						keys[i] = 5000 // one large key: a wide list of small keys
+					}
+				default:
+					keys[i] = uint64(5000 - 2*(n-1-i))
+				}
+			}
+			b := encodeKeyLists(keys, []uint32{0, uint32(n)}, func(int) bool { return true })
+			kl, err := parseKeyLists(b, 1)
+			if err != nil {
+				t.Fatal(err)
+			}
+			start, width, ok := kl.list(0, uint64(n))
+			if !ok {
+				t.Fatalf("n %d shape %d: no list", n, shape)
+			}
+			present := map[uint64]int{}
+			for i, k := range keys {
+				present[k] = i
+			}
+			for key := uint64(0); key <= 5002; key++ {
+				i, found := kl.find(start, width, uint64(n), key)
+				want, ok := present[key]
+				if found != ok || (ok && int(i) != want) {
+					t.Fatalf("n %d shape %d key %d: found %v at %d, want %v at %d", n, shape, key, found, i, ok, want)
+				}
+			}
+		}
+	}
+}

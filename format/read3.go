@@ -167,12 +167,7 @@ func (m *Model) extensions3(s *State, w uint32, child *[tables.MaxOrder]uint32) 
 		}
 	}
 	// With key lists, the list's start is found by the same rank as the
-	// child start, and the list itself is touched here: the searches
-	// below, which at ranked orders run one order after another, then
-	// read lines already on their way.
-	var listAt [tables.MaxOrder]uint64
-	var width [tables.MaxOrder]uint
-	var listOK [tables.MaxOrder]bool
+	// child start: its first words are touched with the child start's.
 	for j := 1; j <= n; j++ {
 		if marked[j] && m.levels[j].listed {
 			touched += m.levels[j].lists.touch(r[j])
@@ -181,14 +176,8 @@ func (m *Model) extensions3(s *State, w uint32, child *[tables.MaxOrder]uint32) 
 	for j := 1; j <= n; j++ {
 		if marked[j] {
 			lo[j], hi[j] = m.childRangeAt(j, r[j])
-			if lo[j] >= hi[j] {
-				continue
-			}
-			if next := &m.levels[j]; next.listed {
-				listAt[j], width[j], listOK[j] = next.lists.list(r[j], hi[j]-lo[j])
-				touched += next.lists.touchAt(listAt[j])
-			} else {
-				touched += next.keys.touch(lo[j] - min(lo[j], 1))
+			if lo[j] < hi[j] && !m.levels[j].listed {
+				touched += m.levels[j].keys.touch(lo[j] - min(lo[j], 1))
 			}
 		}
 	}
@@ -211,7 +200,11 @@ func (m *Model) extensions3(s *State, w uint32, child *[tables.MaxOrder]uint32) 
 			continue
 		}
 		if next := &m.levels[j]; next.listed {
-			if i, ok := next.lists.find(listAt[j], width[j], hi[j]-lo[j], key); ok && listOK[j] {
+			start, width, ok := next.lists.list(r[j], hi[j]-lo[j])
+			if !ok {
+				continue
+			}
+			if i, ok := next.lists.find(start, width, hi[j]-lo[j], key); ok {
 				child[j] = uint32(lo[j] + i)
 			}
 			continue

@@ -86,6 +86,7 @@ func BenchmarkLayouts(b *testing.B) {
 	}
 	defer m2.Close()
 	reportScoring(b, m3, m2, held)
+	reportKeyEncodings(b, models["8-bit"], held)
 
 	// Open time: the golden model and this one.
 	tiny := filepath.Join("..", "spec", "golden", "tiny.v3.ingot")
@@ -181,10 +182,11 @@ func BenchmarkLayoutsGenerated(b *testing.B) {
 			b.ReportMetric(openTime(b, path), "open-ns")
 		}
 	}
-	q = nil
 	b.ReportMetric(float64(ngrams), "ngrams")
 	m3, m2 := models[3], models[2]
 	reportScoring(b, m3, m2, held)
+	reportKeyEncodings(b, q, held)
+	q = nil
 	b.ReportMetric(float64(m2.Size())/(1<<20), "v2-MiB")
 }
 
@@ -566,4 +568,74 @@ func BenchmarkTieredScoring(b *testing.B) {
 	b.ReportMetric(median(tt), "tiered-ns/word")
 	b.ReportMetric(median(tp), "packed-ns/word")
 	b.ReportMetric(median(ratios), "tiered/packed")
+}
+
+// reportKeyEncodings reports, for the 8-bit tables q written in version 3,
+// the bits per key of each order's last words as the writer stores them
+// (one Elias-Fano sequence per order or key lists, whichever is shorter,
+// spec/FORMAT.md 4.8.7) and in each of the two forms, which form the
+// writer chose (1: lists), and the per-word scoring time of the three
+// files over the held-out text, five rounds interleaved, medians and the
+// ratio of each to one sequence per order at every order.
+func reportKeyEncodings(b *testing.B, q *tables.Tables, held []string) {
+	written, err := format.Marshal(q)
+	if err != nil {
+		b.Fatal(err)
+	}
+	one, err := format.MarshalKeysEF(q)
+	if err != nil {
+		b.Fatal(err)
+	}
+	lists, err := format.MarshalKeyLists(q)
+	if err != nil {
+		b.Fatal(err)
+	}
+	mw, mo, ml := mustFromBytes(b, written), mustFromBytes(b, one), mustFromBytes(b, lists)
+	keyBytes := func(m *format.Model, k int) (int64, format.Encoding) {
+		for _, s := range m.Sections() {
+			if s.Kind == format.KindLastWords && s.Order == k {
+				return s.Length, s.Encoding
+			}
+		}
+		b.Fatalf("no last words of order %d", k)
+		return 0, 0
+	}
+	for k := 2; k <= q.Order(); k++ {
+		n := float64(q.Len(k))
+		w, enc := keyBytes(mw, k)
+		o, _ := keyBytes(mo, k)
+		l, _ := keyBytes(ml, k)
+		o2 := "o" + string(rune('0'+k))
+		b.ReportMetric(8*float64(w)/n, "keys-"+o2+"-bits/key")
+		b.ReportMetric(8*float64(o)/n, "keys-"+o2+"-one-bits/key")
+		b.ReportMetric(8*float64(l)/n, "keys-"+o2+"-lists-bits/key")
+		listed := 0.0
+		if enc == format.ListIDs || enc == format.ListRanks {
+			listed = 1
+		}
+		b.ReportMetric(listed, "keys-"+o2+"-listed")
+	}
+	ngrams := 0
+	for k := 1; k <= q.Order(); k++ {
+		ngrams += q.Len(k)
+	}
+	b.ReportMetric(float64(len(one))/float64(ngrams), "one-bytes/ngram")
+	b.ReportMetric(float64(len(lists))/float64(ngrams), "lists-bytes/ngram")
+	ids := heldIDs(mw, held)
+	var tw, to, tl, rw, rl []float64
+	for range 5 {
+		w, sw := scoreText(mw, ids)
+		o, so := scoreText(mo, ids)
+		l, sl := scoreText(ml, ids)
+		if sw != so || sw != sl {
+			b.Fatalf("held-out log10 sums differ: %v written, %v one sequence, %v lists", sw, so, sl)
+		}
+		tw, to, tl = append(tw, w), append(to, o), append(tl, l)
+		rw, rl = append(rw, w/o), append(rl, l/o)
+	}
+	b.ReportMetric(median(tw), "keys-written-ns/word")
+	b.ReportMetric(median(to), "keys-one-ns/word")
+	b.ReportMetric(median(tl), "keys-lists-ns/word")
+	b.ReportMetric(median(rw), "keys-written/one")
+	b.ReportMetric(median(rl), "keys-lists/one")
 }

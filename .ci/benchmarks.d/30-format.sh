@@ -67,12 +67,35 @@ printf '%.2f. Coding each value at its entropy would save %.3f bytes per n-gram 
 echo "these two columns alone."
 if [ -n "$(v keys-sibling-bits/key)" ]; then
 	echo
-	printf 'Keys coded one sibling list at a time (measured on the same keys, not\n'
-	printf 'implemented: each list in Elias-Fano or at fixed width over the universe a\n'
-	printf 'reader already knows, the vocabulary or the successor count of the\n'
-	printf "parent's suffix) would take %.2f bits per key for the lists alone, but\n" "$(v keys-lists-bits/key)"
-	printf '%.2f with the starting bit of each list, against %.2f for the one sequence\n' "$(v keys-sibling-bits/key)" "$(v keys-bits/key)"
-	printf 'per order stored now. With every column at its entropy and keys at the\n'
+	echo "Last-word keys per order, in bits per key: as the writer stores them, and"
+	echo "in each of the two encodings it chooses from per order, the shorter one"
+	echo "(spec/FORMAT.md 4.8.2: one Elias-Fano sequence per order; 4.8.7: key"
+	echo "lists, each sibling list at the width of its largest key, found through"
+	echo "an Elias-Fano sequence of list starts read with the parent's context rank):"
+	echo
+	echo "| model | order | stored as | bits/key | one sequence | key lists |"
+	echo "| --- | ---: | --- | ---: | ---: | ---: |"
+	for src in v g; do
+		for k in 2 3 4 5; do
+			[ -n "$($src keys-o$k-bits/key)" ] || continue
+			printf '| %s | %s | %s | %.2f | %.2f | %.2f |\n' "$([ $src = v ] && echo 'bundled corpus' || echo generated)" "$k" \
+				"$([ "$($src keys-o$k-listed)" = 1 ] && echo 'key lists' || echo 'one sequence')" \
+				"$($src keys-o$k-bits/key)" "$($src keys-o$k-one-bits/key)" "$($src keys-o$k-lists-bits/key)"
+		done
+	done
+	echo
+	printf 'Whole 8-bit file in bytes per n-gram, bundled corpus: %.3f as written,\n' "$(v 8-bit-v3-bytes/ngram)"
+	printf '%.3f with one sequence at every order, %.3f with key lists at every\n' "$(v one-bytes/ngram)" "$(v lists-bytes/ngram)"
+	printf 'order; generated model: %.3f, %.3f and %.3f. The bound measured\n' "$(g v3-bytes/ngram)" "$(g one-bytes/ngram)" "$(g lists-bytes/ngram)"
+	printf 'before key lists existed (each list at the smaller of Elias-Fano and a\n'
+	printf 'fixed width over the universe a reader knows, the vocabulary or the\n'
+	printf "successor count of the parent's suffix): %.2f bits per key for the lists\n" "$(v keys-lists-bits/key)"
+	printf 'alone, %.2f with list starts, against %.2f as stored now. Scoring the\n' "$(v keys-sibling-bits/key)" "$(v keys-bits/key)"
+	printf 'held-out text with the three files side by side (five interleaved\n'
+	printf 'rounds, medians; ratios to one sequence at every order): bundled corpus\n'
+	printf '%.0f ns/word as written (%.2f), %.0f with key lists at every order\n' "$(v keys-written-ns/word)" "$(v keys-written/one)" "$(v keys-lists-ns/word)"
+	printf '(%.2f), %.0f with one sequence; generated model %.0f (%.2f), %.0f\n' "$(v keys-lists/one)" "$(v keys-one-ns/word)" "$(g keys-written-ns/word)" "$(g keys-written/one)" "$(g keys-lists-ns/word)"
+	printf '(%.2f), %.0f. With every column at its entropy and keys at the\n' "$(g keys-lists/one)" "$(g keys-one-ns/word)"
 	printf 'lists-alone figure (a floor no layout with random access reaches), the\n'
 	printf 'file would take %.2f bytes per n-gram; the back-off weights, %.2f bytes\n' \
 		"$(awk -v t="$(v 8-bit-v3-bytes/ngram)" -v sb="$(v backoffs-stored)" -v wb="$(v backoffs-bits/value)" -v eb="$(v backoffs-entropy-bits/value)" \
@@ -107,7 +130,9 @@ echo "finding the word's entry is a chain of dependent reads: the context's mark
 echo "and rank counter (its rank among the contexts), the child-start sample and"
 echo "the high bits after it (an Elias-Fano select, a scan of about four 64-bit"
 echo "words from a sample every 256 values), the keys' sample and high bits"
-echo "before the first child, then the key scan; at orders 3 and up the key is"
+echo "before the first child, then the key scan (with key lists: the list"
+echo "start's sample and high bits, read with the same rank as the child start,"
+echo "then the list itself); at orders 3 and up the key is"
 echo "the rank found one order below, so the scans run order after order. Version"
 echo "2 reads a child start and binary-searches plain word ids. \`Model.Next\`"
 echo "starts the reads of all orders' chains together (one link of every order"
