@@ -42,7 +42,7 @@ echo "| part | bytes/n-gram |"
 echo "| --- | ---: |"
 for p in keys probs backoffs starts marks vocab other; do
 	name=$(case $p in
-		keys) echo "last-word keys (Elias-Fano; successor ranks from order 3)" ;;
+		keys) echo "last-word keys (successor ranks from order 3; per order one Elias-Fano sequence or key lists)" ;;
 		probs) echo "probabilities (8-bit indexes; unigrams in a codebook of their own)" ;;
 		backoffs) echo "back-off weights (contexts only)" ;;
 		starts) echo "child starts (Elias-Fano, contexts only)" ;;
@@ -79,7 +79,7 @@ if [ -n "$(v keys-sibling-bits/key)" ]; then
 		for k in 2 3 4 5; do
 			[ -n "$($src keys-o$k-bits/key)" ] || continue
 			printf '| %s | %s | %s | %.2f | %.2f | %.2f |\n' "$([ $src = v ] && echo 'bundled corpus' || echo generated)" "$k" \
-				"$([ "$($src keys-o$k-listed)" = 1 ] && echo 'key lists' || echo 'one sequence')" \
+				"$(awk -v x="$($src keys-o$k-listed)" 'BEGIN { print (x > 0.5 ? "key lists" : "one sequence") }')" \
 				"$($src keys-o$k-bits/key)" "$($src keys-o$k-one-bits/key)" "$($src keys-o$k-lists-bits/key)"
 		done
 	done
@@ -95,7 +95,11 @@ if [ -n "$(v keys-sibling-bits/key)" ]; then
 	printf 'rounds, medians; ratios to one sequence at every order): bundled corpus\n'
 	printf '%.0f ns/word as written (%.2f), %.0f with key lists at every order\n' "$(v keys-written-ns/word)" "$(v keys-written/one)" "$(v keys-lists-ns/word)"
 	printf '(%.2f), %.0f with one sequence; generated model %.0f (%.2f), %.0f\n' "$(v keys-lists/one)" "$(v keys-one-ns/word)" "$(g keys-written-ns/word)" "$(g keys-written/one)" "$(g keys-lists-ns/word)"
-	printf '(%.2f), %.0f. With every column at its entropy and keys at the\n' "$(g keys-lists/one)" "$(g keys-one-ns/word)"
+	printf '(%.2f), %.0f. A key list costs the lines of its start'"'"'s Elias-Fano\n' "$(g keys-lists/one)" "$(g keys-one-ns/word)"
+	printf 'select and then its own, where one sequence'"'"'s select lands on the keys\n'
+	printf 'themselves, so lists read more lines per word (section 31-reads): the\n'
+	printf 'writer chooses them for size, at a cost in speed. With every column at\n'
+	printf 'its entropy and keys at the\n'
 	printf 'lists-alone figure (a floor no layout with random access reaches), the\n'
 	printf 'file would take %.2f bytes per n-gram; the back-off weights, %.2f bytes\n' \
 		"$(awk -v t="$(v 8-bit-v3-bytes/ngram)" -v sb="$(v backoffs-stored)" -v wb="$(v backoffs-bits/value)" -v eb="$(v backoffs-entropy-bits/value)" \
