@@ -21,8 +21,9 @@ import (
 // n-gram without its last word; none for a unigram) and its last word id.
 // Counting the n-grams that end at one position of a sentence, given the
 // records of those that ended at the position before, costs one probe per
-// order and one integer comparison per probe; no n-gram is ever hashed as
-// a list of words. Records are kept in insertion order, so a prefix's
+// order from 2 up (a unigram's record is found by its word, in uni) and
+// one integer comparison per probe; no n-gram is ever hashed as a list of
+// words. Records are kept in insertion order, so a prefix's
 // record always comes before its extensions'; what the table holds is
 // known exactly (bytesPerRecord). A slot holds, above the record index, a
 // tag: bits of the key's hash, so that a probe passes over most slots of
@@ -34,8 +35,8 @@ import (
 // slot array's doublings each). Each occurrence appends its key to tops
 // instead, and the sort (sortEntries) sums the repeated ones.
 type gramHash struct {
-	// pages hold the records, recPage to a page: a table grows a page at
-	// a time and never copies its records (nor clears them twice).
+	// pages hold the records, 1<<recPageBits to a page: a table grows a
+	// page at a time and never copies its records (nor clears them twice).
 	pages   [][]gramRec
 	n       int      // records held
 	order   []uint8  // order of each record
@@ -118,7 +119,8 @@ func (t *gramHash) setWords(v int) {
 	}
 }
 
-// room reports whether k more records fit.
+// room reports whether k more records (or k-1 and a key of the top
+// order) fit.
 func (t *gramHash) room(k int) bool {
 	return t.n+k <= t.limit && (t.top == 0 || len(t.tops) < t.maxCap)
 }
