@@ -32,6 +32,9 @@ type Options struct {
 	// nearestOnly rounds each weight to its nearest level and moves no
 	// probability (tests compare the joint choice against it).
 	nearestOnly bool
+	// nearestBackoffs keeps each weight at the level the joint choice
+	// found first and skips cheapen (tests measure what it saves).
+	nearestBackoffs bool
 }
 
 // DefaultBackoffBits returns the back-off weight width used when none is
@@ -94,9 +97,13 @@ type OrderReport struct {
 //     weight level first, then its neighbours; successors moved a level at
 //     a time) so that S(h) lands within ResidualGoal of one where the
 //     levels allow. An order where some context stays further than
-//     MaxResidual from one gets wider weights (two more bits at a
+//     MaxResidual from one gets wider weights (one more bit at a
 //     time, up to 16): a representation fine enough where the left-over
-//     mass needs it.
+//     mass needs it;
+//  4. when that codebook is wider than 8 bits, weights are moved onto the
+//     255 levels the most contexts use where a level within a factor of
+//     1.007 keeps the context within MaxResidual of one (cheapen), so that
+//     a tiered column (spec/FORMAT.md §4.8.6) escapes fewer of them.
 //
 // The largest |S(h) - 1| per order is recorded (Info.Quantization.Residual)
 // as a claim; ingot verify measures every sum itself and never reads it.
@@ -144,6 +151,7 @@ func Model(t *tables.Tables, opt Options) (*tables.Tables, []OrderReport, error)
 		sums.empty += math.Pow(10, float64(p)) // <s> stores -Inf: adds 0
 	}
 	for k := 1; k < N; k++ {
+		opt.weights = mass[k-1]
 		if err := quantizeBackoffs(q, k, opt, probBooks[k], sums, &reports[k-1]); err != nil {
 			return nil, nil, err
 		}
@@ -330,7 +338,7 @@ const ResidualGoal = 1e-5
 
 // MaxResidual is the largest |S(h) - 1| Model leaves in any context: an
 // order whose back-off weights cannot meet it at the asked width is given
-// wider weights (two more bits at a time, up to 16). ingot verify allows
+// wider weights (one more bit at a time, up to 16). ingot verify allows
 // ten times this for any model with a quantized column
 // (verify.QuantizedTolerance) and reads nothing from the file to decide
 // it.
@@ -375,7 +383,9 @@ func (s *contextSums) of(q *tables.Tables, g []uint32) float64 {
 // level at a time towards the sum that makes S(h) one, and the first
 // choice within ResidualGoal (or else the best) is kept. When some context
 // stays further than MaxResidual from one, the order's weights are
-// quantized again with two more bits, up to 16.
+// quantized again with one more bit, up to 16 (one bit at a time: a
+// codebook no wider than needed keeps the escaped weights of a tiered
+// column, and the codebook itself, short).
 func quantizeBackoffs(q *tables.Tables, k int, opt Options, probs Codebook, sums *contextSums, rep *OrderReport) error {
 	ctx, above := &q.Levels[k-1], &q.Levels[k]
 	n := len(ctx.LogBackoff)
@@ -418,7 +428,7 @@ func quantizeBackoffs(q *tables.Tables, k int, opt Options, probs Codebook, sums
 	}
 	original := slices.Clone(above.LogProb)
 	sums.order = append(sums.order, make([]float64, n))
-	for bits := opt.BackoffBits; ; bits = min(bits+2, 16) {
+	for bits := opt.BackoffBits; ; bits = min(bits+1, 16) {
 		worst, err := chooseBackoffs(q, k, bits, opt, probs, start, exact, mass, below, sums.order[k-1], rep)
 		if err != nil {
 			return err
@@ -433,7 +443,7 @@ func quantizeBackoffs(q *tables.Tables, k int, opt Options, probs Codebook, sums
 
 // chooseBackoffs trains a codebook of 2^bits - 1 weights (plus log10 0
 // exact) for order k, chooses each context's level jointly with its
-// successors' levels, records each context's sum in sums, and returns the
+// successors' levels, moves weights onto frequent levels (cheapen), records each context's sum in sums, and returns the
 // largest |S(h) - 1|.
 func chooseBackoffs(q *tables.Tables, k, bits int, opt Options, probs Codebook, start []int, exact, mass, below, sums []float64, rep *OrderReport) (float64, error) {
 	ctx, above := &q.Levels[k-1], &q.Levels[k]
@@ -458,8 +468,11 @@ func chooseBackoffs(q *tables.Tables, k, bits int, opt Options, probs Codebook, 
 	var maxErr, worst float64
 	var trial, best []float32
 	comp := newCompensator(probs)
+	rounded := slices.Clone(above.LogProb) // the successors' nearest levels
+	chosen := make([]int, n)               // each context's level, -1 for none
 	for i := 0; i < n; i++ {
 		a, b := start[i], start[i+1]
+		chosen[i] = -1
 		if a == b {
 			ctx.LogBackoff[i] = 0
 			sums[i] = below[i]
@@ -488,11 +501,20 @@ func chooseBackoffs(q *tables.Tables, k, bits int, opt Options, probs Codebook, 
 			}
 		}
 		copy(above.LogProb[a:b], best)
-		bq := cb.Values[bestJ]
+		chosen[i] = bestJ
+	}
+	if !opt.nearestOnly && !opt.nearestBackoffs {
+		cheapen(above.LogProb, rounded, cb, comp, start, exact, mass, chosen)
+	}
+	for i := 0; i < n; i++ {
+		if chosen[i] < 0 {
+			continue
+		}
+		bq := cb.Values[chosen[i]]
 		ctx.LogBackoff[i] = bq
 		maxErr = max(maxErr, math.Abs(float64(bq)-exact[i]))
 		var sp float64
-		for _, v := range best {
+		for _, v := range above.LogProb[start[i]:start[i+1]] {
 			sp += math.Pow(10, float64(v))
 		}
 		sums[i] = sp + math.Pow(10, float64(bq))*mass[i]
