@@ -56,7 +56,9 @@ echo
 printf 'Keys cost %.2f bits each. The %.0f stored back-off weights take %.2f bits\n' "$(v keys-bits/key)" "$(v backoffs-stored)" "$(v backoffs-bits/value)"
 printf 'each on average, section bytes without codebooks (their codebook indexes are\n'
 printf '%.2f bits wide on average: the quantizer widens the back-off codebooks to\n' "$(v backoffs-index-bits/value)"
-printf '12-14 bits so that every context sums to one within 1e-4, issue 9; the writer\n'
+printf 'up to 16 bits, one bit at a time, so that every context sums to one within\n'
+printf '1e-4, issue 9, and moves weights onto its 255 most used levels where that\n'
+printf 'keeps the sum (quantize/cheapen.go); the writer\n'
 printf 'stores such a column tiered, spec/FORMAT.md 4.8.6, its frequent levels in\n'
 printf 'narrow values), while the entropy\n'
 printf 'of those indexes is %.2f bits; the probability indexes take %.2f bits, entropy\n' "$(v backoffs-entropy-bits/value)" "$(v probs-bits/value)"
