@@ -138,6 +138,33 @@ func (m *Model) IndexBits(k int, backoff bool) int {
 	return int(c.bits)
 }
 
+// StoredBits returns what order k's quantized probabilities (backoff
+// false) or back-off weights cost in the file: the bytes of their section
+// (spec/FORMAT.md §4.5, packed, or §4.8.6, tiered: header, table, counters,
+// narrow and escaped indexes), codebook excluded, times 8 over the entries
+// the section stores (in version 3 the back-off weights of contexts only).
+// For a packed column it is IndexBits plus the header's share; a tiered
+// column stores most entries narrower than IndexBits. It is 0 when the
+// column holds plain values or no entries.
+func (m *Model) StoredBits(k int, backoff bool) float64 {
+	if k < 1 || k > m.order {
+		return 0
+	}
+	c, kind := &m.levels[k-1].probs, KindProbabilities
+	if backoff {
+		c, kind = &m.levels[k-1].backoffs, KindBackoffs
+	}
+	if c.packed == nil || c.n == 0 {
+		return 0
+	}
+	for _, s := range m.sections {
+		if s.Kind == kind && s.Order == k {
+			return float64(s.Length) * 8 / float64(c.n)
+		}
+	}
+	return 0
+}
+
 // bitsFor returns the index width for a codebook of n levels (at least 1).
 func bitsFor(n int) uint {
 	if n <= 2 {

@@ -57,10 +57,15 @@ type OrderStats struct {
 // CodebookStats describes one codebook: its levels (log10 values).
 type CodebookStats struct {
 	Levels int `json:"levels"`
-	// IndexBits is the width of each stored index.
-	IndexBits int    `json:"index_bits"`
-	Min       Number `json:"min"`
-	Max       Number `json:"max"`
+	// IndexBits is the width of a codebook index: ceil(log2 Levels).
+	IndexBits int `json:"index_bits"`
+	// StoredBits is what the file spends per stored entry of the column,
+	// codebook excluded: IndexBits plus a header's share when the indexes
+	// are packed, less when they are tiered (frequent levels in narrow
+	// values, spec/FORMAT.md 4.8.6).
+	StoredBits Number `json:"stored_bits"`
+	Min        Number `json:"min"`
+	Max        Number `json:"max"`
 	// Step is the largest gap between neighbouring levels: no value was
 	// moved by more than half of it when it was rounded to its nearest level.
 	Step Number `json:"step"`
@@ -108,8 +113,8 @@ func Statistics(m *format.Model) Stats {
 			NGrams:          n,
 			Bytes:           perOrder[k],
 			BitsPerNGram:    Number(float64(perOrder[k]) * 8 / float64(n)),
-			ProbCodebook:    codebookStats(m.Codebook(k, false), m.IndexBits(k, false)),
-			BackoffCodebook: codebookStats(m.Codebook(k, true), m.IndexBits(k, true)),
+			ProbCodebook:    codebookStats(m, k, false),
+			BackoffCodebook: codebookStats(m, k, true),
 		}
 		if k < m.Order() {
 			o.Contexts, o.BackoffWeights = backoffStats(m, k)
@@ -120,17 +125,20 @@ func Statistics(m *format.Model) Stats {
 	return st
 }
 
-// codebookStats summarises a codebook whose indexes the file stores in
-// indexBits bits each.
-func codebookStats(levels []float32, indexBits int) *CodebookStats {
+// codebookStats summarises the codebook of order k's probabilities
+// (backoff false) or back-off weights and how the file stores its indexes;
+// nil when the column holds plain values.
+func codebookStats(m *format.Model, k int, backoff bool) *CodebookStats {
+	levels := m.Codebook(k, backoff)
 	if len(levels) == 0 {
 		return nil
 	}
 	c := &CodebookStats{
-		Levels:    len(levels),
-		IndexBits: indexBits,
-		Min:       Number(levels[0]),
-		Max:       Number(levels[len(levels)-1]),
+		Levels:     len(levels),
+		IndexBits:  m.IndexBits(k, backoff),
+		StoredBits: Number(m.StoredBits(k, backoff)),
+		Min:        Number(levels[0]),
+		Max:        Number(levels[len(levels)-1]),
 	}
 	step := 0.0
 	for i := 1; i < len(levels); i++ {

@@ -68,8 +68,15 @@ func TestStatistics(t *testing.T) {
 				t.Errorf("highest order: %+v", top)
 			}
 			for k := 1; k <= tb.Order(); k++ {
-				checkCodebook(t, k, "probabilities", st.Orders[k-1].ProbCodebook, tb.Levels[k-1].ProbCodebook)
-				checkCodebook(t, k, "back-offs", st.Orders[k-1].BackoffCodebook, tb.Levels[k-1].BackoffCodebook)
+				// Stored bits: the column's section bytes times 8 over the
+				// entries it holds (in version 3 the back-off weights of the
+				// contexts only).
+				weights := tb.Len(k)
+				if m.Version() >= 3 {
+					weights = st.Orders[k-1].Contexts
+				}
+				checkCodebook(t, k, "probabilities", st.Orders[k-1].ProbCodebook, tb.Levels[k-1].ProbCodebook, sectionBits(m, format.KindProbabilities, k, tb.Len(k)))
+				checkCodebook(t, k, "back-offs", st.Orders[k-1].BackoffCodebook, tb.Levels[k-1].BackoffCodebook, sectionBits(m, format.KindBackoffs, k, weights))
 			}
 			if got := st.Orders[1].ProbCodebook != nil; got != tc.quantized {
 				t.Errorf("order 2 probability codebook present %v, want %v", got, tc.quantized)
@@ -78,7 +85,18 @@ func TestStatistics(t *testing.T) {
 	}
 }
 
-func checkCodebook(t *testing.T, k int, what string, got *CodebookStats, levels []float32) {
+// sectionBits is the length in bits of the section of kind and order k
+// over n entries, or 0 when the file has no such section.
+func sectionBits(m *format.Model, kind format.SectionKind, k, n int) Number {
+	for _, s := range m.Sections() {
+		if s.Kind == kind && s.Order == k {
+			return Number(float64(s.Length) * 8 / float64(n))
+		}
+	}
+	return 0
+}
+
+func checkCodebook(t *testing.T, k int, what string, got *CodebookStats, levels []float32, stored Number) {
 	t.Helper()
 	if levels == nil {
 		if got != nil {
@@ -95,7 +113,7 @@ func checkCodebook(t *testing.T, k int, what string, got *CodebookStats, levels 
 	for 1<<bits < len(levels) {
 		bits++
 	}
-	want := CodebookStats{len(levels), bits, Number(levels[0]), Number(levels[len(levels)-1]), Number(step)}
+	want := CodebookStats{len(levels), bits, stored, Number(levels[0]), Number(levels[len(levels)-1]), Number(step)}
 	if got == nil || *got != want {
 		t.Errorf("order %d %s: codebook %+v, want %+v", k, what, got, want)
 	}

@@ -340,7 +340,7 @@ func printInspectStats(w io.Writer, path string, st inspect.Stats, asJSON bool) 
 
 	fmt.Fprintln(w, "\ncodebooks")
 	tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
-	fmt.Fprintln(tw, "order\tcolumn\tlevels\tbits\tmin\tmax\tstep")
+	fmt.Fprintln(tw, "order\tcolumn\tlevels\tindex bits\tstored bits\tmin\tmax\tstep")
 	quantized := false
 	for _, o := range st.Orders {
 		for _, c := range []struct {
@@ -351,7 +351,7 @@ func printInspectStats(w io.Writer, path string, st inspect.Stats, asJSON bool) 
 				continue
 			}
 			quantized = true
-			fmt.Fprintf(tw, "%d\t%s\t%d\t%d\t%s\t%s\t%s\n", o.Order, c.name, c.cb.Levels, c.cb.IndexBits, inspectFixed(c.cb.Min), inspectFixed(c.cb.Max), inspectFixed(c.cb.Step))
+			fmt.Fprintf(tw, "%d\t%s\t%d\t%d\t%.2f\t%s\t%s\t%s\n", o.Order, c.name, c.cb.Levels, c.cb.IndexBits, float64(c.cb.StoredBits), inspectFixed(c.cb.Min), inspectFixed(c.cb.Max), inspectFixed(c.cb.Step))
 		}
 	}
 	if !quantized {
