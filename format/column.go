@@ -55,18 +55,7 @@ func (c *column) index(i int) int {
 // the least significant bit of b's first byte on (spec/FORMAT.md, packed
 // columns); bytes past b's end read as zero. width is at most 57.
 func packedAt(b []byte, i uint64, width uint) uint64 {
-	bit := i * uint64(width)
-	at := bit >> 3
-	var word uint64
-	noteRead(b, at)
-	if at+8 <= uint64(len(b)) {
-		word = binary.LittleEndian.Uint64(b[at:])
-	} else {
-		for j := uint64(0); at+j < uint64(len(b)) && j < 8; j++ {
-			word |= uint64(b[at+j]) << (8 * j)
-		}
-	}
-	return (word >> (bit & 7)) & (1<<width - 1)
+	return bitsAt(b, i*uint64(width), width)
 }
 
 // Index returns the codebook index stored for entry i of order k, for the
