@@ -1,6 +1,7 @@
 package quantize
 
 import (
+	"cmp"
 	"math"
 	"slices"
 )
@@ -71,7 +72,7 @@ func cheapen(probs, rounded []float32, cb Codebook, comp *compensator, start []i
 			sum0 := comp.start(rounded[a:b])
 			value := func(t int) float64 { return float64(cb.Values[table[t]]) }
 			hi, _ := slices.BinarySearchFunc(table, exact[i], func(l int, v float64) int {
-				return cmpFloat(float64(cb.Values[l]), v)
+				return cmp.Compare(float64(cb.Values[l]), v)
 			})
 			lo := hi - 1
 			for lo >= 0 || hi < len(table) {
@@ -93,14 +94,4 @@ func cheapen(probs, rounded []float32, cb Codebook, comp *compensator, start []i
 			}
 		}
 	}
-}
-
-func cmpFloat(a, b float64) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
 }
