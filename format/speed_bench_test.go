@@ -40,11 +40,7 @@ func BenchmarkScoringGenerated(b *testing.B) {
 //
 //	INGOT_BENCH_CACHE=/tmp/ingot-bench go test ./format -run '^$' -bench ScoringBundled -benchtime 1x
 func BenchmarkScoringBundled(b *testing.B) {
-	all, err := corpus.SOTU()
-	if err != nil {
-		b.Fatal(err)
-	}
-	train, held := corpus.Split(all, 0)
+	train, held := sotuSplit(b)
 	scoreCached(b, "bundled-5gram-8bit", train, held)
 }
 

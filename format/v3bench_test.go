@@ -30,11 +30,7 @@ import (
 // and of this model; and full verification against one lookup per n-gram.
 // Run it once: go test ./format -run '^$' -bench Layouts -benchtime 1x.
 func BenchmarkLayouts(b *testing.B) {
-	all, err := corpus.SOTU()
-	if err != nil {
-		b.Fatal(err)
-	}
-	train, held := corpus.Split(all, 0)
+	train, held := sotuSplit(b)
 	cs := fixture.Counts(b, 5, train)
 	tb, _, err := estimate.Estimate(cs, estimate.Options{Method: estimate.KneserNey, Order: 5})
 	if err != nil {
@@ -519,11 +515,7 @@ func siblingKeyBits(t *tables.Tables) (withOffsets, listsAlone float64) {
 // medians and the median of the rounds' time ratios (tiered over packed).
 // go test ./format -run '^$' -bench TieredScoring -benchtime 1x
 func BenchmarkTieredScoring(b *testing.B) {
-	all, err := corpus.SOTU()
-	if err != nil {
-		b.Fatal(err)
-	}
-	train, held := corpus.Split(all, 0)
+	train, held := sotuSplit(b)
 	tb := fixture.Estimate(b, train, 5, estimate.Options{Method: estimate.KneserNey})
 	q, _, err := quantize.Model(tb, quantize.Options{Bits: 8, Trainer: quantize.LeastSquares})
 	if err != nil {

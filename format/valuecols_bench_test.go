@@ -8,7 +8,6 @@ import (
 	"strings"
 	"testing"
 
-	"ingot/compile/corpus"
 	"ingot/compile/estimate"
 	"ingot/compile/fixture"
 	"ingot/compile/pipeline"
@@ -27,11 +26,7 @@ import (
 // (about 40 s; -v adds each value column's stored bits, entropy and the
 // shares of its most used levels).
 func BenchmarkValueColumns(b *testing.B) {
-	all, err := corpus.SOTU()
-	if err != nil {
-		b.Fatal(err)
-	}
-	train, held := corpus.Split(all, 0)
+	train, held := sotuSplit(b)
 	var tb *tables.Tables
 	// INGOT_KN5_CACHE names a file to keep the float model in between runs
 	// (written when missing), so that a run measuring only the quantizer
@@ -46,6 +41,7 @@ func BenchmarkValueColumns(b *testing.B) {
 		}
 	}
 	if tb == nil {
+		var err error
 		cs := fixture.Counts(b, 5, train)
 		tb, _, err = estimate.Estimate(cs, estimate.Options{Method: estimate.KneserNey, Order: 5})
 		if err != nil {

@@ -30,11 +30,7 @@ import (
 // section) and vocab-B/word (word starts, text and hash per word).
 func BenchmarkID(b *testing.B) {
 	b.Run("bundled", func(b *testing.B) {
-		all, err := corpus.SOTU()
-		if err != nil {
-			b.Fatal(err)
-		}
-		train, held := corpus.Split(all, 0)
+		train, held := sotuSplit(b)
 		benchID(b, train, held)
 	})
 	b.Run("generated", func(b *testing.B) {
