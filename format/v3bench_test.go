@@ -327,29 +327,9 @@ func reportComponents(b *testing.B, path string, ngrams int) {
 			if cb == nil {
 				continue
 			}
-			kind := map[bool]format.SectionKind{false: format.KindProbabilities, true: format.KindBackoffs}[backoff]
-			for _, s := range m.Sections() {
-				if s.Kind == kind && s.Order == k {
-					written += 8 * float64(s.Length)
-				}
-			}
-			hist := make([]int, len(cb))
-			n := 0
-			for i := 0; i < m.Count(k); i++ {
-				if backoff && !format.StoresBackoff(m, k, i) {
-					continue
-				}
-				j, ok := m.Index(k, i, backoff)
-				if !ok {
-					b.Fatalf("order %d entry %d: no index", k, i)
-				}
-				hist[j]++
-				n++
-			}
-			bits := 1
-			for 1<<bits < len(cb) {
-				bits++
-			}
+			w, hist, n := columnLevels(b, m, k, backoff)
+			written += w
+			bits := m.IndexBits(k, backoff)
 			for _, h := range hist {
 				if h > 0 {
 					p := float64(h) / float64(n)
@@ -365,6 +345,32 @@ func reportComponents(b *testing.B, path string, ngrams int) {
 		b.ReportMetric(width/stored, name+"-index-bits/value")
 		b.ReportMetric(entropy/stored, name+"-entropy-bits/value")
 	}
+}
+
+// columnLevels reads order k's quantized probabilities (backoff false) or
+// back-off weights: the length of their section in bits, how many of the
+// stored entries (in version 3 the back-off weights of contexts only) take
+// each codebook level, and how many entries that is.
+func columnLevels(b *testing.B, m *format.Model, k int, backoff bool) (written float64, hist []int, n int) {
+	kind := map[bool]format.SectionKind{false: format.KindProbabilities, true: format.KindBackoffs}[backoff]
+	for _, s := range m.Sections() {
+		if s.Kind == kind && s.Order == k {
+			written += 8 * float64(s.Length)
+		}
+	}
+	hist = make([]int, len(m.Codebook(k, backoff)))
+	for i := 0; i < m.Count(k); i++ {
+		if backoff && !format.StoresBackoff(m, k, i) {
+			continue
+		}
+		j, ok := m.Index(k, i, backoff)
+		if !ok {
+			b.Fatalf("order %d entry %d: no index", k, i)
+		}
+		hist[j]++
+		n++
+	}
+	return written, hist, n
 }
 
 func mustFromBytes(b *testing.B, data []byte) *format.Model {

@@ -118,23 +118,7 @@ func printColumns(b *testing.B, path string) {
 			if cb == nil {
 				continue
 			}
-			kind := map[bool]format.SectionKind{false: format.KindProbabilities, true: format.KindBackoffs}[backoff]
-			var written float64
-			for _, s := range m.Sections() {
-				if s.Kind == kind && s.Order == k {
-					written += 8 * float64(s.Length)
-				}
-			}
-			hist := make([]int, len(cb))
-			n := 0
-			for i := 0; i < m.Count(k); i++ {
-				if backoff && !format.StoresBackoff(m, k, i) {
-					continue
-				}
-				j, _ := m.Index(k, i, backoff)
-				hist[j]++
-				n++
-			}
+			written, hist, n := columnLevels(b, m, k, backoff)
 			var ent float64
 			usedLevels := 0
 			for _, h := range hist {

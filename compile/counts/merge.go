@@ -314,7 +314,7 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 			}
 		}
 	}
-	var task *linkTask           // the run of entries being gathered
+	var task *linkTask // the run of entries being gathered
 	send := func() {
 		if task != nil {
 			k := task.k

@@ -20,8 +20,8 @@ type Hashed struct {
 	// stored is the file when it is read as stored (not decompressed,
 	// not standard input), for ReadAt and Stat.
 	stored *os.File
-	h   hash.Hash
-	n   counter
+	h      hash.Hash
+	n      counter
 }
 
 type counter int64
