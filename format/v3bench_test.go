@@ -3,6 +3,7 @@ package format_test
 import (
 	"bytes"
 	"math"
+	"math/bits"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -618,6 +619,23 @@ func reportKeyEncodings(b *testing.B, q *tables.Tables, held []string) {
 		ngrams += q.Len(k)
 	}
 	b.ReportMetric(float64(len(one))/float64(ngrams), "one-bytes/ngram")
+	// Keys coded per list under the universe a reader knows, against the
+	// information bound (keyBitsByUniverse), and the whole file with them.
+	uLists, uStarts, uBound := keyBitsByUniverse(q)
+	var keysNow, keysUniverse, keysBound float64
+	for k := 2; k <= q.Order(); k++ {
+		n := float64(q.Len(k))
+		o2 := "o" + string(rune('0'+k))
+		b.ReportMetric((uLists[k-2]+uStarts[k-2])/n, "keys-"+o2+"-universe-bits/key")
+		b.ReportMetric(uBound[k-2]/n, "keys-"+o2+"-bound-bits/key")
+		w, _ := keyBytes(mw, k)
+		keysNow += float64(w)
+		keysUniverse += (uLists[k-2] + uStarts[k-2]) / 8
+		keysBound += uBound[k-2] / 8
+	}
+	b.ReportMetric(keysUniverse/float64(ngrams), "keys-universe-bytes/ngram")
+	b.ReportMetric(keysBound/float64(ngrams), "keys-bound-bytes/ngram")
+	b.ReportMetric((float64(len(written))-keysNow+keysUniverse)/float64(ngrams), "universe-bytes/ngram")
 	b.ReportMetric(float64(len(lists))/float64(ngrams), "lists-bytes/ngram")
 	ids := heldIDs(mw, held)
 	var tw, to, tl, rw, rl []float64
@@ -636,4 +654,102 @@ func reportKeyEncodings(b *testing.B, q *tables.Tables, held []string) {
 	b.ReportMetric(median(tl), "keys-lists-ns/word")
 	b.ReportMetric(median(rw), "keys-written/one")
 	b.ReportMetric(median(rl), "keys-lists/one")
+}
+
+// keyBitsByUniverse is what the last-word keys of each order k = 2..N would
+// cost, in bits (index k-2), against their information bound, when each
+// sibling list's coding is chosen from what a reader already knows: its d
+// keys (from the child starts) and its universe u (the vocabulary size for
+// word ids; from order 3, where keys are successor ranks (Pibiri &
+// Venturini 2017), the number of successors of the parent's suffix). A
+// list with d = u holds every key below u and takes no bits; otherwise
+// Elias-Fano under u, d (L + 1) + (last >> L) bits with L = floor(log2(u/d)),
+// when d (L + 1) + ((u - 1) >> L) is below d ceil(log2 u), else each key at
+// the width of the largest. starts is the Elias-Fano sequence of the lists'
+// bit starts (one per context of the order below), in bits. bound is the
+// information bound of the keys given each list's d and u, the sum over
+// lists of log2 C(u, d) (a list is one of C(u, d) subsets of its universe):
+// no coding of keys and starts together takes fewer bits on average; lists
+// alone can, when their starts carry some of it (the width of the largest
+// key). Measured, not stored.
+func keyBitsByUniverse(t *tables.Tables) (lists, starts, bound []float64) {
+	n := t.Order()
+	first := make([][]int, n) // as in siblingKeyBits
+	for k := 1; k < n; k++ {
+		f := make([]int, t.Len(k)+1)
+		for e := 0; e < t.Len(k+1); e++ {
+			f[t.Find(t.Gram(k+1, e)[:k])+1]++
+		}
+		for i := 1; i < len(f); i++ {
+			f[i] += f[i-1]
+		}
+		first[k-1] = f
+	}
+	width := func(x uint64) uint64 { return uint64(bits.Len64(x)) }
+	efBits := func(n, last uint64) float64 { // an Elias-Fano section, header and samples included
+		l := uint64(0)
+		for n > 0 && (last+1)/n >= 2<<l {
+			l++
+		}
+		words := (n*l+63)/64 + ((last>>l)+n+63)/64 + (n+255)/256
+		return float64(8 * (24 + 8*words))
+	}
+	for k := 2; k <= n; k++ {
+		var total, info float64
+		var bit uint64
+		var count uint64 // lists: contexts of order k-1
+		for p := 0; p < t.Len(k-1); p++ {
+			a, b := first[k-2][p], first[k-2][p+1]
+			if a == b {
+				// A list only for a context with a back-off weight:
+				// none in a model estimated from counts but one.
+				if t.Levels[k-2].LogBackoff[p] != 0 {
+					count++
+				}
+				continue
+			}
+			count++
+			g := t.Gram(k-1, p)
+			d := uint64(b - a)
+			u := uint64(len(t.Vocab))
+			var base int
+			if k >= 3 {
+				h := t.Find(g[1:])
+				base = first[k-3][h]
+				u = uint64(first[k-3][h+1] - base)
+			}
+			key := func(e int) uint64 {
+				w := t.Gram(k, e)
+				if k == 2 {
+					return uint64(w[1])
+				}
+				return uint64(t.Find(w[1:]) - base)
+			}
+			info += lgChoose(u, d)
+			if d == u {
+				continue
+			}
+			l := uint64(0)
+			for u/d >= 2<<l {
+				l++
+			}
+			last := key(b - 1)
+			if d*(l+1)+(u-1)>>l < d*width(u-1) {
+				bit += d*(l+1) + last>>l
+			} else {
+				bit += d * width(last)
+			}
+		}
+		total = float64(bit)
+		lists, starts, bound = append(lists, total), append(starts, efBits(count+1, bit)), append(bound, info)
+	}
+	return lists, starts, bound
+}
+
+// lgChoose returns log2 of the binomial coefficient C(u, d).
+func lgChoose(u, d uint64) float64 {
+	a, _ := math.Lgamma(float64(u + 1))
+	b, _ := math.Lgamma(float64(d + 1))
+	c, _ := math.Lgamma(float64(u - d + 1))
+	return (a - b - c) / math.Ln2
 }
