@@ -1,6 +1,7 @@
 // Package bounded compiles counts into a model within a memory budget:
 // the counts are merged into one sorted file per order on disk
-// (counts.Spool), estimated in sorted passes (estimate.EstimateStreamed)
+// (counts.Spool), estimated in passes over them (estimate.EstimateStreamed:
+// each order linked to the one below in memory, or sorted on disk)
 // and the model is written section by section as it is produced
 // (format.StreamWriter). The model is byte for byte the one the in-memory
 // path writes. It also decides which path a compile takes.
@@ -52,7 +53,8 @@ func InMemoryFits(names []string, budget int64) bool {
 
 // Options bounds a compile.
 type Options struct {
-	// Memory is the budget in bytes; the sort buffers take half of it.
+	// Memory is the budget in bytes; two orders' links, or the sort
+	// buffers, take half of it.
 	Memory int64
 	// TempDir is where a private directory for the spooled counts, sort
 	// runs and model sections is made ("": the system's temporary

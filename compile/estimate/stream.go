@@ -28,8 +28,9 @@ type Sink interface {
 
 // StreamOptions bounds the streamed estimator.
 type StreamOptions struct {
-	// Memory is the budget in bytes for the sort buffers; beyond it sorted
-	// runs spill to Dir.
+	// Memory is the budget in bytes for two orders' links (see link) or,
+	// when they do not fit, the sort buffers, beyond which sorted runs
+	// spill to Dir.
 	Memory int64
 	// Dir is an existing directory for the estimator's files (columns of
 	// values and sort runs). The caller removes it.
@@ -44,6 +45,10 @@ type StreamOptions struct {
 type StreamResult struct {
 	Report *Report
 	Info   tables.Info
+	// Linked: every order's suffixes were found in memory, in one
+	// sequential pass per order and no sort (the budget held two orders'
+	// links); otherwise by sorts on disk.
+	Linked bool
 	Runs   int   // sort runs spilled to disk
 	Bytes  int64 // bytes of those runs
 }
@@ -53,13 +58,16 @@ type StreamResult struct {
 // counts, without holding any order in memory: every quantity that needs
 // one order's n-grams looked up from another's (Kneser-Ney adjusted
 // counts, lower-order probabilities, ranks of suffixes, prefixes' back-off
-// weights and children) is found by sorting one side on disk and merging
-// it with the other, sorted, side. Orders are estimated bottom-up as in
+// weights and children) is found in sequential passes: suffixes by linking
+// each order to the one below in memory when two orders' links fit
+// so.Memory (link), else by sorting one side on disk and merging it with
+// the other, sorted, side. Orders are estimated bottom-up as in
 // Estimate; the entries of order k-1 go to sink while order k is
 // estimated (their back-off weights are then final), order N's at the end.
 //
 // Memory: the vocabulary, its unigram values, the largest set of
-// successors of one context, and the sort buffers (about so.Memory).
+// successors of one context, and two orders' links or the sort buffers
+// (at most about so.Memory).
 func EstimateStreamed(ctx context.Context, sp *counts.Spooled, opt Options, so StreamOptions, sink Sink) (*StreamResult, error) {
 	if err := opt.Validate(); err != nil {
 		return nil, err
@@ -93,7 +101,7 @@ func EstimateStreamed(ctx context.Context, sp *counts.Spooled, opt Options, so S
 		info.Discounts = append(info.Discounts, m)
 		info.Fallbacks = append(info.Fallbacks, r.Fallbacks...)
 	}
-	return &StreamResult{Report: s.report, Info: info, Runs: s.runs, Bytes: s.spilled}, nil
+	return &StreamResult{Report: s.report, Info: info, Linked: s.linked, Runs: s.runs, Bytes: s.spilled}, nil
 }
 
 type streamer struct {
@@ -110,6 +118,9 @@ type streamer struct {
 	prob1  []float64 // unigram probabilities
 	empty  float64
 	report *Report
+	// linked: the suffixes were found by link (in memory, no sort), not
+	// by adjust and join.
+	linked bool
 	files  []string
 	runs   int
 	// spilled counts the bytes of sort runs.
@@ -162,7 +173,15 @@ func (s *streamer) sorted(st *extsort.Sorter, what string) (*extsort.Iter, error
 }
 
 func (s *streamer) run() error {
-	if s.opt.Method == KneserNey {
+	s.linked = s.linkBytes() <= s.so.Memory
+	switch {
+	case s.linked && (s.N >= 3 || s.opt.Method == KneserNey):
+		s.log.Info("linking orders in memory", "bytes", s.linkBytes())
+		if err := s.link(); err != nil {
+			return err
+		}
+	case s.linked:
+	case s.opt.Method == KneserNey:
 		if err := s.adjust(); err != nil {
 			return err
 		}
@@ -679,8 +698,21 @@ func (s *streamer) order(k int) error {
 	}
 	disc := s.opt.discounter(k, n, &rep)
 	var fallbacks tally
-	var jn *joined
-	if k >= 3 {
+	var (
+		jn        *joined
+		sufs      *colReader // linked: the suffixes' positions in order k-1
+		lowerProb []float64  // linked: order k-1's probabilities
+	)
+	if k >= 3 && s.linked {
+		var err error
+		if lowerProb, err = s.readProbs(k - 1); err != nil {
+			return err
+		}
+		if sufs, err = openCol(s.sufName(k)); err != nil {
+			return err
+		}
+		defer sufs.close()
+	} else if k >= 3 {
 		var err error
 		if jn, err = s.join(k); err != nil {
 			return err
@@ -704,7 +736,7 @@ func (s *streamer) order(k int) error {
 	}
 	defer probs.f.Close()
 	var ranks *colWriter
-	if k >= 3 {
+	if k >= 3 && !s.linked {
 		if ranks, err = s.createCol(fmt.Sprintf("rank-%d", k)); err != nil {
 			return err
 		}
@@ -775,6 +807,12 @@ func (s *streamer) order(k int) error {
 				return fmt.Errorf("counts are not closed: %d-gram %q lacks its suffix", k, s.words(g))
 			}
 			l = s.prob1[g[1]]
+		} else if s.linked {
+			at, err := sufs.get32()
+			if err != nil {
+				return err
+			}
+			l = lowerProb[at]
 		} else {
 			var rank uint32
 			var err error
@@ -814,6 +852,24 @@ func (s *streamer) order(k int) error {
 		return walk.badBow
 	}
 	return nil
+}
+
+// readProbs reads order k's probabilities (column prob-k).
+func (s *streamer) readProbs(k int) ([]float64, error) {
+	c, err := openCol(s.probName(k))
+	if err != nil {
+		return nil, err
+	}
+	defer c.close()
+	p := make([]float64, s.sp.Entries[k-1])
+	for i := range p {
+		bits, err := c.get64()
+		if err != nil {
+			return nil, err
+		}
+		p[i] = math.Float64frombits(bits)
+	}
+	return p, nil
 }
 
 // emitTop hands the entries of the highest order to the sink.

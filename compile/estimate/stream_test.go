@@ -71,17 +71,24 @@ func TestStreamedSameModel(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			got, res, err := streamed(t, &cc, opt, 16<<10)
-			if err != nil {
-				t.Fatalf("%s order %d: %v", opt.Method, order, err)
+			// 16 KiB: every suffix found by sorts on disk; 64 MiB:
+			// by links in memory.
+			for _, memory := range []int64{16 << 10, 64 << 20} {
+				got, res, err := streamed(t, &cc, opt, memory)
+				if err != nil {
+					t.Fatalf("%s order %d: %v", opt.Method, order, err)
+				}
+				if !bytes.Equal(got, wantBytes) {
+					t.Errorf("%s (auto %v, K %d) order %d, budget %d: streamed model of %d bytes differs from the in-memory one of %d", opt.Method, opt.AutoDiscount, opt.KatzThreshold, order, memory, len(got), len(wantBytes))
+				}
+				if !reflect.DeepEqual(res.Report, wrep) {
+					t.Errorf("%s order %d, budget %d: report %+v, in memory %+v", opt.Method, order, memory, res.Report, wrep)
+				}
+				if res.Linked != (order == 1 || memory > 16<<10) {
+					t.Errorf("%s order %d, budget %d: linked in memory %v", opt.Method, order, memory, res.Linked)
+				}
+				spilled = spilled || res.Runs > 1
 			}
-			if !bytes.Equal(got, wantBytes) {
-				t.Errorf("%s (auto %v, K %d) order %d: streamed model of %d bytes differs from the in-memory one of %d", opt.Method, opt.AutoDiscount, opt.KatzThreshold, order, len(got), len(wantBytes))
-			}
-			if !reflect.DeepEqual(res.Report, wrep) {
-				t.Errorf("%s order %d: report %+v, in memory %+v", opt.Method, order, res.Report, wrep)
-			}
-			spilled = spilled || res.Runs > 1
 		}
 	}
 	if !spilled {
@@ -127,5 +134,50 @@ func TestStreamedRefusesUnigramsBackedOff(t *testing.T) {
 	_, _, err := streamed(t, c, Options{Method: KneserNey, Order: 2, UnigramsBackedOff: true}, 1<<20)
 	if err == nil || !strings.Contains(err.Error(), "interpolated form only") {
 		t.Errorf("got %v, want a refusal", err)
+	}
+}
+
+// Linked in memory, Kneser-Ney gives n-grams that begin with <s> their raw
+// counts also where no n-gram of the next order extends them and they sort
+// after every one that is extended: words of digits sort before <s>, and
+// the trigram "<s> 9 </s>" is dropped, so the bigram "<s> 9", last of its
+// order, has no child. The model is the in-memory one, byte for byte.
+func TestStreamedLinkedRawCountsLast(t *testing.T) {
+	c := count(t, 3, []string{"1 2", "2 1 2", "9", "9", "1"})
+	var text bytes.Buffer
+	if _, err := c.WriteTo(&text); err != nil {
+		t.Fatal(err)
+	}
+	var kept []string
+	for _, line := range strings.SplitAfter(text.String(), "\n") {
+		if !strings.HasSuffix(line, "<s> 9 </s>\n") {
+			kept = append(kept, line)
+		}
+	}
+	if len(kept) != strings.Count(text.String(), "\n") {
+		t.Fatalf("the trigram <s> 9 </s> is not in the counts:\n%s", text.String())
+	}
+	cc, err := counts.Load(3, []counts.Source{{Name: "c.txt", R: strings.NewReader(strings.Join(kept, ""))}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	opt := Options{Method: KneserNey, Order: 3}
+	want, _, err := Estimate(cc, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	wantBytes, err := format.Marshal(want)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, res, err := streamed(t, cc, opt, 1<<20)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !res.Linked {
+		t.Fatal("not linked in memory")
+	}
+	if !bytes.Equal(got, wantBytes) {
+		t.Error("the model linked in memory differs from the in-memory one")
 	}
 }

@@ -36,24 +36,28 @@ func TestRunBoundedSameModel(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		tmp := t.TempDir()
-		m, err := o.RunBounded(context.Background(), []string{path}, bounded.Options{Memory: 1 << 20, TempDir: tmp})
-		if err != nil {
-			t.Fatal(err)
-		}
-		var got bytes.Buffer
-		if err := m.Write(&got, m.Info); err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.Equal(got.Bytes(), wantBytes) {
-			t.Errorf("%s order %d: the model estimated on disk (%d bytes) differs from the one in memory (%d bytes)", opt.Method, opt.Order, got.Len(), len(wantBytes))
-		}
-		if m.Result.Runs < 2 {
-			t.Errorf("%s: %d runs; a 1 MiB budget is meant to spill", opt.Method, m.Result.Runs)
-		}
-		m.Close()
-		if left, _ := os.ReadDir(tmp); len(left) > 0 {
-			t.Errorf("%d files left in the temporary directory", len(left))
+		// 64 KiB: suffixes found by sorts that spill runs to disk; 4
+		// MiB: by links in memory.
+		for _, memory := range []int64{64 << 10, 4 << 20} {
+			tmp := t.TempDir()
+			m, err := o.RunBounded(context.Background(), []string{path}, bounded.Options{Memory: memory, TempDir: tmp})
+			if err != nil {
+				t.Fatal(err)
+			}
+			var got bytes.Buffer
+			if err := m.Write(&got, m.Info); err != nil {
+				t.Fatal(err)
+			}
+			if !bytes.Equal(got.Bytes(), wantBytes) {
+				t.Errorf("%s order %d, budget %d: the model estimated on disk (%d bytes) differs from the one in memory (%d bytes)", opt.Method, opt.Order, memory, got.Len(), len(wantBytes))
+			}
+			if small := memory == 64<<10; m.Result.Linked == small || small && m.Result.Runs < 2 {
+				t.Errorf("%s, budget %d: linked in memory %v, %d runs", opt.Method, memory, m.Result.Linked, m.Result.Runs)
+			}
+			m.Close()
+			if left, _ := os.ReadDir(tmp); len(left) > 0 {
+				t.Errorf("%d files left in the temporary directory", len(left))
+			}
 		}
 	}
 	o := Compile{Estimate: estimate.Options{Method: estimate.Katz, Order: 2}, MinCount: "2=2"}

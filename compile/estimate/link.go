@@ -1,0 +1,282 @@
+package estimate
+
+import (
+	"fmt"
+	"io"
+	"path/filepath"
+	"slices"
+
+	"ingot/compile/counts"
+)
+
+// The streamed estimator finds each entry's suffix one of two ways. When
+// the arrays below fit the budget, it links the orders bottom-up in one
+// sequential pass each (link): the suffix of (w1..wk) is the child wk of
+// the suffix of its prefix (w1..wk-1), searched among that node's
+// children, which are contiguous in the order below; this needs the last
+// words and child starts of two orders at a time in memory, and no sort.
+// Otherwise it sorts the suffixes on disk and merges them with the order
+// below (adjust and join).
+
+// linkBytes returns the memory the linked passes hold at their largest:
+// while order k is linked, the last words and child starts of orders k-1
+// and k (4 bytes an entry each) and, for Kneser-Ney, the adjusted counts
+// of order k-1 (8 bytes); while order k is estimated, the probabilities
+// of order k-1 (8 bytes).
+func (s *streamer) linkBytes() int64 {
+	e := func(k int) int64 {
+		if k < 1 {
+			return 0
+		}
+		return int64(s.sp.Entries[k-1])
+	}
+	var need int64
+	for k := 2; k <= s.N; k++ {
+		b := 4*(e(k-1)+1) + 4*e(k) + 4*e(k-1) + 4*(e(k-2)+1)
+		if s.opt.Method == KneserNey {
+			b += 8 * e(k-1)
+		}
+		need = max(need, b, 8*e(k-1))
+	}
+	return need
+}
+
+func (s *streamer) sufName(k int) string { return filepath.Join(s.so.Dir, fmt.Sprintf("suffix-%d", k)) }
+
+// link passes over orders 2..N bottom-up and writes, for every entry of
+// order k >= 3, the position of its suffix in order k-1 (column suffix-k)
+// and its rank among its siblings (column rank-k, the key the model
+// stores); for Kneser-Ney, the adjusted counts of orders 1..N-1 (the
+// number of entries of the next order whose suffix each entry is; raw
+// counts for n-grams starting with <s>), as adjust does. It checks that
+// the counts are closed: every entry's prefix and suffix are entries.
+func (s *streamer) link() error {
+	kn := s.opt.Method == KneserNey
+	s.adj1 = s.sp.Unigrams
+	var (
+		last     []uint32 // last words of order k-1 (k >= 3)
+		starts   []uint32 // child starts of order k-2 in order k-1 (k >= 3)
+		startsLo uint64   // entries of order k-1 beginning with <s>: [startsLo, startsHi)
+		startsHi uint64
+	)
+	startsLo, startsHi = uint64(s.start), uint64(s.start)+1
+	for k := 2; k <= s.N; k++ {
+		below := s.sp.Entries[k-2] // entries of order k-1
+		var a []uint64
+		if kn {
+			a = make([]uint64, below)
+		}
+		top := k == s.N
+		var nextLast, nextStarts []uint32
+		if !top {
+			nextLast = make([]uint32, 0, s.sp.Entries[k-1])
+			nextStarts = make([]uint32, below+1)
+		}
+		if err := s.linkOrder(k, last, starts, startsLo, startsHi, a, &nextLast, nextStarts); err != nil {
+			return err
+		}
+		if kn {
+			if k == 2 {
+				a[s.start] = s.sp.Unigrams[s.start]
+				s.adj1 = a
+			} else if err := s.writeAdjusted(k-1, a); err != nil {
+				return err
+			}
+		}
+		if !top {
+			startsLo, startsHi = uint64(nextStarts[startsLo]), uint64(nextStarts[startsHi])
+		}
+		last, starts = nextLast, nextStarts
+	}
+	return nil
+}
+
+func (s *streamer) writeAdjusted(k int, a []uint64) error {
+	out, err := s.createCol(fmt.Sprintf("adjusted-%d", k))
+	if err != nil {
+		return err
+	}
+	for _, v := range a {
+		if err := out.put64(v); err != nil {
+			out.close()
+			return err
+		}
+	}
+	return out.close()
+}
+
+// linkOrder links order k (see link): last and starts are order k-1's last
+// words and order k-2's child starts (k >= 3); [lo, hi) are the entries of
+// order k-1 that begin with <s>, whose adjusted counts (a, when not nil)
+// are their raw counts. It appends order k's last words to *nextLast and
+// counts the children of order k-1's entries into nextStarts (made child
+// starts at the end), unless k is the top order.
+func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a []uint64, nextLast *[]uint32, nextStarts []uint32) error {
+	r, err := s.sp.Open(k)
+	if err != nil {
+		return err
+	}
+	defer r.Close()
+	var (
+		prev   *counts.SpoolReader // order k-1, walked beside order k (k >= 3)
+		sufIn  *colReader          // order k-1's suffix positions (k >= 4)
+		sufOut *colWriter          // order k's (k >= 3)
+		ranks  *colWriter
+	)
+	if k >= 3 {
+		if prev, err = s.sp.Open(k - 1); err != nil {
+			return err
+		}
+		defer prev.Close()
+		if k >= 4 {
+			if sufIn, err = openCol(s.sufName(k - 1)); err != nil {
+				return err
+			}
+			defer sufIn.close()
+		}
+		if sufOut, err = s.createCol(fmt.Sprintf("suffix-%d", k)); err != nil {
+			return err
+		}
+		defer sufOut.f.Close()
+		if ranks, err = s.createCol(fmt.Sprintf("rank-%d", k)); err != nil {
+			return err
+		}
+		defer ranks.f.Close()
+	}
+	var (
+		p        = -1   // the position in order k-1 of the current prefix
+		pSuf     uint32 // the position in order k-2 of its suffix (k >= 4)
+		from     uint32 // where the search of the next sibling's suffix starts
+		cur      = make([]uint32, k-1)
+		top      = nextStarts == nil
+		inPrefix = false
+	)
+	// advance moves the walk of order k-1 to the entry g[:k-1].
+	advance := func(g []uint32) error {
+		for {
+			pg2, raw, err := prev.Next()
+			if err == io.EOF {
+				return fmt.Errorf("counts are not closed: %d-gram %q lacks its prefix", k, s.words(g))
+			}
+			if err != nil {
+				return err
+			}
+			p++
+			if sufIn != nil {
+				if pSuf, err = sufIn.get32(); err != nil {
+					return err
+				}
+			} else {
+				pSuf = pg2[1] // k == 3: the suffix of a bigram is its last word
+			}
+			if a != nil && uint64(p) >= lo && uint64(p) < hi {
+				a[p] = raw
+			}
+			switch c := compareWords(pg2, g[:k-1]); {
+			case c == 0:
+				return nil
+			case c > 0:
+				return fmt.Errorf("counts are not closed: %d-gram %q lacks its prefix", k, s.words(g))
+			}
+		}
+	}
+	for i := 0; ; i++ {
+		if i&0xffff == 0 {
+			if err := s.ctx.Err(); err != nil {
+				return err
+			}
+		}
+		g, _, err := r.Next()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return err
+		}
+		w := g[k-1]
+		if !inPrefix || compareWords(cur, g[:k-1]) != 0 {
+			copy(cur, g[:k-1])
+			inPrefix = true
+			if k == 2 {
+				p = int(g[0])
+			} else {
+				if err := advance(g); err != nil {
+					return err
+				}
+				from = starts[pSuf]
+			}
+		}
+		if !top {
+			*nextLast = append(*nextLast, w)
+			nextStarts[p+1]++
+		}
+		if k == 2 {
+			if a != nil && (uint64(w) < lo || uint64(w) >= hi) {
+				a[w]++
+			}
+			continue
+		}
+		// The suffix is the child w of the prefix's suffix.
+		end := starts[pSuf+1]
+		at, ok := slices.BinarySearch(last[from:end], w)
+		if !ok {
+			return fmt.Errorf("counts are not closed: a %d-gram ends with %q, which has no count", k, s.words(g[1:]))
+		}
+		pos := from + uint32(at)
+		if err := sufOut.put32(pos); err != nil {
+			return err
+		}
+		if err := ranks.put32(pos - starts[pSuf]); err != nil {
+			return err
+		}
+		from = pos + 1
+		if a != nil && (uint64(pos) < lo || uint64(pos) >= hi) {
+			a[pos]++
+		}
+	}
+	// The rest of order k-1: entries with no children, whose adjusted
+	// counts may still be raw ones.
+	if a != nil && k >= 3 && uint64(p+1) < hi {
+		for {
+			_, raw, err := prev.Next()
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				return err
+			}
+			p++
+			if uint64(p) >= lo && uint64(p) < hi {
+				a[p] = raw
+			}
+		}
+	}
+	if !top {
+		sum := uint32(0)
+		for j, n := range nextStarts {
+			sum += n
+			nextStarts[j] = sum
+		}
+	}
+	if sufOut != nil {
+		if err := sufOut.close(); err != nil {
+			return err
+		}
+		if err := ranks.close(); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func compareWords(a, b []uint32) int {
+	for i := range a {
+		if a[i] != b[i] {
+			if a[i] < b[i] {
+				return -1
+			}
+			return 1
+		}
+	}
+	return 0
+}
