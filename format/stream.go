@@ -54,6 +54,7 @@ type StreamWriter struct {
 	childStarts *valueSpill
 	childRun    uint64
 	err         error
+	scratch     [8]byte
 }
 
 // streamSection is a section whose bytes are in a file.
@@ -230,9 +231,9 @@ func (w *StreamWriter) add(ids []uint32, rank uint32, logProb, logBackoff float3
 			return err
 		}
 	}
-	var b [4]byte
-	putU32(b[:], math.Float32bits(logProb))
-	if err := w.probs.write(b[:]); err != nil {
+	b := w.scratch[:4] // a field: a local array would be allocated per entry
+	putU32(b, math.Float32bits(logProb))
+	if err := w.probs.write(b); err != nil {
 		return err
 	}
 	if k < N {
@@ -244,8 +245,8 @@ func (w *StreamWriter) add(ids []uint32, rank uint32, logProb, logBackoff float3
 			return err
 		}
 		if isContext {
-			putU32(b[:], math.Float32bits(logBackoff))
-			if err := w.backoffs.write(b[:]); err != nil {
+			putU32(b, math.Float32bits(logBackoff))
+			if err := w.backoffs.write(b); err != nil {
 				return err
 			}
 			if err := w.childStarts.add(w.childRun); err != nil {
@@ -505,9 +506,7 @@ func (v *valueSpill) add(x uint64) error {
 	if v.n > 0 && x < v.last {
 		return errors.New("ingot model: Elias-Fano values decrease")
 	}
-	var b [8]byte
-	binary.LittleEndian.PutUint64(b[:], x)
-	_, err := v.w.Write(b[:])
+	_, err := v.w.Write(binary.LittleEndian.AppendUint64(v.w.AvailableBuffer(), x))
 	v.n++
 	v.last = x
 	return err
@@ -557,8 +556,8 @@ func (v *valueSpill) next() (func() (uint64, error), error) {
 		return nil, err
 	}
 	r := bufio.NewReaderSize(v.f, 1<<16)
+	var b [8]byte // one for every call
 	return func() (uint64, error) {
-		var b [8]byte
 		if _, err := io.ReadFull(r, b[:]); err != nil {
 			return 0, err
 		}
@@ -843,13 +842,12 @@ func (b *bitSpill) put(v uint64, width uint) error {
 	if off+width < 64 {
 		return nil
 	}
-	var word [8]byte
-	binary.LittleEndian.PutUint64(word[:], b.cur)
+	word := binary.LittleEndian.AppendUint64(b.w.AvailableBuffer(), b.cur)
 	b.cur = 0
 	if off+width > 64 {
 		b.cur = v >> (64 - off)
 	}
-	_, err := b.w.Write(word[:])
+	_, err := b.w.Write(word)
 	return err
 }
 
