@@ -64,6 +64,9 @@ type StreamResult struct {
 // the other, sorted, side. Orders are estimated bottom-up as in
 // Estimate; the entries of order k-1 go to sink while order k is
 // estimated (their back-off weights are then final), order N's at the end.
+// The sink is called on a goroutine of its own (in the same order), so
+// that writing the model takes a second core; it is done with when
+// EstimateStreamed returns.
 //
 // Memory: the vocabulary, its unigram values, the largest set of
 // successors of one context, and two orders' links or the sort buffers
@@ -86,10 +89,15 @@ func EstimateStreamed(ctx context.Context, sp *counts.Spooled, opt Options, so S
 		log = slog.New(slog.DiscardHandler)
 	}
 	start, _ := slices.BinarySearch(sp.Vocab, tables.SentenceStart)
-	s := &streamer{ctx: ctx, sp: sp, opt: opt, so: so, log: log, sink: sink, N: opt.Order,
+	async := newAsyncSink(sink)
+	defer async.close()
+	s := &streamer{ctx: ctx, sp: sp, opt: opt, so: so, log: log, sink: async, N: opt.Order,
 		V: float64(len(sp.Vocab) - 1), start: uint32(start), report: &Report{Method: opt.Method}}
 	defer s.cleanup()
 	if err := s.run(); err != nil {
+		return nil, err
+	}
+	if err := async.close(); err != nil {
 		return nil, err
 	}
 	info := tables.Info{Method: string(opt.Method), EmptyContextLogBackoff: math.Log10(s.empty)}

@@ -3,6 +3,7 @@ package estimate
 import (
 	"bytes"
 	"context"
+	"fmt"
 	"os"
 	"reflect"
 	"strings"
@@ -179,5 +180,50 @@ func TestStreamedLinkedRawCountsLast(t *testing.T) {
 	}
 	if !bytes.Equal(got, wantBytes) {
 		t.Error("the model linked in memory differs from the in-memory one")
+	}
+}
+
+// failingSink fails on entry fail and counts the entries it was given.
+type failingSink struct {
+	n, fail int
+}
+
+func (f *failingSink) Add([]uint32, uint32, float32, float32, uint64) error {
+	f.n++
+	if f.n == f.fail {
+		return fmt.Errorf("sink full at entry %d", f.n)
+	}
+	return nil
+}
+
+// The sink runs on a goroutine of its own: an error it gives, early (in
+// the first batch) or on the very last entry, is the estimate's error,
+// and EstimateStreamed returns only when the sink is done with.
+func TestStreamedSinkError(t *testing.T) {
+	train, _ := sotu(t, 300)
+	c := count(t, 3, train)
+	var bin bytes.Buffer
+	if err := c.WriteBinary(&bin); err != nil {
+		t.Fatal(err)
+	}
+	total := 0
+	for _, l := range c.Levels {
+		total += len(l.Counts)
+	}
+	for _, fail := range []int{1, total / 2, total} {
+		dir := t.TempDir()
+		sp, err := counts.Spool(3, []counts.Source{{Name: "c.bin", R: bytes.NewReader(bin.Bytes())}}, dir)
+		if err != nil {
+			t.Fatal(err)
+		}
+		sink := &failingSink{fail: fail}
+		_, err = EstimateStreamed(context.Background(), sp, Options{Method: KneserNey, Order: 3}, StreamOptions{Memory: 1 << 20, Dir: dir}, sink)
+		want := fmt.Sprintf("sink full at entry %d", fail)
+		if err == nil || err.Error() != want {
+			t.Errorf("sink failing at entry %d of %d: got %v", fail, total, err)
+		}
+		if sink.n < fail {
+			t.Errorf("sink failing at entry %d: given %d entries", fail, sink.n)
+		}
 	}
 }
