@@ -263,17 +263,51 @@ func (e *eliasFano) get(i uint64) (uint64, bool) {
 	return c.value(), true
 }
 
-// pair returns values i and i+1.
+// pair returns values i and i+1 (a child range, a list's bits), read in
+// one scan of the high bits: the select of i from its sample, then the
+// next set bit; their low bits, adjacent, in one read.
 func (e *eliasFano) pair(i uint64) (a, b uint64, ok bool) {
-	c := e.seek(i)
-	if !c.ok {
+	s := i / efSample
+	if i+1 >= e.n || 8*s+8 > uint64(len(e.samples)) {
 		return 0, 0, false
 	}
-	a = c.value()
-	if !c.next() {
+	noteRead(e.samples, 8*s)
+	pos := binary.LittleEndian.Uint64(e.samples[8*s:])
+	w, limit := pos/64, uint64(len(e.high)/8)
+	if w >= limit {
 		return 0, 0, false
 	}
-	return a, c.value(), true
+	word := e.highWord(w) &^ (1<<(pos%64) - 1) // set bits from pos on
+	r := i % efSample                          // set bits to skip after the sampled one
+	for {
+		cnt := uint64(bits.OnesCount64(word))
+		if r < cnt {
+			break
+		}
+		r -= cnt
+		if w++; w >= limit {
+			return 0, 0, false
+		}
+		word = e.highWord(w)
+	}
+	bit := selectInWord(word, uint(r))
+	p := 64*w + uint64(bit)
+	rest := word &^ (2<<bit - 1) // the set bits after p
+	for rest == 0 {
+		if w++; w >= limit {
+			return 0, 0, false
+		}
+		rest = e.highWord(w)
+	}
+	q := 64*w + uint64(bits.TrailingZeros64(rest))
+	var la, lb uint64
+	if l := e.l; l > 0 && 2*l <= 56 {
+		v := bitsAt(e.low, i*uint64(l), 2*l)
+		la, lb = v&(1<<l-1), v>>l
+	} else if l > 0 {
+		la, lb = e.lowAt(i), e.lowAt(i+1)
+	}
+	return (p-i)<<e.l | la, (q-i-1)<<e.l | lb, true
 }
 
 // decodeAll decodes every value into out (len n) and checks the section's
@@ -338,17 +372,25 @@ var selectInByte = func() (t [256 * 8]uint8) {
 }()
 
 // selectInWord returns the position of the r-th set bit (from 0) of word,
-// which has more than r set bits.
+// which has more than r set bits, without a loop: the running counts of
+// set bits per byte, made in one multiplication, are compared with r all
+// at once, the bytes whose running count is at most r are counted, and the
+// byte found is finished in selectInByte (S. Vigna, "Broadword
+// implementation of rank/select queries", WEA 2008, selects the same way).
 func selectInWord(word uint64, r uint) uint {
-	for shift := uint(0); shift < 64; shift += 8 {
-		b := uint(word>>shift) & 0xff
-		if c := uint(bits.OnesCount8(uint8(b))); r >= c {
-			r -= c
-			continue
-		}
-		return shift + uint(selectInByte[b*8+r])
+	const ones, highs = 0x0101010101010101, 0x8080808080808080
+	c := word - word>>1&0x5555555555555555
+	c = c&0x3333333333333333 + c>>2&0x3333333333333333
+	c = (c + c>>4) & 0x0f0f0f0f0f0f0f0f
+	c *= ones // byte i: the set bits of bytes 0..i, at most 64
+	// Bit 7 of byte i of below is set when that count is at most r.
+	below := ((uint64(r)*ones | highs) - c) & highs
+	k := uint(bits.OnesCount64(below)) * 8 // the byte holding the bit
+	before := uint((c << 8) >> k & 0xff)   // set bits of the bytes before it
+	if k >= 64 || r < before {
+		return 64
 	}
-	return 64
+	return k + uint(selectInByte[uint(word>>k&0xff)*8+(r-before)&7])
 }
 
 // nextAtLeast moves the cursor forward, at most to the value before index
@@ -502,6 +544,7 @@ func (c *efCursor) inBucket(want, limit uint64) {
 	}
 	lw := want & (1<<e.l - 1)
 	lo, hi := c.i, end
+	lo, hi = interpolate(lo, hi, lw, e.l, e.lowAt)
 	for lo < hi {
 		mid := lo + (hi-lo)/2
 		if e.lowAt(mid) < lw {
@@ -514,4 +557,40 @@ func (c *efCursor) inBucket(want, limit uint64) {
 	pos := c.pos + (j - c.i)
 	c.i, c.pos = j, pos
 	c.word = e.highWord(pos/64) &^ (2<<(pos%64) - 1)
+}
+
+// interpolate narrows [lo, hi), a run of ascending values below 2^width
+// (read by at), to a range that holds the first value at least want (or
+// its end, hi, when none is). It starts where want would sit if the
+// values spread evenly, then steps outwards 1, 2, 4, ... values until it
+// passes want: the reads fall near one point instead of bisecting the
+// whole run, so a long run costs one or two cache lines instead of one per
+// halving (Y. Perl, A. Itai and H. Avni, "Interpolation search: a log log N
+// search", CACM 21(7), 1978, for the guess; J. L. Bentley and A. C. Yao, "An
+// almost optimal algorithm for unbounded searching", IPL 5(3), 1976, for the
+// doubling steps).
+func interpolate(lo, hi, want uint64, width uint, at func(uint64) uint64) (uint64, uint64) {
+	n := hi - lo
+	if n <= 16 || width >= 32 {
+		return lo, hi
+	}
+	g := lo + min(want*n>>width, n-1) // want < 2^width, n < 2^32: no overflow
+	if at(g) >= want {
+		hi = g
+		for step := uint64(1); step <= hi-lo; step *= 2 {
+			if at(hi-step) < want {
+				return hi - step + 1, hi
+			}
+			hi -= step
+		}
+		return lo, hi
+	}
+	lo = g + 1
+	for step := uint64(1); lo+step-1 < hi; step *= 2 {
+		if at(lo+step-1) >= want {
+			return lo, lo + step - 1
+		}
+		lo += step
+	}
+	return lo, hi
 }

@@ -74,3 +74,73 @@ func TestNextAtLeastFindsTheFirstValueNotBelow(t *testing.T) {
 		}
 	}
 }
+
+// TestSelectInWordFindsTheRthSetBit checks selectInWord against its
+// definition (the position of the r-th set bit, counting from 0), bit by
+// bit, on words of every density: all ones, single bits at each end,
+// bytes full or empty in turn, and random words thinned to various
+// densities.
+func TestSelectInWordFindsTheRthSetBit(t *testing.T) {
+	words := []uint64{1, 1 << 63, ^uint64(0), 0xff00ff00ff00ff00, 0x00ff00ff00ff00ff, 0x8000000000000001}
+	rng := rand.New(rand.NewPCG(7, 8))
+	for range 4000 {
+		w := rng.Uint64()
+		for range rng.IntN(4) {
+			w &= rng.Uint64()
+		}
+		if rng.IntN(2) == 0 {
+			w |= rng.Uint64()
+		}
+		words = append(words, w)
+	}
+	for _, w := range words {
+		r := uint(0)
+		for b := uint(0); b < 64; b++ {
+			if w>>b&1 == 0 {
+				continue
+			}
+			if got := selectInWord(w, r); got != b {
+				t.Fatalf("selectInWord(%#x, %d) = %d, want %d", w, r, got, b)
+			}
+			r++
+		}
+	}
+}
+
+// TestPairReadsTwoAdjacentValues checks pair against the values encoded,
+// for every index, on sequences whose gaps range from none (runs of equal
+// values) to long (high bits with many empty words between two values,
+// as under a frequent context's child start) and whose low bits range
+// from none to 30 (where two values' low bits no longer fit one read).
+func TestPairReadsTwoAdjacentValues(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 10))
+	for round := range 60 {
+		n := 1 + rng.IntN(2000)
+		scale := uint64(1) << rng.IntN(24)
+		x := make([]uint64, n)
+		var v uint64
+		for i := range x {
+			switch rng.IntN(10) {
+			case 0: // a long jump
+				v += uint64(rng.IntN(5000)) * scale
+			case 1: // a repeat
+			default:
+				v += uint64(rng.IntN(3)) * scale / 2
+			}
+			x[i] = v
+		}
+		e, err := parseEliasFano(encodeEliasFano(x), uint64(n))
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i := 0; i+1 < n; i++ {
+			a, b, ok := e.pair(uint64(i))
+			if !ok || a != x[i] || b != x[i+1] {
+				t.Fatalf("round %d (L %d): pair(%d) = %d, %d, %v; want %d, %d", round, e.l, i, a, b, ok, x[i], x[i+1])
+			}
+		}
+		if _, _, ok := e.pair(uint64(n - 1)); ok {
+			t.Fatalf("round %d: pair of the last value reports a pair", round)
+		}
+	}
+}
