@@ -1,10 +1,15 @@
 package estimate
 
-import "sync/atomic"
+import (
+	"math"
+	"sync/atomic"
+
+	"ingot/compile/tables"
+)
 
 // asyncSink hands the entries to a Sink on a goroutine of its own, in
-// batches, so that writing the model (the sink's work) runs on a second
-// core beside the estimate. The sink sees the same entries in the same
+// batches, so that writing the model (the sink's work, and the log10 of
+// the values) runs on a second core beside the estimate. The sink sees the same entries in the same
 // order as when called directly, so it writes the same bytes.
 type asyncSink struct {
 	batch  *sinkBatch
@@ -23,13 +28,19 @@ type sinkBatch struct {
 	ids      []uint32 // every entry's words, one after the other
 	k        []uint8  // each entry's order
 	rank     []uint32
-	logProb  []float32
-	logBack  []float32
+	prob     []float64
+	backoff  []float64
 	children []uint64
+	flags    []uint8 // noProb, top
 }
 
+const (
+	noProbFlag = 1 << iota // the entry is <s>: log10 probability tables.NoProb
+	topFlag                // the entry is of the top order: no back-off weight
+)
+
 func (b *sinkBatch) reset() {
-	b.ids, b.k, b.rank, b.logProb, b.logBack, b.children = b.ids[:0], b.k[:0], b.rank[:0], b.logProb[:0], b.logBack[:0], b.children[:0]
+	b.ids, b.k, b.rank, b.prob, b.backoff, b.children, b.flags = b.ids[:0], b.k[:0], b.rank[:0], b.prob[:0], b.backoff[:0], b.children[:0], b.flags[:0]
 }
 
 func newAsyncSink(sink Sink) *asyncSink {
@@ -46,7 +57,15 @@ func newAsyncSink(sink Sink) *asyncSink {
 				for i, k := range b.k {
 					ids := b.ids[off : off+int(k)]
 					off += int(k)
-					if err = sink.Add(ids, b.rank[i], b.logProb[i], b.logBack[i], b.children[i]); err != nil {
+					lp := float32(math.Log10(b.prob[i]))
+					if b.flags[i]&noProbFlag != 0 {
+						lp = tables.NoProb
+					}
+					var lb float32
+					if b.flags[i]&topFlag == 0 {
+						lb = float32(math.Log10(b.backoff[i]))
+					}
+					if err = sink.Add(ids, b.rank[i], lp, lb, b.children[i]); err != nil {
 						a.failed.Store(true)
 						break
 					}
@@ -60,9 +79,12 @@ func newAsyncSink(sink Sink) *asyncSink {
 	return a
 }
 
-// Add queues one entry; an error the sink gave for an earlier one is
-// returned once a batch has found it, or by close.
-func (a *asyncSink) Add(ids []uint32, rank uint32, logProb, logBackoff float32, children uint64) error {
+// add queues one entry, its probability and back-off weight (the sink
+// is given their log10, computed on its goroutine; noProb: the log10
+// probability tables.NoProb; top: no back-off weight). An error the sink
+// gave for an earlier entry is returned once a batch has found it, or by
+// close.
+func (a *asyncSink) add(ids []uint32, rank uint32, prob, backoff float64, children uint64, noProb, top bool) error {
 	if a.err != nil {
 		return a.err
 	}
@@ -70,9 +92,17 @@ func (a *asyncSink) Add(ids []uint32, rank uint32, logProb, logBackoff float32, 
 	b.ids = append(b.ids, ids...)
 	b.k = append(b.k, uint8(len(ids)))
 	b.rank = append(b.rank, rank)
-	b.logProb = append(b.logProb, logProb)
-	b.logBack = append(b.logBack, logBackoff)
+	b.prob = append(b.prob, prob)
+	b.backoff = append(b.backoff, backoff)
 	b.children = append(b.children, children)
+	var f uint8
+	if noProb {
+		f |= noProbFlag
+	}
+	if top {
+		f |= topFlag
+	}
+	b.flags = append(b.flags, f)
 	if len(b.k) < sinkBatchEntries {
 		return nil
 	}

@@ -60,6 +60,7 @@ func (s *streamer) link() error {
 		startsHi uint64
 	)
 	startsLo, startsHi = uint64(s.start), uint64(s.start)+1
+	s.coc = make([][]float64, s.N+1)
 	for k := 2; k <= s.N; k++ {
 		below := s.sp.Entries[k-2] // entries of order k-1
 		var a []uint64
@@ -76,6 +77,14 @@ func (s *streamer) link() error {
 			return err
 		}
 		if kn {
+			if k > 2 {
+				s.coc[k-1] = make([]float64, s.opt.countOfCountsMax()+1)
+				for _, r := range a {
+					if r >= 1 && r < uint64(len(s.coc[k-1])) {
+						s.coc[k-1][r]++
+					}
+				}
+			}
 			if k == 2 {
 				a[s.start] = s.sp.Unigrams[s.start]
 				s.adj1 = a
@@ -143,6 +152,12 @@ func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a []ui
 		}
 		defer ranks.f.Close()
 	}
+	// The count of raw counts, where order k's estimate uses them.
+	var coc []float64
+	if a == nil || nextStarts == nil {
+		coc = make([]float64, s.opt.countOfCountsMax()+1)
+		s.coc[k] = coc
+	}
 	var (
 		p        = -1   // the position in order k-1 of the current prefix
 		pSuf     uint32 // the position in order k-2 of its suffix (k >= 4)
@@ -186,12 +201,15 @@ func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a []ui
 				return err
 			}
 		}
-		g, _, err := r.Next()
+		g, raw, err := r.Next()
 		if err == io.EOF {
 			break
 		}
 		if err != nil {
 			return err
+		}
+		if raw >= 1 && raw < uint64(len(coc)) {
+			coc[raw]++
 		}
 		w := g[k-1]
 		if !inPrefix || compareWords(cur, g[:k-1]) != 0 {

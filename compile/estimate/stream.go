@@ -1,9 +1,7 @@
 package estimate
 
 import (
-	"bufio"
 	"context"
-	"encoding/binary"
 	"fmt"
 	"io"
 	"log/slog"
@@ -118,7 +116,7 @@ type streamer struct {
 	opt    Options
 	so     StreamOptions
 	log    *slog.Logger
-	sink   Sink
+	sink   *asyncSink
 	N      int
 	V      float64
 	start  uint32
@@ -129,8 +127,11 @@ type streamer struct {
 	// linked: the suffixes were found by link (in memory, no sort), not
 	// by adjust and join.
 	linked bool
-	files  []string
-	runs   int
+	// coc[k], when not nil, is order k's count of counts (of adjusted
+	// counts where the order uses them), counted by link.
+	coc   [][]float64
+	files []string
+	runs  int
 	// spilled counts the bytes of sort runs.
 	spilled int64
 }
@@ -205,72 +206,6 @@ func (s *streamer) run() error {
 	}
 	return s.emitTop()
 }
-
-// column files: fixed-width values in entry order.
-
-type colWriter struct {
-	f  *os.File
-	bw *bufio.Writer
-	b  [8]byte
-}
-
-func (s *streamer) createCol(name string) (*colWriter, error) {
-	f, err := os.Create(s.path(name))
-	if err != nil {
-		return nil, err
-	}
-	return &colWriter{f: f, bw: bufio.NewWriterSize(f, 1<<16)}, nil
-}
-
-func (c *colWriter) put64(v uint64) error {
-	binary.LittleEndian.PutUint64(c.b[:], v)
-	_, err := c.bw.Write(c.b[:])
-	return err
-}
-
-func (c *colWriter) put32(v uint32) error {
-	binary.LittleEndian.PutUint32(c.b[:4], v)
-	_, err := c.bw.Write(c.b[:4])
-	return err
-}
-
-func (c *colWriter) close() error {
-	err := c.bw.Flush()
-	if cerr := c.f.Close(); err == nil {
-		err = cerr
-	}
-	return err
-}
-
-type colReader struct {
-	f  *os.File
-	br *bufio.Reader
-	b  [8]byte
-}
-
-func openCol(path string) (*colReader, error) {
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, err
-	}
-	return &colReader{f: f, br: bufio.NewReaderSize(f, 1<<16)}, nil
-}
-
-func (c *colReader) get64() (uint64, error) {
-	if _, err := io.ReadFull(c.br, c.b[:]); err != nil {
-		return 0, fmt.Errorf("column file ends early: %w", err)
-	}
-	return binary.LittleEndian.Uint64(c.b[:]), nil
-}
-
-func (c *colReader) get32() (uint32, error) {
-	if _, err := io.ReadFull(c.br, c.b[:4]); err != nil {
-		return 0, fmt.Errorf("column file ends early: %w", err)
-	}
-	return binary.LittleEndian.Uint32(c.b[:4]), nil
-}
-
-func (c *colReader) close() { c.f.Close() }
 
 func (s *streamer) adjName(k int) string {
 	return filepath.Join(s.so.Dir, fmt.Sprintf("adjusted-%d", k))
@@ -440,7 +375,8 @@ type lowerWalk struct {
 	i      int // index of the current entry
 	n      int
 	r      *counts.SpoolReader // k >= 2
-	probs  *colReader          // k >= 2
+	probs  *colReader          // k >= 2, unless mem
+	mem    []float64           // the probabilities, when in memory
 	ranks  *colReader          // k >= 3
 	cur    []uint32
 	prob   float64
@@ -448,16 +384,20 @@ type lowerWalk struct {
 	badBow error
 }
 
-func (s *streamer) newLowerWalk(k int) (*lowerWalk, error) {
-	w := &lowerWalk{s: s, k: k, i: -1, n: int(s.sp.Entries[k-1]), cur: make([]uint32, k)}
+// newLowerWalk starts a walk of order k's entries; probs, when not nil,
+// are their probabilities (else read from the column prob-k).
+func (s *streamer) newLowerWalk(k int, probs []float64) (*lowerWalk, error) {
+	w := &lowerWalk{s: s, k: k, i: -1, n: int(s.sp.Entries[k-1]), cur: make([]uint32, k), mem: probs}
 	if k >= 2 {
 		var err error
 		if w.r, err = s.sp.Open(k); err != nil {
 			return nil, err
 		}
-		if w.probs, err = openCol(s.probName(k)); err != nil {
-			w.close()
-			return nil, err
+		if probs == nil {
+			if w.probs, err = openCol(s.probName(k)); err != nil {
+				w.close()
+				return nil, err
+			}
 		}
 		if k >= 3 {
 			if w.ranks, err = openCol(s.rankName(k)); err != nil {
@@ -500,11 +440,15 @@ func (w *lowerWalk) advance() error {
 		return err
 	}
 	copy(w.cur, g)
-	bits, err := w.probs.get64()
-	if err != nil {
-		return err
+	if w.mem != nil {
+		w.prob = w.mem[w.i]
+	} else {
+		bits, err := w.probs.get64()
+		if err != nil {
+			return err
+		}
+		w.prob = math.Float64frombits(bits)
 	}
-	w.prob = math.Float64frombits(bits)
 	if w.ranks != nil {
 		if w.rank, err = w.ranks.get32(); err != nil {
 			return err
@@ -515,19 +459,12 @@ func (w *lowerWalk) advance() error {
 
 // emit hands the current entry to the sink and advances.
 func (w *lowerWalk) emit(bow float64, children uint64, top bool) error {
-	lp := float32(math.Log10(w.prob))
-	if w.k == 1 && uint32(w.i) == w.s.start {
-		lp = tables.NoProb
-	}
-	var lb float32
-	if !top {
-		if bad(bow) && w.badBow == nil {
-			w.badBow = w.s.wrap(fmt.Errorf("order %d context %q gets back-off weight %v (no mass left for unseen words); no model is written", w.k, w.s.words(w.cur), bow))
-		}
-		lb = float32(math.Log10(bow))
+	if !top && bad(bow) && w.badBow == nil {
+		w.badBow = w.s.wrap(fmt.Errorf("order %d context %q gets back-off weight %v (no mass left for unseen words); no model is written", w.k, w.s.words(w.cur), bow))
 	}
 	if w.badBow == nil {
-		if err := w.s.sink.Add(w.cur, w.rank, lp, lb, children); err != nil {
+		noProb := w.k == 1 && uint32(w.i) == w.s.start
+		if err := w.s.sink.add(w.cur, w.rank, w.prob, bow, children, noProb, top); err != nil {
 			return err
 		}
 	}
@@ -674,9 +611,11 @@ func (s *streamer) order(k int) error {
 		adj, err = openCol(s.adjName(k))
 		return err
 	}
-	// The count of counts, in one pass.
+	// The count of counts, counted by link or in one pass.
 	n := make([]float64, s.opt.countOfCountsMax()+1)
-	if len(n) > 1 {
+	if k < len(s.coc) && s.coc[k] != nil {
+		n = s.coc[k]
+	} else if len(n) > 1 {
 		if kn {
 			if err := openAdj(); err != nil {
 				return err
@@ -733,7 +672,7 @@ func (s *streamer) order(k int) error {
 		}
 		defer adj.close()
 	}
-	walk, err := s.newLowerWalk(k - 1)
+	walk, err := s.newLowerWalk(k-1, lowerProb)
 	if err != nil {
 		return err
 	}
@@ -882,7 +821,7 @@ func (s *streamer) readProbs(k int) ([]float64, error) {
 
 // emitTop hands the entries of the highest order to the sink.
 func (s *streamer) emitTop() error {
-	walk, err := s.newLowerWalk(s.N)
+	walk, err := s.newLowerWalk(s.N, nil)
 	if err != nil {
 		return err
 	}

@@ -1,0 +1,116 @@
+package estimate
+
+import (
+	"encoding/binary"
+	"fmt"
+	"io"
+	"os"
+)
+
+// Column files: fixed-width little-endian values in entry order, written
+// and read through a buffer of columnBuffer bytes (a value costs a bounds
+// check and a load, a system call comes once per buffer).
+
+const columnBuffer = 1 << 18
+
+type colWriter struct {
+	f   *os.File
+	buf []byte
+}
+
+func (s *streamer) createCol(name string) (*colWriter, error) {
+	f, err := os.Create(s.path(name))
+	if err != nil {
+		return nil, err
+	}
+	return &colWriter{f: f, buf: make([]byte, 0, columnBuffer)}, nil
+}
+
+func (c *colWriter) flush() error {
+	_, err := c.f.Write(c.buf)
+	c.buf = c.buf[:0]
+	if err != nil {
+		return fmt.Errorf("column %s: %w", c.f.Name(), err)
+	}
+	return nil
+}
+
+func (c *colWriter) put64(v uint64) error {
+	if len(c.buf)+8 > cap(c.buf) {
+		if err := c.flush(); err != nil {
+			return err
+		}
+	}
+	c.buf = binary.LittleEndian.AppendUint64(c.buf, v)
+	return nil
+}
+
+func (c *colWriter) put32(v uint32) error {
+	if len(c.buf)+4 > cap(c.buf) {
+		if err := c.flush(); err != nil {
+			return err
+		}
+	}
+	c.buf = binary.LittleEndian.AppendUint32(c.buf, v)
+	return nil
+}
+
+// close writes what is buffered and closes the file.
+func (c *colWriter) close() error {
+	err := c.flush()
+	if cerr := c.f.Close(); err == nil {
+		err = cerr
+	}
+	return err
+}
+
+type colReader struct {
+	f   *os.File
+	buf []byte
+	pos int
+	off int64 // the file offset of buf[0]
+}
+
+func openCol(path string) (*colReader, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	return &colReader{f: f, buf: make([]byte, 0, columnBuffer)}, nil
+}
+
+// fill makes at least n bytes readable from pos.
+func (c *colReader) fill(n int) error {
+	rest := copy(c.buf[:cap(c.buf)], c.buf[c.pos:])
+	c.off += int64(c.pos)
+	m, err := io.ReadAtLeast(c.f, c.buf[rest:cap(c.buf)], n-rest)
+	c.buf, c.pos = c.buf[:rest+m], 0
+	if err != nil {
+		return fmt.Errorf("column %s ends early, at byte %d: %w", c.f.Name(), c.off+int64(rest+m), err)
+	}
+	return nil
+}
+
+func (c *colReader) get64() (uint64, error) {
+	if c.pos+8 > len(c.buf) {
+		if err := c.fill(8); err != nil {
+			return 0, err
+		}
+	}
+	v := binary.LittleEndian.Uint64(c.buf[c.pos:])
+	c.pos += 8
+	return v, nil
+}
+
+func (c *colReader) get32() (uint32, error) {
+	if c.pos+4 > len(c.buf) {
+		if err := c.fill(4); err != nil {
+			return 0, err
+		}
+	}
+	v := binary.LittleEndian.Uint32(c.buf[c.pos:])
+	c.pos += 4
+	return v, nil
+}
+
+func (c *colReader) close() { c.f.Close() }
