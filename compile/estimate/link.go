@@ -21,8 +21,9 @@ import (
 // linkBytes returns the memory the linked passes hold at their largest:
 // while order k is linked, the last words and child starts of orders k-1
 // and k (4 bytes an entry each) and, for Kneser-Ney, the adjusted counts
-// of order k-1 (8 bytes); while order k is estimated, the probabilities
-// of order k-1 (8 bytes).
+// of order k-1 (4 bytes an entry, and 8 for each beginning with <s>,
+// taken as all); while order k is estimated, the probabilities of order
+// k-1 (8 bytes).
 func (s *streamer) linkBytes() int64 {
 	e := func(k int) int64 {
 		if k < 1 {
@@ -34,7 +35,7 @@ func (s *streamer) linkBytes() int64 {
 	for k := 2; k <= s.N; k++ {
 		b := 4*(e(k-1)+1) + 4*e(k) + 4*e(k-1) + 4*(e(k-2)+1)
 		if s.opt.Method == KneserNey {
-			b += 8 * e(k-1)
+			b += 12 * e(k-1)
 		}
 		need = max(need, b, 8*e(k-1))
 	}
@@ -63,9 +64,9 @@ func (s *streamer) link() error {
 	s.coc = make([][]float64, s.N+1)
 	for k := 2; k <= s.N; k++ {
 		below := s.sp.Entries[k-2] // entries of order k-1
-		var a []uint64
+		var a *adjusted
 		if kn {
-			a = make([]uint64, below)
+			a = &adjusted{n: make([]uint32, below), lo: startsLo, raw: make([]uint64, startsHi-startsLo)}
 		}
 		top := k == s.N
 		var nextLast, nextStarts []uint32
@@ -79,15 +80,18 @@ func (s *streamer) link() error {
 		if kn {
 			if k > 2 {
 				s.coc[k-1] = make([]float64, s.opt.countOfCountsMax()+1)
-				for _, r := range a {
-					if r >= 1 && r < uint64(len(s.coc[k-1])) {
+				for i := range a.n {
+					if r := a.get(i); r >= 1 && r < uint64(len(s.coc[k-1])) {
 						s.coc[k-1][r]++
 					}
 				}
 			}
 			if k == 2 {
-				a[s.start] = s.sp.Unigrams[s.start]
-				s.adj1 = a
+				a.raw[0] = s.sp.Unigrams[s.start]
+				s.adj1 = make([]uint64, below)
+				for i := range s.adj1 {
+					s.adj1[i] = a.get(i)
+				}
 			} else if err := s.writeAdjusted(k-1, a); err != nil {
 				return err
 			}
@@ -100,13 +104,13 @@ func (s *streamer) link() error {
 	return nil
 }
 
-func (s *streamer) writeAdjusted(k int, a []uint64) error {
+func (s *streamer) writeAdjusted(k int, a *adjusted) error {
 	out, err := s.createCol(fmt.Sprintf("adjusted-%d", k))
 	if err != nil {
 		return err
 	}
-	for _, v := range a {
-		if err := out.put64(v); err != nil {
+	for i := range a.n {
+		if err := out.put64(a.get(i)); err != nil {
 			out.close()
 			return err
 		}
@@ -120,7 +124,7 @@ func (s *streamer) writeAdjusted(k int, a []uint64) error {
 // are their raw counts. It appends order k's last words to *nextLast and
 // counts the children of order k-1's entries into nextStarts (made child
 // starts at the end), unless k is the top order.
-func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a []uint64, nextLast *[]uint32, nextStarts []uint32) error {
+func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a *adjusted, nextLast *[]uint32, nextStarts []uint32) error {
 	r, err := s.sp.Open(k)
 	if err != nil {
 		return err
@@ -185,7 +189,7 @@ func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a []ui
 				pSuf = pg2[1] // k == 3: the suffix of a bigram is its last word
 			}
 			if a != nil && uint64(p) >= lo && uint64(p) < hi {
-				a[p] = raw
+				a.raw[uint64(p)-lo] = raw
 			}
 			switch c := compareWords(pg2, g[:k-1]); {
 			case c == 0:
@@ -229,8 +233,8 @@ func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a []ui
 			nextStarts[p+1]++
 		}
 		if k == 2 {
-			if a != nil && (uint64(w) < lo || uint64(w) >= hi) {
-				a[w]++
+			if a != nil {
+				a.inc(uint64(w))
 			}
 			continue
 		}
@@ -248,8 +252,8 @@ func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a []ui
 			return err
 		}
 		from = pos + 1
-		if a != nil && (uint64(pos) < lo || uint64(pos) >= hi) {
-			a[pos]++
+		if a != nil {
+			a.inc(uint64(pos))
 		}
 	}
 	// The rest of order k-1: entries with no children, whose adjusted
@@ -265,7 +269,7 @@ func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a []ui
 			}
 			p++
 			if uint64(p) >= lo && uint64(p) < hi {
-				a[p] = raw
+				a.raw[uint64(p)-lo] = raw
 			}
 		}
 	}
@@ -285,6 +289,30 @@ func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a []ui
 		}
 	}
 	return nil
+}
+
+// adjusted holds one order's Kneser-Ney adjusted counts as they are
+// counted: 32 bits a count (an order has fewer than 2^32 entries), and the
+// raw counts of the entries beginning with <s>, which are contiguous
+// (from lo on).
+type adjusted struct {
+	n   []uint32
+	lo  uint64
+	raw []uint64
+}
+
+// inc counts one more entry above with entry i as its suffix.
+func (a *adjusted) inc(i uint64) {
+	if i-a.lo >= uint64(len(a.raw)) {
+		a.n[i]++
+	}
+}
+
+func (a *adjusted) get(i int) uint64 {
+	if r := uint64(i) - a.lo; r < uint64(len(a.raw)) {
+		return a.raw[r]
+	}
+	return uint64(a.n[i])
 }
 
 func compareWords(a, b []uint32) int {
