@@ -311,3 +311,24 @@ func TestLoadStopsAtAMissingPrefix(t *testing.T) {
 		t.Errorf("%d goroutines after the load, %d before", after, before)
 	}
 }
+
+// Spool, which decodes on a goroutine of its own, finds every corruption
+// Load finds and names the file, and the offset where the layout breaks.
+func TestSpoolCorruptionNamesFile(t *testing.T) {
+	c := counted(t, 3, 15, 3)
+	data := binaryOf(t, c)
+	dir := t.TempDir()
+	for i := range data {
+		bad := bytes.Clone(data)
+		bad[i] ^= 0x01
+		_, err := Spool(3, []Source{{Name: "f", R: bytes.NewReader(bad)}}, dir)
+		if err == nil || !strings.HasPrefix(err.Error(), "f:") {
+			t.Fatalf("byte %d of %d xor 1: %v", i, len(data), err)
+		}
+	}
+	_, err := Spool(3, []Source{{Name: "f", R: bytes.NewReader(append(bytes.Clone(data), 0))}}, dir)
+	var fe *FormatError
+	if !errors.As(err, &fe) || !strings.HasPrefix(err.Error(), "f: offset ") {
+		t.Errorf("trailing byte: %v", err)
+	}
+}

@@ -62,38 +62,43 @@ func Spool(order int, sources []Source, dir string) (*Spooled, error) {
 			}
 		}
 	}()
-	var g []uint32
+	// The sources are decoded and merged on another goroutine while this
+	// one writes the entries.
+	a := readAhead(ms.m)
+	defer a.Close()
 	for {
-		var n uint64
-		g, n, _, err = ms.m.next(g)
-		if err == io.EOF {
-			break
-		}
-		if err != nil {
-			return nil, ms.streamErr(err)
-		}
-		k := len(g)
-		if k > order {
-			continue
-		}
-		maxSeen = max(maxSeen, k)
-		if k == 1 {
-			sp.Unigrams[g[0]] = n
-			continue
-		}
-		o := outs[k]
-		if o == nil {
-			p := filepath.Join(dir, fmt.Sprintf("order-%d.records", k))
-			f, err := os.Create(p)
-			if err != nil {
+		bt := a.nextBatch()
+		for x := range bt.entries {
+			g, n := bt.entries[x].ids, bt.entries[x].count
+			k := len(g)
+			if k > order {
+				continue
+			}
+			maxSeen = max(maxSeen, k)
+			if k == 1 {
+				sp.Unigrams[g[0]] = n
+				continue
+			}
+			o := outs[k]
+			if o == nil {
+				p := filepath.Join(dir, fmt.Sprintf("order-%d.records", k))
+				f, err := os.Create(p)
+				if err != nil {
+					return nil, fmt.Errorf("spooling counts: %w", err)
+				}
+				o = &spoolWriter{f: f, buf: make([]byte, 0, spoolBuffer)}
+				outs[k] = o
+				sp.paths[k-1] = p
+			}
+			if err := o.add(g, n); err != nil {
 				return nil, fmt.Errorf("spooling counts: %w", err)
 			}
-			o = &spoolWriter{f: f, buf: make([]byte, 0, spoolBuffer)}
-			outs[k] = o
-			sp.paths[k-1] = p
 		}
-		if err := o.add(g, n); err != nil {
-			return nil, fmt.Errorf("spooling counts: %w", err)
+		if bt.err == io.EOF {
+			break
+		}
+		if bt.err != nil {
+			return nil, ms.streamErr(bt.err)
 		}
 	}
 	if maxSeen == 0 {

@@ -3,18 +3,20 @@ package estimate
 import (
 	"fmt"
 	"io"
+	"math"
 	"path/filepath"
-	"slices"
 
 	"ingot/compile/counts"
+	"ingot/compile/tables"
 )
 
 // The streamed estimator finds each entry's suffix one of two ways. When
 // the arrays below fit the budget, it links the orders bottom-up in one
-// sequential pass each (link): the suffix of (w1..wk) is the child wk of
-// the suffix of its prefix (w1..wk-1), searched among that node's
-// children, which are contiguous in the order below; this needs the last
-// words and child starts of two orders at a time in memory, and no sort.
+// sequential pass each (link), the walk of tables.Links: the suffix of
+// (w1..wk) is the child wk of the suffix of its prefix (w1..wk-1),
+// searched (tables.SearchLast) among that node's children, which are
+// contiguous in the order below; this needs the last words and child
+// starts of two orders at a time in memory, and no sort.
 // Otherwise it sorts the suffixes on disk and merges them with the order
 // below (adjust and join).
 
@@ -33,6 +35,9 @@ func (s *streamer) linkBytes() int64 {
 	}
 	var need int64
 	for k := 2; k <= s.N; k++ {
+		if e(k) > math.MaxInt32 {
+			return math.MaxInt64 // positions are int32 (tables.SearchLast)
+		}
 		b := 4*(e(k-1)+1) + 4*e(k) + 4*e(k-1) + 4*(e(k-2)+1)
 		if s.opt.Method == KneserNey {
 			b += 12 * e(k-1)
@@ -238,13 +243,13 @@ func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a *adj
 			}
 			continue
 		}
-		// The suffix is the child w of the prefix's suffix.
-		end := starts[pSuf+1]
-		at, ok := slices.BinarySearch(last[from:end], w)
-		if !ok {
+		// The suffix is the child w of the prefix's suffix, after the
+		// suffix of the sibling before.
+		at := tables.SearchLast(last, 1, int32(from), int32(starts[pSuf+1]), w)
+		if at < 0 {
 			return fmt.Errorf("counts are not closed: a %d-gram ends with %q, which has no count", k, s.words(g[1:]))
 		}
-		pos := from + uint32(at)
+		pos := uint32(at)
 		if err := sufOut.put32(pos); err != nil {
 			return err
 		}

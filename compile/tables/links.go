@@ -150,6 +150,12 @@ func (l *Links) link(g, lower []uint32, cur *cursor) (parent, suffix int32, ok b
 	return p, suffix, true
 }
 
+// SearchLast is searchLast for a reader that holds an order's entries
+// elsewhere (the streamed estimator holds only their last words: k = 1).
+func SearchLast(words []uint32, k int, lo, hi int32, w uint32) int32 {
+	return searchLast(words, k, lo, hi, w)
+}
+
 // searchLast returns the index in [lo, hi) of the entry of words (k ids
 // each, sorted, those in [lo, hi) sharing their first k-1 ids) whose last
 // id is w, or -1. It gallops from lo (J. L. Bentley and A. C.-C. Yao, "An
