@@ -114,3 +114,44 @@ func (c *colReader) get32() (uint32, error) {
 }
 
 func (c *colReader) close() { c.f.Close() }
+
+// gather yields from[i] for the positions i of a column of 32-bit values,
+// looked up gatherBatch at a time in a loop of their own: the positions
+// are random (an entry's suffix), so each look-up is a cache miss, and
+// misses that do not wait for each other overlap.
+type gather struct {
+	col  *colReader
+	from []float64
+	left uint64 // positions not yet read
+	at   []uint32
+	buf  []float64
+	pos  int
+}
+
+const gatherBatch = 1 << 12
+
+func (g *gather) next() (float64, error) {
+	if g.pos == len(g.buf) {
+		n := int(min(g.left, gatherBatch))
+		if n == 0 {
+			return 0, fmt.Errorf("column %s: more values asked than it holds", g.col.f.Name())
+		}
+		g.at = g.at[:0]
+		for range n {
+			i, err := g.col.get32()
+			if err != nil {
+				return 0, err
+			}
+			g.at = append(g.at, i)
+		}
+		g.buf = g.buf[:0]
+		for _, i := range g.at {
+			g.buf = append(g.buf, g.from[i])
+		}
+		g.left -= uint64(n)
+		g.pos = 0
+	}
+	v := g.buf[g.pos]
+	g.pos++
+	return v, nil
+}

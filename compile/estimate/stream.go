@@ -647,18 +647,20 @@ func (s *streamer) order(k int) error {
 	var fallbacks tally
 	var (
 		jn        *joined
-		sufs      *colReader // linked: the suffixes' positions in order k-1
-		lowerProb []float64  // linked: order k-1's probabilities
+		sufs      *gather   // linked: the suffixes' probabilities
+		lowerProb []float64 // linked: order k-1's probabilities
 	)
 	if k >= 3 && s.linked {
 		var err error
 		if lowerProb, err = s.readProbs(k - 1); err != nil {
 			return err
 		}
-		if sufs, err = openCol(s.sufName(k)); err != nil {
+		col, err := openCol(s.sufName(k))
+		if err != nil {
 			return err
 		}
-		defer sufs.close()
+		defer col.close()
+		sufs = &gather{col: col, from: lowerProb, left: s.sp.Entries[k-1]}
 	} else if k >= 3 {
 		var err error
 		if jn, err = s.join(k); err != nil {
@@ -755,11 +757,10 @@ func (s *streamer) order(k int) error {
 			}
 			l = s.prob1[g[1]]
 		} else if s.linked {
-			at, err := sufs.get32()
-			if err != nil {
+			var err error
+			if l, err = sufs.next(); err != nil {
 				return err
 			}
-			l = lowerProb[at]
 		} else {
 			var rank uint32
 			var err error
