@@ -98,3 +98,26 @@ func MarshalKeysEF(t *tables.Tables) ([]byte, error) {
 		s.data, s.Encoding = lastWordKeysEF(t, s.Order, links.Starts, links)
 	})
 }
+
+// MarshalUncoded is MarshalVersion(t, 3) as the writer wrote it before
+// coded key lists: each order's keys in one Elias-Fano sequence or in key
+// lists, whichever is shorter (lists when equal). BenchmarkLayouts scores
+// it beside the file the writer writes now.
+func MarshalUncoded(t *tables.Tables) ([]byte, error) {
+	links := linksOf(t)
+	return marshalEdited(t, func(s *section) {
+		if s.Kind != KindLastWords {
+			return
+		}
+		k := s.Order
+		keys, enc := wordKeys(t, k, links.Starts, links)
+		starts, isContext := links.Starts[k-2], contextsOf(t, k-1, links.Starts)
+		listBits := keyListsBits(keys, starts, isContext)
+		m := uint64(len(listBits) - 1)
+		if keyListsLength(m, listBits[m]) <= efLength(uint64(len(keys)), shiftedLast(keys, starts)) {
+			s.data, s.Encoding = encodeKeyLists(keys, starts, isContext), listEncoding(enc)
+			return
+		}
+		s.data, s.Encoding = encodeEliasFano(shiftedKeys(keys, starts)), enc
+	})
+}

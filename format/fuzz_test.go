@@ -51,7 +51,18 @@ func fuzzSeeds(t testing.TB) [][]byte {
 			t.Fatal(err)
 		}
 		seeds = append(seeds, data)
+		// And coded key lists (encodings 9 and 10).
+		if data, err = MarshalCodedLists(tb); err != nil {
+			t.Fatal(err)
+		}
+		seeds = append(seeds, data)
 	}
+	// Coded lists of every kind, Elias-Fano included.
+	codedGolden, err := os.ReadFile(filepath.Join("..", "spec", "golden", "marrowfen.q8.v3-coded.ingot"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	seeds = append(seeds, codedGolden)
 	// The 8-bit golden holds tiered columns (encoding 6) of both kinds.
 	tiered, err := os.ReadFile(filepath.Join("..", "spec", "golden", "marrowfen.q8.v3.ingot"))
 	if err != nil {

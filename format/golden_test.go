@@ -36,6 +36,9 @@ var (
 	// they are on larger models.
 	goldenListsModel3    = filepath.Join("..", "spec", "golden", "tiny.v3-lists.ingot")
 	goldenCutListsModel3 = filepath.Join("..", "spec", "golden", "tiny-cut.v3-lists.ingot")
+	// And in coded key lists (encodings 9 and 10).
+	goldenCodedModel3    = filepath.Join("..", "spec", "golden", "tiny.v3-coded.ingot")
+	goldenCutCodedModel3 = filepath.Join("..", "spec", "golden", "tiny-cut.v3-coded.ingot")
 	// The Marrowfen models: estimated from the first 120 commands of the
 	// invented demo scenario (marrowfen.txt), in 32-bit floats (version 3)
 	// and quantized by package quantize at --bits 8 and --bits 4 (back-off
@@ -314,6 +317,21 @@ func TestGolden(t *testing.T) {
 			t.Errorf("%s: orders 2 and 3 not in key lists, or order 3 keyed otherwise than expected", c.model)
 		}
 	}
+	// The same in coded key lists (§4.8.8).
+	for _, c := range []struct {
+		model, expected string
+		tb              *tables.Tables
+		ranked          bool
+	}{{goldenCodedModel3, goldenExpected, tiny, true}, {goldenCutCodedModel3, goldenCutExpected, cut, false}} {
+		data, err := MarshalCodedLists(c.tb)
+		if err != nil {
+			t.Fatal(err)
+		}
+		checkGoldenData(t, c.model, c.expected, data, 3, goldenQueries(c.tb))
+		if m := mustOpen(t, data); !m.levels[1].coded || !m.levels[2].coded || m.levels[2].ranked != c.ranked {
+			t.Errorf("%s: orders 2 and 3 not in coded key lists, or order 3 keyed otherwise than expected", c.model)
+		}
+	}
 	m, err := Open(goldenCutModel3)
 	if err != nil {
 		t.Fatal(err)
@@ -352,6 +370,39 @@ func TestGoldenMarrowfen(t *testing.T) {
 		t.Run(c.model, func(t *testing.T) {
 			checkGoldenQueries(t, goldenPath(c.model), goldenPath(c.expected), c.tb, c.version, demoQueries(c.tb))
 		})
+	}
+	// The 8-bit model in coded key lists at every order: the golden
+	// vector whose lists include every kind of §4.8.8 (one key, one width,
+	// Elias-Fano, run).
+	coded, err := MarshalCodedLists(q8)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Run("marrowfen.q8.v3-coded.ingot", func(t *testing.T) {
+		checkGoldenData(t, goldenPath("marrowfen.q8.v3-coded.ingot"), goldenPath("marrowfen.q8.expected.jsonl"), coded, 3, demoQueries(q8))
+	})
+	kinds := map[uint64]bool{}
+	m := mustOpen(t, coded)
+	for k := 2; k <= m.order; k++ {
+		lv := &m.levels[k-1]
+		starts := make([]uint64, lv.lists.starts.n)
+		if err := lv.lists.starts.decodeAll(starts); err != nil {
+			t.Fatal(err)
+		}
+		for r := 0; r+1 < len(starts); r++ {
+			switch size := starts[r+1] - starts[r]; {
+			case size == 0:
+			case size >= 2 && lv.lists.keyAt(starts[r], listKindBits) == listEF:
+				kinds[listEF] = true
+			case size == 2 && lv.lists.keyAt(starts[r], listKindBits) == listRun:
+				kinds[listRun] = true
+			default:
+				kinds[listFixed] = true
+			}
+		}
+	}
+	if !kinds[listEF] || !kinds[listRun] || !kinds[listFixed] {
+		t.Errorf("marrowfen.q8.v3-coded.ingot holds lists of kinds %v; want every kind", kinds)
 	}
 	// The quantized files cover packed widths that are whole bytes, that
 	// divide a byte and that straddle bytes, in both versions.

@@ -92,7 +92,8 @@ func TestKeyListsDamageFound(t *testing.T) {
 }
 
 // TestKeyListsChosenWhenShorter: the writer stores an order's keys in
-// lists exactly when that is not longer than one Elias-Fano sequence, and
+// coded key lists when they are shorter than both other forms, else in key
+// lists when those are not longer than one Elias-Fano sequence, and
 // FileSize counts what it writes; the model answers alike either way.
 func TestKeyListsChosenWhenShorter(t *testing.T) {
 	all, err := corpus.SOTU()
@@ -109,8 +110,12 @@ func TestKeyListsChosenWhenShorter(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	m, ml, me := mustOpen(t, data), mustOpen(t, listed), mustOpen(t, one)
-	sawList, sawEF := false, false
+	coded, err := MarshalCodedLists(tb)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m, ml, me, mc := mustOpen(t, data), mustOpen(t, listed), mustOpen(t, one), mustOpen(t, coded)
+	sawCoded, sawEF := false, false
 	for _, s := range m.Sections() {
 		if s.Kind != KindLastWords {
 			continue
@@ -124,13 +129,17 @@ func TestKeyListsChosenWhenShorter(t *testing.T) {
 			return -1
 		}
 		isList := s.Encoding == ListIDs || s.Encoding == ListRanks
-		sawList, sawEF = sawList || isList, sawEF || !isList
-		if want := min(length(ml), length(me)); s.Length != want || isList != (length(ml) <= length(me)) {
-			t.Errorf("order %d: %s of %d bytes; lists take %d, one sequence %d", s.Order, s.Encoding, s.Length, length(ml), length(me))
+		isCoded := s.Encoding == CodedListIDs || s.Encoding == CodedListRanks
+		sawCoded, sawEF = sawCoded || isCoded, sawEF || (!isList && !isCoded)
+		lc, ll, le := length(mc), length(ml), length(me)
+		wantCoded := lc < min(ll, le)
+		wantList := !wantCoded && ll <= le
+		if s.Length != min(lc, ll, le) || isCoded != wantCoded || isList != wantList {
+			t.Errorf("order %d: %s of %d bytes; coded lists take %d, lists %d, one sequence %d", s.Order, s.Encoding, s.Length, lc, ll, le)
 		}
 	}
-	if !sawList || !sawEF {
-		t.Errorf("the model does not exercise both encodings (lists %v, one sequence %v)", sawList, sawEF)
+	if !sawCoded || !sawEF {
+		t.Errorf("the model does not exercise both coded lists and one sequence (coded lists %v, one sequence %v)", sawCoded, sawEF)
 	}
 	if size, err := FileSize(tb, Planned{}); err != nil || size != int64(len(data)) {
 		t.Errorf("FileSize %d (%v), written %d", size, err, len(data))

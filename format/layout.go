@@ -175,6 +175,15 @@ const (
 	// ListRanks (version 3, last words of orders 3 and up) is ListIDs
 	// whose keys are ranks among the successors of the parent's suffix.
 	ListRanks Encoding = 8
+	// CodedListIDs (version 3, last words of order 2 and up) is ListIDs
+	// with each list of two keys or more coded as its 2-bit kind says:
+	// at one width, in Elias-Fano, or the run 0 .. d-1 in no bits
+	// (spec/FORMAT.md §4.8.8); keys are word ids.
+	CodedListIDs Encoding = 9
+	// CodedListRanks (version 3, last words of orders 3 and up) is
+	// CodedListIDs whose keys are ranks among the successors of the
+	// parent's suffix.
+	CodedListRanks Encoding = 10
 )
 
 // String returns the encoding's name.
@@ -198,6 +207,10 @@ func (e Encoding) String() string {
 		return "word ids in sibling lists"
 	case ListRanks:
 		return "successor ranks in sibling lists"
+	case CodedListIDs:
+		return "word ids in coded sibling lists"
+	case CodedListRanks:
+		return "successor ranks in coded sibling lists"
 	}
 	return fmt.Sprintf("encoding %d", uint32(e))
 }

@@ -50,9 +50,10 @@ type level struct {
 	// Version 3.
 	childStarts eliasFano // orders below the top: n+1 child starts
 	keys        eliasFano // orders >= 2: last-word keys, shifted per sibling list
-	lists       keyLists  // orders >= 2: the keys in sibling lists (ListIDs, ListRanks)
+	lists       keyLists  // orders >= 2: the keys in sibling lists (ListIDs, ListRanks, CodedListIDs, CodedListRanks)
 	listed      bool      // the keys are in lists, not in keys
-	ranked      bool      // keys are successor ranks (EliasFanoRanks, ListRanks)
+	coded       bool      // the lists are coded lists (CodedListIDs, CodedListRanks)
+	ranked      bool      // keys are successor ranks (EliasFanoRanks, ListRanks, CodedListRanks)
 	marks       marks     // orders below the top: entries with a back-off weight
 }
 

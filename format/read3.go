@@ -25,15 +25,16 @@ func (m *Model) readLevels3() error {
 		n := uint64(m.counts[k-1])
 		lv := &m.levels[k-1]
 		if k >= 2 {
-			encodings := []Encoding{EliasFano, ListIDs}
+			encodings := []Encoding{EliasFano, ListIDs, CodedListIDs}
 			if k >= 3 {
-				encodings = append(encodings, EliasFanoRanks, ListRanks)
+				encodings = append(encodings, EliasFanoRanks, ListRanks, CodedListRanks)
 			}
 			s, b, err := m.needEncoded(KindLastWords, k, -1, encodings...)
 			if err != nil {
 				return err
 			}
-			lv.listed = s.Encoding == ListIDs || s.Encoding == ListRanks
+			lv.coded = s.Encoding == CodedListIDs || s.Encoding == CodedListRanks
+			lv.listed = s.Encoding == ListIDs || s.Encoding == ListRanks || lv.coded
 			if lv.listed {
 				lv.lists, err = parseKeyLists(b, m.levels[k-2].marks.count)
 			} else {
@@ -42,7 +43,7 @@ func (m *Model) readLevels3() error {
 			if err != nil {
 				return formatErr(s.Name(), s.Offset, "%v", err)
 			}
-			lv.ranked = s.Encoding == EliasFanoRanks || s.Encoding == ListRanks
+			lv.ranked = s.Encoding == EliasFanoRanks || s.Encoding == ListRanks || s.Encoding == CodedListRanks
 		}
 		if lv.probs, err = m.readColumn(KindProbabilities, KindProbCodebook, k, int64(n)); err != nil {
 			return err
@@ -199,7 +200,16 @@ func (m *Model) extensions3(s *State, w uint32, child *[tables.MaxOrder]uint32) 
 		} else if child[0] == noNode {
 			continue
 		}
-		if next := &m.levels[j]; next.listed {
+		if next := &m.levels[j]; next.coded {
+			a, b, ok := next.lists.starts.pair(r[j])
+			if !ok {
+				continue
+			}
+			if i, ok := next.lists.codedFind(a, b, hi[j]-lo[j], key); ok {
+				child[j] = uint32(lo[j] + i)
+			}
+			continue
+		} else if next.listed {
 			start, width, ok := next.lists.list(r[j], hi[j]-lo[j])
 			if !ok {
 				continue
@@ -309,7 +319,11 @@ func (m *Model) decodeTrie(d *decodedTrie) error {
 				}
 			}
 			ctxStarts = append(ctxStarts, parents[len(parents)-1])
-			if err := lv.lists.decodeLists(keys, func(r uint64) (a, b uint64) { return ctxStarts[r], ctxStarts[r+1] }); err != nil {
+			decode := lv.lists.decodeLists
+			if lv.coded {
+				decode = lv.lists.decodeCodedLists
+			}
+			if err := decode(keys, func(r uint64) (a, b uint64) { return ctxStarts[r], ctxStarts[r+1] }); err != nil {
 				name, at := m.sectionOffset(KindLastWords, k, 0)
 				return formatErr(name, at, "%v", err)
 			}

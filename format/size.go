@@ -61,11 +61,10 @@ func FileSize(t *tables.Tables, plan Planned) (int64, error) {
 			keys, _ := wordKeys(t, k, childStarts, links)
 			below := &t.Levels[k-2]
 			starts := childStarts[k-2]
-			listBits := keyListsBits(keys, starts, func(i int) bool {
+			_, length := keysFormLength(keys, starts, func(i int) bool {
 				return starts[i+1] > starts[i] || (plan.BackoffLevels == 0 && hasBackoff(below.LogBackoff[i]))
 			})
-			m := uint64(len(listBits) - 1)
-			lengths = append(lengths, min(keyListsLength(m, listBits[m]), efLength(uint64(nk), shiftedLast(keys, starts))))
+			lengths = append(lengths, length)
 		}
 		probLevels := plan.ProbLevels
 		if k == 1 {

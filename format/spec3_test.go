@@ -46,6 +46,10 @@ func TestSpecificationAloneVersion3(t *testing.T) {
 		// Key lists (§4.8.7) at every order.
 		{"tiny.v3-lists.ingot", "tiny.expected.jsonl", floatTolerance, 5},
 		{"tiny-cut.v3-lists.ingot", "tiny-cut.expected.jsonl", 0, 5},
+		// Coded key lists (§4.8.8) at every order.
+		{"tiny.v3-coded.ingot", "tiny.expected.jsonl", floatTolerance, 5},
+		{"tiny-cut.v3-coded.ingot", "tiny-cut.expected.jsonl", 0, 5},
+		{"marrowfen.q8.v3-coded.ingot", "marrowfen.q8.expected.jsonl", quantizedTolerance, 5},
 	} {
 		t.Run(c.model, func(t *testing.T) {
 			enc, F := specAlone3(t, c.model, c.expected, c.tolerance)
@@ -488,6 +492,55 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64)
 				}
 				return key
 			}
+		case 9, 10:
+			// §4.8.8: as §4.8.7, each list of two keys or more coded as its
+			// kind says.
+			n, last, L := le.Uint64(s.data), le.Uint64(s.data[8:]), uint64(le.Uint32(s.data[16:]))
+			size := 24 + 8*((n*L+63)/64+((last>>L)+n+63)/64+(n+255)/256)
+			if uint64(len(s.data)) != size+8*((last+63)/64) {
+				t.Fatalf("coded key lists of order %d: %d bytes, the specification says %d", k+1, len(s.data), size+8*((last+63)/64))
+			}
+			b := ef(s.data[:size])
+			stream := s.data[size:]
+			field := func(p, w uint64) uint64 { // w bits at bit p, least significant first
+				var v uint64
+				for j := uint64(0); j < w; j++ {
+					v |= uint64(stream[(p+j)/8]>>((p+j)%8)) & 1 << j
+				}
+				return v
+			}
+			keyOf = func(r uint64, parent node, e uint64) uint64 {
+				d, s0, s1 := parent.hi-parent.lo, b[r], b[r+1]
+				i := e - parent.lo
+				if d == 1 {
+					return field(s0, s1-s0)
+				}
+				switch field(s0, 2) {
+				case 0: // one width
+					w := (s1 - s0 - 2) / d
+					return field(s0+2+i*w, w)
+				case 1: // Elias-Fano: L, samples, low bits, high bits
+					l := field(s0+2, 5)
+					low := s0 + 7 + 32*((d-1)/128)
+					high := low + d*l
+					ones, zeros := uint64(0), uint64(0)
+					for p := high; p < s1; p++ {
+						if field(p, 1) == 0 {
+							zeros++
+							continue
+						}
+						if ones == i {
+							return zeros<<l | field(low+i*l, l)
+						}
+						ones++
+					}
+					t.Fatalf("order %d list %d: key %d not in its high bits", k+1, r, i)
+				case 2: // the run 0 .. d-1
+					return i
+				}
+				t.Fatalf("order %d list %d: kind %d", k+1, r, field(s0, 2))
+				return 0
+			}
 		default:
 			t.Fatalf("last words of order %d: encoding %d", k+1, s.enc)
 		}
@@ -502,7 +555,7 @@ func specDecode3(t *testing.T, f []byte, queries []specQuery, tolerance float64)
 			for e := parent.lo; e < parent.hi; e++ {
 				key := keyOf(r, parent, e)
 				var w string
-				if s.enc == 2 || s.enc == 7 {
+				if s.enc == 2 || s.enc == 7 || s.enc == 9 {
 					w = vocab[key]
 				} else { // successor rank among the children of the parent's suffix
 					h := parent.words[1:]

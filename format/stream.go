@@ -47,6 +47,8 @@ type StreamWriter struct {
 	list        []uint64    // the keys of the sibling list being added
 	listEnds    *valueSpill // the bit where each non-empty list ends
 	keyStream   *bitSpill   // the keys' bit stream
+	codedEnds   *valueSpill // the bit where each non-empty coded list ends
+	codedStream *bitSpill   // the keys' bit stream as coded lists
 	prevStarts  *valueSpill // the child starts of the order below, kept for its lists
 	probs       *streamSection
 	marks       *markStream
@@ -142,10 +144,12 @@ func (w *StreamWriter) Close() error {
 			s.f = nil
 		}
 	}
-	if w.keyStream != nil {
-		w.keyStream.close()
+	for _, b := range []*bitSpill{w.keyStream, w.codedStream} {
+		if b != nil {
+			b.close()
+		}
 	}
-	for _, v := range []*valueSpill{w.keys, w.listEnds, w.childStarts, w.prevStarts} {
+	for _, v := range []*valueSpill{w.keys, w.listEnds, w.codedEnds, w.childStarts, w.prevStarts} {
 		if v != nil {
 			v.close()
 		}
@@ -283,6 +287,12 @@ func (w *StreamWriter) startOrder(k int) error {
 			return err
 		}
 		if w.keyStream, err = newBitSpill(filepath.Join(w.dir, fmt.Sprintf("key-bits-%d", k))); err != nil {
+			return err
+		}
+		if w.codedEnds, err = newValueSpill(w.dir, fmt.Sprintf("coded-ends-%d", k), nil); err != nil {
+			return err
+		}
+		if w.codedStream, err = newBitSpill(filepath.Join(w.dir, fmt.Sprintf("coded-bits-%d", k))); err != nil {
 			return err
 		}
 	}
@@ -736,20 +746,37 @@ func (w *StreamWriter) flushList() error {
 			return err
 		}
 	}
+	if err := putCodedList(w.list, w.codedStream.put); err != nil {
+		return err
+	}
 	w.list = w.list[:0]
+	if err := w.codedEnds.add(w.codedStream.bits); err != nil {
+		return err
+	}
 	return w.listEnds.add(w.keyStream.bits)
 }
 
-// endKeys completes the last words of the order being added: key lists
-// (encodeKeyLists: the bit start of each context's list of the order
-// below, empty lists included, in Elias-Fano, then the key stream) or one
-// Elias-Fano sequence, whichever is shorter, as lastWordKeys chooses.
+// endKeys completes the last words of the order being added: one
+// Elias-Fano sequence, key lists (encodeKeyLists: the bit start of each
+// context's list of the order below, empty lists included, in
+// Elias-Fano, then the key stream) or coded key lists (the same, with the
+// coded stream), as lastWordKeys chooses (chooseKeysForm).
 func (w *StreamWriter) endKeys() error {
 	if err := w.flushList(); err != nil {
 		return err
 	}
 	m := w.prevStarts.n - 1 // contexts of the order below
-	if keyListsLength(m, w.keyStream.bits) > efLength(w.keys.n, w.keys.last) {
+	form := chooseKeysForm(efLength(w.keys.n, w.keys.last), keyListsLength(m, w.keyStream.bits), keyListsLength(m, w.codedStream.bits))
+	done := func() {
+		for _, b := range []*bitSpill{w.keyStream, w.codedStream} {
+			b.close()
+		}
+		for _, v := range []*valueSpill{w.listEnds, w.codedEnds, w.prevStarts} {
+			v.close()
+		}
+		w.keyStream, w.codedStream, w.listEnds, w.codedEnds, w.prevStarts, w.keysSec = nil, nil, nil, nil, nil, nil
+	}
+	if form == formOne {
 		w.keysSec.Encoding = EliasFano
 		if w.k >= 3 {
 			w.keysSec.Encoding = EliasFanoRanks
@@ -758,14 +785,21 @@ func (w *StreamWriter) endKeys() error {
 		if err == nil {
 			err = w.keysSec.close()
 		}
-		w.keyStream.close()
-		w.listEnds.close()
-		w.prevStarts.close()
-		w.keys, w.keyStream, w.listEnds, w.prevStarts, w.keysSec = nil, nil, nil, nil, nil
+		w.keys = nil
+		done()
 		return err
 	}
 	w.keys.close()
 	w.keys = nil
+	ends, stream := w.listEnds, w.keyStream
+	if form == formCoded {
+		ends, stream = w.codedEnds, w.codedStream
+		w.keysSec.Encoding = CodedListIDs
+		if w.k >= 3 {
+			w.keysSec.Encoding = CodedListRanks
+		}
+	}
+	defer done()
 	starts, err := newValueSpill(w.dir, fmt.Sprintf("list-starts-%d", w.k), w.keysSec)
 	if err != nil {
 		return err
@@ -775,7 +809,7 @@ func (w *StreamWriter) endKeys() error {
 	if err != nil {
 		return err
 	}
-	listEnd, err := w.listEnds.next()
+	listEnd, err := ends.next()
 	if err != nil {
 		return err
 	}
@@ -794,8 +828,8 @@ func (w *StreamWriter) endKeys() error {
 	if err == nil {
 		err = starts.add(bit)
 	}
-	if err == nil && bit != w.keyStream.bits {
-		err = fmt.Errorf("ingot model: order %d: lists of %d key bits, %d written", w.k, bit, w.keyStream.bits)
+	if err == nil && bit != stream.bits {
+		err = fmt.Errorf("ingot model: order %d: lists of %d key bits, %d written", w.k, bit, stream.bits)
 	}
 	if err != nil {
 		return fmt.Errorf("writing the last words of order %d: %w", w.k, err)
@@ -803,15 +837,10 @@ func (w *StreamWriter) endKeys() error {
 	if err := starts.encode(); err != nil {
 		return err
 	}
-	if err := w.keyStream.copyTo(w.keysSec); err != nil {
+	if err := stream.copyTo(w.keysSec); err != nil {
 		return err
 	}
-	err = w.keysSec.close()
-	w.keyStream.close()
-	w.listEnds.close()
-	w.prevStarts.close()
-	w.keyStream, w.listEnds, w.prevStarts, w.keysSec = nil, nil, nil, nil
-	return err
+	return w.keysSec.close()
 }
 
 // bitSpill collects a bit stream in a file, 64 bits at a time.

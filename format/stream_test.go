@@ -133,10 +133,11 @@ func streamTables(t *testing.T, tb *tables.Tables) []byte {
 // models small and large enough for several Elias-Fano samples and rank
 // counters per order.
 func TestStreamWriterSameBytes(t *testing.T) {
+	forms := map[Encoding]int{}
 	for _, c := range []struct {
 		seed                    uint64
 		sentences, vocab, order int
-	}{{1, 3, 5, 2}, {2, 40, 20, 3}, {3, 2000, 300, 5}, {4, 5000, 2000, 4}, {5, 1, 3, 1}} {
+	}{{1, 3, 5, 2}, {2, 40, 20, 3}, {3, 2000, 300, 5}, {4, 5000, 2000, 4}, {5, 1, 3, 1}, {9, 3000, 15, 4}} {
 		tb := closedTables(c.seed, c.sentences, c.vocab, c.order)
 		if err := tb.Check(); err != nil {
 			t.Fatal(err)
@@ -150,6 +151,18 @@ func TestStreamWriterSameBytes(t *testing.T) {
 		m := mustOpen(t, got)
 		if err := m.Verify(); err != nil {
 			t.Errorf("seed %d: %v", c.seed, err)
+		}
+		for _, s := range m.Sections() {
+			if s.Kind == KindLastWords {
+				forms[s.Encoding]++
+			}
+		}
+	}
+	// The cases exercise one sequence and coded lists, of word ids and of
+	// ranks.
+	for _, enc := range []Encoding{EliasFano, EliasFanoRanks, CodedListIDs, CodedListRanks} {
+		if forms[enc] == 0 {
+			t.Errorf("no case stores its keys as %v (forms written: %v)", enc, forms)
 		}
 	}
 }

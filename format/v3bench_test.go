@@ -571,11 +571,14 @@ func BenchmarkTieredScoring(b *testing.B) {
 
 // reportKeyEncodings reports, for the 8-bit tables q written in version 3,
 // the bits per key of each order's last words as the writer stores them
-// (one Elias-Fano sequence per order or key lists, whichever is shorter,
-// spec/FORMAT.md 4.8.7) and in each of the two forms, which form the
-// writer chose (1: lists), and the per-word scoring time of the three
-// files over the held-out text, five rounds interleaved, medians and the
-// ratio of each to one sequence per order at every order.
+// (the shortest of one Elias-Fano sequence per order, key lists and coded
+// key lists, spec/FORMAT.md 4.8.2, 4.8.7 and 4.8.8) and in each of the
+// three forms, which form the writer chose (0: one sequence, 1: lists,
+// 2: coded lists), and the per-word scoring time over the held-out text,
+// five rounds interleaved, medians: of the file as written, with one
+// sequence and with key lists at every order (ratios to one sequence), and
+// as the writer wrote it before coded lists (the ratio of the file as
+// written to that one).
 func reportKeyEncodings(b *testing.B, q *tables.Tables, held []string) {
 	written, err := format.Marshal(q)
 	if err != nil {
@@ -589,7 +592,16 @@ func reportKeyEncodings(b *testing.B, q *tables.Tables, held []string) {
 	if err != nil {
 		b.Fatal(err)
 	}
+	coded, err := format.MarshalCodedLists(q)
+	if err != nil {
+		b.Fatal(err)
+	}
+	uncoded, err := format.MarshalUncoded(q)
+	if err != nil {
+		b.Fatal(err)
+	}
 	mw, mo, ml := mustFromBytes(b, written), mustFromBytes(b, one), mustFromBytes(b, lists)
+	mc, mu := mustFromBytes(b, coded), mustFromBytes(b, uncoded)
 	keyBytes := func(m *format.Model, k int) (int64, format.Encoding) {
 		for _, s := range m.Sections() {
 			if s.Kind == format.KindLastWords && s.Order == k {
@@ -604,15 +616,20 @@ func reportKeyEncodings(b *testing.B, q *tables.Tables, held []string) {
 		w, enc := keyBytes(mw, k)
 		o, _ := keyBytes(mo, k)
 		l, _ := keyBytes(ml, k)
+		c, _ := keyBytes(mc, k)
 		o2 := "o" + string(rune('0'+k))
 		b.ReportMetric(8*float64(w)/n, "keys-"+o2+"-bits/key")
 		b.ReportMetric(8*float64(o)/n, "keys-"+o2+"-one-bits/key")
 		b.ReportMetric(8*float64(l)/n, "keys-"+o2+"-lists-bits/key")
-		listed := 0.0
-		if enc == format.ListIDs || enc == format.ListRanks {
-			listed = 1
+		b.ReportMetric(8*float64(c)/n, "keys-"+o2+"-coded-bits/key")
+		form := 0.0 // one sequence
+		switch enc {
+		case format.ListIDs, format.ListRanks:
+			form = 1
+		case format.CodedListIDs, format.CodedListRanks:
+			form = 2
 		}
-		b.ReportMetric(listed, "keys-"+o2+"-listed")
+		b.ReportMetric(form, "keys-"+o2+"-form")
 	}
 	ngrams := 0
 	for k := 1; k <= q.Order(); k++ {
@@ -637,18 +654,24 @@ func reportKeyEncodings(b *testing.B, q *tables.Tables, held []string) {
 	b.ReportMetric(keysBound/float64(ngrams), "keys-bound-bytes/ngram")
 	b.ReportMetric((float64(len(written))-keysNow+keysUniverse)/float64(ngrams), "universe-bytes/ngram")
 	b.ReportMetric(float64(len(lists))/float64(ngrams), "lists-bytes/ngram")
+	b.ReportMetric(float64(len(coded))/float64(ngrams), "coded-bytes/ngram")
+	b.ReportMetric(float64(len(uncoded))/float64(ngrams), "uncoded-bytes/ngram")
 	ids := heldIDs(mw, held)
-	var tw, to, tl, rw, rl []float64
+	var tw, to, tl, tu, rw, rl, ru []float64
 	for range 5 {
 		w, sw := scoreText(mw, ids)
 		o, so := scoreText(mo, ids)
 		l, sl := scoreText(ml, ids)
-		if sw != so || sw != sl {
-			b.Fatalf("held-out log10 sums differ: %v written, %v one sequence, %v lists", sw, so, sl)
+		u, su := scoreText(mu, ids)
+		if sw != so || sw != sl || sw != su {
+			b.Fatalf("held-out log10 sums differ: %v written, %v one sequence, %v lists, %v without coded lists", sw, so, sl, su)
 		}
-		tw, to, tl = append(tw, w), append(to, o), append(tl, l)
-		rw, rl = append(rw, w/o), append(rl, l/o)
+		tw, to, tl, tu = append(tw, w), append(to, o), append(tl, l), append(tu, u)
+		rw, rl, ru = append(rw, w/o), append(rl, l/o), append(ru, w/u)
 	}
+	// The writer before coded key lists (MarshalUncoded), side by side.
+	b.ReportMetric(median(tu), "keys-uncoded-ns/word")
+	b.ReportMetric(median(ru), "keys-written/uncoded")
 	b.ReportMetric(median(tw), "keys-written-ns/word")
 	b.ReportMetric(median(to), "keys-one-ns/word")
 	b.ReportMetric(median(tl), "keys-lists-ns/word")

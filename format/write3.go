@@ -139,18 +139,55 @@ func childStartValues(t *tables.Tables, k int) []uint32 {
 func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]byte, Encoding) {
 	keys, enc := wordKeys(t, k, childStarts, links)
 	isContext := contextsOf(t, k-1, childStarts)
-	if keysListed(keys, childStarts[k-2], isContext) {
+	switch keysForm(keys, childStarts[k-2], isContext) {
+	case formCoded:
+		return encodeCodedLists(keys, childStarts[k-2], isContext), codedEncoding(enc)
+	case formLists:
 		return encodeKeyLists(keys, childStarts[k-2], isContext), listEncoding(enc)
 	}
 	return encodeEliasFano(shiftedKeys(keys, childStarts[k-2])), enc
 }
 
-// keysListed reports whether the writer stores an order's keys as key
-// lists: when they are not longer than one Elias-Fano sequence.
-func keysListed(keys []uint64, starts []uint32, isContext func(int) bool) bool {
+// The forms an order's keys are stored in.
+const (
+	formOne   = iota // one Elias-Fano sequence (§4.8.2)
+	formLists        // key lists (§4.8.7)
+	formCoded        // coded key lists (§4.8.8)
+)
+
+// chooseKeysForm returns the form the writer stores an order's keys in,
+// from the section lengths of the three: coded lists when shorter than
+// both others, else key lists when not longer than one sequence.
+func chooseKeysForm(one, lists, coded int64) int {
+	switch {
+	case coded < min(one, lists):
+		return formCoded
+	case lists <= one:
+		return formLists
+	}
+	return formOne
+}
+
+// keysForm returns the form the writer stores an order's keys in, and
+// the length of that section.
+func keysForm(keys []uint64, starts []uint32, isContext func(int) bool) int {
+	form, _ := keysFormLength(keys, starts, isContext)
+	return form
+}
+
+// keysFormLength returns the form the writer stores an order's keys in
+// (chooseKeysForm) and the length of that section.
+func keysFormLength(keys []uint64, starts []uint32, isContext func(int) bool) (int, int64) {
 	listBits := keyListsBits(keys, starts, isContext)
 	m := uint64(len(listBits) - 1)
-	return keyListsLength(m, listBits[m]) <= efLength(uint64(len(keys)), shiftedLast(keys, starts))
+	codedBits := codedListsBits(keys, starts, isContext)
+	lengths := [...]int64{
+		formOne:   efLength(uint64(len(keys)), shiftedLast(keys, starts)),
+		formLists: keyListsLength(m, listBits[m]),
+		formCoded: keyListsLength(m, codedBits[m]),
+	}
+	form := chooseKeysForm(lengths[formOne], lengths[formLists], lengths[formCoded])
+	return form, lengths[form]
 }
 
 // shiftedLast is the last value of shiftedKeys(keys, starts): the sum of
@@ -187,6 +224,14 @@ func listEncoding(enc Encoding) Encoding {
 		return ListRanks
 	}
 	return ListIDs
+}
+
+// codedEncoding is the coded-lists encoding with the keys of enc.
+func codedEncoding(enc Encoding) Encoding {
+	if enc == EliasFanoRanks {
+		return CodedListRanks
+	}
+	return CodedListIDs
 }
 
 // contextsOf returns whether entry i of order k < N is a context: it has
@@ -266,12 +311,24 @@ func linksOf(t *tables.Tables) *tables.Links {
 	return l
 }
 
-// MarshalKeyLists is Marshal (version 3) with the last words of every
-// order stored in key lists (encodings ListIDs and ListRanks,
-// spec/FORMAT.md §4.8.7) whether or not they are shorter than one
-// Elias-Fano sequence: small files that exercise a reader's key-list path,
-// which Marshal chooses only where lists are shorter, as on large models.
-func MarshalKeyLists(t *tables.Tables) ([]byte, error) {
+// lastWordKeysCoded encodes the last words of order k >= 2 in coded key
+// lists whatever their length (encodings CodedListIDs and CodedListRanks).
+func lastWordKeysCoded(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]byte, Encoding) {
+	keys, enc := wordKeys(t, k, childStarts, links)
+	return encodeCodedLists(keys, childStarts[k-2], contextsOf(t, k-1, childStarts)), codedEncoding(enc)
+}
+
+// MarshalCodedLists is Marshal (version 3) with the last words of every
+// order stored in coded key lists (encodings CodedListIDs and
+// CodedListRanks, spec/FORMAT.md §4.8.8) whether or not they are the
+// shortest form: small files that exercise a reader's coded-list path.
+func MarshalCodedLists(t *tables.Tables) ([]byte, error) {
+	return marshalKeys(t, lastWordKeysCoded)
+}
+
+// marshalKeys is Marshal (version 3) with every order's last words
+// encoded by keysOf.
+func marshalKeys(t *tables.Tables, keysOf func(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]byte, Encoding)) ([]byte, error) {
 	if err := checkWritable(t); err != nil {
 		return nil, err
 	}
@@ -282,7 +339,7 @@ func MarshalKeyLists(t *tables.Tables) ([]byte, error) {
 	links := linksOf(t)
 	for i := range sections {
 		if s := &sections[i]; s.Kind == KindLastWords {
-			s.data, s.Encoding = lastWordKeysListed(t, s.Order, links.Starts, links)
+			s.data, s.Encoding = keysOf(t, s.Order, links.Starts, links)
 		}
 	}
 	var b bytes.Buffer
@@ -290,4 +347,13 @@ func MarshalKeyLists(t *tables.Tables) ([]byte, error) {
 		return nil, err
 	}
 	return b.Bytes(), nil
+}
+
+// MarshalKeyLists is Marshal (version 3) with the last words of every
+// order stored in key lists (encodings ListIDs and ListRanks,
+// spec/FORMAT.md §4.8.7) whether or not they are shorter than one
+// Elias-Fano sequence: small files that exercise a reader's key-list path,
+// which Marshal chooses only where lists are shorter, as on large models.
+func MarshalKeyLists(t *tables.Tables) ([]byte, error) {
+	return marshalKeys(t, lastWordKeysListed)
 }

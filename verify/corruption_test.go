@@ -59,13 +59,19 @@ func corruptionModels(t *testing.T) []struct {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// And in coded key lists (encodings 9 and 10), which the writer
+	// chooses on larger models still.
+	coded, err := format.MarshalCodedLists(q)
+	if err != nil {
+		t.Fatal(err)
+	}
 	models := []struct {
 		name string
 		data []byte
 	}{
 		{"plain", plain}, {"quantized", quantized}, {"signed", signed},
 		{"plain v3", marshal3(t, tb)}, {"quantized v3", marshal3(t, q)}, {"signed quantized v3", signed3},
-		{"key lists v3", lists},
+		{"key lists v3", lists}, {"coded key lists v3", coded},
 	}
 	for _, m := range models {
 		if rep := run(t, m.data, Options{}); !rep.OK() {

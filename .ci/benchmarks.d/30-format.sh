@@ -70,25 +70,36 @@ echo "these two columns alone."
 if [ -n "$(v keys-sibling-bits/key)" ]; then
 	echo
 	echo "Last-word keys per order, in bits per key: as the writer stores them, and"
-	echo "in each of the two encodings it chooses from per order, the shorter one"
+	echo "in each of the three encodings it chooses from per order, the shortest"
 	echo "(spec/FORMAT.md 4.8.2: one Elias-Fano sequence per order; 4.8.7: key"
 	echo "lists, each sibling list at the width of its largest key, found through"
-	echo "an Elias-Fano sequence of list starts read with the parent's context rank):"
+	echo "an Elias-Fano sequence of list starts read with the parent's context rank;"
+	echo "4.8.8: coded key lists, each list of two keys or more at one width, in"
+	echo "Elias-Fano or as the run 0 .. d-1, as its 2-bit kind says):"
 	echo
-	echo "| model | order | stored as | bits/key | one sequence | key lists |"
-	echo "| --- | ---: | --- | ---: | ---: | ---: |"
+	echo "| model | order | stored as | bits/key | one sequence | key lists | coded lists |"
+	echo "| --- | ---: | --- | ---: | ---: | ---: | ---: |"
 	for src in v g; do
 		for k in 2 3 4 5; do
 			[ -n "$($src keys-o$k-bits/key)" ] || continue
-			printf '| %s | %s | %s | %.2f | %.2f | %.2f |\n' "$([ $src = v ] && echo 'bundled corpus' || echo generated)" "$k" \
-				"$(awk -v x="$($src keys-o$k-listed)" 'BEGIN { print (x > 0.5 ? "key lists" : "one sequence") }')" \
-				"$($src keys-o$k-bits/key)" "$($src keys-o$k-one-bits/key)" "$($src keys-o$k-lists-bits/key)"
+			printf '| %s | %s | %s | %.2f | %.2f | %.2f | %.2f |\n' "$([ $src = v ] && echo 'bundled corpus' || echo generated)" "$k" \
+				"$(awk -v x="$($src keys-o$k-form)" 'BEGIN { print (x > 1.5 ? "coded lists" : x > 0.5 ? "key lists" : "one sequence") }')" \
+				"$($src keys-o$k-bits/key)" "$($src keys-o$k-one-bits/key)" "$($src keys-o$k-lists-bits/key)" "$($src keys-o$k-coded-bits/key)"
 		done
 	done
 	echo
 	printf 'Whole 8-bit file in bytes per n-gram, bundled corpus: %.3f as written,\n' "$(v 8-bit-v3-bytes/ngram)"
 	printf '%.3f with one sequence at every order, %.3f with key lists at every\n' "$(v one-bytes/ngram)" "$(v lists-bytes/ngram)"
-	printf 'order; generated model: %.3f, %.3f and %.3f. The bound measured\n' "$(g v3-bytes/ngram)" "$(g one-bytes/ngram)" "$(g lists-bytes/ngram)"
+	printf 'order; generated model: %.3f, %.3f and %.3f. As the writer wrote\n' "$(g v3-bytes/ngram)" "$(g one-bytes/ngram)" "$(g lists-bytes/ngram)"
+	printf 'it before coded lists (the shorter of the first two per order): %.3f\n' "$(v uncoded-bytes/ngram)"
+	printf 'and %.3f, and scoring the held-out text, side by side with that file,\n' "$(g uncoded-bytes/ngram)"
+	printf 'takes %.2f (bundled corpus) and %.2f (generated) of its time. Keys coded\n' "$(v keys-written/uncoded)" "$(g keys-written/uncoded)"
+	printf 'per list under the universe a reader knows (the vocabulary, or the\n'
+	printf "successor count of the parent's suffix: a run when every successor is\n"
+	printf 'there, else Elias-Fano under it or one width) would take %.3f bytes per\n' "$(v keys-universe-bytes/ngram)"
+	printf 'n-gram with their list starts, the whole file %.3f; their information\n' "$(v universe-bytes/ngram)"
+	printf 'bound (log2 of the number of subsets of each universe of the list'"'"'s size)\n'
+	printf 'is %.3f bytes per n-gram. The bound measured\n' "$(v keys-bound-bytes/ngram)"
 	printf 'before key lists existed (each list at the smaller of Elias-Fano and a\n'
 	printf 'fixed width over the universe a reader knows, the vocabulary or the\n'
 	printf "successor count of the parent's suffix): %.2f bits per key for the lists\n" "$(v keys-lists-bits/key)"

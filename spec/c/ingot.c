@@ -54,6 +54,8 @@ enum {
 	ENCODING_TIERED = 6,      /* version 3: tiered codebook indexes (section 4.8.6) */
 	ENCODING_LIST_IDS = 7,    /* version 3: word ids in sibling lists (section 4.8.7) */
 	ENCODING_LIST_RANKS = 8,  /* version 3: successor ranks in sibling lists (section 4.8.7) */
+	ENCODING_CODED_LIST_IDS = 9,    /* version 3: word ids in coded sibling lists (section 4.8.8) */
+	ENCODING_CODED_LIST_RANKS = 10, /* version 3: successor ranks in coded sibling lists (section 4.8.8) */
 	MAX_CODEBOOK = 65536
 };
 
@@ -696,6 +698,85 @@ static uint32_t list_find(const ingot_level_ *lv, uint64_t s0, uint64_t s1, uint
 	return list_key(lv, s0 + lo * width, (unsigned)width) == key ? (uint32_t)lo : INGOT_NONE;
 }
 
+/* coded_list_find returns the position of key in the coded sibling list
+ * of count keys held in bits [s0, s1) of a level's key stream (section
+ * 4.8.8), or INGOT_NONE. */
+static uint32_t coded_list_find(const ingot_level_ *lv, uint64_t s0, uint64_t s1, uint64_t count, uint64_t key)
+{
+	uint64_t size = s1 - s0, kind, l, smp, low, high, hx, need, pos, i, lo, hi, samples, mask;
+	if (count == 0 || s1 < s0)
+		return INGOT_NONE;
+	if (count == 1)
+		return size <= 32 && list_key(lv, s0, (unsigned)size) == key ? 0 : INGOT_NONE;
+	if (size < 2)
+		return INGOT_NONE;
+	kind = list_key(lv, s0, 2);
+	if (kind == 2) /* a run: the keys 0 .. count-1 */
+		return size == 2 && key < count ? (uint32_t)key : INGOT_NONE;
+	if (kind == 0)
+		return list_find(lv, s0 + 2, s1, count, key);
+	if (kind != 1 || size < 7)
+		return INGOT_NONE;
+	/* Elias-Fano: L, samples of every 128th key's one, low bits, high bits. */
+	l = list_key(lv, s0 + 2, 5);
+	samples = (count - 1) / 128;
+	smp = s0 + 7;
+	low = smp + 32 * samples;
+	if (l > 32 || low > s1 || (s1 - low) / count < l + 1)
+		return INGOT_NONE;
+	high = low + count * l;
+	hx = key >> l;
+	need = hx;
+	pos = high;
+	/* The last sample whose key's high part is below hx. */
+	lo = 1;
+	hi = samples + 1;
+	while (lo < hi) {
+		uint64_t mid = lo + (hi - lo) / 2, p = list_key(lv, smp + (mid - 1) * 32, 32);
+		if (p >= mid * 128 && p - mid * 128 < hx)
+			lo = mid + 1;
+		else
+			hi = mid;
+	}
+	if (lo > 1) {
+		uint64_t j = lo - 1, p = list_key(lv, smp + (j - 1) * 32, 32);
+		if (p >= j * 128 && p - j * 128 < hx && high + p < s1) {
+			pos = high + p + 1;
+			need = hx - (p - j * 128);
+		}
+	}
+	/* Pass need zeros, 56 bits at a time. */
+	while (need > 0) {
+		uint64_t n, word, zeros;
+		if (pos >= s1)
+			return INGOT_NONE;
+		n = s1 - pos < 56 ? s1 - pos : 56;
+		word = ~list_key(lv, pos, (unsigned)n) & (((uint64_t)1 << n) - 1);
+		zeros = (uint64_t)popcount64(word);
+		if (zeros < need) {
+			need -= zeros;
+			pos += n;
+			continue;
+		}
+		while (--need > 0)
+			word &= word - 1;
+		pos += (uint64_t)ctz64(word) + 1;
+	}
+	i = pos - high - hx;
+	mask = ((uint64_t)1 << l) - 1;
+	for (; i < count && pos < s1; i++, pos++) {
+		uint64_t lb;
+		if (list_key(lv, pos, 1) == 0)
+			return INGOT_NONE;
+		lb = list_key(lv, low + i * l, (unsigned)l);
+		if (lb == (key & mask))
+			return (uint32_t)i;
+		if (lb > (key & mask))
+			return INGOT_NONE;
+	}
+	return INGOT_NONE;
+}
+
 /* context_rank tells whether entry i (below n_k) of a level is a context
  * and sets *rank to the number of contexts before it. */
 static int context_rank(const ingot_level_ *lv, uint64_t i, uint64_t *rank)
@@ -800,12 +881,14 @@ static ingot_status open_version3(ingot_model *m, ingot_error *err, const index_
 		j = (uint32_t)t->at[KIND_LAST_WORDS][k];
 		e = read_entry(m->data, j);
 		if (e.encoding != ENCODING_CODED_IDS && !(e.encoding == ENCODING_CODED_RANKS && k >= 3) &&
-		    e.encoding != ENCODING_LIST_IDS && !(e.encoding == ENCODING_LIST_RANKS && k >= 3))
+		    e.encoding != ENCODING_LIST_IDS && !(e.encoding == ENCODING_LIST_RANKS && k >= 3) &&
+		    e.encoding != ENCODING_CODED_LIST_IDS && !(e.encoding == ENCODING_CODED_LIST_RANKS && k >= 3))
 			return fail_at(err, INGOT_ERR_FORMAT, j, &e, "encoding %u, which a version-3 file does not allow here",
 			               (unsigned)e.encoding);
 		lv->key_encoding = e.encoding;
-		if (e.encoding == ENCODING_LIST_IDS || e.encoding == ENCODING_LIST_RANKS) {
-			/* Section 4.8.7: the lists' bit starts, then the key stream. */
+		if (e.encoding == ENCODING_LIST_IDS || e.encoding == ENCODING_LIST_RANKS ||
+		    e.encoding == ENCODING_CODED_LIST_IDS || e.encoding == ENCODING_CODED_LIST_RANKS) {
+			/* Sections 4.8.7 and 4.8.8: the lists' bit starts, then the key stream. */
 			uint64_t rest, bits, first;
 			st = open_sequence(m, err, j, &e, m->levels[k - 2].contexts + 1, &lv->list_starts, &rest);
 			if (st != INGOT_OK)
@@ -1541,19 +1624,23 @@ static double next_version3(const ingot_model *m, ingot_state *s, uint32_t w)
 			b = next->count;
 		if (a >= b)
 			continue;
-		if (next->key_encoding == ENCODING_CODED_RANKS || next->key_encoding == ENCODING_LIST_RANKS) {
+		if (next->key_encoding == ENCODING_CODED_RANKS || next->key_encoding == ENCODING_LIST_RANKS ||
+		    next->key_encoding == ENCODING_CODED_LIST_RANKS) {
 			if (found[j - 1] == INGOT_NONE)
 				continue; /* h_{j-1} w is not stored, so neither is h_j w */
 			key = found[j - 1] - first[j - 1];
 		} else
 			key = w;
-		if (next->key_encoding == ENCODING_LIST_IDS || next->key_encoding == ENCODING_LIST_RANKS) {
+		if (next->key_encoding >= ENCODING_LIST_IDS) {
 			/* The keys of h_j's list: same rank as its child start. */
 			uint64_t p = ef_position(&next->list_starts, rank[j]), s0, s1;
 			if (!ef_value(&next->list_starts, rank[j], p, &s0) ||
 			    !ef_value(&next->list_starts, rank[j] + 1, ef_next_position(&next->list_starts, p), &s1) || s1 < s0)
 				continue;
-			found[j] = list_find(next, s0, s1, b - a, key);
+			if (next->key_encoding >= ENCODING_CODED_LIST_IDS)
+				found[j] = coded_list_find(next, s0, s1, b - a, key);
+			else
+				found[j] = list_find(next, s0, s1, b - a, key);
 			if (found[j] != INGOT_NONE)
 				found[j] += (uint32_t)a;
 		} else {

@@ -86,11 +86,11 @@ typedef struct {
 
 typedef struct {
 	uint64_t count;                     /* n_k */
-	uint32_t key_encoding;              /* last words: 0 plain ids, 2 coded ids, 3 coded successor ranks, 7 and 8 the same in sibling lists */
+	uint32_t key_encoding;              /* last words: 0 plain ids, 2 coded ids, 3 coded successor ranks, 7 and 8 the same in sibling lists, 9 and 10 in coded sibling lists */
 	const unsigned char *last_words;    /* u32 x n_k, orders 2..N (encoding 0) */
 	ingot_sequence_ keys;               /* orders 2..N (encodings 2 and 3) */
-	ingot_sequence_ list_starts;        /* orders 2..N (encodings 7 and 8): m_{k-1} + 1 bit starts */
-	const unsigned char *key_stream;    /* orders 2..N (encodings 7 and 8): the keys' bit stream */
+	ingot_sequence_ list_starts;        /* orders 2..N (encodings 7 to 10): m_{k-1} + 1 bit starts */
+	const unsigned char *key_stream;    /* orders 2..N (encodings 7 to 10): the keys' bit stream */
 	uint64_t key_stream_length;         /* bytes at key_stream */
 	const unsigned char *child_starts;  /* u32 x (n_k + 1), orders 1..N-1 (versions 1 and 2) */
 	ingot_sequence_ context_starts;     /* m_k + 1 child starts (version 3) */
