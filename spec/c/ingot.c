@@ -671,8 +671,11 @@ static uint64_t list_key(const ingot_level_ *lv, uint64_t bit, unsigned width)
 {
 	uint64_t at = bit >> 3, v = 0;
 	unsigned i;
-	for (i = 0; i < 8 && at + i < lv->key_stream_length; i++)
-		v |= (uint64_t)lv->key_stream[at + i] << (8 * i);
+	if (at + 8 <= lv->key_stream_length)
+		v = u64le(lv->key_stream + at);
+	else
+		for (i = 0; i < 8 && at + i < lv->key_stream_length; i++)
+			v |= (uint64_t)lv->key_stream[at + i] << (8 * i);
 	return width == 0 ? 0 : (v >> (bit & 7)) & (((uint64_t)1 << width) - 1);
 }
 
