@@ -4,6 +4,7 @@ import (
 	"encoding/binary"
 	"fmt"
 	"math/bits"
+	"unsafe"
 )
 
 // Elias-Fano coding of a non-decreasing sequence of n integers
@@ -108,6 +109,9 @@ type eliasFano struct {
 	low     []byte
 	high    []byte
 	samples []byte
+	// lineWord is the place (0-7) of the first high word in its 64-byte
+	// cache line: word w starts a line when (w+lineWord)%8 is 0.
+	lineWord uint64
 }
 
 // parseEliasFano checks an Elias-Fano section's fixed fields and sizes
@@ -140,6 +144,11 @@ func parseEliasFano(b []byte, want uint64) (eliasFano, error) {
 	e.low = b[at : at+8*lowW]
 	at += 8 * lowW
 	e.high = b[at : at+8*highW]
+	if highW > 0 {
+		// Which word of its cache line the high bits start at (the file is
+		// mapped at a page boundary; a copy in memory may sit anywhere).
+		e.lineWord = uint64(uintptr(unsafe.Pointer(&e.high[0]))/8) % 8
+	}
 	at += 8 * highW
 	e.samples = b[at : at+8*sampW]
 	return e, nil
@@ -175,41 +184,106 @@ type efCursor struct {
 // then a scan. ok is false when i is out of range or the bits are damaged.
 func (e *eliasFano) seek(i uint64) efCursor {
 	c := efCursor{e: e}
-	if i >= e.n || 8*(i/efSample)+8 > uint64(len(e.samples)) {
+	if i >= e.n {
 		return c
 	}
-	noteRead(e.samples, 8*(i/efSample))
-	pos := binary.LittleEndian.Uint64(e.samples[8*(i/efSample):])
-	w := pos / 64
-	if w >= uint64(len(e.high)/8) {
+	w, word, ok := e.selectOne(i)
+	if !ok {
 		return c
 	}
-	word := e.highWord(w) &^ (1<<(pos%64) - 1) // set bits from pos on
-	r := i % efSample                          // set bits to skip after the sampled one
-	limit := uint64(len(e.high) / 8)
+	c.i, c.pos, c.ok = i, 64*w+uint64(bits.TrailingZeros64(word)), true
+	c.word = word & (word - 1)
+	return c
+}
+
+// selectOne finds the set bit of value i (below n) from its sample: the
+// high word w holding it and that word with the bits below it cleared (so
+// its lowest set bit is value i's). ok is false when the bits are damaged.
+func (e *eliasFano) selectOne(i uint64) (w, word uint64, ok bool) {
+	s := i / efSample
+	if 8*s+8 > uint64(len(e.samples)) {
+		return 0, 0, false
+	}
+	noteRead(e.samples, 8*s)
+	pos := binary.LittleEndian.Uint64(e.samples[8*s:])
+	w, limit := pos/64, uint64(len(e.high)/8)
+	if w >= limit {
+		return 0, 0, false
+	}
+	word = e.highWord(w) &^ (1<<(pos%64) - 1) // set bits from pos on
+	r := i % efSample                         // set bits to skip after the sampled one
 	for {
-		if word == 0 {
-			w++
-			if w >= limit {
-				return c
-			}
-			word = e.highWord(w)
-			continue
-		}
 		cnt := uint64(bits.OnesCount64(word))
 		if r < cnt {
-			b := selectInWord(word, uint(r))
-			c.i, c.pos, c.ok = i, 64*w+uint64(b), true
-			c.word = word &^ (2<<b - 1)
-			return c
+			break
 		}
 		r -= cnt
-		w++
+		if w++; (w+e.lineWord)%8 == 0 {
+			w, r = e.skipOnes(w, r)
+		}
 		if w >= limit {
-			return c
+			return 0, 0, false
 		}
 		word = e.highWord(w)
 	}
+	return w, word &^ (1<<selectInWord(word, uint(r)) - 1), true
+}
+
+// nextOne returns the high word holding the first set bit after those of
+// word (high word w, its bits up to the current one cleared) and that
+// word; ok is false past the end.
+func (e *eliasFano) nextOne(w, word uint64) (uint64, uint64, bool) {
+	limit := uint64(len(e.high) / 8)
+	for word == 0 {
+		if w++; (w+e.lineWord)%8 == 0 {
+			w = e.skipZeros(w)
+		}
+		if w >= limit {
+			return 0, 0, false
+		}
+		word = e.highWord(w)
+	}
+	return w, word, true
+}
+
+// skipOnes passes, from high word w on, whole cache lines of high words
+// holding at most r set bits, and returns the first word not passed and r
+// less the set bits passed; w starts a line. A
+// context with many children leaves a long run of zeros in the child
+// starts' high bits (one per 2^L children), which a word-by-word scan
+// crosses at one branch a word: this takes a line, eight words, a step.
+func (e *eliasFano) skipOnes(w, r uint64) (uint64, uint64) {
+	for 8*w+64 <= uint64(len(e.high)) {
+		noteReadRange(e.high, 8*w, 8*w+64)
+		b := e.high[8*w : 8*w+64]
+		le := binary.LittleEndian
+		cnt := uint64(bits.OnesCount64(le.Uint64(b)) + bits.OnesCount64(le.Uint64(b[8:])) +
+			bits.OnesCount64(le.Uint64(b[16:])) + bits.OnesCount64(le.Uint64(b[24:])) +
+			bits.OnesCount64(le.Uint64(b[32:])) + bits.OnesCount64(le.Uint64(b[40:])) +
+			bits.OnesCount64(le.Uint64(b[48:])) + bits.OnesCount64(le.Uint64(b[56:])))
+		if r < cnt {
+			break
+		}
+		r -= cnt
+		w += 8
+	}
+	return w, r
+}
+
+// skipZeros is skipOnes for the first set bit: it passes, from high word
+// w on (which starts a line), whole cache lines without a set bit.
+func (e *eliasFano) skipZeros(w uint64) uint64 {
+	for 8*w+64 <= uint64(len(e.high)) {
+		noteReadRange(e.high, 8*w, 8*w+64)
+		b := e.high[8*w : 8*w+64]
+		le := binary.LittleEndian
+		if le.Uint64(b)|le.Uint64(b[8:])|le.Uint64(b[16:])|le.Uint64(b[24:])|
+			le.Uint64(b[32:])|le.Uint64(b[40:])|le.Uint64(b[48:])|le.Uint64(b[56:]) != 0 {
+			break
+		}
+		w += 8
+	}
+	return w
 }
 
 // value returns the cursor's current value.
@@ -223,16 +297,10 @@ func (c *efCursor) next() bool {
 		c.ok = false
 		return false
 	}
-	w := c.pos / 64
-	word := c.word
-	limit := uint64(len(c.e.high) / 8)
-	for word == 0 {
-		w++
-		if w >= limit {
-			c.ok = false
-			return false
-		}
-		word = c.e.highWord(w)
+	w, word, ok := c.e.nextOne(c.pos/64, c.word)
+	if !ok {
+		c.ok = false
+		return false
 	}
 	c.i++
 	c.pos = 64*w + uint64(bits.TrailingZeros64(word))
@@ -267,37 +335,17 @@ func (e *eliasFano) get(i uint64) (uint64, bool) {
 // one scan of the high bits: the select of i from its sample, then the
 // next set bit; their low bits, adjacent, in one read.
 func (e *eliasFano) pair(i uint64) (a, b uint64, ok bool) {
-	s := i / efSample
-	if i+1 >= e.n || 8*s+8 > uint64(len(e.samples)) {
+	if i+1 >= e.n {
 		return 0, 0, false
 	}
-	noteRead(e.samples, 8*s)
-	pos := binary.LittleEndian.Uint64(e.samples[8*s:])
-	w, limit := pos/64, uint64(len(e.high)/8)
-	if w >= limit {
+	w, word, ok := e.selectOne(i)
+	if !ok {
 		return 0, 0, false
 	}
-	word := e.highWord(w) &^ (1<<(pos%64) - 1) // set bits from pos on
-	r := i % efSample                          // set bits to skip after the sampled one
-	for {
-		cnt := uint64(bits.OnesCount64(word))
-		if r < cnt {
-			break
-		}
-		r -= cnt
-		if w++; w >= limit {
-			return 0, 0, false
-		}
-		word = e.highWord(w)
-	}
-	bit := selectInWord(word, uint(r))
-	p := 64*w + uint64(bit)
-	rest := word &^ (2<<bit - 1) // the set bits after p
-	for rest == 0 {
-		if w++; w >= limit {
-			return 0, 0, false
-		}
-		rest = e.highWord(w)
+	p := 64*w + uint64(bits.TrailingZeros64(word))
+	w, rest, ok := e.nextOne(w, word&(word-1)) // the set bits after p
+	if !ok {
+		return 0, 0, false
 	}
 	q := 64*w + uint64(bits.TrailingZeros64(rest))
 	var la, lb uint64

@@ -107,11 +107,13 @@ func TestSelectInWordFindsTheRthSetBit(t *testing.T) {
 	}
 }
 
-// TestPairReadsTwoAdjacentValues checks pair against the values encoded,
-// for every index, on sequences whose gaps range from none (runs of equal
-// values) to long (high bits with many empty words between two values,
-// as under a frequent context's child start) and whose low bits range
-// from none to 30 (where two values' low bits no longer fit one read).
+// TestPairReadsTwoAdjacentValues checks pair and get against the values
+// encoded, for every index, on sequences whose gaps range from none (runs
+// of equal values) to very long (high bits with many empty cache lines
+// between two values, as after a frequent context's child start, which
+// the scans pass a line at a time) and whose low bits range from none to
+// 30 (where two values' low bits no longer fit one read). Each sequence
+// is read at every alignment of its high bits to a cache line.
 func TestPairReadsTwoAdjacentValues(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 10))
 	for round := range 60 {
@@ -129,18 +131,43 @@ func TestPairReadsTwoAdjacentValues(t *testing.T) {
 			}
 			x[i] = v
 		}
-		e, err := parseEliasFano(encodeEliasFano(x), uint64(n))
-		if err != nil {
-			t.Fatal(err)
-		}
-		for i := 0; i+1 < n; i++ {
-			a, b, ok := e.pair(uint64(i))
-			if !ok || a != x[i] || b != x[i+1] {
-				t.Fatalf("round %d (L %d): pair(%d) = %d, %d, %v; want %d, %d", round, e.l, i, a, b, ok, x[i], x[i+1])
+		if round%3 == 0 {
+			// Dense values but for one to three jumps as long as the
+			// rest together: each leaves about n/jumps empty high bits.
+			n = 1000 + rng.IntN(20000)
+			x = make([]uint64, n)
+			jumps := map[int]bool{}
+			for range 1 + rng.IntN(3) {
+				jumps[rng.IntN(n)] = true
+			}
+			v = 0
+			for i := range x {
+				v += uint64(rng.IntN(3))
+				if jumps[i] {
+					v += 1 << 20
+				}
+				x[i] = v
 			}
 		}
-		if _, _, ok := e.pair(uint64(n - 1)); ok {
-			t.Fatalf("round %d: pair of the last value reports a pair", round)
+		enc := encodeEliasFano(x)
+		for shift := range 8 {
+			buf := make([]byte, len(enc)+64)
+			e, err := parseEliasFano(buf[8*shift:copy(buf[8*shift:], enc)+8*shift], uint64(n))
+			if err != nil {
+				t.Fatal(err)
+			}
+			for i := 0; i+1 < n; i++ {
+				a, b, ok := e.pair(uint64(i))
+				if !ok || a != x[i] || b != x[i+1] {
+					t.Fatalf("round %d (L %d, shift %d): pair(%d) = %d, %d, %v; want %d, %d", round, e.l, shift, i, a, b, ok, x[i], x[i+1])
+				}
+				if a, ok := e.get(uint64(i + 1)); !ok || a != x[i+1] {
+					t.Fatalf("round %d (L %d, shift %d): get(%d) = %d, %v; want %d", round, e.l, shift, i+1, a, ok, x[i+1])
+				}
+			}
+			if _, _, ok := e.pair(uint64(n - 1)); ok {
+				t.Fatalf("round %d: pair of the last value reports a pair", round)
+			}
 		}
 	}
 }
