@@ -592,10 +592,13 @@ static uint64_t ef_position(const ingot_sequence_ *q, uint64_t i)
 	w = p >> 6;
 	word = u64le(q->high + 8 * (size_t)w) & (~(uint64_t)0 << (p & 63));
 	for (;;) {
-		unsigned c = popcount64(word);
-		if (r < c)
-			return (w << 6) + select64(word, r);
-		r -= c;
+		if (word != 0) { /* popcount64 may be arithmetic: a run of zeros (after a context
+		                  * with many children) is passed without it */
+			unsigned c = popcount64(word);
+			if (r < c)
+				return (w << 6) + select64(word, r);
+			r -= c;
+		}
 		if (++w >= q->high_words)
 			return NO_POSITION;
 		word = u64le(q->high + 8 * (size_t)w);
