@@ -30,7 +30,8 @@ const cheapShift = 0.003
 // that brings S(h) within MaxResidual/2 of one (half, so that the sum
 // recomputed in another order of additions stays within MaxResidual).
 // Twice, since the table follows the moves. The choice of each context's
-// level and probabilities is written into chosen and probs.
+// level and probabilities is written into chosen and probs; pow[j] is
+// 10^cb.Values[j].
 //
 // This is entropy-constrained quantization in its simplest form (Chou,
 // Lookabaugh and Gray, "Entropy-constrained vector quantization", IEEE
@@ -38,7 +39,7 @@ const cheapShift = 0.003
 // acceptable, the one that costs the fewest stored bits; here acceptable
 // means the context keeps normalising, and the weight stays within a
 // factor of 1.007 of its exact value.
-func cheapen(probs, rounded []float32, cb Codebook, comp *compensator, start []int, exact, mass []float64, chosen []int) {
+func cheapen(probs, rounded []float32, cb Codebook, pow []float64, comp *compensator, start []int, exact, mass []float64, chosen []int) {
 	if cb.Len() <= cheapTable+1 {
 		return // the codebook fits an 8-bit column: every level is as cheap
 	}
@@ -85,7 +86,7 @@ func cheapen(probs, rounded []float32, cb Codebook, comp *compensator, start []i
 				if math.Abs(value(t)-exact[i]) > cheapShift {
 					break // the rest are further still
 				}
-				target := 1 - math.Pow(10, value(t))*mass[i]
+				target := 1 - pow[table[t]]*mass[i]
 				if r := comp.move(trial, sum0, target); r <= MaxResidual/2 {
 					chosen[i] = table[t]
 					copy(probs[a:b], trial)

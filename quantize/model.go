@@ -465,6 +465,10 @@ func chooseBackoffs(q *tables.Tables, k, bits int, opt Options, probs Codebook, 
 		levels = slices.Compact(levels)
 	}
 	cb := Codebook{Values: levels}
+	pow := make([]float64, cb.Len()) // pow[j] = 10^cb.Values[j], computed once
+	for j, v := range cb.Values {
+		pow[j] = math.Pow(10, float64(v))
+	}
 	var maxErr, worst float64
 	var trial, best []float32
 	comp := newCompensator(probs)
@@ -486,14 +490,14 @@ func chooseBackoffs(q *tables.Tables, k, bits int, opt Options, probs Codebook, 
 		window := searchWindow
 		if opt.nearestOnly {
 			window = -1
-			bestR = math.Abs(sum0 - 1 + math.Pow(10, float64(cb.Values[near]))*mass[i])
+			bestR = math.Abs(sum0 - 1 + pow[near]*mass[i])
 		}
 		for d := 0; d <= window && bestR > ResidualGoal; d++ {
 			for _, j := range [2]int{near - d, near + d} {
 				if j < 0 || j >= cb.Len() || (d == 0 && j != near) || bestR <= ResidualGoal {
 					continue
 				}
-				target := 1 - math.Pow(10, float64(cb.Values[j]))*mass[i]
+				target := 1 - pow[j]*mass[i]
 				if r := comp.move(trial, sum0, target); r < bestR {
 					bestJ, bestR = j, r
 					best = append(best[:0], trial...)
@@ -504,7 +508,7 @@ func chooseBackoffs(q *tables.Tables, k, bits int, opt Options, probs Codebook, 
 		chosen[i] = bestJ
 	}
 	if !opt.nearestOnly && !opt.nearestBackoffs {
-		cheapen(above.LogProb, rounded, cb, comp, start, exact, mass, chosen)
+		cheapen(above.LogProb, rounded, cb, pow, comp, start, exact, mass, chosen)
 	}
 	for i := 0; i < n; i++ {
 		if chosen[i] < 0 {
@@ -517,7 +521,7 @@ func chooseBackoffs(q *tables.Tables, k, bits int, opt Options, probs Codebook, 
 		for _, v := range above.LogProb[start[i]:start[i+1]] {
 			sp += math.Pow(10, float64(v))
 		}
-		sums[i] = sp + math.Pow(10, float64(bq))*mass[i]
+		sums[i] = sp + pow[chosen[i]]*mass[i]
 		worst = max(worst, math.Abs(sums[i]-1))
 	}
 	rep.BackoffBits = bits
