@@ -135,37 +135,23 @@ func putCodedList(keys []uint64, put func(v uint64, w uint) error) error {
 // codedListsBits returns the bit start of each context's coded list (m+1
 // values), as keyListsBits does for key lists.
 func codedListsBits(keys []uint64, starts []uint32, isContext func(int) bool) []uint64 {
-	out := make([]uint64, 0, len(starts))
-	var bit uint64
-	for p := 0; p+1 < len(starts); p++ {
-		if !isContext(p) {
-			continue
-		}
-		out = append(out, bit)
-		bit += codedListBits(keys[starts[p]:starts[p+1]])
-	}
-	return append(out, bit)
+	return listStarts(keys, starts, isContext, codedListBits)
 }
 
 // encodeCodedLists returns the section bytes of an order's keys as coded
 // lists; keys, starts and isContext are those of encodeKeyLists.
 func encodeCodedLists(keys []uint64, starts []uint32, isContext func(int) bool) []byte {
-	listBits := codedListsBits(keys, starts, isContext)
-	total := listBits[len(listBits)-1]
-	ef := encodeEliasFano(listBits)
-	out := make([]byte, len(ef)+8*int((total+63)/64))
-	copy(out, ef)
-	stream := out[len(ef):]
-	var bit uint64
-	put := func(v uint64, w uint) error {
-		putBits(stream, bit, v, w)
-		bit += uint64(w)
-		return nil
-	}
-	for p := 0; p+1 < len(starts); p++ {
-		putCodedList(keys[starts[p]:starts[p+1]], put)
-	}
-	return out
+	return listsSection(codedListsBits(keys, starts, isContext), func(stream []byte) {
+		var bit uint64
+		put := func(v uint64, w uint) error {
+			putBits(stream, bit, v, w)
+			bit += uint64(w)
+			return nil
+		}
+		for p := 0; p+1 < len(starts); p++ {
+			putCodedList(keys[starts[p]:starts[p+1]], put)
+		}
+	})
 }
 
 // codedFind returns the position of key in the coded list of cnt keys in

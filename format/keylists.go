@@ -31,6 +31,19 @@ func keyWidth(last uint64) uint { return uint(bits.Len64(last)) }
 // the child starts of the order below, one per entry plus one, and
 // isContext marks its contexts (every entry with children is one).
 func keyListsBits(keys []uint64, starts []uint32, isContext func(int) bool) []uint64 {
+	return listStarts(keys, starts, isContext, func(list []uint64) uint64 {
+		if len(list) == 0 {
+			return 0
+		}
+		return uint64(len(list)) * uint64(keyWidth(list[len(list)-1]))
+	})
+}
+
+// listStarts returns the bit start of each context's list (m+1 values, the
+// last one the stream's length) when the list of keys keys[starts[p]:
+// starts[p+1]] under context p takes size(list) bits; keys, starts and
+// isContext are those of keyListsBits.
+func listStarts(keys []uint64, starts []uint32, isContext func(int) bool, size func(list []uint64) uint64) []uint64 {
 	out := make([]uint64, 0, len(starts))
 	var bit uint64
 	for p := 0; p+1 < len(starts); p++ {
@@ -38,36 +51,42 @@ func keyListsBits(keys []uint64, starts []uint32, isContext func(int) bool) []ui
 			continue
 		}
 		out = append(out, bit)
-		if a, b := starts[p], starts[p+1]; a < b {
-			bit += uint64(b-a) * uint64(keyWidth(keys[b-1]))
-		}
+		bit += size(keys[starts[p]:starts[p+1]])
 	}
 	return append(out, bit)
+}
+
+// listsSection returns the section bytes of an order's keys stored list
+// by list: the Elias-Fano sequence of the lists' bit starts (listBits, the
+// last one the stream's length), then the stream of lists, which fill
+// writes into the zeroed stream it is given.
+func listsSection(listBits []uint64, fill func(stream []byte)) []byte {
+	total := listBits[len(listBits)-1]
+	ef := encodeEliasFano(listBits)
+	out := make([]byte, len(ef)+8*int((total+63)/64))
+	copy(out, ef)
+	fill(out[len(ef):])
+	return out
 }
 
 // encodeKeyLists returns the section bytes of an order's keys (keys[e]
 // under the parent of entry e) as sibling lists; starts and isContext are
 // those of keyListsBits.
 func encodeKeyLists(keys []uint64, starts []uint32, isContext func(int) bool) []byte {
-	listBits := keyListsBits(keys, starts, isContext)
-	total := listBits[len(listBits)-1]
-	ef := encodeEliasFano(listBits)
-	out := make([]byte, len(ef)+8*int((total+63)/64))
-	copy(out, ef)
-	stream := out[len(ef):]
-	var bit uint64
-	for p := 0; p+1 < len(starts); p++ {
-		a, b := starts[p], starts[p+1]
-		if a >= b {
-			continue
+	return listsSection(keyListsBits(keys, starts, isContext), func(stream []byte) {
+		var bit uint64
+		for p := 0; p+1 < len(starts); p++ {
+			a, b := starts[p], starts[p+1]
+			if a >= b {
+				continue
+			}
+			w := keyWidth(keys[b-1])
+			for e := a; e < b; e++ {
+				putBits(stream, bit, keys[e], w)
+				bit += uint64(w)
+			}
 		}
-		w := keyWidth(keys[b-1])
-		for e := a; e < b; e++ {
-			putBits(stream, bit, keys[e], w)
-			bit += uint64(w)
-		}
-	}
-	return out
+	})
 }
 
 // putBits ORs the w low bits of v into the bit stream b at bit.

@@ -5,6 +5,7 @@ import (
 	"io"
 	"math"
 	"path/filepath"
+	"slices"
 
 	"ingot/compile/counts"
 	"ingot/compile/tables"
@@ -196,7 +197,7 @@ func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a *adj
 			if a != nil && uint64(p) >= lo && uint64(p) < hi {
 				a.raw[uint64(p)-lo] = raw
 			}
-			switch c := compareWords(pg2, g[:k-1]); {
+			switch c := slices.Compare(pg2, g[:k-1]); {
 			case c == 0:
 				return nil
 			case c > 0:
@@ -221,7 +222,7 @@ func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a *adj
 			coc[raw]++
 		}
 		w := g[k-1]
-		if !inPrefix || compareWords(cur, g[:k-1]) != 0 {
+		if !inPrefix || slices.Compare(cur, g[:k-1]) != 0 {
 			copy(cur, g[:k-1])
 			inPrefix = true
 			if k == 2 {
@@ -318,16 +319,4 @@ func (a *adjusted) get(i int) uint64 {
 		return a.raw[r]
 	}
 	return uint64(a.n[i])
-}
-
-func compareWords(a, b []uint32) int {
-	for i := range a {
-		if a[i] != b[i] {
-			if a[i] < b[i] {
-				return -1
-			}
-			return 1
-		}
-	}
-	return 0
 }

@@ -17,6 +17,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"slices"
 )
 
 // Sorter collects records and returns them sorted.
@@ -88,18 +89,6 @@ func (s *Sorter) Add(rec []uint32) error {
 	}
 	s.buf = append(s.buf, rec...)
 	return nil
-}
-
-func compare(a, b []uint32) int {
-	for i := range a {
-		if a[i] != b[i] {
-			if a[i] < b[i] {
-				return -1
-			}
-			return 1
-		}
-	}
-	return 0
 }
 
 // sortBuf sorts the buffer's records.
@@ -270,7 +259,7 @@ func (s *Sorter) Sort() (*Iter, error) {
 
 func (it *Iter) less(a, b int) bool {
 	k := it.s.key
-	c := compare(it.runs[it.heap[a]].rec[:k], it.runs[it.heap[b]].rec[:k])
+	c := slices.Compare(it.runs[it.heap[a]].rec[:k], it.runs[it.heap[b]].rec[:k])
 	return c < 0 || c == 0 && it.heap[a] < it.heap[b]
 }
 

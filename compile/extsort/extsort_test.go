@@ -19,7 +19,7 @@ func TestSortSpills(t *testing.T) {
 	}
 	input = append(input, input[7], input[9]) // duplicates stay
 	want := slices.Clone(input)
-	slices.SortFunc(want, compare)
+	slices.SortFunc(want, slices.Compare[[]uint32])
 	for _, c := range []struct {
 		budget int64
 		expect int // records announced by Expect (0: none)
@@ -94,7 +94,7 @@ func TestRadixSortOrder(t *testing.T) {
 				for i := 0; i < len(buf); i += width {
 					want = append(want, slices.Clone(buf[i:i+width]))
 				}
-				slices.SortFunc(want, compare)
+				slices.SortFunc(want, slices.Compare[[]uint32])
 				got := radixSort(buf, make([]uint32, len(buf)), width, width)
 				for i, r := range want {
 					if !slices.Equal(got[i*width:i*width+width], r) {
@@ -117,7 +117,7 @@ func TestKeyedSortIsStable(t *testing.T) {
 		input = append(input, []uint32{rng.Uint32N(100) << (8 * rng.UintN(4)), rng.Uint32(), uint32(i)})
 	}
 	want := slices.Clone(input)
-	slices.SortStableFunc(want, func(a, b []uint32) int { return compare(a[:1], b[:1]) })
+	slices.SortStableFunc(want, func(a, b []uint32) int { return slices.Compare(a[:1], b[:1]) })
 	for _, budget := range []int64{1 << 30, 16 * 1024} {
 		s := NewKeyed(t.TempDir(), "t", 3, 1, budget)
 		for _, r := range input {
