@@ -756,6 +756,10 @@ func (w *StreamWriter) flushList() error {
 	return w.listEnds.add(w.keyStream.bits)
 }
 
+// streamKeysForm is the choice endKeys makes (chooseKeysForm); a test
+// replaces it to write each form through the stream writer.
+var streamKeysForm = chooseKeysForm
+
 // endKeys completes the last words of the order being added: one
 // Elias-Fano sequence, key lists (encodeKeyLists: the bit start of each
 // context's list of the order below, empty lists included, in
@@ -766,7 +770,7 @@ func (w *StreamWriter) endKeys() error {
 		return err
 	}
 	m := w.prevStarts.n - 1 // contexts of the order below
-	form := chooseKeysForm(efLength(w.keys.n, w.keys.last), keyListsLength(m, w.keyStream.bits), keyListsLength(m, w.codedStream.bits))
+	form := streamKeysForm(efLength(w.keys.n, w.keys.last), keyListsLength(m, w.keyStream.bits), keyListsLength(m, w.codedStream.bits))
 	done := func() {
 		for _, b := range []*bitSpill{w.keyStream, w.codedStream} {
 			b.close()

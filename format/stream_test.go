@@ -241,3 +241,44 @@ func TestStreamWriterRefuses(t *testing.T) {
 		}
 	}
 }
+
+// TestStreamWriterWritesEveryKeysForm: the stream writer, made to store
+// every order's last words in key lists or in coded key lists, writes the
+// bytes MarshalKeyLists and MarshalCodedLists write. The writer's own
+// choice rarely picks key lists now that coded lists exist (they cost
+// the same or less on every case of TestStreamWriterSameBytes), so
+// without this the stream writer's key-list path would go untested.
+func TestStreamWriterWritesEveryKeysForm(t *testing.T) {
+	defer func(f func(one, lists, coded int64) int) { streamKeysForm = f }(streamKeysForm)
+	for _, c := range []struct {
+		name  string
+		form  int
+		want  Encoding
+		write func(*tables.Tables) ([]byte, error)
+	}{
+		{"key lists", formLists, ListRanks, MarshalKeyLists},
+		{"coded key lists", formCoded, CodedListRanks, MarshalCodedLists},
+	} {
+		streamKeysForm = func(int64, int64, int64) int { return c.form }
+		for _, seed := range []uint64{2, 3, 4} {
+			tb := closedTables(seed, 500*int(seed), 50*int(seed), int(seed)+1)
+			want, err := c.write(tb)
+			if err != nil {
+				t.Fatal(err)
+			}
+			got := streamTables(t, tb)
+			if !bytes.Equal(got, want) {
+				t.Errorf("%s, seed %d: streamed model (%d bytes) differs from the forced writer's (%d bytes)", c.name, seed, len(got), len(want))
+			}
+			m := mustOpen(t, got)
+			if err := m.Verify(); err != nil {
+				t.Errorf("%s, seed %d: %v", c.name, seed, err)
+			}
+			for _, s := range m.Sections() {
+				if s.Kind == KindLastWords && s.Order >= 3 && s.Encoding != c.want {
+					t.Errorf("%s, seed %d: order %d stored as %v", c.name, seed, s.Order, s.Encoding)
+				}
+			}
+		}
+	}
+}
