@@ -289,14 +289,5 @@ func (kl *keyLists) decodeLists(keys []uint64, lists func(r uint64) (a, b uint64
 			return fmt.Errorf("list %d is %d bits wide; its largest key %d needs %d", r, w, keys[b-1], keyWidth(keys[b-1]))
 		}
 	}
-	total := starts[len(starts)-1]
-	if uint64(len(kl.stream)) != 8*((total+63)/64) {
-		return fmt.Errorf("key stream is %d bytes for %d bits", len(kl.stream), total)
-	}
-	for bit := total; bit < 8*uint64(len(kl.stream)); bit++ {
-		if kl.stream[bit>>3]>>(bit&7)&1 != 0 {
-			return fmt.Errorf("unused key bits are not zero")
-		}
-	}
-	return nil
+	return kl.checkTail(starts[len(starts)-1])
 }

@@ -444,20 +444,10 @@ func median(xs []float64) float64 {
 	return s[len(s)/2]
 }
 
-// siblingKeyBits returns what the last-word keys of orders 2..N would cost,
-// in bits per key, coded one sibling list at a time instead of as one
-// sequence per order. A list of m keys below a universe U that a reader
-// already knows (the vocabulary size at order 2; from order 3, where keys
-// are successor ranks (Pibiri & Venturini 2017), the number of successors
-// of the parent's suffix) takes the smaller of an Elias-Fano code,
-// m (L + 1) + ((U - 1) >> L) + 1 bits with L = floor(log2(U/m)), and m
-// fixed-width keys of ceil(log2 U) bits; each list also needs its starting
-// bit, one Elias-Fano sequence of bit offsets per order, about
-// 2 + log2(mean list bits) per list. It is the bound of the per-sibling
-// coding the issue proposes, measured rather than implemented.
-func siblingKeyBits(t *tables.Tables) (withOffsets, listsAlone float64) {
-	// first[k-1][i]: the index of the first child at order k+1 of entry i
-	// of order k; first[k-1][i+1]-first[k-1][i] its number of children.
+// firstChildren returns, for k = 1 .. order-1, first[k-1][i]: the index of
+// the first child at order k+1 of entry i of order k;
+// first[k-1][i+1]-first[k-1][i] is its number of children.
+func firstChildren(t *tables.Tables) [][]int {
 	n := t.Order()
 	first := make([][]int, n)
 	for k := 1; k < n; k++ {
@@ -470,6 +460,23 @@ func siblingKeyBits(t *tables.Tables) (withOffsets, listsAlone float64) {
 		}
 		first[k-1] = f
 	}
+	return first
+}
+
+// siblingKeyBits returns what the last-word keys of orders 2..N would cost,
+// in bits per key, coded one sibling list at a time instead of as one
+// sequence per order. A list of m keys below a universe U that a reader
+// already knows (the vocabulary size at order 2; from order 3, where keys
+// are successor ranks (Pibiri & Venturini 2017), the number of successors
+// of the parent's suffix) takes the smaller of an Elias-Fano code,
+// m (L + 1) + ((U - 1) >> L) + 1 bits with L = floor(log2(U/m)), and m
+// fixed-width keys of ceil(log2 U) bits; each list also needs its starting
+// bit, one Elias-Fano sequence of bit offsets per order, about
+// 2 + log2(mean list bits) per list. It is the bound of the per-sibling
+// coding the issue proposes, measured rather than implemented.
+func siblingKeyBits(t *tables.Tables) (withOffsets, listsAlone float64) {
+	n := t.Order()
+	first := firstChildren(t)
 	var total, alone, keys float64
 	for k := 2; k <= n; k++ {
 		var listBits, lists float64
@@ -697,17 +704,7 @@ func reportKeyEncodings(b *testing.B, q *tables.Tables, held []string) {
 // key). Measured, not stored.
 func keyBitsByUniverse(t *tables.Tables) (lists, starts, bound []float64) {
 	n := t.Order()
-	first := make([][]int, n) // as in siblingKeyBits
-	for k := 1; k < n; k++ {
-		f := make([]int, t.Len(k)+1)
-		for e := 0; e < t.Len(k+1); e++ {
-			f[t.Find(t.Gram(k+1, e)[:k])+1]++
-		}
-		for i := 1; i < len(f); i++ {
-			f[i] += f[i-1]
-		}
-		first[k-1] = f
-	}
+	first := firstChildren(t)
 	width := func(x uint64) uint64 { return uint64(bits.Len64(x)) }
 	efBits := func(n, last uint64) float64 { // an Elias-Fano section, header and samples included
 		l := uint64(0)
