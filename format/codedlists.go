@@ -141,7 +141,13 @@ func codedListsBits(keys []uint64, starts []uint32, isContext func(int) bool) []
 // encodeCodedLists returns the section bytes of an order's keys as coded
 // lists; keys, starts and isContext are those of encodeKeyLists.
 func encodeCodedLists(keys []uint64, starts []uint32, isContext func(int) bool) []byte {
-	return listsSection(codedListsBits(keys, starts, isContext), func(stream []byte) {
+	return codedListsSection(keys, starts, codedListsBits(keys, starts, isContext))
+}
+
+// codedListsSection is encodeCodedLists with the lists' bit starts
+// already computed (codedListsBits).
+func codedListsSection(keys []uint64, starts []uint32, listBits []uint64) []byte {
+	return listsSection(listBits, func(stream []byte) {
 		var bit uint64
 		put := func(v uint64, w uint) error {
 			putBits(stream, bit, v, w)

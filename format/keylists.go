@@ -73,7 +73,13 @@ func listsSection(listBits []uint64, fill func(stream []byte)) []byte {
 // under the parent of entry e) as sibling lists; starts and isContext are
 // those of keyListsBits.
 func encodeKeyLists(keys []uint64, starts []uint32, isContext func(int) bool) []byte {
-	return listsSection(keyListsBits(keys, starts, isContext), func(stream []byte) {
+	return keyListsSection(keys, starts, keyListsBits(keys, starts, isContext))
+}
+
+// keyListsSection is encodeKeyLists with the lists' bit starts already
+// computed (keyListsBits).
+func keyListsSection(keys []uint64, starts []uint32, listBits []uint64) []byte {
+	return listsSection(listBits, func(stream []byte) {
 		var bit uint64
 		for p := 0; p+1 < len(starts); p++ {
 			a, b := starts[p], starts[p+1]

@@ -61,9 +61,9 @@ func FileSize(t *tables.Tables, plan Planned) (int64, error) {
 			keys, _ := wordKeys(t, k, childStarts, links)
 			below := &t.Levels[k-2]
 			starts := childStarts[k-2]
-			_, length := keysFormLength(keys, starts, func(i int) bool {
+			length := planKeys(keys, starts, func(i int) bool {
 				return starts[i+1] > starts[i] || (plan.BackoffLevels == 0 && hasBackoff(below.LogBackoff[i]))
-			})
+			}).length
 			lengths = append(lengths, length)
 		}
 		probLevels := plan.ProbLevels

@@ -139,11 +139,11 @@ func childStartValues(t *tables.Tables, k int) []uint32 {
 func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]byte, Encoding) {
 	keys, enc := wordKeys(t, k, childStarts, links)
 	isContext := contextsOf(t, k-1, childStarts)
-	switch keysForm(keys, childStarts[k-2], isContext) {
+	switch p := planKeys(keys, childStarts[k-2], isContext); p.form {
 	case formCoded:
-		return encodeCodedLists(keys, childStarts[k-2], isContext), codedEncoding(enc)
+		return codedListsSection(keys, childStarts[k-2], p.coded), codedEncoding(enc)
 	case formLists:
-		return encodeKeyLists(keys, childStarts[k-2], isContext), listEncoding(enc)
+		return keyListsSection(keys, childStarts[k-2], p.lists), listEncoding(enc)
 	}
 	return encodeEliasFano(shiftedKeys(keys, childStarts[k-2])), enc
 }
@@ -168,26 +168,27 @@ func chooseKeysForm(one, lists, coded int64) int {
 	return formOne
 }
 
-// keysForm returns the form the writer stores an order's keys in, and
-// the length of that section.
-func keysForm(keys []uint64, starts []uint32, isContext func(int) bool) int {
-	form, _ := keysFormLength(keys, starts, isContext)
-	return form
+// keysPlan is what the writer decides for an order's keys: the form
+// (chooseKeysForm), the length of its section, and the bit starts of
+// both list forms, which the chosen one's encoding reuses.
+type keysPlan struct {
+	form         int
+	length       int64
+	lists, coded []uint64 // keyListsBits, codedListsBits
 }
 
-// keysFormLength returns the form the writer stores an order's keys in
-// (chooseKeysForm) and the length of that section.
-func keysFormLength(keys []uint64, starts []uint32, isContext func(int) bool) (int, int64) {
-	listBits := keyListsBits(keys, starts, isContext)
-	m := uint64(len(listBits) - 1)
-	codedBits := codedListsBits(keys, starts, isContext)
+// planKeys returns the writer's plan for an order's keys.
+func planKeys(keys []uint64, starts []uint32, isContext func(int) bool) keysPlan {
+	p := keysPlan{lists: keyListsBits(keys, starts, isContext), coded: codedListsBits(keys, starts, isContext)}
+	m := uint64(len(p.lists) - 1)
 	lengths := [...]int64{
 		formOne:   efLength(uint64(len(keys)), shiftedLast(keys, starts)),
-		formLists: keyListsLength(m, listBits[m]),
-		formCoded: keyListsLength(m, codedBits[m]),
+		formLists: keyListsLength(m, p.lists[m]),
+		formCoded: keyListsLength(m, p.coded[m]),
 	}
-	form := chooseKeysForm(lengths[formOne], lengths[formLists], lengths[formCoded])
-	return form, lengths[form]
+	p.form = chooseKeysForm(lengths[formOne], lengths[formLists], lengths[formCoded])
+	p.length = lengths[p.form]
+	return p
 }
 
 // shiftedLast is the last value of shiftedKeys(keys, starts): the sum of
