@@ -9,7 +9,7 @@ import (
 
 // aheadBatch is how many merged entries the merge goroutine hands over at
 // a time.
-const aheadBatch = 4096
+const aheadBatch = 256
 
 // merged is one entry of a merge read ahead: its ids, summed count, the
 // lowest-numbered stream that held it and, when that stream is a count
