@@ -135,7 +135,8 @@ func putCodedList(keys []uint64, put func(v uint64, w uint) error) error {
 // codedListsBits returns the bit start of each context's coded list (m+1
 // values), as keyListsBits does for key lists.
 func codedListsBits(keys []uint64, starts []uint32, isContext func(int) bool) []uint64 {
-	return listStarts(keys, starts, isContext, codedListBits)
+	_, coded := listStarts(keys, starts, isContext)
+	return coded
 }
 
 // encodeCodedLists returns the section bytes of an order's keys as coded

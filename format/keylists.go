@@ -31,29 +31,30 @@ func keyWidth(last uint64) uint { return uint(bits.Len64(last)) }
 // the child starts of the order below, one per entry plus one, and
 // isContext marks its contexts (every entry with children is one).
 func keyListsBits(keys []uint64, starts []uint32, isContext func(int) bool) []uint64 {
-	return listStarts(keys, starts, isContext, func(list []uint64) uint64 {
-		if len(list) == 0 {
-			return 0
-		}
-		return uint64(len(list)) * uint64(keyWidth(list[len(list)-1]))
-	})
+	lists, _ := listStarts(keys, starts, isContext)
+	return lists
 }
 
 // listStarts returns the bit start of each context's list (m+1 values, the
-// last one the stream's length) when the list of keys keys[starts[p]:
-// starts[p+1]] under context p takes size(list) bits; keys, starts and
-// isContext are those of keyListsBits.
-func listStarts(keys []uint64, starts []uint32, isContext func(int) bool, size func(list []uint64) uint64) []uint64 {
-	out := make([]uint64, 0, len(starts))
-	var bit uint64
+// last one the stream's length) in key lists (lists: each list of keys
+// keys[starts[p]:starts[p+1]] under context p takes the width of its
+// largest key per key) and in coded key lists (coded: codedListBits), in
+// one pass over the contexts; keys, starts and isContext are those of
+// keyListsBits.
+func listStarts(keys []uint64, starts []uint32, isContext func(int) bool) (lists, coded []uint64) {
+	lists, coded = make([]uint64, 0, len(starts)), make([]uint64, 0, len(starts))
+	var lbit, cbit uint64
 	for p := 0; p+1 < len(starts); p++ {
 		if !isContext(p) {
 			continue
 		}
-		out = append(out, bit)
-		bit += size(keys[starts[p]:starts[p+1]])
+		lists, coded = append(lists, lbit), append(coded, cbit)
+		if a, b := starts[p], starts[p+1]; b > a {
+			lbit += uint64(b-a) * uint64(keyWidth(keys[b-1]))
+			cbit += codedListBits(keys[a:b])
+		}
 	}
-	return append(out, bit)
+	return append(lists, lbit), append(coded, cbit)
 }
 
 // listsSection returns the section bytes of an order's keys stored list
@@ -95,8 +96,15 @@ func keyListsSection(keys []uint64, starts []uint32, listBits []uint64) []byte {
 	})
 }
 
-// putBits ORs the w low bits of v into the bit stream b at bit.
+// putBits ORs the w low bits of v into the bit stream b at bit: with one
+// 64-bit load and store where the eight bytes at bit's byte lie in b and
+// hold the w bits, byte by byte otherwise.
 func putBits(b []byte, bit, v uint64, w uint) {
+	if at := bit >> 3; w <= 56 && at+8 <= uint64(len(b)) {
+		x := binary.LittleEndian.Uint64(b[at:])
+		binary.LittleEndian.PutUint64(b[at:], x|(v&(1<<w-1))<<(bit&7))
+		return
+	}
 	for w > 0 {
 		at, off := bit>>3, uint(bit&7)
 		take := min(8-off, w)

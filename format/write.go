@@ -190,15 +190,13 @@ func checkWritableOrder(t *tables.Tables, k int) error {
 		// Every value is finite but the unigram <s>, which is never
 		// predicted: a probability of 0 (log10 -Inf) anywhere else is a
 		// word the model could never produce, which verify refuses.
-		if k == 1 && uint32(i) == start && math.IsInf(float64(p), -1) {
+		if finite32(p) || k == 1 && uint32(i) == start && math.IsInf(float64(p), -1) {
 			continue
 		}
-		if math.IsNaN(float64(p)) || math.IsInf(float64(p), 0) {
-			return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 probability %v", k, i, t.Words(t.Gram(k, i)), p)
-		}
+		return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 probability %v", k, i, t.Words(t.Gram(k, i)), p)
 	}
 	for i, b := range lv.LogBackoff {
-		if math.IsNaN(float64(b)) || math.IsInf(float64(b), 0) {
+		if !finite32(b) {
 			return fmt.Errorf("cannot write the model: order %d entry %d (%s) has log10 back-off %v", k, i, t.Words(t.Gram(k, i)), b)
 		}
 	}
@@ -227,6 +225,10 @@ func checkWritableOrder(t *tables.Tables, k int) error {
 	}
 	return nil
 }
+
+// finite32 reports whether f is neither NaN nor infinite: its exponent
+// bits are not all ones (IEEE 754).
+func finite32(f float32) bool { return math.Float32bits(f)&0x7f800000 != 0x7f800000 }
 
 // buildSections lays out every section in the order the directory lists
 // them: summary, build info, vocabulary, then per order its last words

@@ -179,7 +179,8 @@ type keysPlan struct {
 
 // planKeys returns the writer's plan for an order's keys.
 func planKeys(keys []uint64, starts []uint32, isContext func(int) bool) keysPlan {
-	p := keysPlan{lists: keyListsBits(keys, starts, isContext), coded: codedListsBits(keys, starts, isContext)}
+	var p keysPlan
+	p.lists, p.coded = listStarts(keys, starts, isContext)
 	m := uint64(len(p.lists) - 1)
 	lengths := [...]int64{
 		formOne:   efLength(uint64(len(keys)), shiftedLast(keys, starts)),
