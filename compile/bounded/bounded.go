@@ -1,7 +1,8 @@
 // Package bounded compiles counts into a model within a memory budget:
 // the counts are merged into one sorted file per order on disk
-// (counts.Spool), estimated in passes over them (estimate.EstimateStreamed:
-// each order linked to the one below in memory, or sorted on disk)
+// (counts.SpoolOrders), estimated in passes over them
+// (estimate.EstimateStreamed: each order linked to the one below in memory,
+// by an estimate.Linker as soon as the order is spooled, or sorted on disk)
 // and the model is written section by section as it is produced
 // (format.StreamWriter). The model is byte for byte the one the in-memory
 // path writes. It also decides which path a compile takes.
@@ -95,8 +96,12 @@ func Estimate(ctx context.Context, sources []counts.Source, opt estimate.Options
 	if log == nil {
 		log = slog.New(slog.DiscardHandler)
 	}
-	sp, err := counts.Spool(opt.Order, sources, dir)
+	// The orders are linked as they are spooled, on another goroutine.
+	so := estimate.StreamOptions{Memory: o.Memory / 2, Dir: dir, Log: log}
+	so.Linker = estimate.StartLinker(ctx, opt, so)
+	sp, err := counts.SpoolOrders(opt.Order, sources, dir, so.Linker.Spooled)
 	if err != nil {
+		so.Linker.Close()
 		m.Close()
 		return nil, err
 	}
@@ -104,10 +109,11 @@ func Estimate(ctx context.Context, sources []counts.Source, opt estimate.Options
 	m.Order = sp.Order()
 	opt.Order = sp.Order()
 	if m.sw, err = format.NewStreamWriter(dir, sp.Vocab, sp.Entries); err != nil {
+		so.Linker.Close()
 		m.Close()
 		return nil, err
 	}
-	res, err := estimate.EstimateStreamed(ctx, sp, opt, estimate.StreamOptions{Memory: o.Memory / 2, Dir: dir, Log: log}, m.sw)
+	res, err := estimate.EstimateStreamed(ctx, sp, opt, so, m.sw)
 	if err != nil {
 		m.Close()
 		return nil, err

@@ -40,6 +40,20 @@ func (s *Spooled) Order() int { return len(s.Entries) }
 // every prefix and suffix is counted: the estimator that reads the files
 // checks that as it passes over them.
 func Spool(order int, sources []Source, dir string) (*Spooled, error) {
+	return SpoolOrders(order, sources, dir, nil)
+}
+
+// SpoolOrders is Spool that, when done is not nil, calls done(part) on its
+// goroutine as soon as the file of an order k >= 2 is complete, k
+// increasing by one from 2, while the orders above it are still being
+// read (count files hold their orders one after another): part holds the
+// vocabulary, the unigram counts and orders 1..k (part.Order() == k), and
+// may be opened and read on another goroutine from then on. The orders
+// complete when the merge ends are announced after Spool's checks have
+// passed. Nothing is announced after an order that is missing, and
+// announced orders may belong to counts that Spool then refuses: its
+// error is the one that counts.
+func SpoolOrders(order int, sources []Source, dir string, done func(part *Spooled)) (*Spooled, error) {
 	if order < 1 || order > tables.MaxOrder {
 		return nil, fmt.Errorf("order %d outside 1..%d", order, tables.MaxOrder)
 	}
@@ -66,6 +80,27 @@ func Spool(order int, sources []Source, dir string) (*Spooled, error) {
 	// one writes the entries.
 	a := readAhead(ms.m)
 	defer a.Close()
+	// announced is the highest order handed to done (1: none yet).
+	announced := 1
+	announce := func(upTo int) error {
+		for ; done != nil && announced < upTo; announced++ {
+			o := outs[announced+1]
+			if o == nil {
+				done = nil // an order is missing: Spool refuses the counts
+				break
+			}
+			if err := o.close(); err != nil {
+				return fmt.Errorf("spooling counts: %w", err)
+			}
+			part := &Spooled{Vocab: vocab, Unigrams: sp.Unigrams, Entries: make([]uint64, announced+1), paths: sp.paths[: announced+1 : announced+1]}
+			part.Entries[0] = uint64(len(vocab))
+			for j := 2; j <= announced+1; j++ {
+				part.Entries[j-1] = outs[j].n
+			}
+			done(part)
+		}
+		return nil
+	}
 	for {
 		bt := a.nextBatch()
 		for x := range bt.entries {
@@ -73,6 +108,13 @@ func Spool(order int, sources []Source, dir string) (*Spooled, error) {
 			k := len(g)
 			if k > order {
 				continue
+			}
+			if k > maxSeen && done != nil {
+				// Orders come one after another: the ones below k
+				// are complete.
+				if err := announce(k - 1); err != nil {
+					return nil, err
+				}
 			}
 			maxSeen = max(maxSeen, k)
 			if k == 1 {
@@ -134,6 +176,9 @@ func Spool(order int, sources []Source, dir string) (*Spooled, error) {
 	}
 	for _, n := range sp.Unigrams {
 		if n > 0 {
+			if err := announce(sp.Order()); err != nil {
+				return nil, err
+			}
 			return sp, nil
 		}
 	}
@@ -192,7 +237,12 @@ func (w *spoolWriter) add(g []uint32, n uint64) error {
 	return nil
 }
 
+// close writes what is buffered and closes the file; once closed, it does
+// nothing.
 func (w *spoolWriter) close() error {
+	if w.f == nil {
+		return nil
+	}
 	_, err := w.f.Write(w.buf)
 	if cerr := w.f.Close(); err == nil {
 		err = cerr

@@ -21,31 +21,38 @@ import (
 // Otherwise it sorts the suffixes on disk and merges them with the order
 // below (adjust and join).
 
-// linkBytes returns the memory the linked passes hold at their largest:
-// while order k is linked, the last words and child starts of orders k-1
-// and k (4 bytes an entry each) and, for Kneser-Ney, the adjusted counts
-// of order k-1 (4 bytes an entry, and 8 for each beginning with <s>,
-// taken as all); while order k is estimated, the probabilities of order
-// k-1 (8 bytes).
+// linkBytes returns the memory the linked passes hold at their largest
+// (linkBytesAt of every order).
 func (s *streamer) linkBytes() int64 {
+	var need int64
+	for k := 2; k <= s.N; k++ {
+		need = max(need, s.linkBytesAt(k))
+	}
+	return need
+}
+
+// linkBytesAt returns the memory held while order k >= 2 is linked or
+// estimated: while order k is linked, the last words and child starts of
+// orders k-1 and k (4 bytes an entry each) and, for Kneser-Ney, the
+// adjusted counts of order k-1 (4 bytes an entry, and 8 for each
+// beginning with <s>, taken as all); while order k is estimated, the
+// probabilities of order k-1 (8 bytes). It needs the entries of orders
+// up to k only.
+func (s *streamer) linkBytesAt(k int) int64 {
 	e := func(k int) int64 {
 		if k < 1 {
 			return 0
 		}
 		return int64(s.sp.Entries[k-1])
 	}
-	var need int64
-	for k := 2; k <= s.N; k++ {
-		if e(k) > math.MaxInt32 {
-			return math.MaxInt64 // positions are int32 (tables.SearchLast)
-		}
-		b := 4*(e(k-1)+1) + 4*e(k) + 4*e(k-1) + 4*(e(k-2)+1)
-		if s.opt.Method == KneserNey {
-			b += 12 * e(k-1)
-		}
-		need = max(need, b, 8*e(k-1))
+	if e(k) > math.MaxInt32 {
+		return math.MaxInt64 // positions are int32 (tables.SearchLast)
 	}
-	return need
+	b := 4*(e(k-1)+1) + 4*e(k) + 4*e(k-1) + 4*(e(k-2)+1)
+	if s.opt.Method == KneserNey {
+		b += 12 * e(k-1)
+	}
+	return max(b, 8*e(k-1))
 }
 
 func (s *streamer) sufName(k int) string { return filepath.Join(s.so.Dir, fmt.Sprintf("suffix-%d", k)) }
@@ -58,55 +65,71 @@ func (s *streamer) sufName(k int) string { return filepath.Join(s.so.Dir, fmt.Sp
 // counts for n-grams starting with <s>), as adjust does. It checks that
 // the counts are closed: every entry's prefix and suffix are entries.
 func (s *streamer) link() error {
-	kn := s.opt.Method == KneserNey
-	s.adj1 = s.sp.Unigrams
-	var (
-		last     []uint32 // last words of order k-1 (k >= 3)
-		starts   []uint32 // child starts of order k-2 in order k-1 (k >= 3)
-		startsLo uint64   // entries of order k-1 beginning with <s>: [startsLo, startsHi)
-		startsHi uint64
-	)
-	startsLo, startsHi = uint64(s.start), uint64(s.start)+1
-	s.coc = make([][]float64, s.N+1)
+	l := s.newLinks()
 	for k := 2; k <= s.N; k++ {
-		below := s.sp.Entries[k-2] // entries of order k-1
-		var a *adjusted
-		if kn {
-			a = &adjusted{n: make([]uint32, below), lo: startsLo, raw: make([]uint64, startsHi-startsLo)}
-		}
-		top := k == s.N
-		var nextLast, nextStarts []uint32
-		if !top {
-			nextLast = make([]uint32, 0, s.sp.Entries[k-1])
-			nextStarts = make([]uint32, below+1)
-		}
-		if err := s.linkOrder(k, last, starts, startsLo, startsHi, a, &nextLast, nextStarts); err != nil {
+		if err := l.order(k); err != nil {
 			return err
 		}
-		if kn {
-			if k > 2 {
-				s.coc[k-1] = make([]float64, s.opt.countOfCountsMax()+1)
-				for i := range a.n {
-					if r := a.get(i); r >= 1 && r < uint64(len(s.coc[k-1])) {
-						s.coc[k-1][r]++
-					}
-				}
-			}
-			if k == 2 {
-				a.raw[0] = s.sp.Unigrams[s.start]
-				s.adj1 = make([]uint64, below)
-				for i := range s.adj1 {
-					s.adj1[i] = a.get(i)
-				}
-			} else if err := s.writeAdjusted(k-1, a); err != nil {
-				return err
-			}
-		}
-		if !top {
-			startsLo, startsHi = uint64(nextStarts[startsLo]), uint64(nextStarts[startsHi])
-		}
-		last, starts = nextLast, nextStarts
 	}
+	return nil
+}
+
+// links is the state of link between two orders.
+type links struct {
+	s        *streamer
+	last     []uint32 // last words of order k-1 (k >= 3)
+	starts   []uint32 // child starts of order k-2 in order k-1 (k >= 3)
+	startsLo uint64   // entries of order k-1 beginning with <s>: [startsLo, startsHi)
+	startsHi uint64
+}
+
+func (s *streamer) newLinks() *links {
+	s.adj1 = s.sp.Unigrams
+	s.coc = make([][]float64, s.N+1)
+	return &links{s: s, startsLo: uint64(s.start), startsHi: uint64(s.start) + 1}
+}
+
+// order links order k, the orders below it linked.
+func (l *links) order(k int) error {
+	s := l.s
+	kn := s.opt.Method == KneserNey
+	below := s.sp.Entries[k-2] // entries of order k-1
+	var a *adjusted
+	if kn {
+		a = &adjusted{n: make([]uint32, below), lo: l.startsLo, raw: make([]uint64, l.startsHi-l.startsLo)}
+	}
+	top := k == s.N
+	var nextLast, nextStarts []uint32
+	if !top {
+		nextLast = make([]uint32, 0, s.sp.Entries[k-1])
+		nextStarts = make([]uint32, below+1)
+	}
+	if err := s.linkOrder(k, l.last, l.starts, l.startsLo, l.startsHi, a, &nextLast, nextStarts); err != nil {
+		return err
+	}
+	if kn {
+		if k > 2 {
+			s.coc[k-1] = make([]float64, s.opt.countOfCountsMax()+1)
+			for i := range a.n {
+				if r := a.get(i); r >= 1 && r < uint64(len(s.coc[k-1])) {
+					s.coc[k-1][r]++
+				}
+			}
+		}
+		if k == 2 {
+			a.raw[0] = s.sp.Unigrams[s.start]
+			s.adj1 = make([]uint64, below)
+			for i := range s.adj1 {
+				s.adj1[i] = a.get(i)
+			}
+		} else if err := s.writeAdjusted(k-1, a); err != nil {
+			return err
+		}
+	}
+	if !top {
+		l.startsLo, l.startsHi = uint64(nextStarts[l.startsLo]), uint64(nextStarts[l.startsHi])
+	}
+	l.last, l.starts = nextLast, nextStarts
 	return nil
 }
 

@@ -35,6 +35,10 @@ type StreamOptions struct {
 	Dir string
 	// Log receives the passes and spills; nil: none.
 	Log *slog.Logger
+	// Linker, when not nil, has linked the orders as they were spooled
+	// (see Linker); EstimateStreamed takes its links where they are its
+	// own, and closes it.
+	Linker *Linker
 }
 
 // StreamResult is what the streamed estimator reports: the same Report as
@@ -47,7 +51,10 @@ type StreamResult struct {
 	// sequential pass per order and no sort (the budget held two orders'
 	// links); otherwise by sorts on disk.
 	Linked bool
-	Runs   int   // sort runs spilled to disk
+	// LinkedAhead: those links were the Linker's, made while the counts
+	// were spooled.
+	LinkedAhead bool
+	Runs        int   // sort runs spilled to disk
 	Bytes  int64 // bytes of those runs
 }
 
@@ -70,6 +77,9 @@ type StreamResult struct {
 // successors of one context, and two orders' links or the sort buffers
 // (at most about so.Memory).
 func EstimateStreamed(ctx context.Context, sp *counts.Spooled, opt Options, so StreamOptions, sink Sink) (*StreamResult, error) {
+	if so.Linker != nil {
+		defer so.Linker.Close()
+	}
 	if err := opt.Validate(); err != nil {
 		return nil, err
 	}
@@ -107,7 +117,7 @@ func EstimateStreamed(ctx context.Context, sp *counts.Spooled, opt Options, so S
 		info.Discounts = append(info.Discounts, m)
 		info.Fallbacks = append(info.Fallbacks, r.Fallbacks...)
 	}
-	return &StreamResult{Report: s.report, Info: info, Linked: s.linked, Runs: s.runs, Bytes: s.spilled}, nil
+	return &StreamResult{Report: s.report, Info: info, Linked: s.linked, LinkedAhead: s.linkedAhead, Runs: s.runs, Bytes: s.spilled}, nil
 }
 
 type streamer struct {
@@ -127,6 +137,8 @@ type streamer struct {
 	// linked: the suffixes were found by link (in memory, no sort), not
 	// by adjust and join.
 	linked bool
+	// linkedAhead: by a Linker as the counts were spooled.
+	linkedAhead bool
 	// coc[k], when not nil, is order k's count of counts (of adjusted
 	// counts where the order uses them), counted by link.
 	coc   [][]float64
@@ -185,6 +197,16 @@ func (s *streamer) run() error {
 	s.linked = s.linkBytes() <= s.so.Memory
 	switch {
 	case s.linked && (s.N >= 3 || s.opt.Method == KneserNey):
+		if l := s.so.Linker; l != nil {
+			if ok, err := s.adopt(l); ok {
+				s.linkedAhead = true
+				s.log.Info("linking orders in memory", "bytes", s.linkBytes(), "as spooled", true)
+				if err != nil {
+					return err
+				}
+				break
+			}
+		}
 		s.log.Info("linking orders in memory", "bytes", s.linkBytes())
 		if err := s.link(); err != nil {
 			return err

@@ -16,13 +16,25 @@ import (
 // streamed estimates c's model with EstimateStreamed on a memory budget and
 // returns the model file and the result.
 func streamed(t *testing.T, c *counts.Counts, opt Options, memory int64) ([]byte, *StreamResult, error) {
+	return streamedAhead(t, c, opt, memory, false)
+}
+
+// streamedAhead is streamed, with the orders linked as they are spooled
+// (a Linker) when ahead is true.
+func streamedAhead(t *testing.T, c *counts.Counts, opt Options, memory int64, ahead bool) ([]byte, *StreamResult, error) {
 	t.Helper()
 	var bin bytes.Buffer
 	if err := c.WriteBinary(&bin); err != nil {
 		t.Fatal(err)
 	}
 	dir := t.TempDir()
-	sp, err := counts.Spool(opt.Order, []counts.Source{{Name: "counts.bin", R: &bin}}, dir)
+	so := StreamOptions{Memory: memory, Dir: dir}
+	var done func(*counts.Spooled)
+	if ahead {
+		so.Linker = StartLinker(context.Background(), opt, so)
+		done = so.Linker.Spooled
+	}
+	sp, err := counts.SpoolOrders(opt.Order, []counts.Source{{Name: "counts.bin", R: &bin}}, dir, done)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -31,7 +43,7 @@ func streamed(t *testing.T, c *counts.Counts, opt Options, memory int64) ([]byte
 		t.Fatal(err)
 	}
 	defer sw.Close()
-	res, err := EstimateStreamed(context.Background(), sp, opt, StreamOptions{Memory: memory, Dir: dir}, sw)
+	res, err := EstimateStreamed(context.Background(), sp, opt, so, sw)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -45,7 +57,9 @@ func streamed(t *testing.T, c *counts.Counts, opt Options, memory int64) ([]byte
 // TestStreamedSameModel: the streamed estimator writes, byte for byte, the
 // model that Estimate and format.Write give, and the same report, for
 // every method and several orders, with a budget small enough that every
-// sort spills runs to disk; and it leaves no file behind.
+// sort spills runs to disk, and with one that links in memory, the orders
+// linked after the spool or (a Linker) while it reads the orders above
+// them; and it leaves no file behind.
 func TestStreamedSameModel(t *testing.T) {
 	limit := 1500
 	if testing.Short() {
@@ -74,19 +88,28 @@ func TestStreamedSameModel(t *testing.T) {
 			}
 			// 16 KiB: every suffix found by sorts on disk; 64 MiB:
 			// by links in memory.
-			for _, memory := range []int64{16 << 10, 64 << 20} {
-				got, res, err := streamed(t, &cc, opt, memory)
+			for _, run := range []struct {
+				memory int64
+				ahead  bool
+			}{{16 << 10, true}, {64 << 20, false}, {64 << 20, true}} {
+				memory := run.memory
+				got, res, err := streamedAhead(t, &cc, opt, memory, run.ahead)
 				if err != nil {
 					t.Fatalf("%s order %d: %v", opt.Method, order, err)
 				}
 				if !bytes.Equal(got, wantBytes) {
-					t.Errorf("%s (auto %v, K %d) order %d, budget %d: streamed model of %d bytes differs from the in-memory one of %d", opt.Method, opt.AutoDiscount, opt.KatzThreshold, order, memory, len(got), len(wantBytes))
+					t.Errorf("%s (auto %v, K %d) order %d, budget %d, linker %v: streamed model of %d bytes differs from the in-memory one of %d", opt.Method, opt.AutoDiscount, opt.KatzThreshold, order, memory, run.ahead, len(got), len(wantBytes))
 				}
 				if !reflect.DeepEqual(res.Report, wrep) {
 					t.Errorf("%s order %d, budget %d: report %+v, in memory %+v", opt.Method, order, memory, res.Report, wrep)
 				}
 				if res.Linked != (order == 1 || memory > 16<<10) {
 					t.Errorf("%s order %d, budget %d: linked in memory %v", opt.Method, order, memory, res.Linked)
+				}
+				// The linker's links are taken wherever there is
+				// something to link.
+				if ahead := run.ahead && res.Linked && (order >= 3 || opt.Method == KneserNey && order >= 2); res.LinkedAhead != ahead {
+					t.Errorf("%s order %d, budget %d, linker %v: linked as spooled %v", opt.Method, order, memory, run.ahead, res.LinkedAhead)
 				}
 				spilled = spilled || res.Runs > 1
 			}
@@ -98,14 +121,25 @@ func TestStreamedSameModel(t *testing.T) {
 }
 
 // TestStreamedRefusesOpenCounts: counts whose n-gram lacks its suffix or
-// prefix are an error, not a model.
+// prefix are an error, not a model, also when a Linker found it as the
+// counts were spooled (ahead); no column is left behind.
 func TestStreamedRefusesOpenCounts(t *testing.T) {
-	for name, text := range map[string]string{
-		"suffix": "3\ta\n3\tb\n2\t</s>\n1\t<s> a\n1\ta b\n1\tb </s>\n1\t<s> a b\n1\tz a b\n",
-		"prefix": "3\ta\n3\tb\n2\t</s>\n1\t<s> a\n1\ta b\n1\tb </s>\n1\ta b </s>\n1\t<s> b </s>\n1\tb </s> \n",
+	for _, c := range []struct{ name, text string }{
+		{"suffix", "3\ta\n3\tb\n2\t</s>\n1\t<s> a\n1\ta b\n1\tb </s>\n1\t<s> a b\n1\tz a b\n"},
+		{"prefix", "3\ta\n3\tb\n2\t</s>\n1\t<s> a\n1\ta b\n1\tb </s>\n1\ta b </s>\n1\t<s> b </s>\n1\tb </s> \n"},
+		{"suffix ahead", "3\ta\n3\tb\n2\t</s>\n1\t<s> a\n1\ta b\n1\tb </s>\n1\t<s> a b\n1\tz a b\n"},
+		{"prefix ahead", "3\ta\n3\tb\n2\t</s>\n1\t<s> a\n1\ta b\n1\tb </s>\n1\ta b </s>\n1\t<s> b </s>\n1\tb </s> \n"},
 	} {
+		name := c.name
 		dir := t.TempDir()
-		sp, err := counts.Spool(3, []counts.Source{{Name: "c.txt", R: bytes.NewBufferString(text)}}, dir)
+		opt := Options{Method: KneserNey, Order: 3}
+		so := StreamOptions{Memory: 1 << 20, Dir: dir}
+		var done func(*counts.Spooled)
+		if strings.HasSuffix(name, "ahead") {
+			so.Linker = StartLinker(context.Background(), opt, so)
+			done = so.Linker.Spooled
+		}
+		sp, err := counts.SpoolOrders(3, []counts.Source{{Name: "c.txt", R: bytes.NewBufferString(c.text)}}, dir, done)
 		if err != nil {
 			continue // refused while reading: fine too
 		}
@@ -113,10 +147,10 @@ func TestStreamedRefusesOpenCounts(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		_, err = EstimateStreamed(context.Background(), sp, Options{Method: KneserNey, Order: 3}, StreamOptions{Memory: 1 << 20, Dir: dir}, sw)
+		res, err := EstimateStreamed(context.Background(), sp, opt, so, sw)
 		sw.Close()
 		if err == nil {
-			t.Errorf("%s missing: a model was estimated", name)
+			t.Errorf("%s missing: a model was estimated (linked as spooled: %v)", name, res.LinkedAhead)
 		}
 		left, _ := os.ReadDir(dir)
 		for _, e := range left {
