@@ -139,6 +139,7 @@ type streamer struct {
 	linked bool
 	// linkedAhead: by a Linker as the counts were spooled.
 	linkedAhead bool
+	totals      *estimator // for exactTotal
 	// coc[k], when not nil, is order k's count of counts (of adjusted
 	// counts where the order uses them), counted by link.
 	coc   [][]float64
@@ -383,9 +384,14 @@ func (s *streamer) wrap(err error) error {
 	return err
 }
 
+// exactTotal is estimator.exactTotal; the estimator, which needs the
+// vocabulary only (for messages), is made once: one per context cost an
+// allocation each.
 func (s *streamer) exactTotal(k int, cnt []uint64, context []uint32) (float64, error) {
-	e := estimator{c: &counts.Counts{Vocab: s.sp.Vocab}}
-	return e.exactTotal(k, cnt, context)
+	if s.totals == nil {
+		s.totals = &estimator{c: &counts.Counts{Vocab: s.sp.Vocab}}
+	}
+	return s.totals.exactTotal(k, cnt, context)
 }
 
 // lowerWalk walks the entries of order k-1 (the contexts of order k) in
@@ -461,7 +467,7 @@ func (w *lowerWalk) advance() error {
 		}
 		return err
 	}
-	copy(w.cur, g)
+	w.cur = g // the reader's ids, valid until the next advance
 	if w.mem != nil {
 		w.prob = w.mem[w.i]
 	} else {
