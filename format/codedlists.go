@@ -64,36 +64,36 @@ func codedList(d, last uint64) (kind int, w uint, size uint64) {
 
 // codedListBits is the length in bits of the list of keys (ascending) as
 // the writer codes it.
-func codedListBits(keys []uint64) uint64 {
+func codedListBits[K key](keys []K) uint64 {
 	d := uint64(len(keys))
 	switch d {
 	case 0:
 		return 0
 	case 1:
-		return uint64(keyWidth(keys[0]))
+		return uint64(keyWidth(uint64(keys[0])))
 	}
-	_, _, size := codedList(d, keys[d-1])
+	_, _, size := codedList(d, uint64(keys[d-1]))
 	return size
 }
 
 // putCodedList writes the list of keys (ascending), coded as codedList
 // says, through put, which appends the w low bits of v to a bit stream.
-func putCodedList(keys []uint64, put func(v uint64, w uint) error) error {
+func putCodedList[K key](keys []K, put func(v uint64, w uint) error) error {
 	d := uint64(len(keys))
 	switch d {
 	case 0:
 		return nil
 	case 1:
-		return put(keys[0], keyWidth(keys[0]))
+		return put(uint64(keys[0]), keyWidth(uint64(keys[0])))
 	}
-	kind, w, _ := codedList(d, keys[d-1])
+	kind, w, _ := codedList(d, uint64(keys[d-1]))
 	if err := put(uint64(kind), listKindBits); err != nil {
 		return err
 	}
 	switch kind {
 	case listFixed:
 		for _, k := range keys {
-			if err := put(k, w); err != nil {
+			if err := put(uint64(k), w); err != nil {
 				return err
 			}
 		}
@@ -103,19 +103,20 @@ func putCodedList(keys []uint64, put func(v uint64, w uint) error) error {
 		}
 		for j := uint64(1); j <= listSamples(d); j++ {
 			i := j * listSample // its one is at (key >> L) + i
-			if err := put(keys[i]>>w+i, listSampleBits); err != nil {
+			if err := put(uint64(keys[i])>>w+i, listSampleBits); err != nil {
 				return err
 			}
 		}
 		for _, k := range keys {
-			if err := put(k&(1<<w-1), w); err != nil {
+			if err := put(uint64(k)&(1<<w-1), w); err != nil {
 				return err
 			}
 		}
 		// High parts in unary: before key i's one, (key_i >> L) - (key_{i-1}
 		// >> L) zeros.
 		var prev uint64
-		for _, k := range keys {
+		for _, key := range keys {
+			k := uint64(key)
 			for z := k>>w - prev; z > 0; {
 				step := min(z, 32)
 				if err := put(0, uint(step)); err != nil {
@@ -134,31 +135,15 @@ func putCodedList(keys []uint64, put func(v uint64, w uint) error) error {
 
 // codedListsBits returns the bit start of each context's coded list (m+1
 // values), as keyListsBits does for key lists.
-func codedListsBits(keys []uint64, starts []uint32, isContext func(int) bool) []uint64 {
-	_, coded := listStarts(keys, starts, isContext)
-	return coded
+func codedListsBits[K key](keys []K, starts []uint32, isContext func(int) bool) []uint64 {
+	return listStarts(keys, starts, isContext, true)
 }
 
 // encodeCodedLists returns the section bytes of an order's keys as coded
 // lists; keys, starts and isContext are those of encodeKeyLists.
-func encodeCodedLists(keys []uint64, starts []uint32, isContext func(int) bool) []byte {
-	return codedListsSection(keys, starts, codedListsBits(keys, starts, isContext))
-}
-
-// codedListsSection is encodeCodedLists with the lists' bit starts
-// already computed (codedListsBits).
-func codedListsSection(keys []uint64, starts []uint32, listBits []uint64) []byte {
-	return listsSection(listBits, func(stream []byte) {
-		var bit uint64
-		put := func(v uint64, w uint) error {
-			putBits(stream, bit, v, w)
-			bit += uint64(w)
-			return nil
-		}
-		for p := 0; p+1 < len(starts); p++ {
-			putCodedList(keys[starts[p]:starts[p+1]], put)
-		}
-	})
+func encodeCodedLists[K key](keys []K, starts []uint32, isContext func(int) bool) []byte {
+	m, _, coded := listTotals(keys, starts, isContext)
+	return listsSection(keys, starts, isContext, true, m, coded)
 }
 
 // codedFind returns the position of key in the coded list of cnt keys in

@@ -59,45 +59,64 @@ func efSizes(n, last uint64, l uint) (low, high, samples uint64) {
 }
 
 // encodeEliasFano returns the section bytes of the non-decreasing values.
-func encodeEliasFano(x []uint64) []byte {
+func encodeEliasFano[V uint32 | uint64](x []V) []byte {
 	n := uint64(len(x))
 	var last uint64
 	if n > 0 {
-		last = x[n-1]
+		last = uint64(x[n-1])
 	}
+	out := make([]byte, efLength(n, last))
+	w := newEFWriter(out, n, last)
+	for _, v := range x {
+		w.add(uint64(v))
+	}
+	return out
+}
+
+// efWriter writes an Elias-Fano section of n non-decreasing values whose
+// largest is last straight into its bytes, one value at a time, so that a
+// writer need not hold the values first.
+type efWriter struct {
+	low, high, samples []byte
+	l                  uint
+	i                  uint64 // values added
+}
+
+// newEFWriter starts the section of n values whose largest is last in out,
+// efLength(n, last) zeroed bytes. The n values must then be added.
+func newEFWriter(out []byte, n, last uint64) *efWriter {
 	l := efLowBits(n, last)
-	lowW, highW, sampW := efSizes(n, last, l)
-	out := make([]byte, efHeader+8*(lowW+highW+sampW))
+	lowW, highW, _ := efSizes(n, last, l)
 	le := binary.LittleEndian
 	le.PutUint64(out[0:], n)
 	le.PutUint64(out[8:], last)
 	le.PutUint32(out[16:], uint32(l))
-	low := make([]uint64, lowW)
-	high := make([]uint64, highW)
-	samples := make([]uint64, sampW)
-	mask := uint64(1)<<l - 1
-	for i, v := range x {
-		if l > 0 {
-			bit := uint64(i) * uint64(l)
-			low[bit/64] |= (v & mask) << (bit % 64)
-			if bit%64+uint64(l) > 64 {
-				low[bit/64+1] |= (v & mask) >> (64 - bit%64)
-			}
-		}
-		p := v>>l + uint64(i)
-		high[p/64] |= 1 << (p % 64)
-		if i%efSample == 0 {
-			samples[i/efSample] = p
+	high := efHeader + 8*lowW
+	samples := high + 8*highW
+	return &efWriter{low: out[efHeader:high], high: out[high:samples], samples: out[samples:], l: l}
+}
+
+// add adds the next value, no smaller than the one before.
+func (w *efWriter) add(v uint64) {
+	if l := uint64(w.l); l > 0 {
+		lo, bit := v&(1<<l-1), w.i*l
+		orWord(w.low, bit/64, lo<<(bit%64))
+		if bit%64+l > 64 {
+			orWord(w.low, bit/64+1, lo>>(64-bit%64))
 		}
 	}
-	at := efHeader
-	for _, ws := range [][]uint64{low, high, samples} {
-		for _, w := range ws {
-			le.PutUint64(out[at:], w)
-			at += 8
-		}
+	p := v>>w.l + w.i
+	orWord(w.high, p/64, 1<<(p%64))
+	if w.i%efSample == 0 {
+		binary.LittleEndian.PutUint64(w.samples[8*(w.i/efSample):], p)
 	}
-	return out
+	w.i++
+}
+
+// orWord ORs x into little-endian 64-bit word i of b.
+func orWord(b []byte, i, x uint64) {
+	word := b[8*i : 8*i+8]
+	binary.LittleEndian.PutUint64(word, binary.LittleEndian.Uint64(word)|x)
 }
 
 // eliasFano reads an Elias-Fano section in place. Its methods bounds-check

@@ -112,12 +112,11 @@ func MarshalUncoded(t *tables.Tables) ([]byte, error) {
 		k := s.Order
 		keys, enc := wordKeys(t, k, links.Starts, links)
 		starts, isContext := links.Starts[k-2], contextsOf(t, k-1, links.Starts)
-		listBits := keyListsBits(keys, starts, isContext)
-		m := uint64(len(listBits) - 1)
-		if keyListsLength(m, listBits[m]) <= efLength(uint64(len(keys)), shiftedLast(keys, starts)) {
+		m, lists, _ := listTotals(keys, starts, isContext)
+		if keyListsLength(m, lists) <= efLength(uint64(len(keys)), shiftedLast(keys, starts)) {
 			s.data, s.Encoding = encodeKeyLists(keys, starts, isContext), listEncoding(enc)
 			return
 		}
-		s.data, s.Encoding = encodeEliasFano(shiftedKeys(keys, starts)), enc
+		s.data, s.Encoding = encodeShifted(keys, starts), enc
 	})
 }

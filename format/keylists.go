@@ -26,74 +26,102 @@ const keyListsMaxWidth = 32
 // keyWidth is the width of a list whose largest key is last.
 func keyWidth(last uint64) uint { return uint(bits.Len64(last)) }
 
+// key is the type of an order's keys: the writer's own are 32-bit (word
+// ids and ranks), a stream's 64-bit.
+type key interface{ ~uint32 | ~uint64 }
+
 // keyListsBits returns the bit start of each context's list (m+1 values,
 // the last one the stream's length) for the keys of one order: starts are
 // the child starts of the order below, one per entry plus one, and
 // isContext marks its contexts (every entry with children is one).
-func keyListsBits(keys []uint64, starts []uint32, isContext func(int) bool) []uint64 {
-	lists, _ := listStarts(keys, starts, isContext)
-	return lists
+func keyListsBits[K key](keys []K, starts []uint32, isContext func(int) bool) []uint64 {
+	return listStarts(keys, starts, isContext, false)
+}
+
+// listBits is the length in bits of a list of keys (ascending) in coded
+// key lists (coded) or in key lists (the width of its largest key per
+// key).
+func listBits[K key](list []K, coded bool) uint64 {
+	if coded {
+		return codedListBits(list)
+	}
+	if len(list) == 0 {
+		return 0
+	}
+	return uint64(len(list)) * uint64(keyWidth(uint64(list[len(list)-1])))
+}
+
+// listTotals returns, for the keys of one order, the number m of contexts
+// below and the length in bits of all their lists in key lists (lists) and
+// in coded key lists (coded), in one pass and without holding a list
+// start; keys, starts and isContext are those of keyListsBits.
+func listTotals[K key](keys []K, starts []uint32, isContext func(int) bool) (m, lists, coded uint64) {
+	for p := 0; p+1 < len(starts); p++ {
+		if isContext(p) {
+			list := keys[starts[p]:starts[p+1]]
+			m, lists, coded = m+1, lists+listBits(list, false), coded+listBits(list, true)
+		}
+	}
+	return m, lists, coded
 }
 
 // listStarts returns the bit start of each context's list (m+1 values, the
-// last one the stream's length) in key lists (lists: each list of keys
-// keys[starts[p]:starts[p+1]] under context p takes the width of its
-// largest key per key) and in coded key lists (coded: codedListBits), in
-// one pass over the contexts; keys, starts and isContext are those of
-// keyListsBits.
-func listStarts(keys []uint64, starts []uint32, isContext func(int) bool) (lists, coded []uint64) {
-	lists, coded = make([]uint64, 0, len(starts)), make([]uint64, 0, len(starts))
-	var lbit, cbit uint64
+// last one the stream's length) in coded key lists (coded) or key lists;
+// keys, starts and isContext are those of keyListsBits.
+func listStarts[K key](keys []K, starts []uint32, isContext func(int) bool, coded bool) []uint64 {
+	out := make([]uint64, 0, len(starts))
+	var bit uint64
 	for p := 0; p+1 < len(starts); p++ {
-		if !isContext(p) {
-			continue
-		}
-		lists, coded = append(lists, lbit), append(coded, cbit)
-		if a, b := starts[p], starts[p+1]; b > a {
-			lbit += uint64(b-a) * uint64(keyWidth(keys[b-1]))
-			cbit += codedListBits(keys[a:b])
+		if isContext(p) {
+			out = append(out, bit)
+			bit += listBits(keys[starts[p]:starts[p+1]], coded)
 		}
 	}
-	return append(lists, lbit), append(coded, cbit)
+	return append(out, bit)
 }
 
 // listsSection returns the section bytes of an order's keys stored list
-// by list: the Elias-Fano sequence of the lists' bit starts (listBits, the
-// last one the stream's length), then the stream of lists, which fill
-// writes into the zeroed stream it is given.
-func listsSection(listBits []uint64, fill func(stream []byte)) []byte {
-	total := listBits[len(listBits)-1]
-	ef := encodeEliasFano(listBits)
-	out := make([]byte, len(ef)+8*int((total+63)/64))
-	copy(out, ef)
-	fill(out[len(ef):])
+// by list, in coded key lists (coded) or key lists: the Elias-Fano
+// sequence of the m+1 lists' bit starts (one per context, then the
+// stream's length, total bits: listTotals), then the stream of lists.
+// keys, starts and isContext are those of keyListsBits.
+func listsSection[K key](keys []K, starts []uint32, isContext func(int) bool, coded bool, m, total uint64) []byte {
+	efLen := efLength(m+1, total)
+	out := make([]byte, efLen+8*int64((total+63)/64))
+	ef := newEFWriter(out[:efLen], m+1, total)
+	stream := out[efLen:]
+	var bit uint64
+	put := func(v uint64, w uint) error {
+		putBits(stream, bit, v, w)
+		bit += uint64(w)
+		return nil
+	}
+	for p := 0; p+1 < len(starts); p++ {
+		if isContext(p) {
+			ef.add(bit)
+		}
+		list := keys[starts[p]:starts[p+1]] // empty under an entry that is no context
+		switch {
+		case coded:
+			putCodedList(list, put)
+		case len(list) > 0:
+			w := keyWidth(uint64(list[len(list)-1]))
+			for _, k := range list {
+				putBits(stream, bit, uint64(k), w)
+				bit += uint64(w)
+			}
+		}
+	}
+	ef.add(bit)
 	return out
 }
 
 // encodeKeyLists returns the section bytes of an order's keys (keys[e]
 // under the parent of entry e) as sibling lists; starts and isContext are
 // those of keyListsBits.
-func encodeKeyLists(keys []uint64, starts []uint32, isContext func(int) bool) []byte {
-	return keyListsSection(keys, starts, keyListsBits(keys, starts, isContext))
-}
-
-// keyListsSection is encodeKeyLists with the lists' bit starts already
-// computed (keyListsBits).
-func keyListsSection(keys []uint64, starts []uint32, listBits []uint64) []byte {
-	return listsSection(listBits, func(stream []byte) {
-		var bit uint64
-		for p := 0; p+1 < len(starts); p++ {
-			a, b := starts[p], starts[p+1]
-			if a >= b {
-				continue
-			}
-			w := keyWidth(keys[b-1])
-			for e := a; e < b; e++ {
-				putBits(stream, bit, keys[e], w)
-				bit += uint64(w)
-			}
-		}
-	})
+func encodeKeyLists[K key](keys []K, starts []uint32, isContext func(int) bool) []byte {
+	m, lists, _ := listTotals(keys, starts, isContext)
+	return listsSection(keys, starts, isContext, false, m, lists)
 }
 
 // putBits ORs the w low bits of v into the bit stream b at bit: with one

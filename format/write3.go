@@ -90,14 +90,14 @@ func orderSections3(t *tables.Tables, k int, childStarts [][]uint32, links *tabl
 		isContext := contextsOf(t, k, childStarts)
 		out = append(out, section{Section: Section{Kind: KindContexts, Order: k}, data: encodeMarks(len(lv.LogBackoff), isContext)})
 		kept := make([]float32, 0, len(lv.LogBackoff))
-		x := make([]uint64, 0, len(lv.LogBackoff)+1)
+		x := make([]uint32, 0, len(lv.LogBackoff)+1)
 		for i, b := range lv.LogBackoff {
 			if isContext(i) {
 				kept = append(kept, b)
-				x = append(x, uint64(starts[i]))
+				x = append(x, starts[i])
 			}
 		}
-		x = append(x, uint64(starts[len(starts)-1]))
+		x = append(x, starts[len(starts)-1])
 		out = append(out, columnSections(KindBackoffs, KindBackoffCodebook, k, kept, lv.BackoffCodebook, true)...)
 		out = append(out, section{Section: Section{Kind: KindChildStarts, Order: k, Encoding: EliasFano}, data: encodeEliasFano(x)})
 	}
@@ -138,14 +138,14 @@ func childStartValues(t *tables.Tables, k int) []uint32 {
 // sequence codes long lists of word ids closer to their entropy.
 func lastWordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]byte, Encoding) {
 	keys, enc := wordKeys(t, k, childStarts, links)
-	isContext := contextsOf(t, k-1, childStarts)
-	switch p := planKeys(keys, childStarts[k-2], isContext); p.form {
+	starts, isContext := childStarts[k-2], contextsOf(t, k-1, childStarts)
+	switch p := planKeys(keys, starts, isContext); p.form {
 	case formCoded:
-		return codedListsSection(keys, childStarts[k-2], p.coded), codedEncoding(enc)
+		return listsSection(keys, starts, isContext, true, p.m, p.coded), codedEncoding(enc)
 	case formLists:
-		return keyListsSection(keys, childStarts[k-2], p.lists), listEncoding(enc)
+		return listsSection(keys, starts, isContext, false, p.m, p.lists), listEncoding(enc)
 	}
-	return encodeEliasFano(shiftedKeys(keys, childStarts[k-2])), enc
+	return encodeShifted(keys, starts), enc
 }
 
 // The forms an order's keys are stored in.
@@ -169,55 +169,59 @@ func chooseKeysForm(one, lists, coded int64) int {
 }
 
 // keysPlan is what the writer decides for an order's keys: the form
-// (chooseKeysForm), the length of its section, and the bit starts of
-// both list forms, which the chosen one's encoding reuses.
+// (chooseKeysForm), the length of its section, and what the list forms'
+// sections are made from: the m contexts below and both forms' bits
+// (listTotals).
 type keysPlan struct {
-	form         int
-	length       int64
-	lists, coded []uint64 // keyListsBits, codedListsBits
+	form            int
+	length          int64
+	m, lists, coded uint64
 }
 
 // planKeys returns the writer's plan for an order's keys.
-func planKeys(keys []uint64, starts []uint32, isContext func(int) bool) keysPlan {
+func planKeys[K key](keys []K, starts []uint32, isContext func(int) bool) keysPlan {
 	var p keysPlan
-	p.lists, p.coded = listStarts(keys, starts, isContext)
-	m := uint64(len(p.lists) - 1)
+	p.m, p.lists, p.coded = listTotals(keys, starts, isContext)
 	lengths := [...]int64{
 		formOne:   efLength(uint64(len(keys)), shiftedLast(keys, starts)),
-		formLists: keyListsLength(m, p.lists[m]),
-		formCoded: keyListsLength(m, p.coded[m]),
+		formLists: keyListsLength(p.m, p.lists),
+		formCoded: keyListsLength(p.m, p.coded),
 	}
 	p.form = chooseKeysForm(lengths[formOne], lengths[formLists], lengths[formCoded])
 	p.length = lengths[p.form]
 	return p
 }
 
-// shiftedLast is the last value of shiftedKeys(keys, starts): the sum of
-// every sibling list's last key.
-func shiftedLast(keys []uint64, starts []uint32) uint64 {
+// shiftedLast is the last value of the shifted keys (encodeShifted): the
+// sum of every sibling list's last key.
+func shiftedLast[K key](keys []K, starts []uint32) uint64 {
 	var last uint64
 	for p := 0; p+1 < len(starts); p++ {
 		if starts[p+1] > starts[p] {
-			last += keys[starts[p+1]-1]
+			last += uint64(keys[starts[p+1]-1])
 		}
 	}
 	return last
 }
 
-// shiftedKeys makes an order's keys one non-decreasing sequence: each
-// sibling list is shifted by the last value of the list before it.
-func shiftedKeys(keys []uint64, starts []uint32) []uint64 {
-	x := make([]uint64, len(keys))
+// encodeShifted returns the Elias-Fano section of an order's keys made one
+// non-decreasing sequence: each sibling list shifted by the last value of
+// the list before it.
+func encodeShifted[K key](keys []K, starts []uint32) []byte {
+	n, last := uint64(len(keys)), shiftedLast(keys, starts)
+	out := make([]byte, efLength(n, last))
+	w := newEFWriter(out, n, last)
+	var base uint64
 	for p := 0; p+1 < len(starts); p++ {
-		var base uint64
-		if s := starts[p]; s > 0 {
-			base = x[s-1]
+		list := keys[starts[p]:starts[p+1]]
+		for _, k := range list {
+			w.add(base + uint64(k))
 		}
-		for e := starts[p]; e < starts[p+1]; e++ {
-			x[e] = base + keys[e]
+		if len(list) > 0 {
+			base += uint64(list[len(list)-1])
 		}
 	}
-	return x
+	return out
 }
 
 // listEncoding is the key-lists encoding with the keys of enc.
@@ -249,7 +253,7 @@ func contextsOf(t *tables.Tables, k int, childStarts [][]uint32) func(i int) boo
 // written before key lists hold).
 func lastWordKeysEF(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]byte, Encoding) {
 	keys, enc := wordKeys(t, k, childStarts, links)
-	return encodeEliasFano(shiftedKeys(keys, childStarts[k-2])), enc
+	return encodeShifted(keys, childStarts[k-2]), enc
 }
 
 // lastWordKeysListed encodes the last words of order k >= 2 in key lists
@@ -263,10 +267,10 @@ func lastWordKeysListed(t *tables.Tables, k int, childStarts [][]uint32, links *
 // parents: ranks among the successors of the parent's suffix when every
 // entry's suffix is stored and k >= 3 (encoding EliasFanoRanks), word ids
 // otherwise (EliasFano). links are the tables' (linksOf).
-func wordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]uint64, Encoding) {
+func wordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Links) ([]uint32, Encoding) {
 	n := t.Len(k)
 	if k >= 3 {
-		ranks := make([]uint64, n)
+		ranks := make([]uint32, n)
 		parents, suffixes, contexts := links.Parent[k-1], links.Suffix[k-1], links.Suffix[k-2]
 		ok := true
 		for e := 0; e < n; e++ {
@@ -276,15 +280,15 @@ func wordKeys(t *tables.Tables, k int, childStarts [][]uint32, links *tables.Lin
 				ok = false
 				break
 			}
-			ranks[e] = uint64(suffix) - uint64(childStarts[k-3][context])
+			ranks[e] = uint32(suffix) - childStarts[k-3][context]
 		}
 		if ok {
 			return ranks, EliasFanoRanks
 		}
 	}
-	keys := make([]uint64, n)
+	keys := make([]uint32, n)
 	for e := 0; e < n; e++ {
-		keys[e] = uint64(t.Gram(k, e)[k-1])
+		keys[e] = t.Gram(k, e)[k-1]
 	}
 	return keys, EliasFano
 }
