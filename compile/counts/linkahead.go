@@ -21,6 +21,7 @@ type where struct {
 type linkTask struct {
 	k     int
 	lo    int      // the first entry's index within its order
+	room  int      // how many entries the order has room for (a hint)
 	words []uint32 // the entries (k ids each); with end, the whole order
 	where []where  // where each entry came from
 	end   bool
@@ -87,19 +88,18 @@ func (lb *linkBehind) finish() *linkFailure {
 	return lb.fail
 }
 
-// part is what linking one task found.
-type part struct{ parent, suffix []int32 }
-
 func (lb *linkBehind) run(vocab int) {
 	defer close(lb.done)
 	var (
-		wg     sync.WaitGroup
-		mu     sync.Mutex
-		parts  []*part
-		lower  []uint32 // the entries of the complete order below
-		below  = vocab  // how many
-		linker *tables.OrderLinker
-		sem    = make(chan struct{}, runtime.GOMAXPROCS(0))
+		wg sync.WaitGroup
+		mu sync.Mutex
+		// The links of the order being linked: each task's goroutine
+		// fills those of its entries, in place.
+		parents, suffixes []int32
+		lower             []uint32 // the entries of the complete order below
+		below             = vocab  // how many
+		linker            *tables.OrderLinker
+		sem               = make(chan struct{}, runtime.GOMAXPROCS(0))
 	)
 	failAt := func(f linkFailure) {
 		mu.Lock()
@@ -121,14 +121,9 @@ func (lb *linkBehind) run(vocab int) {
 			}
 			parent, suffix := t.parent, t.suffix
 			if k >= 3 {
-				n := len(t.words) / k
-				parent, suffix = make([]int32, 0, n), make([]int32, 0, n)
-				for _, p := range parts {
-					parent = append(parent, p.parent...)
-					suffix = append(suffix, p.suffix...)
-				}
+				parent, suffix = parents, suffixes // every entry's, the tasks being contiguous
 			}
-			parts, linker = nil, nil
+			parents, suffixes, linker = nil, nil, nil
 			lb.links.Parent = append(lb.links.Parent, parent)
 			lb.links.Suffix = append(lb.links.Suffix, suffix)
 			lb.links.Starts = append(lb.links.Starts, tables.StartsOf(parent, below))
@@ -139,18 +134,26 @@ func (lb *linkBehind) run(vocab int) {
 			linker = lb.links.OrderLinker(k, lower)
 		}
 		n := len(t.words) / k
-		p := &part{parent: make([]int32, n), suffix: make([]int32, n)}
-		parts = append(parts, p)
+		end := t.lo + n
+		if end > cap(parents) {
+			// Moved once no goroutine fills the old arrays.
+			wg.Wait()
+			size := max(end, t.room, cap(parents)+cap(parents)/2)
+			parents = append(make([]int32, 0, size), parents...)
+			suffixes = append(make([]int32, 0, size), suffixes...)
+		}
+		parents, suffixes = parents[:end], suffixes[:end]
+		parent, suffix := parents[t.lo:end], suffixes[t.lo:end]
 		sem <- struct{}{}
 		wg.Add(1)
 		go func(l *tables.OrderLinker) {
 			defer wg.Done()
-			bad := l.Link(t.words, p.parent, p.suffix)
+			bad := l.Link(t.words, parent, suffix)
 			prefixMissing := bad >= 0
 			if !prefixMissing {
 				bad = n
 			}
-			for i, s := range p.suffix[:bad] {
+			for i, s := range suffix[:bad] {
 				if s < 0 {
 					bad, prefixMissing = i, false
 					break

@@ -361,7 +361,7 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 			lv.Counts = append(tables.Grow(lv.Counts, 1), n)
 			if k >= 3 {
 				if task == nil {
-					task = &linkTask{k: k, lo: len(lv.Counts) - 1, where: lb.whereRoom()}
+					task = &linkTask{k: k, lo: len(lv.Counts) - 1, room: cap(lv.Counts), where: lb.whereRoom()}
 				}
 				task.where = append(task.where, where{e.from, e.at})
 			}

@@ -355,12 +355,11 @@ func (e *estimator) adjust() {
 // done when Options.Survivors is set.
 func (e *estimator) adjustOrder(k int) {
 	raw := e.c.Levels[k-1].Counts
-	a := make([]uint64, len(raw))
 	if k == e.N {
-		copy(a, raw)
-		e.adj[k-1] = a
+		e.adj[k-1] = raw // read, never written
 		return
 	}
+	a := make([]uint64, len(raw))
 	var kept []bool
 	var above []uint64
 	if e.opt.Survivors != nil {
