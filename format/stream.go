@@ -1,7 +1,6 @@
 package format
 
 import (
-	"bufio"
 	"crypto/sha256"
 	"encoding/binary"
 	"errors"
@@ -59,31 +58,26 @@ type StreamWriter struct {
 	scratch     [8]byte
 }
 
-// streamSection is a section whose bytes are in a file.
+// streamSection is a section whose bytes go to a file as they are written
+// (sp), or, for the sections Finish builds, in memory (data).
 type streamSection struct {
 	Section
-	path string
-	f    *os.File
-	w    *bufio.Writer
-	data []byte // or in memory
+	sp   *spill
+	data []byte
 }
 
 func (s *streamSection) write(b []byte) error {
-	_, err := s.w.Write(b)
 	s.Length += int64(len(b))
-	return err
+	return s.sp.write(b)
 }
 
+// close ends the section's writes: what is buffered for its file goes to
+// it.
 func (s *streamSection) close() error {
-	if s.f == nil {
+	if s.sp == nil {
 		return nil
 	}
-	err := s.w.Flush()
-	if cerr := s.f.Close(); err == nil {
-		err = cerr
-	}
-	s.f = nil
-	return err
+	return s.sp.flush()
 }
 
 // NewStreamWriter starts a model of the given vocabulary (sorted bytewise,
@@ -139,9 +133,8 @@ func (w *StreamWriter) Dir() string { return w.dir }
 // after Finish.
 func (w *StreamWriter) Close() error {
 	for _, s := range w.secs {
-		if s.f != nil {
-			s.f.Close()
-			s.f = nil
+		if s.sp != nil {
+			s.sp.release()
 		}
 	}
 	for _, b := range []*bitSpill{w.keyStream, w.codedStream} {
@@ -159,12 +152,7 @@ func (w *StreamWriter) Close() error {
 
 func (w *StreamWriter) newSection(kind SectionKind, enc Encoding, k int) (*streamSection, error) {
 	s := &streamSection{Section: Section{Kind: kind, Encoding: enc, Order: k}}
-	s.path = filepath.Join(w.dir, fmt.Sprintf("%02d-%03d", k, len(w.secs)))
-	f, err := os.Create(s.path)
-	if err != nil {
-		return nil, err
-	}
-	s.f, s.w = f, bufio.NewWriterSize(f, 1<<16)
+	s.sp = newSpill(filepath.Join(w.dir, fmt.Sprintf("%02d-%03d", k, len(w.secs))))
 	w.secs = append(w.secs, s)
 	return s, nil
 }
@@ -280,21 +268,11 @@ func (w *StreamWriter) startOrder(k int) error {
 		if w.keysSec, err = w.newSection(KindLastWords, enc, k); err != nil {
 			return err
 		}
-		if w.keys, err = newValueSpill(w.dir, fmt.Sprintf("keys-%d", k), w.keysSec); err != nil {
-			return err
-		}
-		if w.listEnds, err = newValueSpill(w.dir, fmt.Sprintf("list-ends-%d", k), nil); err != nil {
-			return err
-		}
-		if w.keyStream, err = newBitSpill(filepath.Join(w.dir, fmt.Sprintf("key-bits-%d", k))); err != nil {
-			return err
-		}
-		if w.codedEnds, err = newValueSpill(w.dir, fmt.Sprintf("coded-ends-%d", k), nil); err != nil {
-			return err
-		}
-		if w.codedStream, err = newBitSpill(filepath.Join(w.dir, fmt.Sprintf("coded-bits-%d", k))); err != nil {
-			return err
-		}
+		w.keys = w.newValueSpill(fmt.Sprintf("keys-%d", k), w.keysSec)
+		w.listEnds = w.newValueSpill(fmt.Sprintf("list-ends-%d", k), nil)
+		w.keyStream = w.newBitSpill(fmt.Sprintf("key-bits-%d", k))
+		w.codedEnds = w.newValueSpill(fmt.Sprintf("coded-ends-%d", k), nil)
+		w.codedStream = w.newBitSpill(fmt.Sprintf("coded-bits-%d", k))
 	}
 	if w.probs, err = w.newSection(KindProbabilities, Plain, k); err != nil {
 		return err
@@ -312,9 +290,7 @@ func (w *StreamWriter) startOrder(k int) error {
 		if err != nil {
 			return err
 		}
-		if w.childStarts, err = newValueSpill(w.dir, fmt.Sprintf("starts-%d", k), cs); err != nil {
-			return err
-		}
+		w.childStarts = w.newValueSpill(fmt.Sprintf("starts-%d", k), cs)
 	}
 	return nil
 }
@@ -400,27 +376,29 @@ func (w *StreamWriter) Finish(out io.Writer, info tables.Info) error {
 		head = append(head, &streamSection{Section: s.Section, data: s.data})
 	}
 	secs := append(head, w.secs...)
-	// First pass: lengths, checksums and the digest; the header needs them
-	// all before the first section.
+	// First pass: checksums and the digest, in one read of each section;
+	// the header needs them all before the first section.
 	header := make([]byte, headerSize+directoryEntry*len(secs))
 	pos := int64(len(header))
 	digest := sha256.New()
 	for i, s := range secs {
+		if s.sp == nil {
+			s.Length = int64(len(s.data))
+		} else if s.sp.n != s.Length {
+			return fmt.Errorf("ingot model: %s holds %d bytes, %d written", s.Name(), s.sp.n, s.Length)
+		}
+		s.Offset = align(pos)
+		pos = s.Offset + s.Length
+		digest.Write(digestRecord(s.Section))
 		crc := uint32(0)
-		var length int64
 		err := s.each(func(b []byte) {
 			crc = updateChecksum(crc, b)
-			length += int64(len(b))
+			digest.Write(b)
 		})
 		if err != nil {
 			return err
 		}
-		s.Offset, s.Length, s.Checksum = align(pos), length, crc
-		pos = s.Offset + s.Length
-		digest.Write(digestRecord(s.Section))
-		if err := s.each(func(b []byte) { digest.Write(b) }); err != nil {
-			return err
-		}
+		s.Checksum = crc
 		e := header[headerSize+directoryEntry*i:]
 		putU32(e[0:], uint32(s.Kind))
 		putU32(e[4:], uint32(s.Encoding))
@@ -468,85 +446,42 @@ func (w *StreamWriter) Finish(out io.Writer, info tables.Info) error {
 
 // each calls fn with the section's bytes, in pieces.
 func (s *streamSection) each(fn func([]byte)) error {
-	if s.path == "" {
+	if s.sp == nil {
 		fn(s.data)
 		return nil
 	}
-	f, err := os.Open(s.path)
-	if err != nil {
-		return err
-	}
-	defer f.Close()
-	buf := make([]byte, 1<<16)
-	for {
-		n, err := f.Read(buf)
-		if n > 0 {
-			fn(buf[:n])
-		}
-		if err == io.EOF {
-			return nil
-		}
-		if err != nil {
-			return err
-		}
-	}
+	return s.sp.each(func(b []byte) error {
+		fn(b)
+		return nil
+	})
 }
 
-// valueSpill collects a non-decreasing sequence in a file, then encodes it
-// as an Elias-Fano section (encodeEliasFano, streamed).
+// valueSpill collects a non-decreasing sequence (in a spill), then encodes
+// it as an Elias-Fano section (encodeEliasFano, streamed).
 type valueSpill struct {
-	path string
-	f    *os.File
-	w    *bufio.Writer
+	sp   *spill
 	n    uint64
 	last uint64
 	sec  *streamSection
 }
 
-func newValueSpill(dir, name string, sec *streamSection) (*valueSpill, error) {
-	p := filepath.Join(dir, name)
-	f, err := os.Create(p)
-	if err != nil {
-		return nil, err
-	}
-	return &valueSpill{path: p, f: f, w: bufio.NewWriterSize(f, 1<<16), sec: sec}, nil
+func (w *StreamWriter) newValueSpill(name string, sec *streamSection) *valueSpill {
+	return &valueSpill{sp: newSpill(filepath.Join(w.dir, name)), sec: sec}
 }
 
 func (v *valueSpill) add(x uint64) error {
 	if v.n > 0 && x < v.last {
 		return errors.New("ingot model: Elias-Fano values decrease")
 	}
-	_, err := v.w.Write(binary.LittleEndian.AppendUint64(v.w.AvailableBuffer(), x))
 	v.n++
 	v.last = x
-	return err
+	return v.sp.put64(x)
 }
 
-func (v *valueSpill) close() {
-	if v.f != nil {
-		v.f.Close()
-		v.f = nil
-	}
-	os.Remove(v.path)
-}
+func (v *valueSpill) close() { v.sp.release() }
 
 // values calls fn with every value in order.
-func (v *valueSpill) values(fn func(i, x uint64) error) error {
-	if _, err := v.f.Seek(0, io.SeekStart); err != nil {
-		return err
-	}
-	r := bufio.NewReaderSize(v.f, 1<<16)
-	var b [8]byte
-	for i := uint64(0); i < v.n; i++ {
-		if _, err := io.ReadFull(r, b[:]); err != nil {
-			return err
-		}
-		if err := fn(i, binary.LittleEndian.Uint64(b[:])); err != nil {
-			return err
-		}
-	}
-	return nil
-}
+func (v *valueSpill) values(fn func(i, x uint64) error) error { return v.sp.values(fn) }
 
 // encode writes the Elias-Fano section of the values (the layout of
 // encodeEliasFano: header, low bits, high bits, samples) and removes the
@@ -557,30 +492,18 @@ func (v *valueSpill) encode() error {
 }
 
 // next returns a function that reads the values in order, one per call,
-// from the start of the file.
+// from the first.
 func (v *valueSpill) next() (func() (uint64, error), error) {
-	if err := v.w.Flush(); err != nil {
+	c, err := v.sp.cursor()
+	if err != nil {
 		return nil, err
 	}
-	if _, err := v.f.Seek(0, io.SeekStart); err != nil {
-		return nil, err
-	}
-	r := bufio.NewReaderSize(v.f, 1<<16)
-	var b [8]byte // one for every call
-	return func() (uint64, error) {
-		if _, err := io.ReadFull(r, b[:]); err != nil {
-			return 0, err
-		}
-		return binary.LittleEndian.Uint64(b[:]), nil
-	}, nil
+	return c.next, nil
 }
 
-// encodeKeep is encode that keeps the value file, for values() and next();
+// encodeKeep is encode that keeps the values, for values() and next();
 // neither closes the section, to which more bytes may follow.
 func (v *valueSpill) encodeKeep() error {
-	if err := v.w.Flush(); err != nil {
-		return err
-	}
 	s := v.sec
 	n, last := v.n, v.last
 	l := efLowBits(n, last)
@@ -723,12 +646,9 @@ func (m *markStream) finish() error {
 			return err
 		}
 	}
-	if err := m.s.w.Flush(); err != nil {
-		return err
-	}
 	var c [8]byte
 	putU64(c[:], m.count)
-	if _, err := m.s.f.WriteAt(c[:], 8); err != nil {
+	if err := m.s.sp.patch(8, c[:]); err != nil {
 		return err
 	}
 	return m.s.close()
@@ -804,10 +724,7 @@ func (w *StreamWriter) endKeys() error {
 		}
 	}
 	defer done()
-	starts, err := newValueSpill(w.dir, fmt.Sprintf("list-starts-%d", w.k), w.keysSec)
-	if err != nil {
-		return err
-	}
+	starts := w.newValueSpill(fmt.Sprintf("list-starts-%d", w.k), w.keysSec)
 	defer starts.close()
 	childStart, err := w.prevStarts.next()
 	if err != nil {
@@ -847,21 +764,15 @@ func (w *StreamWriter) endKeys() error {
 	return w.keysSec.close()
 }
 
-// bitSpill collects a bit stream in a file, 64 bits at a time.
+// bitSpill collects a bit stream (in a spill), 64 bits at a time.
 type bitSpill struct {
-	path string
-	f    *os.File
-	w    *bufio.Writer
+	sp   *spill
 	cur  uint64 // the bits of the word being filled
 	bits uint64 // bits written
 }
 
-func newBitSpill(path string) (*bitSpill, error) {
-	f, err := os.Create(path)
-	if err != nil {
-		return nil, err
-	}
-	return &bitSpill{path: path, f: f, w: bufio.NewWriterSize(f, 1<<16)}, nil
+func (w *StreamWriter) newBitSpill(name string) *bitSpill {
+	return &bitSpill{sp: newSpill(filepath.Join(w.dir, name))}
 }
 
 // put appends the width low bits of v.
@@ -875,51 +786,22 @@ func (b *bitSpill) put(v uint64, width uint) error {
 	if off+width < 64 {
 		return nil
 	}
-	word := binary.LittleEndian.AppendUint64(b.w.AvailableBuffer(), b.cur)
+	word := b.cur
 	b.cur = 0
 	if off+width > 64 {
 		b.cur = v >> (64 - off)
 	}
-	_, err := b.w.Write(word)
-	return err
+	return b.sp.put64(word)
 }
 
 // copyTo appends the stream, its last word padded with zeros, to s.
 func (b *bitSpill) copyTo(s *streamSection) error {
 	if b.bits%64 != 0 {
-		var word [8]byte
-		binary.LittleEndian.PutUint64(word[:], b.cur)
-		if _, err := b.w.Write(word[:]); err != nil {
+		if err := b.sp.put64(b.cur); err != nil {
 			return err
 		}
 	}
-	if err := b.w.Flush(); err != nil {
-		return err
-	}
-	if _, err := b.f.Seek(0, io.SeekStart); err != nil {
-		return err
-	}
-	buf := make([]byte, 1<<16)
-	for {
-		n, err := b.f.Read(buf)
-		if n > 0 {
-			if werr := s.write(buf[:n]); werr != nil {
-				return werr
-			}
-		}
-		if err == io.EOF {
-			return nil
-		}
-		if err != nil {
-			return err
-		}
-	}
+	return b.sp.each(s.write)
 }
 
-func (b *bitSpill) close() {
-	if b.f != nil {
-		b.f.Close()
-		b.f = nil
-	}
-	os.Remove(b.path)
-}
+func (b *bitSpill) close() { b.sp.release() }
