@@ -1,6 +1,7 @@
 package format
 
 import (
+	"bytes"
 	"encoding/binary"
 	"ingot/compile/fixture"
 	"math"
@@ -114,5 +115,28 @@ func TestPackedRefusedInVersionOne(t *testing.T) {
 	_, err := FromBytes(data)
 	if err == nil || !strings.Contains(err.Error(), "which format version 1 does not allow") {
 		t.Errorf("got %v", err)
+	}
+}
+
+// TestFloatBytesEitherWay checks that a column's bytes are the same read in
+// place on a little-endian machine as put one by one in little-endian order
+// (IEEE 754 single precision, the file's float layout), NaN payloads and
+// negative zero included.
+func TestFloatBytesEitherWay(t *testing.T) {
+	v := []float32{0, float32(math.Copysign(0, -1)), 1.5, -2.25e-30, float32(math.Inf(-1)), math.Float32frombits(0x7fc00001), math.MaxFloat32}
+	inPlace := floatBytes(v)
+	defer func(was bool) { littleEndian = was }(littleEndian)
+	littleEndian = false
+	copied := floatBytes(v)
+	if !bytes.Equal(inPlace, copied) {
+		t.Fatalf("in place % x, copied % x", inPlace, copied)
+	}
+	for i, f := range v {
+		if got := binary.LittleEndian.Uint32(copied[4*i:]); got != math.Float32bits(f) {
+			t.Errorf("value %d: bytes hold %#x, want %#x", i, got, math.Float32bits(f))
+		}
+	}
+	if len(floatBytes(nil)) != 0 {
+		t.Error("no values gave bytes")
 	}
 }

@@ -3,11 +3,13 @@ package format
 import (
 	"bytes"
 	"crypto/sha256"
+	"encoding/binary"
 	"fmt"
 	"io"
 	"math"
 	"sync"
 	"unicode/utf8"
+	"unsafe"
 
 	"ingot/compile/tables"
 )
@@ -343,13 +345,23 @@ func vocabularyBytes(vocab []string) (starts, text []byte) {
 	return starts, text
 }
 
+// floatBytes returns the little-endian bytes of the float32 values v: on a
+// little-endian machine v's own memory, which the writer only reads, else
+// a copy.
 func floatBytes(v []float32) []byte {
+	if littleEndian && len(v) > 0 {
+		return unsafe.Slice((*byte)(unsafe.Pointer(unsafe.SliceData(v))), 4*len(v))
+	}
 	b := make([]byte, 4*len(v))
 	for i, f := range v {
 		putU32(b[4*i:], math.Float32bits(f))
 	}
 	return b
 }
+
+// littleEndian is whether this machine stores a float32 as the file does (a
+// variable so that a test can take the other path).
+var littleEndian = binary.NativeEndian.Uint16([]byte{1, 0}) == 1
 
 // childStarts returns the n_k+1 child-start values of order k
 // (childStartValues) as the little-endian 32-bit column of versions 1 and 2:
