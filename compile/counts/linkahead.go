@@ -139,8 +139,11 @@ func (lb *linkBehind) run(vocab int) {
 			// Moved once no goroutine fills the old arrays.
 			wg.Wait()
 			size := max(end, t.room, cap(parents)+cap(parents)/2)
-			parents = append(make([]int32, 0, size), parents...)
-			suffixes = append(make([]int32, 0, size), suffixes...)
+			was, wasSuffixes := parents, suffixes
+			parents, suffixes = make([]int32, 0, size), make([]int32, 0, size)
+			hugePagesOf(parents)
+			hugePagesOf(suffixes)
+			parents, suffixes = append(parents, was...), append(suffixes, wasSuffixes...)
 		}
 		parents, suffixes = parents[:end], suffixes[:end]
 		parent, suffix := parents[t.lo:end], suffixes[t.lo:end]

@@ -309,6 +309,8 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 		}
 		if n > 0 {
 			c.Levels[k-1] = Level{Words: make([]uint32, 0, uint64(k)*n), Counts: make([]uint64, 0, n)}
+			hugePagesOf(c.Levels[k-1].Words)
+			hugePagesOf(c.Levels[k-1].Counts)
 			if k == 2 {
 				parent2, suffix2 = make([]int32, 0, n), make([]int32, 0, n)
 			}

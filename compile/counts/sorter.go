@@ -695,3 +695,12 @@ func (st *tableStream) next() ([]uint32, uint64, error) {
 	}
 	return nil, 0, io.EOF
 }
+
+// hugePagesOf is hugePages for the memory of s up to its capacity, before
+// it is first written.
+func hugePagesOf[E any](s []E) {
+	if cap(s) > 0 {
+		s = s[:1]
+		hugePages(unsafe.Slice((*byte)(unsafe.Pointer(unsafe.SliceData(s))), uintptr(cap(s))*unsafe.Sizeof(s[0])))
+	}
+}
