@@ -56,6 +56,45 @@ type StreamWriter struct {
 	childRun    uint64
 	err         error
 	scratch     [8]byte
+	// top, when not nil, writes the top order's entries (Top); the order
+	// below it is then ended as soon as its last entry is added
+	// (belowEnded).
+	top        *StreamWriter
+	belowEnded bool
+}
+
+// TopWriter takes the entries of a model's top order N >= 2, from a
+// goroutine other than the one adding orders 1..N-1 to the StreamWriter,
+// and at the same time: its sections go to files of their own.
+type TopWriter struct{ w *StreamWriter }
+
+// Top returns the writer of the top order's entries: from then on, w takes
+// the entries of orders 1..N-1 only, the TopWriter those of order N
+// (each in their order, as Add asks), and the two may be given them
+// concurrently. Finish, once both are done, writes the same bytes as
+// without it. Call it before the first Add, once.
+func (w *StreamWriter) Top() (*TopWriter, error) {
+	N := len(w.counts)
+	if N < 2 || w.k != 0 || w.top != nil {
+		return nil, fmt.Errorf("ingot model: no top-order writer for order %d (%d orders added)", N, w.k)
+	}
+	t := &StreamWriter{dir: w.dir, vocab: w.vocab, counts: w.counts, start: w.start}
+	if err := t.startOrder(N); err != nil {
+		t.Close()
+		return nil, err
+	}
+	w.top = t
+	return &TopWriter{t}, nil
+}
+
+// Add appends the next entry of the top order (see StreamWriter.Add).
+func (t *TopWriter) Add(ids []uint32, rank uint32, logProb, logBackoff float32, children uint64) error {
+	if len(ids) != t.w.k {
+		err := fmt.Errorf("ingot model: %d-gram given to the writer of order %d", len(ids), t.w.k)
+		t.w.err = err
+		return err
+	}
+	return t.w.Add(ids, rank, logProb, logBackoff, children)
 }
 
 // streamSection is a section whose bytes go to a file as they are written
@@ -132,6 +171,9 @@ func (w *StreamWriter) Dir() string { return w.dir }
 // Close removes the section files. It is safe to call more than once, and
 // after Finish.
 func (w *StreamWriter) Close() error {
+	if w.top != nil {
+		w.top.Close()
+	}
 	for _, s := range w.secs {
 		if s.sp != nil {
 			s.sp.release()
@@ -174,6 +216,10 @@ func (w *StreamWriter) Add(ids []uint32, rank uint32, logProb, logBackoff float3
 func (w *StreamWriter) add(ids []uint32, rank uint32, logProb, logBackoff float32, children uint64) error {
 	k := len(ids)
 	N := len(w.counts)
+	if w.belowEnded {
+		// (an entry of the top order before then is out of order)
+		return fmt.Errorf("ingot model: %d-gram given after order %d, which ends where the top-order writer takes over", k, N-1)
+	}
 	if w.k == 0 || w.n == w.counts[w.k-1] {
 		if err := w.endOrder(); err != nil {
 			return err
@@ -251,6 +297,12 @@ func (w *StreamWriter) add(ids []uint32, rank uint32, logProb, logBackoff float3
 	}
 	w.prev = append(w.prev[:0], ids...)
 	w.n++
+	if w.top != nil && k == N-1 && w.n == w.counts[k-1] {
+		// The order below the top one is complete: end it now, on the
+		// caller's goroutine, rather than in Finish.
+		w.belowEnded = true
+		return w.endOrder()
+	}
 	return nil
 }
 
@@ -341,11 +393,27 @@ func (w *StreamWriter) Finish(out io.Writer, info tables.Info) error {
 	if w.err != nil {
 		return w.err
 	}
-	if w.k != len(w.counts) {
-		return fmt.Errorf("ingot model: finished at order %d of %d", w.k, len(w.counts))
-	}
-	if err := w.endOrder(); err != nil {
-		return err
+	if t := w.top; t != nil {
+		if t.err != nil {
+			return t.err
+		}
+		if !w.belowEnded {
+			return fmt.Errorf("ingot model: finished at order %d of %d", w.k, len(w.counts)-1)
+		}
+		// The top order's lists need the child starts of the order below.
+		t.prevStarts, w.prevStarts = w.prevStarts, nil
+		if err := t.endOrder(); err != nil {
+			return err
+		}
+		w.secs = append(w.secs, t.secs...)
+		t.secs = nil
+	} else {
+		if w.k != len(w.counts) {
+			return fmt.Errorf("ingot model: finished at order %d of %d", w.k, len(w.counts))
+		}
+		if err := w.endOrder(); err != nil {
+			return err
+		}
 	}
 	infoBytes, err := marshalInfo(info)
 	if err != nil {

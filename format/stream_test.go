@@ -87,6 +87,13 @@ func closedTables(seed uint64, sentences, vocabSize, order int) *tables.Tables {
 
 // streamTables writes t through a StreamWriter.
 func streamTables(t *testing.T, tb *tables.Tables) []byte {
+	return streamTablesTop(t, tb, false)
+}
+
+// streamTablesTop is streamTables that, with top, gives the top order's
+// entries to the TopWriter, before the orders below (the writer must not
+// depend on which comes first).
+func streamTablesTop(t *testing.T, tb *tables.Tables, top bool) []byte {
 	t.Helper()
 	N := tb.Order()
 	counts := make([]uint64, N)
@@ -102,7 +109,22 @@ func streamTables(t *testing.T, tb *tables.Tables) []byte {
 	for k := 1; k < N; k++ {
 		starts[k-1] = childStartValues(tb, k)
 	}
+	var tw *TopWriter
+	if top {
+		if tw, err = sw.Top(); err != nil {
+			t.Fatal(err)
+		}
+	}
+	ks := make([]int, 0, N)
+	if top {
+		ks = append(ks, N)
+	}
 	for k := 1; k <= N; k++ {
+		if !top || k < N {
+			ks = append(ks, k)
+		}
+	}
+	for _, k := range ks {
 		lv := &tb.Levels[k-1]
 		for i := range lv.LogProb {
 			g := tb.Gram(k, i)
@@ -117,7 +139,11 @@ func streamTables(t *testing.T, tb *tables.Tables) []byte {
 				bow = lv.LogBackoff[i]
 				children = uint64(starts[k-1][i+1] - starts[k-1][i])
 			}
-			if err := sw.Add(g, rank, lv.LogProb[i], bow, children); err != nil {
+			add := sw.Add
+			if top && k == N {
+				add = tw.Add
+			}
+			if err := add(g, rank, lv.LogProb[i], bow, children); err != nil {
 				t.Fatal(err)
 			}
 		}
@@ -131,7 +157,8 @@ func streamTables(t *testing.T, tb *tables.Tables) []byte {
 
 // TestStreamWriterSameBytes: the streamed writer gives Write's bytes, on
 // models small and large enough for several Elias-Fano samples and rank
-// counters per order.
+// counters per order, also with the top order given to its TopWriter
+// (first, before the orders below).
 func TestStreamWriterSameBytes(t *testing.T) {
 	forms := map[Encoding]int{}
 	for _, c := range []struct {
@@ -147,6 +174,12 @@ func TestStreamWriterSameBytes(t *testing.T) {
 		if !bytes.Equal(got, want) {
 			t.Errorf("seed %d (order %d, %d entries at the top): streamed model (%d bytes) differs from Write's (%d bytes)",
 				c.seed, c.order, tb.Len(c.order), len(got), len(want))
+		}
+		if c.order >= 2 {
+			if topFirst := streamTablesTop(t, tb, true); !bytes.Equal(topFirst, want) {
+				t.Errorf("seed %d (order %d): streamed model with the top order written apart (%d bytes) differs from Write's (%d bytes)",
+					c.seed, c.order, len(topFirst), len(want))
+			}
 		}
 		m := mustOpen(t, got)
 		if err := m.Verify(); err != nil {
@@ -239,6 +272,67 @@ func TestStreamWriterRefuses(t *testing.T) {
 		if err := try(mut); err == nil {
 			t.Errorf("%s: accepted", name)
 		}
+	}
+}
+
+// TestTopWriterRefuses: with the top order given apart (Top), each writer
+// refuses the other's entries, Finish refuses a top order left short, and
+// Top is refused once entries were added.
+func TestTopWriterRefuses(t *testing.T) {
+	tb := closedTables(9, 30, 10, 2)
+	counts := []uint64{uint64(tb.Len(1)), uint64(tb.Len(2))}
+	starts := childStartValues(tb, 1)
+	// write gives unigram i to below and bigram i to top, for the first
+	// bigrams of them (all: -1), then finishes.
+	write := func(below, top func(sw *StreamWriter, tw *TopWriter) func([]uint32, uint32, float32, float32, uint64) error, bigrams int) error {
+		sw, err := NewStreamWriter(t.TempDir(), tb.Vocab, counts)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer sw.Close()
+		tw, err := sw.Top()
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i := range tb.Levels[0].LogProb {
+			if err := below(sw, tw)(tb.Gram(1, i), 0, tb.Levels[0].LogProb[i], tb.Levels[0].LogBackoff[i], uint64(starts[i+1]-starts[i])); err != nil {
+				return err
+			}
+		}
+		for i := range tb.Levels[1].LogProb {
+			if i == bigrams {
+				break
+			}
+			if err := top(sw, tw)(tb.Gram(2, i), 0, tb.Levels[1].LogProb[i], 0, 0); err != nil {
+				return err
+			}
+		}
+		return sw.Finish(&bytes.Buffer{}, tb.Info)
+	}
+	main := func(sw *StreamWriter, _ *TopWriter) func([]uint32, uint32, float32, float32, uint64) error { return sw.Add }
+	apart := func(_ *StreamWriter, tw *TopWriter) func([]uint32, uint32, float32, float32, uint64) error { return tw.Add }
+	if err := write(main, apart, -1); err != nil {
+		t.Fatalf("entries given as asked refused: %v", err)
+	}
+	if err := write(main, main, -1); err == nil {
+		t.Error("the top order given to the writer of the orders below: accepted")
+	}
+	if err := write(apart, apart, -1); err == nil {
+		t.Error("unigrams given to the top-order writer: accepted")
+	}
+	if err := write(main, apart, tb.Len(2)-1); err == nil {
+		t.Error("top order one entry short: finished")
+	}
+	sw, err := NewStreamWriter(t.TempDir(), tb.Vocab, counts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer sw.Close()
+	if err := sw.Add(tb.Gram(1, 0), 0, tb.Levels[0].LogProb[0], tb.Levels[0].LogBackoff[0], uint64(starts[1]-starts[0])); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := sw.Top(); err == nil {
+		t.Error("Top after an Add: accepted")
 	}
 }
 

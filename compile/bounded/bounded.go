@@ -4,7 +4,8 @@
 // (estimate.EstimateStreamed: each order linked to the one below in memory,
 // by an estimate.Linker as soon as the order is spooled, or sorted on disk)
 // and the model is written section by section as it is produced
-// (format.StreamWriter). The model is byte for byte the one the in-memory
+// (format.StreamWriter; its top order by a format.TopWriter on a goroutine
+// of its own). The model is byte for byte the one the in-memory
 // path writes. It also decides which path a compile takes.
 package bounded
 
@@ -112,6 +113,17 @@ func Estimate(ctx context.Context, sources []counts.Source, opt estimate.Options
 		so.Linker.Close()
 		m.Close()
 		return nil, err
+	}
+	if sp.Order() >= 2 {
+		// The top order is written on a goroutine of its own as it is
+		// estimated, beside the order below.
+		top, err := m.sw.Top()
+		if err != nil {
+			so.Linker.Close()
+			m.Close()
+			return nil, err
+		}
+		so.Top = top
 	}
 	res, err := estimate.EstimateStreamed(ctx, sp, opt, so, m.sw)
 	if err != nil {

@@ -39,6 +39,11 @@ type StreamOptions struct {
 	// (see Linker); EstimateStreamed takes its links where they are its
 	// own, and closes it.
 	Linker *Linker
+	// Top, when not nil, takes the entries of the top order N >= 2 (the
+	// sink then takes orders 1..N-1), on a goroutine of its own, as the
+	// top order is estimated, while the sink still takes the order below
+	// (format.StreamWriter.Top).
+	Top Sink
 }
 
 // StreamResult is what the streamed estimator reports: the same Report as
@@ -226,6 +231,9 @@ func (s *streamer) run() error {
 		if err := s.order(k); err != nil {
 			return err
 		}
+	}
+	if s.so.Top != nil && s.N >= 2 {
+		return nil // the top order went to so.Top as it was estimated
 	}
 	return s.emitTop()
 }
@@ -707,11 +715,30 @@ func (s *streamer) order(k int) error {
 		return err
 	}
 	defer walk.close()
-	probs, err := s.createCol(fmt.Sprintf("prob-%d", k))
-	if err != nil {
-		return err
+	// The top order's entries go to so.Top as they are estimated, each
+	// with its rank (k >= 3): the column link wrote, or the join's.
+	var (
+		top      *asyncSink
+		topRanks *colReader
+		topIDs   = make([]uint32, k)
+	)
+	if k == s.N && s.so.Top != nil {
+		top = newAsyncSink(s.so.Top)
+		defer top.close()
+		if k >= 3 && s.linked {
+			if topRanks, err = openCol(s.rankName(k)); err != nil {
+				return err
+			}
+			defer topRanks.close()
+		}
 	}
-	defer probs.f.Close()
+	var probs *colWriter
+	if top == nil {
+		if probs, err = s.createCol(fmt.Sprintf("prob-%d", k)); err != nil {
+			return err
+		}
+		defer probs.f.Close()
+	}
 	var ranks *colWriter
 	if k >= 3 && !s.linked {
 		if ranks, err = s.createCol(fmt.Sprintf("rank-%d", k)); err != nil {
@@ -726,8 +753,11 @@ func (s *streamer) order(k int) error {
 		lower   []float64
 		p       []float64
 		badProb error
-		// last words of the context's successors (for messages)
+		// last words of the context's successors (for messages and the
+		// top order's entries)
 		lastWords []uint32
+		// the successors' ranks (k >= 3; the model's keys)
+		keys []uint32
 	)
 	flush := func() error {
 		if len(cnt) == 0 {
@@ -751,6 +781,21 @@ func (s *streamer) order(k int) error {
 				g := append(slices.Clone(prefix), lastWords[j])
 				badProb = fmt.Errorf("order %d n-gram %q gets probability %v; no model is written", k, s.words(g), v)
 			}
+			if top != nil {
+				if badProb != nil {
+					continue // no model is written
+				}
+				copy(topIDs, prefix)
+				topIDs[k-1] = lastWords[j]
+				var rank uint32
+				if k >= 3 {
+					rank = keys[j]
+				}
+				if err := top.add(topIDs, rank, v, 0, 0, false, true); err != nil {
+					return err
+				}
+				continue
+			}
 			if err := probs.put64(math.Float64bits(v)); err != nil {
 				return err
 			}
@@ -759,7 +804,7 @@ func (s *streamer) order(k int) error {
 		if err := walk.emit(bow, uint64(len(cnt)), false); err != nil {
 			return err
 		}
-		cnt, lower, lastWords = cnt[:0], lower[:0], lastWords[:0]
+		cnt, lower, lastWords, keys = cnt[:0], lower[:0], lastWords[:0], keys[:0]
 		return nil
 	}
 	err = s.each(k, func(g []uint32, raw uint64) error {
@@ -789,6 +834,13 @@ func (s *streamer) order(k int) error {
 			if l, err = sufs.next(); err != nil {
 				return err
 			}
+			if topRanks != nil {
+				rank, err := topRanks.get32()
+				if err != nil {
+					return err
+				}
+				keys = append(keys, rank)
+			}
 		} else {
 			var rank uint32
 			var err error
@@ -798,6 +850,7 @@ func (s *streamer) order(k int) error {
 			if err := ranks.put32(rank); err != nil {
 				return err
 			}
+			keys = append(keys, rank)
 		}
 		lower = append(lower, l)
 		return nil
@@ -811,8 +864,10 @@ func (s *streamer) order(k int) error {
 	if err := walk.finish(); err != nil {
 		return err
 	}
-	if err := probs.close(); err != nil {
-		return err
+	if probs != nil {
+		if err := probs.close(); err != nil {
+			return err
+		}
 	}
 	if ranks != nil {
 		if err := ranks.close(); err != nil {
@@ -826,6 +881,9 @@ func (s *streamer) order(k int) error {
 	}
 	if walk.badBow != nil {
 		return walk.badBow
+	}
+	if top != nil {
+		return top.close()
 	}
 	return nil
 }

@@ -20,7 +20,8 @@ func streamed(t *testing.T, c *counts.Counts, opt Options, memory int64) ([]byte
 }
 
 // streamedAhead is streamed, with the orders linked as they are spooled
-// (a Linker) when ahead is true.
+// (a Linker) and the top order written apart (format.StreamWriter.Top)
+// when ahead is true.
 func streamedAhead(t *testing.T, c *counts.Counts, opt Options, memory int64, ahead bool) ([]byte, *StreamResult, error) {
 	t.Helper()
 	var bin bytes.Buffer
@@ -43,6 +44,12 @@ func streamedAhead(t *testing.T, c *counts.Counts, opt Options, memory int64, ah
 		t.Fatal(err)
 	}
 	defer sw.Close()
+	if ahead && sp.Order() >= 2 {
+		// and the top order written on a goroutine of its own
+		if so.Top, err = sw.Top(); err != nil {
+			t.Fatal(err)
+		}
+	}
 	res, err := EstimateStreamed(context.Background(), sp, opt, so, sw)
 	if err != nil {
 		return nil, nil, err
@@ -258,6 +265,24 @@ func TestStreamedSinkError(t *testing.T) {
 		}
 		if sink.n < fail {
 			t.Errorf("sink failing at entry %d: given %d entries", fail, sink.n)
+		}
+	}
+	// The same of the sink of the top order (StreamOptions.Top), linked
+	// in memory and sorted on disk.
+	top := len(c.Levels[2].Counts)
+	for _, memory := range []int64{16 << 10, 1 << 20} {
+		for _, fail := range []int{1, top / 2, top} {
+			dir := t.TempDir()
+			sp, err := counts.Spool(3, []counts.Source{{Name: "c.bin", R: bytes.NewReader(bin.Bytes())}}, dir)
+			if err != nil {
+				t.Fatal(err)
+			}
+			topSink := &failingSink{fail: fail}
+			_, err = EstimateStreamed(context.Background(), sp, Options{Method: KneserNey, Order: 3}, StreamOptions{Memory: memory, Dir: dir, Top: topSink}, &failingSink{})
+			want := fmt.Sprintf("sink full at entry %d", fail)
+			if err == nil || err.Error() != want {
+				t.Errorf("budget %d, top-order sink failing at entry %d of %d: got %v", memory, fail, top, err)
+			}
 		}
 	}
 }
