@@ -2,6 +2,7 @@ package estimate
 
 import (
 	"context"
+	"fmt"
 	"log/slog"
 	"slices"
 
@@ -15,14 +16,17 @@ import (
 // still read and merged. It is the pass EstimateStreamed makes first (link),
 // with the same code, moved beside the spool: EstimateStreamed, given the
 // Linker in StreamOptions, takes its links when they are the ones it would
-// make itself (the same top order, every order's links within the budget,
-// checked order by order as link's budget check does), and otherwise drops
-// them and links or sorts as it would without it. The model is the same
-// either way; an error a link found is EstimateStreamed's error only where
-// its own link would have found it.
+// make itself (the same top order and method, every order's links within
+// the budget, checked order by order as link's budget check does), and
+// estimates each order k as soon as orders up to k+1 are linked, while the
+// linker still links the orders above; otherwise it drops them and links
+// or sorts as it would without it. The model is the same either way; an
+// error a link found is EstimateStreamed's error where its own link would
+// have found it, also when an order estimated meanwhile failed too.
 //
 // Memory: one order's links (linkBytesAt), within StreamOptions.Memory, as
-// the spool reads the orders above it.
+// the spool reads the orders above it or the orders below are estimated
+// (whose probabilities linkBytesAt counts too).
 type Linker struct {
 	opt    Options
 	so     StreamOptions
@@ -31,6 +35,8 @@ type Linker struct {
 	parts  chan *counts.Spooled
 	done   chan struct{}
 	closed bool
+	// linked[k] is closed once orders 2..k are linked.
+	linked []chan struct{}
 	// Valid once done is closed:
 	s   *streamer // the links' streamer (nil: nothing was linked)
 	k   int       // orders 2..k are linked
@@ -41,7 +47,11 @@ type Linker struct {
 // so.Memory, writing its columns to so.Dir. Close it (EstimateStreamed
 // does, when given it).
 func StartLinker(ctx context.Context, opt Options, so StreamOptions) *Linker {
-	l := &Linker{opt: opt, so: so, k: 1, parts: make(chan *counts.Spooled, tables.MaxOrder), done: make(chan struct{})}
+	l := &Linker{opt: opt, so: so, k: 1, parts: make(chan *counts.Spooled, tables.MaxOrder), done: make(chan struct{}),
+		linked: make([]chan struct{}, tables.MaxOrder+1)}
+	for k := range l.linked {
+		l.linked[k] = make(chan struct{})
+	}
 	l.ctx, l.cancel = context.WithCancel(ctx)
 	go l.run()
 	return l
@@ -76,17 +86,40 @@ func (l *Linker) run() {
 		}
 		if l.err = ln.order(k); l.err == nil {
 			l.k = k
+			close(l.linked[k])
 		}
+	}
+}
+
+// spooled tells the linker that no order follows the ones given.
+func (l *Linker) spooled() {
+	if !l.closed {
+		l.closed = true
+		close(l.parts)
 	}
 }
 
 // wait waits until the orders given are linked.
 func (l *Linker) wait() {
-	if !l.closed {
-		l.closed = true
-		close(l.parts)
-	}
+	l.spooled()
 	<-l.done
+}
+
+// linkedThrough waits until orders 2..k are linked (ok) or the linker has
+// stopped short of k, with the error a link gave or none (it stopped at
+// an order over the budget, or at a gap).
+func (l *Linker) linkedThrough(k int) (ok bool, err error) {
+	select {
+	case <-l.linked[k]:
+		return true, nil
+	case <-l.done:
+		select {
+		case <-l.linked[k]:
+			return true, nil
+		default:
+			return false, l.err
+		}
+	}
 }
 
 // Close stops the linker (a link under way ends at its next check of the
@@ -106,23 +139,49 @@ func (l *Linker) drop() {
 	}
 }
 
-// adopt gives s the links of l when they are the ones s.link would make:
-// ok reports whether it did (then err is the error a link gave); else the
-// links are dropped, their columns removed, and s links itself.
-func (s *streamer) adopt(l *Linker) (ok bool, err error) {
-	l.wait()
-	defer l.drop()
-	if l.s == nil || l.s.N != s.N || l.opt.Method != s.opt.Method || l.s.start != s.start {
-		return false, nil
+// takes reports whether s, estimating on links in memory, takes the
+// linker's links: they are the ones its own link would make when the
+// linker links the same orders with the same method (every order then
+// fits the budget, as s's does; s.N >= 2). s then waits for each order's
+// links as it needs them (await), while the linker still links the
+// orders above.
+func (s *streamer) takes(l *Linker) bool {
+	if l.opt.Order != s.N || l.opt.Method != s.opt.Method || s.N < 2 {
+		return false
 	}
-	if l.err != nil {
-		return true, l.err
+	l.spooled()
+	s.ahead = l
+	return true
+}
+
+// await waits until the linker has linked orders 2..k (k >= 2) and takes
+// what s needs of them: the unigrams' adjusted counts and the counts of
+// counts link counted (the columns are in the same directory, by name).
+func (s *streamer) await(k int) error {
+	l := s.ahead
+	if l == nil {
+		return nil
 	}
-	if l.k != s.N {
-		return false, nil
+	ok, err := l.linkedThrough(min(k, s.N))
+	if err != nil {
+		return err
+	}
+	if !ok {
+		return fmt.Errorf("the orders linked as they were spooled stop at order %d of %d", l.k, s.N)
 	}
 	s.adj1, s.coc = l.s.adj1, l.s.coc
-	s.files = append(s.files, l.s.files...)
-	l.s.files = nil
-	return true, nil
+	return nil
+}
+
+// linkerFirst returns the error a link of the linker s takes gave, if
+// any, else err: the links come first, as when s links itself, so their
+// error is the one reported.
+func (s *streamer) linkerFirst(err error) error {
+	if l := s.ahead; l != nil {
+		l.wait()
+		if l.err != nil {
+			return l.err
+		}
+	}
+	return err
 }

@@ -144,6 +144,7 @@ type streamer struct {
 	linked bool
 	// linkedAhead: by a Linker as the counts were spooled.
 	linkedAhead bool
+	ahead       *Linker // the linker whose links are taken (takes)
 	totals      *estimator // for exactTotal
 	// coc[k], when not nil, is order k's count of counts (of adjusted
 	// counts where the order uses them), counted by link.
@@ -203,15 +204,10 @@ func (s *streamer) run() error {
 	s.linked = s.linkBytes() <= s.so.Memory
 	switch {
 	case s.linked && (s.N >= 3 || s.opt.Method == KneserNey):
-		if l := s.so.Linker; l != nil {
-			if ok, err := s.adopt(l); ok {
-				s.linkedAhead = true
-				s.log.Info("linking orders in memory", "bytes", s.linkBytes(), "as spooled", true)
-				if err != nil {
-					return err
-				}
-				break
-			}
+		if l := s.so.Linker; l != nil && s.takes(l) {
+			s.linkedAhead = true
+			s.log.Info("linking orders in memory", "bytes", s.linkBytes(), "as spooled", true)
+			break
 		}
 		s.log.Info("linking orders in memory", "bytes", s.linkBytes())
 		if err := s.link(); err != nil {
@@ -223,13 +219,22 @@ func (s *streamer) run() error {
 			return err
 		}
 	}
-	if err := s.unigrams(); err != nil {
+	// With a linker's links, order k is estimated as soon as orders up
+	// to k+1 are linked (its adjusted counts are counted linking k+1),
+	// while the linker links the orders above.
+	if err := s.await(2); err != nil {
 		return err
 	}
+	if err := s.unigrams(); err != nil {
+		return s.linkerFirst(err)
+	}
 	for k := 2; k <= s.N; k++ {
+		if err := s.await(k + 1); err != nil {
+			return err
+		}
 		s.log.Info("estimating", "order", k, "entries", s.sp.Entries[k-1])
 		if err := s.order(k); err != nil {
-			return err
+			return s.linkerFirst(err)
 		}
 	}
 	if s.so.Top != nil && s.N >= 2 {
