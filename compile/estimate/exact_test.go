@@ -98,3 +98,40 @@ func TestTinyDiscount(t *testing.T) {
 		t.Errorf("discount 5e-324: %v, want an option error naming the discount", err)
 	}
 }
+
+// A discount that leaves mass for unseen words in the empty context but
+// none in a context seen often with one successor: D |A(h)| / c(h)
+// underflows to zero only there (IEEE 754 binary64: 1e-321 / 1000 is below
+// half the smallest subnormal, 4.9e-324, so it rounds to zero). Every
+// unigram gets a positive probability, so the refusal can come only from
+// the check of the top order's contexts: it names the discount and the
+// context.
+func TestTinyDiscountRefusedInTheTopOrdersContexts(t *testing.T) {
+	var lines []string
+	for range 1000 {
+		lines = append(lines, "a b")
+	}
+	lines = append(lines, "c d e f g h i j k l m n o p q r s t u v w x y z")
+	c := count(t, 2, lines)
+	if _, _, err := Estimate(c, Options{Method: Absolute, Discount: 1e-320, Order: 2}); err != nil {
+		t.Fatalf("discount 1e-320: %v, want a model", err)
+	}
+	m1, _, err := Estimate(c, Options{Method: Absolute, Discount: 1e-321, Order: 1})
+	if err != nil {
+		t.Fatalf("discount 1e-321, order 1: %v, want a model", err)
+	}
+	if m1.Order() != 1 {
+		t.Fatalf("order %d", m1.Order())
+	}
+	_, _, err = Estimate(c, Options{Method: Absolute, Discount: 1e-321, Order: 2})
+	var oe *OptionError
+	if !errors.As(err, &oe) || oe.Option != "discount" || !strings.Contains(err.Error(), "order 1 context") {
+		t.Errorf("discount 1e-321, order 2: %v, want an option error naming the discount and an order-1 context", err)
+	}
+	// The streamed estimator (compile within a memory budget) refuses it
+	// with the same words.
+	_, _, serr := streamed(t, c, Options{Method: Absolute, Discount: 1e-321, Order: 2}, 1<<20)
+	if err == nil || serr == nil || serr.Error() != err.Error() {
+		t.Errorf("streamed: %v, want %v", serr, err)
+	}
+}
