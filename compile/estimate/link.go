@@ -55,6 +55,19 @@ func (s *streamer) linkBytesAt(k int) int64 {
 	return max(b, 8*e(k-1))
 }
 
+// overlapBytes returns the memory held at most while a Linker links an
+// order and an order below it is estimated (see await): the largest link
+// of one order and the largest probabilities of one order (linkBytesAt
+// counts both, one at a time).
+func (s *streamer) overlapBytes() int64 {
+	var link, probs int64
+	for k := 2; k <= s.N; k++ {
+		link = max(link, s.linkBytesAt(k))
+		probs = max(probs, 8*int64(s.sp.Entries[k-2]))
+	}
+	return link + probs
+}
+
 func (s *streamer) sufName(k int) string { return filepath.Join(s.so.Dir, fmt.Sprintf("suffix-%d", k)) }
 
 // link passes over orders 2..N bottom-up and writes, for every entry of

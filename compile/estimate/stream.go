@@ -221,8 +221,13 @@ func (s *streamer) run() error {
 	}
 	// With a linker's links, order k is estimated as soon as orders up
 	// to k+1 are linked (its adjusted counts are counted linking k+1),
-	// while the linker links the orders above.
-	if err := s.await(2); err != nil {
+	// while the linker links the orders above, where the budget holds
+	// both at once; else once every order is linked.
+	first := 2
+	if s.overlapBytes() > s.so.Memory {
+		first = s.N
+	}
+	if err := s.await(first); err != nil {
 		return err
 	}
 	if err := s.unigrams(); err != nil {

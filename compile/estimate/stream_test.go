@@ -98,7 +98,7 @@ func TestStreamedSameModel(t *testing.T) {
 			for _, run := range []struct {
 				memory int64
 				ahead  bool
-			}{{16 << 10, true}, {64 << 20, false}, {64 << 20, true}} {
+			}{{16 << 10, true}, {64 << 20, false}, {64 << 20, true}, {linkOnlyBudget(t, &cc, opt), true}} {
 				memory := run.memory
 				got, res, err := streamedAhead(t, &cc, opt, memory, run.ahead)
 				if err != nil {
@@ -124,6 +124,40 @@ func TestStreamedSameModel(t *testing.T) {
 	}
 	if !spilled {
 		t.Error("no sort spilled: the budget is meant to force runs on disk")
+	}
+}
+
+// linkOnlyBudget returns the budget that holds c's links (linkBytes) and
+// no more: a Linker's links are then taken once every order is linked, not
+// while the orders below are estimated (overlapBytes).
+func linkOnlyBudget(t *testing.T, c *counts.Counts, opt Options) int64 {
+	t.Helper()
+	var bin bytes.Buffer
+	if err := c.WriteBinary(&bin); err != nil {
+		t.Fatal(err)
+	}
+	sp, err := counts.Spool(opt.Order, []counts.Source{{Name: "counts.bin", R: &bin}}, t.TempDir())
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := &streamer{sp: sp, opt: opt, N: opt.Order}
+	if opt.Order >= 2 && s.overlapBytes() <= s.linkBytes() {
+		t.Fatalf("order %d: links and an order's probabilities at once take %d bytes, the links alone %d", opt.Order, s.overlapBytes(), s.linkBytes())
+	}
+	return max(s.linkBytes(), 1)
+}
+
+// The budget of links and estimates at once: the largest of one order's
+// links and one order's probabilities, together. Entries 10, 20, 30:
+// linking order 3 (Kneser-Ney) holds 4*21 + 4*30 + 4*20 + 4*11 + 12*20 =
+// 568 bytes, the most; order 3's estimate 8*20 = 160.
+func TestOverlapBytes(t *testing.T) {
+	s := &streamer{sp: &counts.Spooled{Entries: []uint64{10, 20, 30}}, opt: Options{Method: KneserNey}, N: 3}
+	if got, want := s.linkBytes(), int64(568); got != want {
+		t.Errorf("linkBytes %d, want %d", got, want)
+	}
+	if got, want := s.overlapBytes(), int64(568+160); got != want {
+		t.Errorf("overlapBytes %d, want %d", got, want)
 	}
 }
 
