@@ -202,9 +202,16 @@ func (s *streamer) sorted(st *extsort.Sorter, what string) (*extsort.Iter, error
 
 func (s *streamer) run() error {
 	s.linked = s.linkBytes() <= s.so.Memory
+	useLinks := s.linked && (s.N >= 3 || s.opt.Method == KneserNey)
+	if l := s.so.Linker; l != nil && !(useLinks && s.takes(l)) {
+		// s links or sorts itself, to columns of the names the linker
+		// uses: it must be done with them, and they gone, first.
+		l.wait()
+		l.drop()
+	}
 	switch {
-	case s.linked && (s.N >= 3 || s.opt.Method == KneserNey):
-		if l := s.so.Linker; l != nil && s.takes(l) {
+	case useLinks:
+		if s.ahead != nil {
 			s.linkedAhead = true
 			s.log.Info("linking orders in memory", "bytes", s.linkBytes(), "as spooled", true)
 			break
