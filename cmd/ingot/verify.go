@@ -11,6 +11,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"ingot/compile/counts"
 	"ingot/compile/input"
 	"ingot/format"
 	"ingot/format/keys"
@@ -52,6 +53,13 @@ func newVerifyCmd() *cobra.Command {
                   S(h) = 1 within the tolerance (default 1e-5; 1e-3 for
                   a model with quantized columns, whatever it records)
 
+Given a binary count file (told by its first bytes), verify reads every
+byte as compile does and runs two checks: "header" (magic, layout version,
+header checksum, the word list) and "blocks" (every block's CRC-32C and
+zstd frame, entries sorted, word ids, no zero count, and the end record's
+totals against the blocks). Only --json applies; its keys are those of
+'ingot inspect --json' on a count file plus ok, failed and checks.
+
 A check that needs a sound file is "not run" when an earlier one fails; a
 damaged file never crashes verify, and each problem names the section and
 byte offset (and the n-gram) where it lies.
@@ -72,6 +80,7 @@ Exit codes: 0 every check passed, 1 a check failed (named in the message),
 2 bad usage, or a file that cannot be read as a model at all.`,
 		Example: `  ingot verify field.ingot
   ingot verify --json field.ingot
+  ingot verify counts.bin
   ingot verify --public-key release.pub field.ingot
   ingot verify new.ingot --baseline shipped.ingot --heldout dev.txt --max-perplexity-increase 0.5`,
 		Args: cobra.ExactArgs(1),
@@ -103,6 +112,10 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 	}
 	if fl.Changed("max-perplexity-increase") && !gated {
 		return fmt.Errorf("verify: --max-perplexity-increase needs --baseline and --heldout")
+	}
+
+	if counts.IsBinaryFile(model) {
+		return runVerifyCounts(cmd, model, f)
 	}
 
 	// Open the gate's inputs first, so that bad usage fails before the work.
@@ -180,22 +193,55 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 	return nil
 }
 
-// printVerifyText prints the report as aligned text.
-func printVerifyText(w io.Writer, model string, rep *verify.Report, res *gate.Result, f *verifyFlags) error {
-	if failed := rep.Failed(); len(failed) > 0 {
-		fmt.Fprintf(w, "verify %s: FAILED (%s)\n\n", model, strings.Join(failed, ", "))
+// runVerifyCounts checks a binary count file: every byte, as compile reads
+// it. Only --json applies.
+func runVerifyCounts(cmd *cobra.Command, path string, f *verifyFlags) error {
+	for _, name := range []string{"tolerance", "public-key", "baseline", "heldout", "max-perplexity-increase"} {
+		if cmd.Flags().Changed(name) {
+			return fmt.Errorf("verify: %s is a count file: --%s applies to models only", path, name)
+		}
+	}
+	rep, err := verify.CountFile(path)
+	if err != nil {
+		return fmt.Errorf("verify: %w", err)
+	}
+	w := bufio.NewWriter(cmd.OutOrStdout())
+	if f.asJSON {
+		err = writeJSON(w, verify.NewJSONCountReport(path, rep))
 	} else {
-		fmt.Fprintf(w, "verify %s: ok\n\n", model)
+		err = printVerifyChecks(w, "count file "+path, rep.Failed(), rep.Checks)
+	}
+	if err == nil {
+		err = w.Flush()
+	}
+	if err != nil {
+		return err
+	}
+	for _, c := range rep.Checks {
+		if c.Status == verify.Fail {
+			return checkFailed{fmt.Errorf("verify %s: check %s failed: %s", path, c.Name, c.Problems[0])}
+		}
+	}
+	return nil
+}
+
+// printVerifyChecks prints the verdict on what, the table of checks and
+// the problems they list.
+func printVerifyChecks(w io.Writer, what string, failed []string, checks []verify.Check) error {
+	if len(failed) > 0 {
+		fmt.Fprintf(w, "verify %s: FAILED (%s)\n\n", what, strings.Join(failed, ", "))
+	} else {
+		fmt.Fprintf(w, "verify %s: ok\n\n", what)
 	}
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "check\tstatus\tdetail")
-	for _, c := range rep.Checks {
+	for _, c := range checks {
 		fmt.Fprintf(tw, "%s\t%s\t%s\n", c.Name, c.Status, c.Detail)
 	}
 	tw.Flush()
 
 	var problems []verify.Check
-	for _, c := range rep.Checks {
+	for _, c := range checks {
 		if len(c.Problems) > 0 {
 			problems = append(problems, c)
 		}
@@ -217,6 +263,12 @@ func printVerifyText(w io.Writer, model string, rep *verify.Report, res *gate.Re
 		}
 		tw.Flush()
 	}
+	return nil
+}
+
+// printVerifyText prints the report as aligned text.
+func printVerifyText(w io.Writer, model string, rep *verify.Report, res *gate.Result, f *verifyFlags) error {
+	printVerifyChecks(w, model, rep.Failed(), rep.Checks)
 
 	if n := rep.Normalisation; n != nil {
 		fmt.Fprintf(w, "\nnormalisation (tolerance %.3g)\n", n.Tolerance)

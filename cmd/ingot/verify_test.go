@@ -149,3 +149,39 @@ func TestVerifyReleaseGate(t *testing.T) {
 		t.Errorf("generous limit: exit %d, %s", code, e)
 	}
 }
+
+// verify on a binary count file reads every block as compile does: an
+// intact file passes (exit 0, the count report's JSON keys), a changed
+// byte fails the blocks check naming its offset (exit 1), and a model's
+// options are refused (exit 2).
+func TestVerifyCountFile(t *testing.T) {
+	dir := t.TempDir()
+	text := writeFile(t, dir, "train.txt", demoTraining)
+	cnt := filepath.Join(dir, "c.bin")
+	if code, _, e := ingot(t, "count", "--order", "3", "-o", cnt, text); code != 0 {
+		t.Fatal(e)
+	}
+	code, out, e := ingot(t, "verify", "--json", cnt)
+	var v struct {
+		OK     bool     `json:"ok"`
+		Failed []string `json:"failed"`
+		Checks []struct {
+			Name, Status string
+		} `json:"checks"`
+		Order  int      `json:"order"`
+		NGrams []uint64 `json:"ngrams"`
+	}
+	if err := json.Unmarshal([]byte(out), &v); err != nil || code != 0 || !v.OK || v.Order != 3 || len(v.NGrams) != 3 || len(v.Checks) != 2 {
+		t.Fatalf("intact: exit %d, %+v, %v\n%s%s", code, v, err, out, e)
+	}
+	b, _ := os.ReadFile(cnt)
+	b[len(b)/2] ^= 1
+	bad := writeFile(t, dir, "bad.bin", string(b))
+	code, out, e = ingot(t, "verify", bad)
+	if code != 1 || !strings.Contains(out, "FAILED (blocks)") || !strings.Contains(e, "at offset") {
+		t.Errorf("damaged: exit %d\n%s%s", code, out, e)
+	}
+	if code, _, e := ingot(t, "verify", "--tolerance", "1e-3", cnt); code != 2 || !strings.Contains(e, "count file") {
+		t.Errorf("--tolerance on a count file: exit %d, %s", code, e)
+	}
+}
