@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"log/slog"
+	"runtime/debug"
 	"slices"
 
 	"ingot/compile/counts"
@@ -37,6 +38,7 @@ type Linker struct {
 	closed bool
 	// linked[k] is closed once orders 2..k are linked.
 	linked []chan struct{}
+	taken  bool // by EstimateStreamed (takes)
 	// Valid once done is closed:
 	s   *streamer // the links' streamer (nil: nothing was linked)
 	k   int       // orders 2..k are linked
@@ -82,6 +84,7 @@ func (l *Linker) run() {
 		l.s.sp = part
 		if l.s.linkBytesAt(k) > l.so.Memory {
 			off = true // EstimateStreamed will sort on disk
+			ln = nil   // nor will it need the links made so far
 			continue
 		}
 		if l.err = ln.order(k); l.err == nil {
@@ -131,11 +134,17 @@ func (l *Linker) Close() {
 	l.drop()
 }
 
-// drop removes the linker's columns and forgets its links.
+// drop removes the linker's columns and forgets its links; when it had
+// linked an order, their memory goes back to the system before the
+// estimate, which does without them, takes its own (an order's links are
+// up to StreamOptions.Memory, the sort buffers that follow as much).
 func (l *Linker) drop() {
 	if l.s != nil {
 		l.s.cleanup()
 		l.s = nil
+		if l.k > 1 && !l.taken {
+			debug.FreeOSMemory()
+		}
 	}
 }
 
@@ -150,6 +159,7 @@ func (s *streamer) takes(l *Linker) bool {
 		return false
 	}
 	l.spooled()
+	l.taken = true
 	s.ahead = l
 	return true
 }
