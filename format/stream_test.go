@@ -309,8 +309,12 @@ func TestTopWriterRefuses(t *testing.T) {
 		}
 		return sw.Finish(&bytes.Buffer{}, tb.Info)
 	}
-	main := func(sw *StreamWriter, _ *TopWriter) func([]uint32, uint32, float32, float32, uint64) error { return sw.Add }
-	apart := func(_ *StreamWriter, tw *TopWriter) func([]uint32, uint32, float32, float32, uint64) error { return tw.Add }
+	main := func(sw *StreamWriter, _ *TopWriter) func([]uint32, uint32, float32, float32, uint64) error {
+		return sw.Add
+	}
+	apart := func(_ *StreamWriter, tw *TopWriter) func([]uint32, uint32, float32, float32, uint64) error {
+		return tw.Add
+	}
 	if err := write(main, apart, -1); err != nil {
 		t.Fatalf("entries given as asked refused: %v", err)
 	}

@@ -60,7 +60,7 @@ type StreamResult struct {
 	// were spooled.
 	LinkedAhead bool
 	Runs        int   // sort runs spilled to disk
-	Bytes  int64 // bytes of those runs
+	Bytes       int64 // bytes of those runs
 }
 
 // EstimateStreamed computes exactly the model Estimate computes (the same
@@ -144,7 +144,7 @@ type streamer struct {
 	linked bool
 	// linkedAhead: by a Linker as the counts were spooled.
 	linkedAhead bool
-	ahead       *Linker // the linker whose links are taken (takes)
+	ahead       *Linker    // the linker whose links are taken (takes)
 	totals      *estimator // for exactTotal
 	// coc[k], when not nil, is order k's count of counts (of adjusted
 	// counts where the order uses them), counted by link.
