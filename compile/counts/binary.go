@@ -112,12 +112,17 @@ func (w *Writer) abort() {
 // NewWriter writes the header of a binary count file for h and returns a
 // Writer for its entries. The word list must be sorted bytewise without
 // duplicates; words must be valid UTF-8 without white space.
+//
+// Blocks are compressed at zstd's fastest level, as spill runs are: on
+// 1.0 M n-grams of order 5 the file is 11% larger than at the default
+// level (5.22 against 4.69 MB) and counting takes 17% less CPU (on one
+// core, compressing was a fifth of it); decoding is no slower (44 against
+// 46 ms).
 func NewWriter(w io.Writer, h Header) (*Writer, error) {
-	return newWriterLevel(w, h, zstd.SpeedDefault)
+	return newWriterLevel(w, h, zstd.SpeedFastest)
 }
 
-// newWriterLevel is NewWriter with a compression level (spill runs favour
-// speed).
+// newWriterLevel is NewWriter with a compression level.
 func newWriterLevel(w io.Writer, h Header, level zstd.EncoderLevel) (*Writer, error) {
 	return newWriterOptions(w, h, level, 0)
 }
@@ -126,7 +131,7 @@ func newWriterLevel(w io.Writer, h Header, level zstd.EncoderLevel) (*Writer, er
 // goroutines (blockPipe): the same bytes, written sooner on several cores.
 // Its Close, or abort, must be called.
 func newWriterParallel(w io.Writer, h Header, compressors int) (*Writer, error) {
-	return newWriterOptions(w, h, zstd.SpeedDefault, compressors)
+	return newWriterOptions(w, h, zstd.SpeedFastest, compressors)
 }
 
 func newWriterOptions(w io.Writer, h Header, level zstd.EncoderLevel, compressors int) (*Writer, error) {
