@@ -33,8 +33,13 @@ sections() { "$work/ingot" inspect --json "$1" | grep -o '{"index":[^}]*}' | gre
 same_model=no
 [ "$(sections "$work/full.ingot")" = "$(sections "$work/small.ingot")" ] && same_model=yes
 
-# Compile against reading its counts: medians of 3 runs, side by side.
-cbench=$(go test -run '^$' -bench '^(BenchmarkDecodeCounts|BenchmarkCompileOnDisk|BenchmarkCompileInMemory)$' -benchtime 2x -count 3 ./compile/bounded)
+# Compile against reading its counts: 9 rounds, each running the three
+# benchmarks one after the other (so that a change in the machine's load
+# touches all three alike), medians.
+go test -c -o "$work/bounded.test" ./compile/bounded
+cbench=$(for _ in 1 2 3 4 5 6 7 8 9; do
+	(cd compile/bounded && "$work/bounded.test" -test.run '^$' -test.bench '^(BenchmarkDecodeCounts|BenchmarkCompileOnDisk|BenchmarkCompileInMemory)$' -test.benchtime 3x)
+done)
 # values OUTPUT BENCH UNIT: the figures of one unit that one benchmark
 # reported in a go test output, sorted; median FORMAT OUTPUT BENCH UNIT the
 # middle one, lowest and highest the ends.
@@ -74,7 +79,12 @@ cli_compile=$(middle "$work/cli-compile")
 # collection, spinning), so a one-worker count's CPU time moved with the
 # neighbours' load (0.89 M tokens per CPU-second on an idle machine, 1.03 to
 # 1.39 M at load averages 2 to 10, measured on 2026-12-02).
-bench=$(go test -run '^$' -bench '^(BenchmarkCount|BenchmarkCounter)$' -benchtime 3x -count 7 -cpu 1 ./compile/counts
+# 7 rounds, each running both counters one after the other, so that a
+# change in the machine's load touches both alike.
+go test -c -o "$work/counts.test" ./compile/counts
+bench=$(for _ in 1 2 3 4 5 6 7; do
+	(cd compile/counts && "$work/counts.test" -test.run '^$' -test.bench '^(BenchmarkCount|BenchmarkCounter)$' -test.benchtime 3x -test.cpu 1)
+done
 	go test -run '^$' -bench '^BenchmarkCountAllCores$' -benchtime 3x -count 3 ./compile/counts)
 new_cpu=$(median %.0f "$bench" BenchmarkCount tokens/cpu-s)
 # The spread of the runs: the lowest and the highest.
@@ -105,8 +115,9 @@ echo "each command line): $same_model."
 echo
 echo "Compile time against the time to read and decode its input counts"
 echo "(checksums, zstd, varints), Kneser-Ney order 5 on \`corpus.Generate(seed 1,"
-echo "20000 sentences, 20000 words)\`, medians of 3 runs side by side in one process"
-echo "(\`go test -run '^\$' -bench '^(BenchmarkDecodeCounts|BenchmarkCompileOnDisk|BenchmarkCompileInMemory)\$' -benchtime 2x -count 3 ./compile/bounded\`):"
+echo "20000 sentences, 20000 words)\`, medians of 9 rounds, each running the three"
+echo "benchmarks one after the other in one process (\`go test -c ./compile/bounded\`, then"
+echo "9 times \`bounded.test -test.run '^\$' -test.bench '^(BenchmarkDecodeCounts|BenchmarkCompileOnDisk|BenchmarkCompileInMemory)\$' -test.benchtime 3x\`):"
 echo
 echo "| step | wall time per run | ratio to decoding | CPU time per run | ratio to decoding |"
 echo "| --- | ---: | ---: | ---: | ---: |"
@@ -149,8 +160,9 @@ echo "the page faults of first touching its memory, which the benchmarks above, 
 echo "in one warm process, do not."
 echo
 echo "Counting throughput at order 5 on \`corpus.Generate(seed 1, 20000"
-echo "sentences, 20000 words)\`, medians of 7 runs measured side by side in one"
-echo "process (\`go test -run '^\$' -bench '^(BenchmarkCount|BenchmarkCounter)\$' -benchtime 3x -count 7 -cpu 1 ./compile/counts\`"
+echo "sentences, 20000 words)\`, medians of 7 rounds, each running both counters"
+echo "one after the other in one process (\`go test -c ./compile/counts\`, then 7 times"
+echo "\`counts.test -test.run '^\$' -test.bench '^(BenchmarkCount|BenchmarkCounter)\$' -test.benchtime 3x -test.cpu 1\`"
 echo "for one core, \`go test -run '^\$' -bench '^BenchmarkCountAllCores\$' -benchtime 3x -count 3 ./compile/counts\` for all)."
 echo "Tokens per CPU-second with GOMAXPROCS 1 is the per-core figure: each"
 echo "counter runs on one core, garbage collection included (with two, the Go"
