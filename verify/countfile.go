@@ -7,6 +7,7 @@ import (
 	"os"
 
 	"ingot/compile/counts"
+	"ingot/inspect"
 )
 
 // The names of the checks CountFile runs, in order.
@@ -15,33 +16,20 @@ const (
 	CheckCountBlocks = "blocks"
 )
 
-// CountReport is what CountFile found in a binary count file.
+// CountReport is what CountFile found in a binary count file: the checks,
+// and what the file holds as inspect describes it (the header's layout
+// version, orders and words; the end record's blocks, entries and sums of
+// counts per order once every block matched it; zero where not read).
 type CountReport struct {
 	Checks []Check
-	// LayoutVersion, Order and VocabSize come from the header (zero when
-	// it does not read); Blocks, Entries and Sums (per order, unigrams
-	// first) from the end record, once every block matched it.
-	LayoutVersion int
-	Order         int
-	VocabSize     int
-	Blocks        uint64
-	Entries       []uint64
-	Sums          []uint64
+	File   inspect.CountFile
 }
 
 // OK reports whether no check failed.
 func (r *CountReport) OK() bool { return len(r.Failed()) == 0 }
 
 // Failed returns the names of the checks that failed, in order.
-func (r *CountReport) Failed() []string {
-	var out []string
-	for _, c := range r.Checks {
-		if c.Status == Fail {
-			out = append(out, c.Name)
-		}
-	}
-	return out
-}
+func (r *CountReport) Failed() []string { return failedChecks(r.Checks) }
 
 // CountFile checks every byte of a binary count file (spec/COUNTS.md) by
 // reading it as compile does: the header (magic, layout version, header
@@ -58,7 +46,10 @@ func CountFile(path string) (*CountReport, error) {
 		return nil, &UnreadableError{Path: path, Err: unwrapPath(err)}
 	}
 	defer f.Close()
-	rep := &CountReport{}
+	rep := &CountReport{File: inspect.CountFile{Counts: path}}
+	if fi, err := f.Stat(); err == nil {
+		rep.File.FileBytes = fi.Size()
+	}
 	header := Check{Name: CheckCountHeader, Status: Pass}
 	blocks := Check{Name: CheckCountBlocks, Status: NotRun, Detail: "the header does not read"}
 	r, err := counts.NewReader(f)
@@ -70,7 +61,7 @@ func CountFile(path string) (*CountReport, error) {
 		return rep, nil
 	}
 	h := r.Header()
-	rep.LayoutVersion, rep.Order, rep.VocabSize = counts.BinaryVersion, h.Order, len(h.Vocab)
+	rep.File.LayoutVersion, rep.File.Order, rep.File.VocabularySize = counts.BinaryVersion, h.Order, len(h.Vocab)
 	header.Detail = fmt.Sprintf("magic, layout version %d, header checksum; orders 1..%d, %d words, valid UTF-8, sorted", counts.BinaryVersion, h.Order, len(h.Vocab))
 	blocks = Check{Name: CheckCountBlocks, Status: Pass}
 	for {
@@ -86,7 +77,7 @@ func CountFile(path string) (*CountReport, error) {
 		return rep, nil
 	}
 	t := r.Totals()
-	rep.Blocks, rep.Entries, rep.Sums = t.Blocks, t.Entries, t.Sums
+	rep.File.Blocks, rep.File.NGramsPerOrder, rep.File.CountSumPerOrder = t.Blocks, t.Entries, t.Sums
 	var n uint64
 	for _, e := range t.Entries {
 		n += e
@@ -110,31 +101,23 @@ func countDefect(c *Check, section string, err error) bool {
 }
 
 // JSONCountReport is CountReport as `ingot verify --json` prints it for a
-// count file: the keys of a model's report where they mean the same
-// (ok, failed, checks) and of `ingot inspect --json` on a count file for
-// what the file holds.
+// count file: the keys of `ingot inspect --json` on a count file, then
+// those of a model's report that mean the same (ok, failed, checks).
 type JSONCountReport struct {
-	Counts           string      `json:"counts"`
-	OK               bool        `json:"ok"`
-	Failed           []string    `json:"failed"`
-	Checks           []JSONCheck `json:"checks"`
-	LayoutVersion    int         `json:"layout_version"`
-	Order            int         `json:"order"`
-	VocabularySize   int         `json:"vocabulary_size"`
-	Blocks           uint64      `json:"blocks"`
-	NGramsPerOrder   []uint64    `json:"ngrams"`
-	CountSumPerOrder []uint64    `json:"count_sum_per_order"`
+	inspect.CountFile
+	OK     bool        `json:"ok"`
+	Failed []string    `json:"failed"`
+	Checks []JSONCheck `json:"checks"`
 }
 
-// NewJSONCountReport converts rep for path.
-func NewJSONCountReport(path string, rep *CountReport) JSONCountReport {
-	v := JSONCountReport{
-		Counts: path, OK: rep.OK(), Failed: rep.Failed(), Checks: []JSONCheck{},
-		LayoutVersion: rep.LayoutVersion, Order: rep.Order, VocabularySize: rep.VocabSize, Blocks: rep.Blocks,
-		NGramsPerOrder: append([]uint64{}, rep.Entries...), CountSumPerOrder: append([]uint64{}, rep.Sums...),
-	}
+// NewJSONCountReport converts rep.
+func NewJSONCountReport(rep *CountReport) JSONCountReport {
+	v := JSONCountReport{CountFile: rep.File, OK: rep.OK(), Failed: rep.Failed(), Checks: []JSONCheck{}}
 	if v.Failed == nil {
 		v.Failed = []string{}
+	}
+	if v.NGramsPerOrder == nil {
+		v.NGramsPerOrder, v.CountSumPerOrder = []uint64{}, []uint64{}
 	}
 	for _, c := range rep.Checks {
 		v.Checks = append(v.Checks, JSONCheck{Name: c.Name, Status: string(c.Status), Detail: c.Detail, Problems: c.Problems, ProblemCount: c.Count})

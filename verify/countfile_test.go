@@ -48,8 +48,9 @@ func TestCountFileIntact(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if rep.Order != 3 || rep.VocabSize != info.Words || rep.Blocks != info.Totals.Blocks ||
-		len(rep.Entries) != 3 || rep.Entries[2] != info.Totals.Entries[2] || rep.Sums[0] != info.Totals.Sums[0] {
+	f := rep.File
+	if f.Order != 3 || f.VocabularySize != info.Words || f.Blocks != info.Totals.Blocks || f.FileBytes != int64(len(b)) ||
+		len(f.NGramsPerOrder) != 3 || f.NGramsPerOrder[2] != info.Totals.Entries[2] || f.CountSumPerOrder[0] != info.Totals.Sums[0] {
 		t.Errorf("report %+v, end record %+v", rep, info)
 	}
 }

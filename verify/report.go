@@ -95,9 +95,12 @@ type Report struct {
 func (r *Report) OK() bool { return len(r.Failed()) == 0 }
 
 // Failed returns the names of the checks that failed, in order.
-func (r *Report) Failed() []string {
+func (r *Report) Failed() []string { return failedChecks(r.Checks) }
+
+// failedChecks returns the names of the checks that failed, in order.
+func failedChecks(checks []Check) []string {
 	var out []string
-	for _, c := range r.Checks {
+	for _, c := range checks {
 		if c.Status == Fail {
 			out = append(out, c.Name)
 		}

@@ -207,7 +207,7 @@ func runVerifyCounts(cmd *cobra.Command, path string, f *verifyFlags) error {
 	}
 	w := bufio.NewWriter(cmd.OutOrStdout())
 	if f.asJSON {
-		err = writeJSON(w, verify.NewJSONCountReport(path, rep))
+		err = writeJSON(w, verify.NewJSONCountReport(rep))
 	} else {
 		err = printVerifyChecks(w, "count file "+path, rep.Failed(), rep.Checks)
 	}
