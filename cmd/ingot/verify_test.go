@@ -185,3 +185,22 @@ func TestVerifyCountFile(t *testing.T) {
 		t.Errorf("--tolerance on a count file: exit %d, %s", code, e)
 	}
 }
+
+// verify on a text count file says what the file is and where it is
+// checked, instead of calling it a damaged model (exit 2).
+func TestVerifyTextCountFile(t *testing.T) {
+	dir := t.TempDir()
+	text := writeFile(t, dir, "train.txt", demoTraining)
+	cnt := filepath.Join(dir, "c.tsv")
+	if code, _, e := ingot(t, "count", "--order", "2", "--text", "-o", cnt, text); code != 0 {
+		t.Fatal(e)
+	}
+	code, _, e := ingot(t, "verify", cnt)
+	if code != 2 || !strings.Contains(e, "is a text count file") {
+		t.Errorf("exit %d, %s", code, e)
+	}
+	other := writeFile(t, dir, "notes.txt", "not a model\n")
+	if code, _, e := ingot(t, "verify", other); code != 2 || strings.Contains(e, "count file") || !strings.Contains(e, "not a readable ingot model") {
+		t.Errorf("a text file: exit %d, %s", code, e)
+	}
+}

@@ -52,6 +52,16 @@ var castagnoli = crc32.MakeTable(crc32.Castagnoli)
 // count file.
 func IsBinary(head []byte) bool { return bytes.HasPrefix(head, []byte(Magic)) }
 
+// LooksLikeText reports whether head, the first bytes of a file, starts
+// as a text count file does: a count of decimal digits, a tab, then a word.
+func LooksLikeText(head []byte) bool {
+	i := 0
+	for i < len(head) && head[i] >= '0' && head[i] <= '9' {
+		i++
+	}
+	return i > 0 && i+1 < len(head) && head[i] == '\t' && head[i+1] != ' ' && head[i+1] != '\t' && head[i+1] != '\n'
+}
+
 // Header describes a binary count file: the highest order it holds and its
 // word list, sorted bytewise (entries refer to words by their position).
 type Header struct {

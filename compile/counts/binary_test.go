@@ -332,3 +332,23 @@ func TestSpoolCorruptionNamesFile(t *testing.T) {
 		t.Errorf("trailing byte: %v", err)
 	}
 }
+
+// LooksLikeText knows the first line of the text form (spec/COUNTS.md:
+// the count, a tab, the words) and nothing else.
+func TestLooksLikeText(t *testing.T) {
+	for head, want := range map[string]bool{
+		"12\tturn the beacon\n": true,
+		"3\t</s>":               true,
+		"12 turn":               false,
+		"\tturn":                false,
+		"12\t":                  false,
+		"12\t\tturn":            false,
+		"x\tturn":               false,
+		Magic:                   false,
+		"":                      false,
+	} {
+		if got := LooksLikeText([]byte(head)); got != want {
+			t.Errorf("LooksLikeText(%q) = %v, want %v", head, got, want)
+		}
+	}
+}
