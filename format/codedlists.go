@@ -344,18 +344,12 @@ func (kl *keyLists) keyAtWidth(s, kind, body, cnt uint64) uint {
 
 // decodeCodedLists is decodeLists for coded lists.
 func (kl *keyLists) decodeCodedLists(keys []uint64, lists func(r uint64) (a, b uint64)) error {
-	starts := make([]uint64, kl.starts.n)
-	if err := kl.starts.decodeAll(starts); err != nil {
-		return fmt.Errorf("list starts: %v", err)
-	}
-	for r := uint64(0); r+1 < uint64(len(starts)); r++ {
-		a, b := lists(r)
-		s, t := starts[r], starts[r+1]
+	return kl.decodeEach(lists, func(r, s, t, a, b uint64) error {
 		if err := kl.decodeCoded(s, t, keys[a:b]); err != nil {
 			return fmt.Errorf("list %d %v", r, err)
 		}
-	}
-	return kl.checkTail(starts[len(starts)-1])
+		return nil
+	})
 }
 
 // checkTail checks that the stream is as long as its total bits need and

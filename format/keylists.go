@@ -303,19 +303,13 @@ func (kl *keyLists) touchAt(bit uint64) uint64 {
 // context rank r of the order below, the entries [a, b) of its children.
 // It returns a description of the first defect.
 func (kl *keyLists) decodeLists(keys []uint64, lists func(r uint64) (a, b uint64)) error {
-	starts := make([]uint64, kl.starts.n)
-	if err := kl.starts.decodeAll(starts); err != nil {
-		return fmt.Errorf("list starts: %v", err)
-	}
-	for r := uint64(0); r+1 < uint64(len(starts)); r++ {
-		a, b := lists(r)
-		s, t := starts[r], starts[r+1]
+	return kl.decodeEach(lists, func(r, s, t, a, b uint64) error {
 		cnt := b - a
 		if cnt == 0 {
 			if t != s {
 				return fmt.Errorf("list %d has no keys but %d bits", r, t-s)
 			}
-			continue
+			return nil
 		}
 		w := (t - s) / cnt
 		if w*cnt != t-s || w > keyListsMaxWidth {
@@ -329,6 +323,24 @@ func (kl *keyLists) decodeLists(keys []uint64, lists func(r uint64) (a, b uint64
 		}
 		if keyWidth(keys[b-1]) != uint(w) {
 			return fmt.Errorf("list %d is %d bits wide; its largest key %d needs %d", r, w, keys[b-1], keyWidth(keys[b-1]))
+		}
+		return nil
+	})
+}
+
+// decodeEach decodes the list starts, calls decode for each context rank
+// r of the order below with its list's bits [s, t) and its children's
+// entries [a, b) (from lists), and ends with the stream's tail check. The
+// one walk of both list forms' checks (decodeLists, decodeCodedLists).
+func (kl *keyLists) decodeEach(lists func(r uint64) (a, b uint64), decode func(r, s, t, a, b uint64) error) error {
+	starts := make([]uint64, kl.starts.n)
+	if err := kl.starts.decodeAll(starts); err != nil {
+		return fmt.Errorf("list starts: %v", err)
+	}
+	for r := uint64(0); r+1 < uint64(len(starts)); r++ {
+		a, b := lists(r)
+		if err := decode(r, starts[r], starts[r+1], a, b); err != nil {
+			return err
 		}
 	}
 	return kl.checkTail(starts[len(starts)-1])
