@@ -100,35 +100,33 @@ func Estimate(ctx context.Context, sources []counts.Source, opt estimate.Options
 	// The orders are linked as they are spooled, on another goroutine.
 	so := estimate.StreamOptions{Memory: o.Memory / 2, Dir: dir, Log: log}
 	so.Linker = estimate.StartLinker(ctx, opt, so)
-	sp, err := counts.SpoolOrders(opt.Order, sources, dir, so.Linker.Spooled)
-	if err != nil {
+	// fail stops the linker (EstimateStreamed does once it has it; Close
+	// may come twice) and removes the model's files.
+	fail := func(err error) (*Model, error) {
 		so.Linker.Close()
 		m.Close()
 		return nil, err
+	}
+	sp, err := counts.SpoolOrders(opt.Order, sources, dir, so.Linker.Spooled)
+	if err != nil {
+		return fail(err)
 	}
 	log.Info("counts spooled", "orders", sp.Order(), "entries", sp.Entries)
 	m.Order = sp.Order()
 	opt.Order = sp.Order()
 	if m.sw, err = format.NewStreamWriter(dir, sp.Vocab, sp.Entries); err != nil {
-		so.Linker.Close()
-		m.Close()
-		return nil, err
+		return fail(err)
 	}
 	if sp.Order() >= 2 {
 		// The top order is written on a goroutine of its own as it is
 		// estimated, beside the order below.
-		top, err := m.sw.Top()
-		if err != nil {
-			so.Linker.Close()
-			m.Close()
-			return nil, err
+		if so.Top, err = m.sw.Top(); err != nil {
+			return fail(err)
 		}
-		so.Top = top
 	}
 	res, err := estimate.EstimateStreamed(ctx, sp, opt, so, m.sw)
 	if err != nil {
-		m.Close()
-		return nil, err
+		return fail(err)
 	}
 	m.Result = res
 	return m, nil
