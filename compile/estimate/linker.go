@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"log/slog"
 	"runtime/debug"
-	"slices"
 
 	"ingot/compile/counts"
 	"ingot/compile/tables"
@@ -76,9 +75,7 @@ func (l *Linker) run() {
 			continue
 		}
 		if l.s == nil {
-			start, _ := slices.BinarySearch(part.Vocab, tables.SentenceStart)
-			l.s = &streamer{ctx: l.ctx, sp: part, opt: opt, so: l.so, log: slog.New(slog.DiscardHandler), N: opt.Order,
-				V: float64(len(part.Vocab) - 1), start: uint32(start), report: &Report{Method: opt.Method}}
+			l.s = newStreamer(l.ctx, part, opt, l.so, slog.New(slog.DiscardHandler))
 			ln = l.s.newLinks()
 		}
 		l.s.sp = part

@@ -101,11 +101,10 @@ func EstimateStreamed(ctx context.Context, sp *counts.Spooled, opt Options, so S
 	if log == nil {
 		log = slog.New(slog.DiscardHandler)
 	}
-	start, _ := slices.BinarySearch(sp.Vocab, tables.SentenceStart)
 	async := newAsyncSink(sink)
 	defer async.close()
-	s := &streamer{ctx: ctx, sp: sp, opt: opt, so: so, log: log, sink: async, N: opt.Order,
-		V: float64(len(sp.Vocab) - 1), start: uint32(start), report: &Report{Method: opt.Method}}
+	s := newStreamer(ctx, sp, opt, so, log)
+	s.sink = async
 	defer s.cleanup()
 	if err := s.run(); err != nil {
 		return nil, err
@@ -153,6 +152,14 @@ type streamer struct {
 	runs  int
 	// spilled counts the bytes of sort runs.
 	spilled int64
+}
+
+// newStreamer makes the streamer of the model opt asks for on the spooled
+// counts sp (no sink: set one to write).
+func newStreamer(ctx context.Context, sp *counts.Spooled, opt Options, so StreamOptions, log *slog.Logger) *streamer {
+	start, _ := slices.BinarySearch(sp.Vocab, tables.SentenceStart)
+	return &streamer{ctx: ctx, sp: sp, opt: opt, so: so, log: log, N: opt.Order,
+		V: float64(len(sp.Vocab) - 1), start: uint32(start), report: &Report{Method: opt.Method}}
 }
 
 func (s *streamer) cleanup() {
