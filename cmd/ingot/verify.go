@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"strings"
 	"text/tabwriter"
 	"time"
@@ -145,7 +144,7 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 
 	rep, err := verify.File(model, verify.Options{Tolerance: f.tolerance})
 	if err != nil {
-		if head, _ := readHead(model, 64); counts.LooksLikeText(head) {
+		if counts.IsTextFile(model) {
 			return fmt.Errorf("verify: %s is a text count file (a count, a tab, the words): verify reads models and binary count files; compile checks a text count file line by line as it reads it", model)
 		}
 		return fmt.Errorf("verify: %w", err)
@@ -195,22 +194,6 @@ func runVerify(cmd *cobra.Command, model string, f *verifyFlags) error {
 		return checkFailed{fmt.Errorf("verify %s: %w", model, failed)}
 	}
 	return nil
-}
-
-// readHead returns up to n first bytes of the named regular file.
-// (a pipe is never opened: opening one would block).
-func readHead(path string, n int) ([]byte, error) {
-	if fi, err := os.Stat(path); err != nil || !fi.Mode().IsRegular() {
-		return nil, fmt.Errorf("%s: not a regular file", path)
-	}
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, err
-	}
-	defer f.Close()
-	head := make([]byte, n)
-	k, _ := io.ReadFull(f, head)
-	return head[:k], nil
 }
 
 // runVerifyCounts checks a binary count file: every byte, as compile reads

@@ -19,18 +19,27 @@ type FileInfo struct {
 // IsBinaryFile reports whether the named file is a regular file that starts
 // with the magic of a binary count file. It never opens anything else (a
 // pipe would block).
-func IsBinaryFile(path string) bool {
+func IsBinaryFile(path string) bool { return IsBinary(fileHead(path, len(Magic))) }
+
+// IsTextFile reports whether the named file is a regular file whose first
+// bytes read as the text form (LooksLikeText). It never opens anything
+// else.
+func IsTextFile(path string) bool { return LooksLikeText(fileHead(path, 64)) }
+
+// fileHead returns up to n first bytes of the named file when it is a
+// regular one, else nothing.
+func fileHead(path string, n int) []byte {
 	if fi, err := os.Stat(path); err != nil || !fi.Mode().IsRegular() {
-		return false
+		return nil
 	}
 	f, err := os.Open(path)
 	if err != nil {
-		return false
+		return nil
 	}
 	defer f.Close()
-	head := make([]byte, len(Magic))
-	n, _ := io.ReadFull(f, head)
-	return IsBinary(head[:n])
+	head := make([]byte, n)
+	k, _ := io.ReadFull(f, head)
+	return head[:k]
 }
 
 // Describe reads the header and end record of the named binary count file
