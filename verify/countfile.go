@@ -112,15 +112,10 @@ type JSONCountReport struct {
 
 // NewJSONCountReport converts rep.
 func NewJSONCountReport(rep *CountReport) JSONCountReport {
-	v := JSONCountReport{CountFile: rep.File, OK: rep.OK(), Failed: rep.Failed(), Checks: []JSONCheck{}}
-	if v.Failed == nil {
-		v.Failed = []string{}
-	}
+	v := JSONCountReport{CountFile: rep.File, OK: rep.OK()}
+	v.Failed, v.Checks = jsonChecks(rep.Checks)
 	if v.NGramsPerOrder == nil {
 		v.NGramsPerOrder, v.CountSumPerOrder = []uint64{}, []uint64{}
-	}
-	for _, c := range rep.Checks {
-		v.Checks = append(v.Checks, JSONCheck{Name: c.Name, Status: string(c.Status), Detail: c.Detail, Problems: c.Problems, ProblemCount: c.Count})
 	}
 	return v
 }

@@ -29,6 +29,16 @@ type JSONReport struct {
 	ReleaseGate *JSONGate `json:"release_gate,omitempty"`
 }
 
+// jsonChecks returns the names of the failed checks and every check as
+// JSON prints them (empty lists, never null).
+func jsonChecks(checks []Check) (failed []string, list []JSONCheck) {
+	failed, list = append([]string{}, failedChecks(checks)...), []JSONCheck{}
+	for _, c := range checks {
+		list = append(list, JSONCheck{Name: c.Name, Status: string(c.Status), Detail: c.Detail, Problems: c.Problems, ProblemCount: c.Count})
+	}
+	return failed, list
+}
+
 // JSONCheck is one check of the report.
 type JSONCheck struct {
 	Name         string    `json:"name"`
@@ -100,22 +110,17 @@ type GateSettings struct {
 // ran, else null).
 func NewJSONReport(model string, rep *Report, tolerance float64, res *gate.Result, g GateSettings) JSONReport {
 	v := JSONReport{
-		Model: model, OK: rep.OK(), Failed: rep.Failed(),
+		Model: model, OK: rep.OK(),
 		FormatVersion: rep.Version, Order: rep.Order, VocabularySize: rep.VocabSize, NGramsPerOrder: rep.Counts,
 		MaxAbsDeviation: inspect.Number(math.NaN()), Tolerance: inspect.Number(tolerance),
-		Checks: []JSONCheck{}, WorstContexts: []JSONContext{}, DeviationHistogram: []JSONBucket{},
+		WorstContexts: []JSONContext{}, DeviationHistogram: []JSONBucket{},
 	}
-	if v.Failed == nil {
-		v.Failed = []string{}
-	}
+	v.Failed, v.Checks = jsonChecks(rep.Checks)
 	if v.NGramsPerOrder == nil {
 		v.NGramsPerOrder = []int{}
 	}
 	if tolerance == 0 {
 		v.Tolerance = inspect.Number(math.NaN())
-	}
-	for _, c := range rep.Checks {
-		v.Checks = append(v.Checks, JSONCheck{Name: c.Name, Status: string(c.Status), Detail: c.Detail, Problems: c.Problems, ProblemCount: c.Count})
 	}
 	if n := rep.Normalisation; n != nil {
 		v.ContextsChecked = n.Contexts
