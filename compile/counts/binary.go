@@ -407,14 +407,12 @@ func joinIDs(vocab []string, ids []uint32) string {
 // Reader reads a binary count file entry by entry, checking every
 // checksum, the order of the entries and the end record.
 type Reader struct {
-	r       *bufio.Reader
-	off     int64
+	blockSource
 	hdr     Header
-	dec     *zstd.Decoder
 	raw     []byte
-	packed  []byte
-	pos     int // read position in raw
-	left    int // entries left in the current block
+	ahead   *blockAhead // nil: blocks read on Next's goroutine
+	pos     int         // read position in raw
+	left    int         // entries left in the current block
 	blockK  int
 	blockAt int64 // offset of the current block
 	ids     []uint32
@@ -430,7 +428,7 @@ type Reader struct {
 
 // NewReader reads the header and word list of a binary count file.
 func NewReader(r io.Reader) (*Reader, error) {
-	cr := &Reader{r: bufio.NewReaderSize(r, 1<<16)}
+	cr := &Reader{blockSource: blockSource{r: bufio.NewReaderSize(r, 1<<16)}}
 	var hdr [headerSize]byte
 	if err := cr.full(hdr[:]); err != nil {
 		return nil, err
@@ -458,10 +456,11 @@ func NewReader(r io.Reader) (*Reader, error) {
 		return nil, err
 	}
 	cr.dec = dec
-	list, err := cr.frame(int(packedLen), int(rawLen), le.Uint32(hdr[28:]), "word list")
+	list, err := cr.frame(int(packedLen), int(rawLen), le.Uint32(hdr[28:]), "word list", nil)
 	if err != nil {
 		return nil, err
 	}
+	cr.raw = list
 	vocab := make([]string, 0, nwords)
 	at := int64(headerSize)
 	for len(list) > 0 {
@@ -483,6 +482,7 @@ func NewReader(r io.Reader) (*Reader, error) {
 		return nil, &FormatError{16, fmt.Sprintf("header says %d words, the list holds %d", nwords, len(vocab))}
 	}
 	cr.hdr = Header{Order: int(order), Vocab: vocab}
+	cr.order = int(order)
 	cr.start, cr.end = uint32(len(vocab)), uint32(len(vocab))
 	if id, ok := find(vocab, tables.SentenceStart); ok {
 		cr.start = id
@@ -508,7 +508,17 @@ func (r *Reader) Offset() int64 { return r.blockAt }
 // last one).
 func (r *Reader) Index() uint64 { return r.index }
 
-func (r *Reader) full(b []byte) error {
+// blockSource reads a count file's blocks: the tag, the header and the
+// checked, decompressed frame of each.
+type blockSource struct {
+	r      *bufio.Reader
+	off    int64
+	order  int
+	dec    *zstd.Decoder
+	packed []byte
+}
+
+func (r *blockSource) full(b []byte) error {
 	n, err := io.ReadFull(r.r, b)
 	r.off += int64(n)
 	if err == io.EOF || err == io.ErrUnexpectedEOF {
@@ -519,7 +529,9 @@ func (r *Reader) full(b []byte) error {
 
 // frame reads packedLen bytes, whose CRC-32C must be sum, and decodes them
 // into rawLen bytes.
-func (r *Reader) frame(packedLen, rawLen int, sum uint32, what string) ([]byte, error) {
+// frame reads a frame of packedLen bytes, checks it against sum and
+// returns its rawLen bytes decompressed into dst's memory.
+func (r *blockSource) frame(packedLen, rawLen int, sum uint32, what string, dst []byte) ([]byte, error) {
 	at := r.off
 	if packedLen > rawLen+rawLen/16+1<<12 {
 		return nil, &FormatError{at, fmt.Sprintf("%s: %d packed bytes for %d decoded", what, packedLen, rawLen)}
@@ -531,11 +543,10 @@ func (r *Reader) frame(packedLen, rawLen int, sum uint32, what string) ([]byte, 
 	if got := crc32.Checksum(r.packed, castagnoli); got != sum {
 		return nil, &FormatError{at, fmt.Sprintf("%s: checksum %08x, computed %08x", what, sum, got)}
 	}
-	raw, err := r.dec.DecodeAll(r.packed, grow(r.raw, rawLen)[:0])
+	raw, err := r.dec.DecodeAll(r.packed, grow(dst, rawLen)[:0])
 	if err != nil {
 		return nil, &FormatError{at, fmt.Sprintf("%s: %v", what, err)}
 	}
-	r.raw = raw
 	if len(raw) != rawLen {
 		return nil, &FormatError{at, fmt.Sprintf("%s: decodes to %d bytes, header says %d", what, len(raw), rawLen)}
 	}
@@ -643,43 +654,72 @@ func (r *Reader) uvarint() (uint64, error) {
 // block reads the next block header and decodes its entries, or reads and
 // checks the end record.
 func (r *Reader) block() error {
-	at := r.off
-	var tag [1]byte
-	if err := r.full(tag[:]); err != nil {
+	var b rawBlock
+	var err error
+	if r.ahead != nil {
+		b, err = r.ahead.take(r.raw)
+	} else {
+		b, err = r.readBlock(r.blockK, r.raw)
+	}
+	if err != nil {
 		return err
 	}
-	if tag[0] == 0 {
-		return r.endRecord(at)
+	if b.k == 0 {
+		return r.endRecord(b.at)
 	}
-	k := int(tag[0])
-	if k > r.hdr.Order {
-		return &FormatError{at, fmt.Sprintf("block of order %d in a file of orders 1..%d", k, r.hdr.Order)}
-	}
-	if k < r.blockK {
-		return &FormatError{at, fmt.Sprintf("block of order %d after a block of order %d", k, r.blockK)}
-	}
-	var h [blockHeaderSize - 1]byte
-	if err := r.full(h[:]); err != nil {
-		return err
-	}
-	le := binary.LittleEndian
-	entries, rawLen, packedLen := le.Uint32(h[0:]), le.Uint32(h[4:]), le.Uint32(h[8:])
-	if entries == 0 || rawLen > maxBlockRaw || uint64(entries)*3 > uint64(rawLen) {
-		return &FormatError{at, fmt.Sprintf("block of %d entries in %d bytes is impossible or too large", entries, rawLen)}
-	}
-	if _, err := r.frame(int(packedLen), int(rawLen), le.Uint32(h[12:]), "block"); err != nil {
-		return err
-	}
-	r.blockAt = at
-	r.blockK = k
-	r.left = int(entries)
+	r.raw = b.raw
+	r.blockAt = b.at
+	r.blockK = b.k
+	r.left = b.entries
 	r.pos = 0
-	if cap(r.ids) < k {
+	if cap(r.ids) < b.k {
 		r.ids = make([]uint32, tables.MaxOrder)
 	}
 	r.prevK = 0 // an entry shares nothing with the previous block's
 	r.totals.Blocks++
 	return nil
+}
+
+// rawBlock is a block read and decompressed: its offset, order, entries
+// and bytes; order 0 for the tag of the end record, read no further.
+type rawBlock struct {
+	at         int64
+	k, entries int
+	raw        []byte
+}
+
+// readBlock reads the next block, decompressed into dst's memory, after a
+// block of order prevK (0: none).
+func (r *blockSource) readBlock(prevK int, dst []byte) (rawBlock, error) {
+	at := r.off
+	var tag [1]byte
+	if err := r.full(tag[:]); err != nil {
+		return rawBlock{}, err
+	}
+	if tag[0] == 0 {
+		return rawBlock{at: at}, nil
+	}
+	k := int(tag[0])
+	if k > r.order {
+		return rawBlock{}, &FormatError{at, fmt.Sprintf("block of order %d in a file of orders 1..%d", k, r.order)}
+	}
+	if k < prevK {
+		return rawBlock{}, &FormatError{at, fmt.Sprintf("block of order %d after a block of order %d", k, prevK)}
+	}
+	var h [blockHeaderSize - 1]byte
+	if err := r.full(h[:]); err != nil {
+		return rawBlock{}, err
+	}
+	le := binary.LittleEndian
+	entries, rawLen, packedLen := le.Uint32(h[0:]), le.Uint32(h[4:]), le.Uint32(h[8:])
+	if entries == 0 || rawLen > maxBlockRaw || uint64(entries)*3 > uint64(rawLen) {
+		return rawBlock{}, &FormatError{at, fmt.Sprintf("block of %d entries in %d bytes is impossible or too large", entries, rawLen)}
+	}
+	raw, err := r.frame(int(packedLen), int(rawLen), le.Uint32(h[12:]), "block", dst)
+	if err != nil {
+		return rawBlock{}, err
+	}
+	return rawBlock{at: at, k: k, entries: int(entries), raw: raw}, nil
 }
 
 func (r *Reader) endRecord(at int64) error {

@@ -22,8 +22,11 @@ type linkTask struct {
 	k     int
 	lo    int      // the first entry's index within its order
 	room  int      // how many entries the order has room for (a hint)
+	n     int      // how many entries (while they are gathered)
 	words []uint32 // the entries (k ids each); with end, the whole order
-	where []where  // where each entry came from
+	// where each entry came from; nil when the loader finds it from the
+	// entry's index (loader.whereOf)
+	where []where
 	end   bool
 	// With end at order 2: the order's links, found as it was read.
 	parent, suffix []int32
@@ -163,11 +166,17 @@ func (lb *linkBehind) run(vocab int) {
 				}
 			}
 			if bad < n {
-				failAt(linkFailure{k: k, i: t.lo + bad, prefixMissing: prefixMissing, where: t.where[bad]})
+				f := linkFailure{k: k, i: t.lo + bad, prefixMissing: prefixMissing}
+				if t.where != nil {
+					f.where = t.where[bad]
+				}
+				failAt(f)
 			}
-			select {
-			case lb.spare <- t.where:
-			default:
+			if t.where != nil {
+				select {
+				case lb.spare <- t.where:
+				default:
+				}
 			}
 			<-sem
 		}(linker)

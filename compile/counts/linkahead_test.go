@@ -102,7 +102,7 @@ func TestLoadReportsTheFirstUnlinkedEntry(t *testing.T) {
 				miss = "suffix"
 			}
 			if miss != "" {
-				want = fmt.Sprintf("c.bin: entry %d (block at offset", before+j+1)
+				want = fmt.Sprintf("c.bin: entry %d (block at offset %d)", before+j+1, blockOffset(t, cc, before+j+1))
 				want += fmt.Sprintf("|%q has no count for its %s %q", joinWords(c.Vocab, g), miss, joinWords(c.Vocab, sub))
 				break
 			}
@@ -179,4 +179,24 @@ func TestLoadAnnouncedEntries(t *testing.T) {
 	if _, err := Load(4, []Source{{"c.bin", g}}); err == nil {
 		t.Error("a false end record accepted")
 	}
+}
+
+// blockOffset returns the offset of the block that holds entry index
+// (counted from 1) of c's binary count file, as a Reader finds it.
+func blockOffset(t *testing.T, c Counts, index int) int64 {
+	t.Helper()
+	var bin bytes.Buffer
+	if err := c.WriteBinary(&bin); err != nil {
+		t.Fatal(err)
+	}
+	r, err := NewReader(&bin)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for range index {
+		if _, _, err := r.Next(); err != nil {
+			t.Fatal(err)
+		}
+	}
+	return r.Offset()
 }

@@ -1,6 +1,7 @@
 package counts
 
 import (
+	"cmp"
 	"fmt"
 	"io"
 	"slices"
@@ -268,36 +269,13 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 		uni.Words[i] = uint32(i)
 	}
 	c.Levels[0] = uni
-	// The sources are decoded and merged on another goroutine while this
-	// one stores the entries, and orders 3 and up are linked (checking that
-	// each entry's prefix and suffix are counted) on others, each order
-	// once the order below it is complete (linkBehind).
-	a := readAhead(m)
-	defer a.Close()
+	// Orders 3 and up are linked (checking that each entry's prefix and
+	// suffix are counted) on other goroutines, each order once the order
+	// below it is complete (linkBehind), while this one stores the
+	// entries.
 	lb := startLinkBehind(len(vocab))
 	defer lb.finish()
-	// missing reports an entry g whose prefix (or suffix) is not counted.
-	missing := func(g []uint32, prefixMissing bool, w where) error {
-		miss, sub := "prefix", g[:len(g)-1]
-		if !prefixMissing {
-			miss, sub = "suffix", g[1:]
-		}
-		msg := fmt.Sprintf("%q has no count for its %s %q", joinWords(vocab, g), miss, joinWords(vocab, sub))
-		if src := srcOf[w.from]; src >= 0 {
-			return fmt.Errorf("%s: entry %d (block at offset %d): %s", sources[src].Name, w.at.index, w.at.offset, msg)
-		}
-		return b.textError(g, vocab, sources, msg)
-	}
-	// failed reports the first entry linkBehind found lacking its prefix
-	// or suffix, once every entry sent to it is linked, or nil.
-	failed := func() error {
-		if f := lb.finish(); f != nil {
-			return missing(c.Levels[f.k-1].Words[f.k*f.i:f.k*f.i+f.k], f.prefixMissing, f.where)
-		}
-		return nil
-	}
-	unigram := func(id uint32) bool { return id == start || c.Levels[0].Counts[id] > 0 }
-	var parent2, suffix2 []int32 // the links of order 2, found here
+	ld := &loader{c: c, lb: lb, order: order, start: start, top: 1}
 	// Room at once for the entries of each order that the largest file
 	// announces (the merge holds at least as many).
 	for k := 2; k <= order; k++ {
@@ -312,82 +290,48 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 			hugePagesOf(c.Levels[k-1].Words)
 			hugePagesOf(c.Levels[k-1].Counts)
 			if k == 2 {
-				parent2, suffix2 = make([]int32, 0, n), make([]int32, 0, n)
+				ld.parent2, ld.suffix2 = make([]int32, 0, n), make([]int32, 0, n)
 			}
 		}
 	}
-	var task *linkTask // the run of entries being gathered
-	send := func() {
-		if task != nil {
-			k := task.k
-			task.words = c.Levels[k-1].Words[k*task.lo : k*(task.lo+len(task.where))]
-			lb.tasks <- task
-			task = nil
+	// missing reports an entry g whose prefix (or suffix) is not counted.
+	missing := func(g []uint32, prefixMissing bool, w where) error {
+		miss, sub := "prefix", g[:len(g)-1]
+		if !prefixMissing {
+			miss, sub = "suffix", g[1:]
 		}
+		msg := fmt.Sprintf("%q has no count for its %s %q", joinWords(vocab, g), miss, joinWords(vocab, sub))
+		if src := srcOf[w.from]; src >= 0 {
+			return fmt.Errorf("%s: entry %d (block at offset %d): %s", sources[src].Name, w.at.index, w.at.offset, msg)
+		}
+		return b.textError(g, vocab, sources, msg)
 	}
-	top := 1 // the highest order stored so far
-	endOrder := func() {
-		send()
-		if top >= 2 {
-			lb.tasks <- &linkTask{k: top, end: true, words: c.Levels[top-1].Words, parent: parent2, suffix: suffix2}
-		}
+	var read readOutcome
+	if s, ok := m.streams[0].(*readerStream); ok && len(m.streams) == 1 {
+		read = ld.readOne(m, s)
+	} else {
+		read = ld.readMerged(m)
 	}
-	for {
-		bt := a.nextBatch()
-		for x := range bt.entries {
-			e := &bt.entries[x]
-			g, n := e.ids, e.count
-			k := len(g)
-			if k > order {
-				continue
-			}
-			maxSeen = max(maxSeen, k)
-			if k == 1 {
-				c.Levels[0].Counts[g[0]] = n
-				continue
-			}
-			for top < k {
-				endOrder()
-				top++
-			}
-			if k == 2 {
-				// Unigrams are looked up directly.
-				if hasPrefix, hasSuffix := unigram(g[0]), unigram(g[1]); !hasPrefix || !hasSuffix {
-					return nil, missing(g, !hasPrefix, where{e.from, e.at})
-				}
-				parent2 = append(tables.Grow(parent2, 1), int32(g[0]))
-				suffix2 = append(tables.Grow(suffix2, 1), int32(g[1]))
-			}
-			lv := &c.Levels[k-1]
-			lv.Words = append(tables.Grow(lv.Words, k), g...)
-			lv.Counts = append(tables.Grow(lv.Counts, 1), n)
-			if k >= 3 {
-				if task == nil {
-					task = &linkTask{k: k, lo: len(lv.Counts) - 1, room: cap(lv.Counts), where: lb.whereRoom()}
-				}
-				task.where = append(task.where, where{e.from, e.at})
-			}
-		}
-		send()
-		if lb.failed.Load() {
-			return nil, failed()
-		}
-		if bt.err == io.EOF {
-			break
-		}
-		if bt.err != nil {
-			// An entry read before the error that lacks its prefix or
-			// suffix comes first.
-			if err := failed(); err != nil {
-				return nil, err
-			}
-			return nil, streamErr(bt.err)
-		}
+	if read.bad != nil {
+		return nil, missing(read.bad.g, read.bad.prefixMissing, read.bad.where)
 	}
-	endOrder()
-	if err := failed(); err != nil {
-		return nil, err
+	if read.err == nil {
+		ld.endOrder()
 	}
+	// The first entry that linkBehind found lacking its prefix or suffix,
+	// once every entry sent to it is linked, comes before an error of the
+	// read after it.
+	if f := lb.finish(); f != nil {
+		w := f.where
+		if ld.one {
+			w = ld.whereOf(f.k, f.i)
+		}
+		return nil, missing(c.Gram(f.k, f.i), f.prefixMissing, w)
+	}
+	if read.err != nil {
+		return nil, streamErr(read.err)
+	}
+	maxSeen = max(maxSeen, ld.maxSeen)
 	links := lb.links
 	c.Links = &links
 	if maxSeen == 0 {
@@ -412,6 +356,197 @@ func mergeSources(order, maxSeen int, b *builder, bins []binSource, sources []So
 		}
 	}
 	return nil, fmt.Errorf("no unigram counts in %s", names(sources))
+}
+
+// loader stores the entries of a merge in a Counts, order by order, and
+// hands the runs of entries of orders 3 and up to a linkBehind.
+type loader struct {
+	c       *Counts
+	lb      *linkBehind
+	order   int
+	start   uint32 // the id of <s>
+	maxSeen int    // the highest order met
+	top     int    // the highest order stored so far
+	task    *linkTask
+	// The links of order 2, found as its entries are stored.
+	parent2, suffix2 []int32
+	// With one count file read straight (one): where its entries stand,
+	// kept per block rather than per entry (whereOf).
+	one    bool
+	first  [tables.MaxOrder + 1]uint64 // the file's index of order k's first entry
+	blocks []blockStart
+}
+
+// blockStart is the file's index of the first entry read from a block,
+// and the block's offset.
+type blockStart struct {
+	index  uint64
+	offset int64
+}
+
+// readOutcome is how reading a merge ended: at an order-2 entry whose
+// prefix or suffix is not counted, at an error of the merge, or (both nil)
+// at its end or at an entry linkBehind found lacking.
+type readOutcome struct {
+	bad *unlinked
+	err error
+}
+
+// unlinked is an entry found lacking its prefix or suffix as it is read.
+type unlinked struct {
+	g             []uint32
+	prefixMissing bool
+	where         where
+}
+
+// add stores the entry g (order k = len(g)) with count n; w tells where it
+// stood, kept for orders 3 and up when the loader reads more than one
+// file. It returns the entry when it is of order 2 and lacks its prefix or
+// suffix.
+func (ld *loader) add(g []uint32, n uint64, w func() where) *unlinked {
+	k := len(g)
+	if k > ld.order {
+		return nil
+	}
+	ld.maxSeen = max(ld.maxSeen, k)
+	c := ld.c
+	if k == 1 {
+		c.Levels[0].Counts[g[0]] = n
+		return nil
+	}
+	for ld.top < k {
+		ld.endOrder()
+		ld.top++
+	}
+	if k == 2 {
+		// Unigrams are looked up directly.
+		uni := c.Levels[0].Counts
+		if hasPrefix, hasSuffix := g[0] == ld.start || uni[g[0]] > 0, g[1] == ld.start || uni[g[1]] > 0; !hasPrefix || !hasSuffix {
+			return &unlinked{g: g, prefixMissing: !hasPrefix, where: w()}
+		}
+		ld.parent2 = append(tables.Grow(ld.parent2, 1), int32(g[0]))
+		ld.suffix2 = append(tables.Grow(ld.suffix2, 1), int32(g[1]))
+	}
+	lv := &c.Levels[k-1]
+	lv.Words = append(tables.Grow(lv.Words, k), g...)
+	lv.Counts = append(tables.Grow(lv.Counts, 1), n)
+	if k >= 3 {
+		if ld.task == nil {
+			ld.task = &linkTask{k: k, lo: len(lv.Counts) - 1, room: cap(lv.Counts)}
+			if !ld.one {
+				ld.task.where = ld.lb.whereRoom()
+			}
+		}
+		ld.task.n++
+		if !ld.one {
+			ld.task.where = append(ld.task.where, w())
+		}
+	}
+	return nil
+}
+
+// send hands the run of entries gathered to the linkBehind.
+func (ld *loader) send() {
+	if t := ld.task; t != nil {
+		t.words = ld.c.Levels[t.k-1].Words[t.k*t.lo : t.k*(t.lo+t.n)]
+		ld.lb.tasks <- t
+		ld.task = nil
+	}
+}
+
+// endOrder completes the highest order stored.
+func (ld *loader) endOrder() {
+	ld.send()
+	if ld.top >= 2 {
+		ld.lb.tasks <- &linkTask{k: ld.top, end: true, words: ld.c.Levels[ld.top-1].Words, parent: ld.parent2, suffix: ld.suffix2}
+	}
+}
+
+// readMerged stores the entries of the merge m, decoded and merged on
+// another goroutine a few batches ahead (readAhead).
+func (ld *loader) readMerged(m *merger) readOutcome {
+	a := readAhead(m)
+	defer a.Close()
+	for {
+		bt := a.nextBatch()
+		for x := range bt.entries {
+			e := &bt.entries[x]
+			if bad := ld.add(e.ids, e.count, func() where { return where{e.from, e.at} }); bad != nil {
+				return readOutcome{bad: bad}
+			}
+		}
+		ld.send()
+		if ld.lb.failed.Load() || bt.err == io.EOF {
+			return readOutcome{}
+		}
+		if bt.err != nil {
+			return readOutcome{err: bt.err}
+		}
+	}
+}
+
+// readOne stores the entries of the merge m of one count file s, read
+// straight from it on this goroutine: no batches to hand over, no copies
+// in the merger, and where each entry stands kept per block.
+func (ld *loader) readOne(m *merger, s *readerStream) readOutcome {
+	ld.one = true
+	if len(m.live) == 0 {
+		return readOutcome{}
+	}
+	identity := s.identity()
+	// The file's blocks are read and decompressed on another goroutine.
+	s.r.ReadAhead()
+	defer s.r.StopAhead()
+	// The head the merger read first.
+	g, n, at := m.heads[0], m.counts[0], m.at[0]
+	m.live = m.live[:0]
+	var ids []uint32
+	for i := 0; ; i++ {
+		k := len(g)
+		if k != ld.top && k >= 3 && k <= ld.order {
+			ld.first[k] = at.index
+		}
+		if nb := len(ld.blocks); nb == 0 || ld.blocks[nb-1].offset != at.offset {
+			ld.blocks = append(ld.blocks, blockStart{at.index, at.offset})
+		}
+		if bad := ld.add(g, n, func() where { return where{0, at} }); bad != nil {
+			return readOutcome{bad: bad}
+		}
+		if ld.task != nil && ld.task.n == aheadBatch {
+			ld.send()
+			if ld.lb.failed.Load() {
+				return readOutcome{}
+			}
+		}
+		var err error
+		g, n, err = s.r.Next()
+		if err == io.EOF {
+			return readOutcome{}
+		}
+		if err != nil {
+			ld.send()
+			return readOutcome{err: &errStream{0, err}}
+		}
+		if !identity {
+			ids = ids[:0]
+			for _, id := range g {
+				ids = append(ids, s.remap[id])
+			}
+			g = ids
+		}
+		at = s.at()
+	}
+}
+
+// whereOf returns where entry i of order k stood in the one count file
+// readOne read.
+func (ld *loader) whereOf(k, i int) where {
+	index := ld.first[k] + uint64(i)
+	b, _ := slices.BinarySearchFunc(ld.blocks, index, func(b blockStart, x uint64) int { return cmp.Compare(b.index, x) })
+	if b == len(ld.blocks) || ld.blocks[b].index > index {
+		b--
+	}
+	return where{0, position{index, ld.blocks[b].offset}}
 }
 
 func hasEntries(b *builder) bool {
