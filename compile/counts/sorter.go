@@ -704,3 +704,8 @@ func hugePagesOf[E any](s []E) {
 		hugePages(unsafe.Slice((*byte)(unsafe.Pointer(unsafe.SliceData(s))), uintptr(cap(s))*unsafe.Sizeof(s[0])))
 	}
 }
+
+// HugePagesOf asks the kernel to back the memory of s, up to its
+// capacity, with huge pages where it can (a hint): for a large array
+// probed at random, made and not yet written.
+func HugePagesOf[E any](s []E) { hugePagesOf(s) }

@@ -32,12 +32,15 @@ func (s *streamer) linkBytes() int64 {
 }
 
 // linkBytesAt returns the memory held while order k >= 2 is linked or
-// estimated: while order k is linked, the last words and child starts of
-// orders k-1 and k (4 bytes an entry each) and, for Kneser-Ney, the
-// adjusted counts of order k-1 (4 bytes an entry, and 8 for each
-// beginning with <s>, taken as all); while order k is estimated, the
-// probabilities of order k-1 (8 bytes). It needs the entries of orders
-// up to k only.
+// estimated (see links.order): while order k is linked, the last words of
+// order k-1 and the child starts of order k-2 (4 bytes an entry each),
+// and, unless k is the top order, the last words of order k and the child
+// starts of order k-1 that the next order's link takes (4 bytes an entry
+// each); for Kneser-Ney, the adjusted counts of order k-1 (4 bytes an
+// entry) and the raw counts of its entries beginning with <s> (8 bytes
+// each, see startEntries); while order k is estimated, the probabilities
+// of order k-1 (8 bytes an entry). It needs the entries of orders up to k
+// only.
 func (s *streamer) linkBytesAt(k int) int64 {
 	e := func(k int) int64 {
 		if k < 1 {
@@ -48,11 +51,28 @@ func (s *streamer) linkBytesAt(k int) int64 {
 	if e(k) > math.MaxInt32 {
 		return math.MaxInt64 // positions are int32 (tables.SearchLast)
 	}
-	b := 4*(e(k-1)+1) + 4*e(k) + 4*e(k-1) + 4*(e(k-2)+1)
+	b := 4*e(k-1) + 4*(e(k-2)+1)
+	if k < s.N {
+		b += 4*e(k) + 4*(e(k-1)+1)
+	}
 	if s.opt.Method == KneserNey {
-		b += 12 * e(k-1)
+		b += 4*e(k-1) + 8*s.startEntries(k-1)
 	}
 	return max(b, 8*e(k-1))
+}
+
+// startEntries bounds the entries of order k that begin with <s>: each
+// occurs at the start of a sentence of its own, and each sentence ends
+// with one </s>, so there are no more of them than </s> has counts, nor
+// than the order has entries. (Counts that break that rule make the
+// bound, and so the budget, short by 8 bytes an entry; the model is the
+// same.)
+func (s *streamer) startEntries(k int) int64 {
+	n := int64(s.sp.Entries[k-1])
+	if end, ok := slices.BinarySearch(s.sp.Vocab, tables.SentenceEnd); ok && end < len(s.sp.Unigrams) {
+		n = min(n, int64(s.sp.Unigrams[end]))
+	}
+	return n
 }
 
 // overlapBytes returns the memory held at most while a Linker links an
@@ -94,6 +114,9 @@ type links struct {
 	starts   []uint32 // child starts of order k-2 in order k-1 (k >= 3)
 	startsLo uint64   // entries of order k-1 beginning with <s>: [startsLo, startsHi)
 	startsHi uint64
+	// held[k] is the bytes of the arrays held while order k was linked,
+	// which linkBytesAt(k) bounds.
+	held [tables.MaxOrder + 1]int64
 }
 
 func (s *streamer) newLinks() *links {
@@ -110,15 +133,23 @@ func (l *links) order(k int) error {
 	var a *adjusted
 	if kn {
 		a = &adjusted{n: make([]uint32, below), lo: l.startsLo, raw: make([]uint64, l.startsHi-l.startsLo)}
+		counts.HugePagesOf(a.n)
 	}
 	top := k == s.N
 	var nextLast, nextStarts []uint32
 	if !top {
 		nextLast = make([]uint32, 0, s.sp.Entries[k-1])
 		nextStarts = make([]uint32, below+1)
+		// The next order's link probes both at random.
+		counts.HugePagesOf(nextLast)
+		counts.HugePagesOf(nextStarts)
 	}
 	if err := s.linkOrder(k, l.last, l.starts, l.startsLo, l.startsHi, a, &nextLast, nextStarts); err != nil {
 		return err
+	}
+	l.held[k] = 4 * int64(len(l.last)+len(l.starts)+cap(nextLast)+len(nextStarts))
+	if a != nil {
+		l.held[k] += 4*int64(len(a.n)) + 8*int64(len(a.raw))
 	}
 	if kn {
 		if k > 2 {

@@ -9,6 +9,7 @@ import (
 	"strings"
 	"testing"
 
+	"ingot/compile/corpus"
 	"ingot/compile/counts"
 	"ingot/format"
 )
@@ -148,16 +149,57 @@ func linkOnlyBudget(t *testing.T, c *counts.Counts, opt Options) int64 {
 }
 
 // The budget of links and estimates at once: the largest of one order's
-// links and one order's probabilities, together. Entries 10, 20, 30:
-// linking order 3 (Kneser-Ney) holds 4*21 + 4*30 + 4*20 + 4*11 + 12*20 =
-// 568 bytes, the most; order 3's estimate 8*20 = 160.
+// links and one order's probabilities, together. Entries 10, 20, 30, no
+// vocabulary (so every entry might begin with <s>): linking order 2
+// (Kneser-Ney) holds 4*10 + 4*1 + 4*20 + 4*11 + 4*10 + 8*10 = 288 bytes;
+// linking order 3, the top, 4*20 + 4*11 + 4*20 + 8*20 = 364, the most;
+// order 3's estimate 8*20 = 160. With </s> counted 5 times, at most 5
+// entries of an order begin with <s>: order 3's link holds
+// 4*20 + 4*11 + 4*20 + 8*5 = 244.
 func TestOverlapBytes(t *testing.T) {
 	s := &streamer{sp: &counts.Spooled{Entries: []uint64{10, 20, 30}}, opt: Options{Method: KneserNey}, N: 3}
-	if got, want := s.linkBytes(), int64(568); got != want {
+	if got, want := s.linkBytes(), int64(364); got != want {
 		t.Errorf("linkBytes %d, want %d", got, want)
 	}
-	if got, want := s.overlapBytes(), int64(568+160); got != want {
+	if got, want := s.overlapBytes(), int64(364+160); got != want {
 		t.Errorf("overlapBytes %d, want %d", got, want)
+	}
+	vocab := []string{"</s>", "<s>", "a", "b", "c", "d", "e", "f", "g", "h"}
+	unigrams := []uint64{5, 0, 1, 1, 1, 1, 1, 1, 1, 1}
+	s.sp = &counts.Spooled{Vocab: vocab, Unigrams: unigrams, Entries: []uint64{10, 20, 30}}
+	if got, want := s.linkBytesAt(3), int64(244); got != want {
+		t.Errorf("linkBytesAt(3) with </s> counted 5 times: %d, want %d", got, want)
+	}
+}
+
+// linkBytesAt bounds the arrays links.order holds, order by order, on
+// counted text (where every n-gram beginning with <s> starts a sentence
+// that </s> ends), for each method's links.
+func TestLinkBytesBoundWhatLinkHolds(t *testing.T) {
+	var text, bin bytes.Buffer
+	if err := corpus.Generate(&text, 5, 600, 400); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := counts.Count(context.Background(), counts.Options{Order: 5}, []counts.Input{{Name: "text", R: &text}}, &bin); err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range []Method{KneserNey, WittenBell} {
+		opt := Options{Method: m, Order: 5}
+		sp, err := counts.Spool(5, []counts.Source{{Name: "counts.bin", R: bytes.NewReader(bin.Bytes())}}, t.TempDir())
+		if err != nil {
+			t.Fatal(err)
+		}
+		s := newStreamer(context.Background(), sp, opt, StreamOptions{Dir: t.TempDir()}, nil)
+		l := s.newLinks()
+		for k := 2; k <= 5; k++ {
+			if err := l.order(k); err != nil {
+				t.Fatal(err)
+			}
+			if bound := s.linkBytesAt(k); l.held[k] > bound || l.held[k] == 0 {
+				t.Errorf("%s, order %d: linking held %d bytes, linkBytesAt bounds it at %d", m, k, l.held[k], bound)
+			}
+		}
+		s.cleanup()
 	}
 }
 
