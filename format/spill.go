@@ -1,7 +1,6 @@
 package format
 
 import (
-	"bufio"
 	"encoding/binary"
 	"fmt"
 	"io"
@@ -18,8 +17,9 @@ import (
 type spill struct {
 	path string
 	f    *os.File
-	w    *bufio.Writer
-	n    int64 // bytes written
+	buf  []byte // written, not yet in the file (a bufio.Writer cost about
+	// three times as much per value: measured 2026-12-03)
+	n int64 // bytes written
 }
 
 // spillBuffer is the size of a spill file's write and read buffers.
@@ -32,41 +32,62 @@ func (s *spill) open() error {
 	if err != nil {
 		return err
 	}
-	s.f, s.w = f, bufio.NewWriterSize(f, spillBuffer)
+	s.f, s.buf = f, make([]byte, 0, spillBuffer)
+	return nil
+}
+
+// room makes room for n bytes in the buffer (n <= spillBuffer), opening
+// the file at the first write.
+func (s *spill) room(n int) error {
+	if s.f == nil {
+		return s.open()
+	}
+	if len(s.buf)+n > cap(s.buf) {
+		return s.flush()
+	}
 	return nil
 }
 
 func (s *spill) write(b []byte) error {
-	if s.f == nil {
-		if err := s.open(); err != nil {
+	s.n += int64(len(b))
+	for len(b) > 0 {
+		if err := s.room(1); err != nil {
 			return err
 		}
+		m := copy(s.buf[len(s.buf):cap(s.buf)], b)
+		s.buf, b = s.buf[:len(s.buf)+m], b[m:]
 	}
-	s.n += int64(len(b))
-	_, err := s.w.Write(b)
-	return err
+	return nil
 }
 
 // put64 appends x, little-endian.
 func (s *spill) put64(x uint64) error {
-	if s.f == nil {
-		if err := s.open(); err != nil {
-			return err
-		}
+	if err := s.room(8); err != nil {
+		return err
 	}
-	// Straight into the file's buffer: a local array would be allocated
-	// per value (it reaches the file's io.Writer).
 	s.n += 8
-	_, err := s.w.Write(binary.LittleEndian.AppendUint64(s.w.AvailableBuffer(), x))
-	return err
+	s.buf = binary.LittleEndian.AppendUint64(s.buf, x)
+	return nil
+}
+
+// put32 appends x, little-endian.
+func (s *spill) put32(x uint32) error {
+	if err := s.room(4); err != nil {
+		return err
+	}
+	s.n += 4
+	s.buf = binary.LittleEndian.AppendUint32(s.buf, x)
+	return nil
 }
 
 // flush writes what is buffered to the file.
 func (s *spill) flush() error {
-	if s.w == nil {
+	if len(s.buf) == 0 {
 		return nil
 	}
-	return s.w.Flush()
+	_, err := s.f.Write(s.buf)
+	s.buf = s.buf[:0]
+	return err
 }
 
 // patch overwrites the bytes at off with b (written before).
@@ -117,7 +138,7 @@ func (s *spill) values(fn func(i, x uint64) error) error {
 func (s *spill) release() {
 	if s.f != nil {
 		s.f.Close()
-		s.f = nil
+		s.f, s.buf = nil, nil
 		os.Remove(s.path)
 	}
 }

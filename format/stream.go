@@ -55,7 +55,6 @@ type StreamWriter struct {
 	childStarts *valueSpill
 	childRun    uint64
 	err         error
-	scratch     [8]byte
 	// top, when not nil, writes the top order's entries (Top); the order
 	// below it is then ended as soon as its last entry is added
 	// (belowEnded).
@@ -108,6 +107,18 @@ type streamSection struct {
 func (s *streamSection) write(b []byte) error {
 	s.Length += int64(len(b))
 	return s.sp.write(b)
+}
+
+// put64 appends x, little-endian.
+func (s *streamSection) put64(x uint64) error {
+	s.Length += 8
+	return s.sp.put64(x)
+}
+
+// put32 appends x, little-endian.
+func (s *streamSection) put32(x uint32) error {
+	s.Length += 4
+	return s.sp.put32(x)
 }
 
 // close ends the section's writes: what is buffered for its file goes to
@@ -269,9 +280,7 @@ func (w *StreamWriter) add(ids []uint32, rank uint32, logProb, logBackoff float3
 			return err
 		}
 	}
-	b := w.scratch[:4] // a field: a local array would be allocated per entry
-	putU32(b, math.Float32bits(logProb))
-	if err := w.probs.write(b); err != nil {
+	if err := w.probs.put32(math.Float32bits(logProb)); err != nil {
 		return err
 	}
 	if k < N {
@@ -283,8 +292,7 @@ func (w *StreamWriter) add(ids []uint32, rank uint32, logProb, logBackoff float3
 			return err
 		}
 		if isContext {
-			putU32(b, math.Float32bits(logBackoff))
-			if err := w.backoffs.write(b); err != nil {
+			if err := w.backoffs.put32(math.Float32bits(logBackoff)); err != nil {
 				return err
 			}
 			if err := w.childStarts.add(w.childRun); err != nil {
@@ -583,11 +591,7 @@ func (v *valueSpill) encodeKeep() error {
 	if err := s.write(hdr[:]); err != nil {
 		return err
 	}
-	var word [8]byte
-	emit := func(x uint64) error {
-		binary.LittleEndian.PutUint64(word[:], x)
-		return s.write(word[:])
-	}
+	emit := s.put64
 	// Low bits, L per value, packed from bit 0 of word 0.
 	var cur uint64
 	var written uint64
@@ -687,10 +691,9 @@ func (m *markStream) add(mark bool) error {
 	}
 	m.i++
 	if m.i%64 == 0 {
-		var b [8]byte
-		binary.LittleEndian.PutUint64(b[:], m.word)
+		w := m.word
 		m.word = 0
-		return m.s.write(b[:])
+		return m.s.put64(w)
 	}
 	return nil
 }

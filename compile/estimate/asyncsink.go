@@ -1,7 +1,6 @@
 package estimate
 
 import (
-	"math"
 	"sync/atomic"
 
 	"ingot/compile/tables"
@@ -57,13 +56,13 @@ func newAsyncSink(sink Sink) *asyncSink {
 				for i, k := range b.k {
 					ids := b.ids[off : off+int(k)]
 					off += int(k)
-					lp := float32(math.Log10(b.prob[i]))
+					lp := log10f32(b.prob[i])
 					if b.flags[i]&noProbFlag != 0 {
 						lp = tables.NoProb
 					}
 					var lb float32
 					if b.flags[i]&topFlag == 0 {
-						lb = float32(math.Log10(b.backoff[i]))
+						lb = log10f32(b.backoff[i])
 					}
 					if err = sink.Add(ids, b.rank[i], lp, lb, b.children[i]); err != nil {
 						a.failed.Store(true)
