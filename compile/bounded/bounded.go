@@ -2,7 +2,8 @@
 // the counts are merged into one sorted file per order on disk
 // (counts.SpoolOrders), estimated in passes over them
 // (estimate.EstimateStreamed: each order linked to the one below in memory,
-// by an estimate.Linker as soon as the order is spooled, or sorted on disk)
+// by an estimate.Linker as soon as the order is spooled, the top order as
+// it is spooled, or sorted on disk)
 // and the model is written section by section as it is produced
 // (format.StreamWriter; its top order by a format.TopWriter on a goroutine
 // of its own). The model is byte for byte the one the in-memory
@@ -107,7 +108,7 @@ func Estimate(ctx context.Context, sources []counts.Source, opt estimate.Options
 		m.Close()
 		return nil, err
 	}
-	sp, err := counts.SpoolOrders(opt.Order, sources, dir, so.Linker.Spooled)
+	sp, err := counts.SpoolTail(opt.Order, sources, dir, so.Linker.Spooled, so.Linker.Started)
 	if err != nil {
 		return fail(err)
 	}

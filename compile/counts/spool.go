@@ -1,11 +1,14 @@
 package counts
 
 import (
+	"context"
 	"encoding/binary"
+	"errors"
 	"fmt"
 	"io"
 	"os"
 	"path/filepath"
+	"sync"
 
 	"ingot/compile/tables"
 )
@@ -54,6 +57,15 @@ func Spool(order int, sources []Source, dir string) (*Spooled, error) {
 // announced orders may belong to counts that Spool then refuses: its
 // error is the one that counts.
 func SpoolOrders(order int, sources []Source, dir string, done func(part *Spooled)) (*Spooled, error) {
+	return SpoolTail(order, sources, dir, done, nil)
+}
+
+// SpoolTail is SpoolOrders that, when done and started are not nil, also
+// calls started(t), on its goroutine, as soon as the first entry of the
+// highest order asked (order) is read, every order below it announced
+// (done): t reads that order's file while it is being written
+// (Tail.Open), for a reader that keeps up with the spool.
+func SpoolTail(order int, sources []Source, dir string, done func(part *Spooled), started func(t *Tail)) (*Spooled, error) {
 	if order < 1 || order > tables.MaxOrder {
 		return nil, fmt.Errorf("order %d outside 1..%d", order, tables.MaxOrder)
 	}
@@ -73,6 +85,10 @@ func SpoolOrders(order int, sources []Source, dir string, done func(part *Spoole
 		for _, o := range outs {
 			if o != nil && o.f != nil {
 				o.f.Close()
+				o.f = nil
+				if o.tail != nil {
+					o.tail.update(o.written, true, errSpoolStopped)
+				}
 			}
 		}
 	}()
@@ -131,6 +147,10 @@ func SpoolOrders(order int, sources []Source, dir string, done func(part *Spoole
 				o = &spoolWriter{f: f, buf: make([]byte, 0, spoolBuffer)}
 				outs[k] = o
 				sp.paths[k-1] = p
+				if k == order && done != nil && started != nil {
+					o.tail = &Tail{k: k, path: p, wake: make(chan struct{})}
+					started(o.tail)
+				}
 			}
 			if err := o.add(g, n); err != nil {
 				return nil, fmt.Errorf("spooling counts: %w", err)
@@ -217,17 +237,18 @@ const spoolBuffer = 1 << 18
 
 // spoolWriter writes the records of one order.
 type spoolWriter struct {
-	f   *os.File
-	buf []byte
-	n   uint64
+	f       *os.File
+	buf     []byte
+	n       uint64
+	written int64 // bytes in the file
+	tail    *Tail // told of every write, when not nil
 }
 
 func (w *spoolWriter) add(g []uint32, n uint64) error {
 	if len(w.buf)+4*len(g)+8 > cap(w.buf) {
-		if _, err := w.f.Write(w.buf); err != nil {
+		if err := w.flush(); err != nil {
 			return err
 		}
-		w.buf = w.buf[:0]
 	}
 	for _, id := range g {
 		w.buf = binary.LittleEndian.AppendUint32(w.buf, id)
@@ -237,18 +258,142 @@ func (w *spoolWriter) add(g []uint32, n uint64) error {
 	return nil
 }
 
+func (w *spoolWriter) flush() error {
+	if _, err := w.f.Write(w.buf); err != nil {
+		return err
+	}
+	w.written += int64(len(w.buf))
+	w.buf = w.buf[:0]
+	if w.tail != nil {
+		w.tail.update(w.written, false, nil)
+	}
+	return nil
+}
+
 // close writes what is buffered and closes the file; once closed, it does
 // nothing.
 func (w *spoolWriter) close() error {
 	if w.f == nil {
 		return nil
 	}
-	_, err := w.f.Write(w.buf)
+	err := w.flush()
 	if cerr := w.f.Close(); err == nil {
 		err = cerr
 	}
 	w.f = nil
+	if w.tail != nil {
+		if err == nil {
+			w.tail.update(w.written, true, nil)
+		} else {
+			w.tail.update(w.written, true, errSpoolStopped)
+		}
+	}
 	return err
+}
+
+// errSpoolStopped is what a Tail's reader returns when the spool of its
+// order stopped short (the spool's own error says why).
+var errSpoolStopped = errors.New("spooling stopped before the order was complete")
+
+// Tail is the file of one order of counts while SpoolTail writes it: its
+// readers (Open) read the entries written so far and wait for more, until
+// the order is complete.
+type Tail struct {
+	k    int
+	path string
+	mu   sync.Mutex
+	// Under mu:
+	written int64 // bytes in the file
+	done    bool
+	err     error
+	wake    chan struct{} // closed (and replaced) at each change
+}
+
+// Order returns the order of the entries.
+func (t *Tail) Order() int { return t.k }
+
+func (t *Tail) update(written int64, done bool, err error) {
+	t.mu.Lock()
+	defer t.mu.Unlock()
+	if t.done {
+		return
+	}
+	t.written, t.done, t.err = written, done, err
+	close(t.wake)
+	t.wake = make(chan struct{})
+}
+
+// Open returns a reader of the order's entries, in order, that waits for
+// entries not yet written (or until ctx is done).
+func (t *Tail) Open(ctx context.Context) (*TailReader, error) {
+	f, err := os.Open(t.path)
+	if err != nil {
+		return nil, err
+	}
+	return &TailReader{t: t, ctx: ctx, f: f, buf: make([]byte, 0, spoolBuffer), ids: make([]uint32, t.k)}, nil
+}
+
+// TailReader reads the entries of a Tail.
+type TailReader struct {
+	t    *Tail
+	ctx  context.Context
+	f    *os.File
+	buf  []byte
+	pos  int
+	read int64 // bytes read from the file
+	ids  []uint32
+	n    uint64 // entries returned
+}
+
+// Close closes the file.
+func (r *TailReader) Close() error { return r.f.Close() }
+
+// Entries returns the number of entries read so far (all of them, once
+// Next has returned io.EOF).
+func (r *TailReader) Entries() uint64 { return r.n }
+
+// Next returns the next entry (ids valid until the next call) and its
+// count, or io.EOF after the last, waiting for the spool where needed.
+func (r *TailReader) Next() ([]uint32, uint64, error) {
+	k := r.t.k
+	size := 4*k + 8
+	for r.pos+size > len(r.buf) {
+		t := r.t
+		t.mu.Lock()
+		written, done, err, wake := t.written, t.done, t.err, t.wake
+		t.mu.Unlock()
+		if written > r.read {
+			rest := copy(r.buf[:cap(r.buf)], r.buf[r.pos:])
+			m := int(min(written-r.read, int64(cap(r.buf)-rest)))
+			if _, err := io.ReadFull(r.f, r.buf[rest:rest+m]); err != nil {
+				return nil, 0, fmt.Errorf("%s: spooled order %d: %w", t.path, k, err)
+			}
+			r.read += int64(m)
+			r.buf, r.pos = r.buf[:rest+m], 0
+			continue
+		}
+		if done {
+			if err != nil {
+				return nil, 0, err
+			}
+			if r.pos < len(r.buf) {
+				return nil, 0, fmt.Errorf("%s: spooled order %d ends within an entry", t.path, k)
+			}
+			return nil, 0, io.EOF
+		}
+		select {
+		case <-wake:
+		case <-r.ctx.Done():
+			return nil, 0, r.ctx.Err()
+		}
+	}
+	b := r.buf[r.pos : r.pos+size]
+	for i := range r.ids {
+		r.ids[i] = binary.LittleEndian.Uint32(b[4*i:])
+	}
+	r.pos += size
+	r.n++
+	return r.ids, binary.LittleEndian.Uint64(b[4*k:]), nil
 }
 
 // SpoolReader reads the entries of one order of Spooled counts.

@@ -198,7 +198,7 @@ func (s *streamer) writeAdjusted(k int, a *adjusted) error {
 // counts the children of order k-1's entries into nextStarts (made child
 // starts at the end), unless k is the top order.
 func (s *streamer) linkOrder(k int, last, starts []uint32, lo, hi uint64, a *adjusted, nextLast *[]uint32, nextStarts []uint32) error {
-	r, err := s.sp.Open(k)
+	r, err := s.openOrder(k)
 	if err != nil {
 		return err
 	}

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"log/slog"
 	"runtime/debug"
+	"slices"
 
 	"ingot/compile/counts"
 	"ingot/compile/tables"
@@ -32,12 +33,15 @@ type Linker struct {
 	so     StreamOptions
 	ctx    context.Context
 	cancel context.CancelFunc
-	parts  chan *counts.Spooled
+	parts  chan spooled
 	done   chan struct{}
 	closed bool
 	// linked[k] is closed once orders 2..k are linked.
 	linked []chan struct{}
 	taken  bool // by EstimateStreamed (takes)
+	// behind is the order linked behind its spool (Started), once
+	// complete and within the budget; 0: none.
+	behind int
 	// Valid once done is closed:
 	s   *streamer // the links' streamer (nil: nothing was linked)
 	k   int       // orders 2..k are linked
@@ -48,7 +52,7 @@ type Linker struct {
 // so.Memory, writing its columns to so.Dir. Close it (EstimateStreamed
 // does, when given it).
 func StartLinker(ctx context.Context, opt Options, so StreamOptions) *Linker {
-	l := &Linker{opt: opt, so: so, k: 1, parts: make(chan *counts.Spooled, tables.MaxOrder), done: make(chan struct{}),
+	l := &Linker{opt: opt, so: so, k: 1, parts: make(chan spooled, tables.MaxOrder+1), done: make(chan struct{}),
 		linked: make([]chan struct{}, tables.MaxOrder+1)}
 	for k := range l.linked {
 		l.linked[k] = make(chan struct{})
@@ -58,9 +62,24 @@ func StartLinker(ctx context.Context, opt Options, so StreamOptions) *Linker {
 	return l
 }
 
+// spooled is a message to the linker: an order complete, or the top
+// order begun.
+type spooled struct {
+	part *counts.Spooled
+	tail *counts.Tail
+}
+
 // Spooled tells the linker that order part.Order() is complete (the done of
 // counts.SpoolOrders). It does not block.
-func (l *Linker) Spooled(part *counts.Spooled) { l.parts <- part }
+func (l *Linker) Spooled(part *counts.Spooled) { l.parts <- spooled{part: part} }
+
+// Started tells the linker that the spool of the top order has begun (the
+// started of counts.SpoolTail): the linker links it behind the spool, as
+// its entries are written, once the orders below are linked, so that its
+// links are ready about when the spool ends rather than a link's time
+// after; they are taken once Spooled announces the order complete, the
+// budget checked as for the other orders. It does not block.
+func (l *Linker) Started(t *counts.Tail) { l.parts <- spooled{tail: t} }
 
 func (l *Linker) run() {
 	defer close(l.done)
@@ -68,8 +87,42 @@ func (l *Linker) run() {
 	off := opt.Validate() != nil || opt.Survivors != nil || (opt.UnigramsBackedOff && opt.Method == KneserNey) ||
 		(opt.Order < 3 && opt.Method != KneserNey)
 	var ln *links
-	for part := range l.parts {
+	tailK := 0 // the order linked behind its spool, not yet complete
+	for m := range l.parts {
+		if t := m.tail; t != nil {
+			k := t.Order()
+			if off || l.err != nil || k != l.k+1 || k != opt.Order || l.s == nil {
+				continue // linked once complete, if at all
+			}
+			// The top order's links do not grow with its entries:
+			// the budget is the one of an order of none (k < 2^31
+			// entries checked once complete).
+			part := *l.s.sp
+			part.Entries = append(slices.Clone(part.Entries), 0)
+			s := *l.s
+			s.sp = &part
+			if s.linkBytesAt(k) > l.so.Memory {
+				continue
+			}
+			l.s.tail = t
+			l.err = ln.order(k)
+			l.s.tail = nil
+			tailK = k
+			continue
+		}
+		part := m.part
 		k := part.Order()
+		if k == tailK && !off && l.err == nil {
+			l.s.sp = part
+			if l.s.linkBytesAt(k) > l.so.Memory {
+				off = true // as if it had not been linked
+				ln = nil
+				continue
+			}
+			l.k, l.behind = k, k
+			close(l.linked[k])
+			continue
+		}
 		if off || l.err != nil || k != l.k+1 || k > opt.Order {
 			off = true
 			continue
@@ -89,6 +142,21 @@ func (l *Linker) run() {
 			close(l.linked[k])
 		}
 	}
+}
+
+// entryReader reads the entries of one order, in order.
+type entryReader interface {
+	Next() ([]uint32, uint64, error)
+	Close() error
+}
+
+// openOrder opens order k's entries: its spooled file, or the Tail being
+// written (linked behind the spool).
+func (s *streamer) openOrder(k int) (entryReader, error) {
+	if s.tail != nil && s.tail.Order() == k {
+		return s.tail.Open(s.ctx)
+	}
+	return s.sp.Open(k)
 }
 
 // spooled tells the linker that no order follows the ones given.

@@ -143,8 +143,9 @@ type streamer struct {
 	linked bool
 	// linkedAhead: by a Linker as the counts were spooled.
 	linkedAhead bool
-	ahead       *Linker    // the linker whose links are taken (takes)
-	totals      *estimator // for exactTotal
+	ahead       *Linker      // the linker whose links are taken (takes)
+	tail        *counts.Tail // the order linked behind its spool (Linker)
+	totals      *estimator   // for exactTotal
 	// coc[k], when not nil, is order k's count of counts (of adjusted
 	// counts where the order uses them), counted by link.
 	coc   [][]float64

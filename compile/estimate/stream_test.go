@@ -32,11 +32,12 @@ func streamedAhead(t *testing.T, c *counts.Counts, opt Options, memory int64, ah
 	dir := t.TempDir()
 	so := StreamOptions{Memory: memory, Dir: dir}
 	var done func(*counts.Spooled)
+	var started func(*counts.Tail)
 	if ahead {
 		so.Linker = StartLinker(context.Background(), opt, so)
-		done = so.Linker.Spooled
+		done, started = so.Linker.Spooled, so.Linker.Started
 	}
-	sp, err := counts.SpoolOrders(opt.Order, []counts.Source{{Name: "counts.bin", R: &bin}}, dir, done)
+	sp, err := counts.SpoolTail(opt.Order, []counts.Source{{Name: "counts.bin", R: &bin}}, dir, done, started)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -54,6 +55,11 @@ func streamedAhead(t *testing.T, c *counts.Counts, opt Options, memory int64, ah
 	res, err := EstimateStreamed(context.Background(), sp, opt, so, sw)
 	if err != nil {
 		return nil, nil, err
+	}
+	// Where the linker's links are taken, its top order was linked
+	// behind the spool (Linker.Started).
+	if ahead && res.LinkedAhead && opt.Order >= 3 && so.Linker.behind != opt.Order {
+		t.Errorf("%s order %d: the top order was not linked behind its spool (%d)", opt.Method, opt.Order, so.Linker.behind)
 	}
 	var out bytes.Buffer
 	if err := sw.Finish(&out, res.Info); err != nil {
@@ -218,11 +224,12 @@ func TestStreamedRefusesOpenCounts(t *testing.T) {
 		opt := Options{Method: KneserNey, Order: 3}
 		so := StreamOptions{Memory: 1 << 20, Dir: dir}
 		var done func(*counts.Spooled)
+		var started func(*counts.Tail)
 		if strings.HasSuffix(name, "ahead") {
 			so.Linker = StartLinker(context.Background(), opt, so)
-			done = so.Linker.Spooled
+			done, started = so.Linker.Spooled, so.Linker.Started
 		}
-		sp, err := counts.SpoolOrders(3, []counts.Source{{Name: "c.txt", R: bytes.NewBufferString(c.text)}}, dir, done)
+		sp, err := counts.SpoolTail(3, []counts.Source{{Name: "c.txt", R: bytes.NewBufferString(c.text)}}, dir, done, started)
 		if err != nil {
 			continue // refused while reading: fine too
 		}
