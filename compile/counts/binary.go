@@ -555,6 +555,11 @@ func (r *blockSource) frame(packedLen, rawLen int, sum uint32, what string, dst 
 
 func grow(b []byte, n int) []byte {
 	if cap(b) < n {
+		if n > blockTarget/2 && n <= blockTarget+1<<12 {
+			// Room for any block a Writer makes (it closes one once it
+			// holds blockTarget bytes): the buffer is made once.
+			return make([]byte, n, blockTarget+1<<12)
+		}
 		return make([]byte, n)
 	}
 	return b[:n]

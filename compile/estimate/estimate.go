@@ -435,10 +435,13 @@ func unigramLevel(cnt []uint64, start uint32, V float64, disc discounter, t *tal
 	return prob, bow, nil
 }
 
-// A discounter keeps no state: the contexts where a corner-case rule
-// applied are counted in the tally it is given, so that the contexts of
-// one order can be discounted on several goroutines, each with its own
-// tally, merged in the order of the contexts.
+// A discounter estimates the successors of one context, whose counts are
+// cnt (total their sum) and whose lower-order estimates are lower: it
+// writes every one of them to p, whatever p held, and returns the
+// context's back-off weight. It keeps no state: the contexts where a
+// corner-case rule applied are counted in the tally it is given, so that
+// the contexts of one order can be discounted on several goroutines, each
+// with its own tally, merged in the order of the contexts.
 type discounter func(cnt []uint64, total float64, lower []float64, p []float64, t *tally) (bow float64)
 
 // rule names a corner-case rule that a discounter applies per context.
@@ -571,7 +574,7 @@ func (e *estimator) discountRun(k int, cnt []uint64, disc discounter, i0, i1 int
 	var run contextRun
 	pre, suf := e.prefix[k-1], e.suffix[k-1]
 	prob, lowerProb := e.prob[k-1], e.prob[k-2]
-	var lower, p []float64
+	var lower []float64
 	for i := i0; i < i1; {
 		j := i + 1
 		for j < i1 && pre[j] == pre[i] {
@@ -581,14 +584,14 @@ func (e *estimator) discountRun(k int, cnt []uint64, disc discounter, i0, i1 int
 		for x := i; x < j; x++ {
 			lower = append(lower, lowerProb[suf[x]])
 		}
-		p = slices.Grow(p[:0], j-i)[:j-i]
 		total, err := e.exactTotal(k, cnt[i:j], e.c.Gram(k, i)[:k-1])
 		if err != nil {
 			run.err = err
 			return run
 		}
-		e.bow[k-2][pre[i]] = disc(cnt[i:j], total, lower, p, &run.tally)
-		copy(prob[i:j], p)
+		// A discounter writes every estimate of the context: straight
+		// into the order's column.
+		e.bow[k-2][pre[i]] = disc(cnt[i:j], total, lower, prob[i:j], &run.tally)
 		run.contexts++
 		i = j
 	}
