@@ -272,6 +272,9 @@ type estimator struct {
 	adj    [][]uint64    // kneser-ney adjusted counts
 	prob   [][]float64   // full probability of each entry given its context
 	bow    [][]float64   // back-off weight of each entry as a context (orders < N)
+	// The log10 of prob and bow as the model stores them (float32), for
+	// orders k >= 2 and k < N: each written where the value is found.
+	logProb, logBow [][]float32
 	empty  float64       // back-off weight of the empty context
 	report *Report
 }
@@ -283,6 +286,7 @@ func newEstimator(c *counts.Counts, opt Options) (*estimator, error) {
 		c: c, opt: opt, N: N, V: float64(len(c.Vocab) - 1), start: start,
 		prefix: make([][]int32, N), suffix: make([][]int32, N),
 		prob: make([][]float64, N), bow: make([][]float64, N),
+		logProb: make([][]float32, N), logBow: make([][]float32, N),
 		report: &Report{Method: opt.Method},
 	}
 	// Every entry's prefix and suffix, by the links of the trie (one merge
@@ -313,6 +317,7 @@ func newEstimator(c *counts.Counts, opt Options) (*estimator, error) {
 		for i := range e.bow[k-1] {
 			e.bow[k-1][i] = 1
 		}
+		e.logBow[k-1] = make([]float32, c.Len(k)) // +0: log10 1
 	}
 	if opt.Method == KneserNey {
 		e.adjust()
@@ -515,6 +520,7 @@ func (e *estimator) order(k int) error {
 		return nil
 	}
 	e.prob[k-1] = make([]float64, len(cnt))
+	e.logProb[k-1] = make([]float32, len(cnt))
 	// The contexts are discounted in runs on GOMAXPROCS workers, each run
 	// with its own tally; the first error of the first run that has one
 	// is the first of the order.
@@ -574,6 +580,7 @@ func (e *estimator) discountRun(k int, cnt []uint64, disc discounter, i0, i1 int
 	var run contextRun
 	pre, suf := e.prefix[k-1], e.suffix[k-1]
 	prob, lowerProb := e.prob[k-1], e.prob[k-2]
+	logProb, logBow := e.logProb[k-1], e.logBow[k-2]
 	var lower []float64
 	for i := i0; i < i1; {
 		j := i + 1
@@ -591,7 +598,13 @@ func (e *estimator) discountRun(k int, cnt []uint64, disc discounter, i0, i1 int
 		}
 		// A discounter writes every estimate of the context: straight
 		// into the order's column.
-		e.bow[k-2][pre[i]] = disc(cnt[i:j], total, lower, prob[i:j], &run.tally)
+		bow := disc(cnt[i:j], total, lower, prob[i:j], &run.tally)
+		e.bow[k-2][pre[i]] = bow
+		// The stored form, while the values are at hand.
+		for x := i; x < j; x++ {
+			logProb[x] = float32(math.Log10(prob[x]))
+		}
+		logBow[pre[i]] = float32(math.Log10(bow))
 		run.contexts++
 		i = j
 	}
@@ -851,25 +864,21 @@ func kneserNeyParams(k int, n []float64, rep *OrderReport) (D1, D2, D3 float64) 
 
 func (e *estimator) tables() *tables.Tables {
 	t := &tables.Tables{Vocab: e.c.Vocab, Levels: make([]tables.Level, e.N), Links: e.links}
-	// Each column is converted on its own: GOMAXPROCS workers share them.
-	var columns []func()
-	log10 := func(out []float32, in []float64) func() {
-		return func() {
-			for i, x := range in {
-				out[i] = float32(math.Log10(x))
-			}
-		}
+	// Orders 2 and up, and every order's back-off weights, were converted
+	// as they were estimated (discountRun); the unigrams are converted
+	// here.
+	uni := make([]float32, len(e.prob[0]))
+	for i, x := range e.prob[0] {
+		uni[i] = float32(math.Log10(x))
 	}
+	e.logProb[0] = uni
 	for k := 1; k <= e.N; k++ {
 		lv := &t.Levels[k-1]
-		lv.Words, lv.LogProb = e.c.Levels[k-1].Words, make([]float32, len(e.prob[k-1]))
-		columns = append(columns, log10(lv.LogProb, e.prob[k-1]))
+		lv.Words, lv.LogProb = e.c.Levels[k-1].Words, e.logProb[k-1]
 		if k < e.N {
-			lv.LogBackoff = make([]float32, len(e.bow[k-1]))
-			columns = append(columns, log10(lv.LogBackoff, e.bow[k-1]))
+			lv.LogBackoff = e.logBow[k-1]
 		}
 	}
-	inParallel(columns)
 	t.Levels[0].LogProb[e.start] = tables.NoProb
 	t.Info = tables.Info{Method: string(e.opt.Method), EmptyContextLogBackoff: math.Log10(e.empty)}
 	for _, r := range e.report.Orders {
