@@ -602,9 +602,9 @@ func (e *estimator) discountRun(k int, cnt []uint64, disc discounter, i0, i1 int
 		e.bow[k-2][pre[i]] = bow
 		// The stored form, while the values are at hand.
 		for x := i; x < j; x++ {
-			logProb[x] = float32(math.Log10(prob[x]))
+			logProb[x] = log10f32(prob[x])
 		}
-		logBow[pre[i]] = float32(math.Log10(bow))
+		logBow[pre[i]] = log10f32(bow)
 		run.contexts++
 		i = j
 	}
@@ -869,7 +869,7 @@ func (e *estimator) tables() *tables.Tables {
 	// here.
 	uni := make([]float32, len(e.prob[0]))
 	for i, x := range e.prob[0] {
-		uni[i] = float32(math.Log10(x))
+		uni[i] = log10f32(x)
 	}
 	e.logProb[0] = uni
 	for k := 1; k <= e.N; k++ {
