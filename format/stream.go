@@ -60,6 +60,10 @@ type StreamWriter struct {
 	// (belowEnded).
 	top        *StreamWriter
 	belowEnded bool
+	// vocabSecs receives the vocabulary's sections (made as the writer
+	// is made, on a goroutine of its own).
+	vocabSecs chan []section
+	vocab3    []section
 }
 
 // TopWriter takes the entries of a model's top order N >= 2, from a
@@ -173,7 +177,11 @@ func NewStreamWriter(dir string, vocab []string, counts []uint64) (*StreamWriter
 	if err != nil {
 		return nil, fmt.Errorf("model sections: %w", err)
 	}
-	return &StreamWriter{dir: d, vocab: vocab, counts: counts, start: start}, nil
+	w := &StreamWriter{dir: d, vocab: vocab, counts: counts, start: start, vocabSecs: make(chan []section, 1)}
+	// The vocabulary's sections are made beside the model's entries,
+	// for Finish.
+	go func() { w.vocabSecs <- vocabularySections3(vocab) }()
+	return w, nil
 }
 
 // Dir returns the directory holding the section files.
@@ -401,6 +409,21 @@ func (w *StreamWriter) Finish(out io.Writer, info tables.Info) error {
 	if w.err != nil {
 		return w.err
 	}
+	// The top order, when written apart, is ended on a goroutine of its
+	// own while the sections before it are read for the digest.
+	var (
+		topSecs []*streamSection
+		topDone chan error
+	)
+	waitTop := func() error {
+		if topDone == nil {
+			return nil
+		}
+		err := <-topDone
+		topDone = nil
+		return err
+	}
+	defer waitTop() // its files stay until it is done with them
 	if t := w.top; t != nil {
 		if t.err != nil {
 			return t.err
@@ -410,11 +433,9 @@ func (w *StreamWriter) Finish(out io.Writer, info tables.Info) error {
 		}
 		// The top order's lists need the child starts of the order below.
 		t.prevStarts, w.prevStarts = w.prevStarts, nil
-		if err := t.endOrder(); err != nil {
-			return err
-		}
-		w.secs = append(w.secs, t.secs...)
-		t.secs = nil
+		topSecs = t.secs
+		topDone = make(chan error, 1)
+		go func() { topDone <- t.endOrder() }()
 	} else {
 		if w.k != len(w.counts) {
 			return fmt.Errorf("ingot model: finished at order %d of %d", w.k, len(w.counts))
@@ -448,16 +469,28 @@ func (w *StreamWriter) Finish(out io.Writer, info tables.Info) error {
 		{Section: Section{Kind: KindSummary}, data: summary},
 		{Section: Section{Kind: KindBuildInfo}, data: infoBytes},
 	}
-	for _, s := range vocabularySections3(w.vocab) {
+	if w.vocab3 == nil {
+		w.vocab3 = <-w.vocabSecs
+	}
+	for _, s := range w.vocab3 {
 		head = append(head, &streamSection{Section: s.Section, data: s.data})
 	}
 	secs := append(head, w.secs...)
+	below := len(secs) // sections before the top order's
+	secs = append(secs, topSecs...)
 	// First pass: checksums and the digest, in one read of each section;
 	// the header needs them all before the first section.
 	header := make([]byte, headerSize+directoryEntry*len(secs))
 	pos := int64(len(header))
 	digest := sha256.New()
 	for i, s := range secs {
+		if i == below {
+			if err := waitTop(); err != nil {
+				return err
+			}
+			w.secs = append(w.secs, topSecs...)
+			w.top.secs = nil
+		}
 		if s.sp == nil {
 			s.Length = int64(len(s.data))
 		} else if s.sp.n != s.Length {
