@@ -144,7 +144,7 @@ func SpoolTail(order int, sources []Source, dir string, done func(part *Spooled)
 				if err != nil {
 					return nil, fmt.Errorf("spooling counts: %w", err)
 				}
-				o = &spoolWriter{f: f, buf: make([]byte, 0, spoolBuffer)}
+				o = &spoolWriter{f: f, buf: make([]byte, spoolBuffer)}
 				outs[k] = o
 				sp.paths[k-1] = p
 				if k == order && done != nil && started != nil {
@@ -237,33 +237,38 @@ const spoolBuffer = 1 << 18
 
 // spoolWriter writes the records of one order.
 type spoolWriter struct {
-	f       *os.File
-	buf     []byte
+	f   *os.File
+	buf []byte // spoolBuffer bytes, buf[:m] written (an index, not a
+	// resliced buf: storing a slice per entry costs a write barrier each
+	// while the collector runs)
+	m       int
 	n       uint64
 	written int64 // bytes in the file
 	tail    *Tail // told of every write, when not nil
 }
 
 func (w *spoolWriter) add(g []uint32, n uint64) error {
-	if len(w.buf)+4*len(g)+8 > cap(w.buf) {
+	if w.m+4*len(g)+8 > len(w.buf) {
 		if err := w.flush(); err != nil {
 			return err
 		}
 	}
-	for _, id := range g {
-		w.buf = binary.LittleEndian.AppendUint32(w.buf, id)
+	b := w.buf[w.m : w.m+4*len(g)+8]
+	for i, id := range g {
+		binary.LittleEndian.PutUint32(b[4*i:], id)
 	}
-	w.buf = binary.LittleEndian.AppendUint64(w.buf, n)
+	binary.LittleEndian.PutUint64(b[4*len(g):], n)
+	w.m += len(b)
 	w.n++
 	return nil
 }
 
 func (w *spoolWriter) flush() error {
-	if _, err := w.f.Write(w.buf); err != nil {
+	if _, err := w.f.Write(w.buf[:w.m]); err != nil {
 		return err
 	}
-	w.written += int64(len(w.buf))
-	w.buf = w.buf[:0]
+	w.written += int64(w.m)
+	w.m = 0
 	if w.tail != nil {
 		w.tail.update(w.written, false, nil)
 	}

@@ -23,7 +23,12 @@ type asyncSink struct {
 // sinkBatchEntries is the number of entries sent at a time.
 const sinkBatchEntries = 1 << 13
 
+// sinkBatch holds up to sinkBatchEntries entries in arrays made once,
+// filled by index: appending to slices would store a slice header per
+// entry and field, a write barrier each while the collector runs.
 type sinkBatch struct {
+	n        int      // entries
+	nids     int      // ids[:nids] in use
 	ids      []uint32 // every entry's words, one after the other
 	k        []uint8  // each entry's order
 	rank     []uint32
@@ -33,19 +38,23 @@ type sinkBatch struct {
 	flags    []uint8 // noProb, top
 }
 
+func newSinkBatch() *sinkBatch {
+	return &sinkBatch{ids: make([]uint32, sinkBatchEntries*tables.MaxOrder), k: make([]uint8, sinkBatchEntries),
+		rank: make([]uint32, sinkBatchEntries), prob: make([]float64, sinkBatchEntries), backoff: make([]float64, sinkBatchEntries),
+		children: make([]uint64, sinkBatchEntries), flags: make([]uint8, sinkBatchEntries)}
+}
+
 const (
 	noProbFlag = 1 << iota // the entry is <s>: log10 probability tables.NoProb
 	topFlag                // the entry is of the top order: no back-off weight
 )
 
-func (b *sinkBatch) reset() {
-	b.ids, b.k, b.rank, b.prob, b.backoff, b.children, b.flags = b.ids[:0], b.k[:0], b.rank[:0], b.prob[:0], b.backoff[:0], b.children[:0], b.flags[:0]
-}
+func (b *sinkBatch) reset() { b.n, b.nids = 0, 0 }
 
 func newAsyncSink(sink Sink) *asyncSink {
 	a := &asyncSink{full: make(chan *sinkBatch, 2), free: make(chan *sinkBatch, 3), done: make(chan error, 1)}
 	for range 3 {
-		a.free <- &sinkBatch{}
+		a.free <- newSinkBatch()
 	}
 	a.batch = <-a.free
 	go func() {
@@ -53,7 +62,7 @@ func newAsyncSink(sink Sink) *asyncSink {
 		for b := range a.full {
 			if err == nil {
 				off := 0
-				for i, k := range b.k {
+				for i, k := range b.k[:b.n] {
 					ids := b.ids[off : off+int(k)]
 					off += int(k)
 					lp := log10f32(b.prob[i])
@@ -88,12 +97,13 @@ func (a *asyncSink) add(ids []uint32, rank uint32, prob, backoff float64, childr
 		return a.err
 	}
 	b := a.batch
-	b.ids = append(b.ids, ids...)
-	b.k = append(b.k, uint8(len(ids)))
-	b.rank = append(b.rank, rank)
-	b.prob = append(b.prob, prob)
-	b.backoff = append(b.backoff, backoff)
-	b.children = append(b.children, children)
+	i := b.n
+	b.nids += copy(b.ids[b.nids:], ids)
+	b.k[i] = uint8(len(ids))
+	b.rank[i] = rank
+	b.prob[i] = prob
+	b.backoff[i] = backoff
+	b.children[i] = children
 	var f uint8
 	if noProb {
 		f |= noProbFlag
@@ -101,8 +111,9 @@ func (a *asyncSink) add(ids []uint32, rank uint32, prob, backoff float64, childr
 	if top {
 		f |= topFlag
 	}
-	b.flags = append(b.flags, f)
-	if len(b.k) < sinkBatchEntries {
+	b.flags[i] = f
+	b.n++
+	if b.n < sinkBatchEntries {
 		return nil
 	}
 	if a.failed.Load() {
@@ -120,7 +131,7 @@ func (a *asyncSink) close() error {
 		return a.err
 	}
 	a.closed = true
-	if len(a.batch.k) > 0 {
+	if a.batch.n > 0 {
 		a.full <- a.batch
 	}
 	close(a.full)

@@ -15,7 +15,9 @@ const columnBuffer = 1 << 18
 
 type colWriter struct {
 	f   *os.File
-	buf []byte
+	buf []byte // columnBuffer bytes, buf[:n] written
+	n   int    // (an index, not a resliced buf: storing a slice per value
+	// costs a write barrier each while the collector runs)
 }
 
 func (s *streamer) createCol(name string) (*colWriter, error) {
@@ -23,12 +25,12 @@ func (s *streamer) createCol(name string) (*colWriter, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &colWriter{f: f, buf: make([]byte, 0, columnBuffer)}, nil
+	return &colWriter{f: f, buf: make([]byte, columnBuffer)}, nil
 }
 
 func (c *colWriter) flush() error {
-	_, err := c.f.Write(c.buf)
-	c.buf = c.buf[:0]
+	_, err := c.f.Write(c.buf[:c.n])
+	c.n = 0
 	if err != nil {
 		return fmt.Errorf("column %s: %w", c.f.Name(), err)
 	}
@@ -36,22 +38,24 @@ func (c *colWriter) flush() error {
 }
 
 func (c *colWriter) put64(v uint64) error {
-	if len(c.buf)+8 > cap(c.buf) {
+	if c.n+8 > len(c.buf) {
 		if err := c.flush(); err != nil {
 			return err
 		}
 	}
-	c.buf = binary.LittleEndian.AppendUint64(c.buf, v)
+	binary.LittleEndian.PutUint64(c.buf[c.n:], v)
+	c.n += 8
 	return nil
 }
 
 func (c *colWriter) put32(v uint32) error {
-	if len(c.buf)+4 > cap(c.buf) {
+	if c.n+4 > len(c.buf) {
 		if err := c.flush(); err != nil {
 			return err
 		}
 	}
-	c.buf = binary.LittleEndian.AppendUint32(c.buf, v)
+	binary.LittleEndian.PutUint32(c.buf[c.n:], v)
+	c.n += 4
 	return nil
 }
 
