@@ -238,13 +238,9 @@ func (e *estimator) checkFinite(k int) error {
 		}
 		return err
 	}
-	for i, p := range e.prob[k-1] {
-		if k == 1 && uint32(i) == e.start {
-			continue
-		}
-		if bad(p) {
-			return wrap(fmt.Errorf("order %d n-gram %q gets probability %v; no model is written", k, words(e.c, e.c.Gram(k, i)), p))
-		}
+	prob := e.prob[k-1]
+	if i := firstOf(len(prob), func(i int) bool { return bad(prob[i]) && (k > 1 || uint32(i) != e.start) }); i >= 0 {
+		return wrap(fmt.Errorf("order %d n-gram %q gets probability %v; no model is written", k, words(e.c, e.c.Gram(k, i)), prob[i]))
 	}
 	if k == 1 {
 		if bad(e.empty) {
@@ -252,10 +248,9 @@ func (e *estimator) checkFinite(k int) error {
 		}
 		return nil
 	}
-	for i, b := range e.bow[k-2] {
-		if bad(b) {
-			return wrap(fmt.Errorf("order %d context %q gets back-off weight %v (no mass left for unseen words); no model is written", k-1, words(e.c, e.c.Gram(k-1, i)), b))
-		}
+	bow := e.bow[k-2]
+	if i := firstOf(len(bow), func(i int) bool { return bad(bow[i]) }); i >= 0 {
+		return wrap(fmt.Errorf("order %d context %q gets back-off weight %v (no mass left for unseen words); no model is written", k-1, words(e.c, e.c.Gram(k-1, i)), bow[i]))
 	}
 	return nil
 }
@@ -275,8 +270,8 @@ type estimator struct {
 	// The log10 of prob and bow as the model stores them (float32), for
 	// orders k >= 2 and k < N: each written where the value is found.
 	logProb, logBow [][]float32
-	empty  float64       // back-off weight of the empty context
-	report *Report
+	empty           float64 // back-off weight of the empty context
+	report          *Report
 }
 
 func newEstimator(c *counts.Counts, opt Options) (*estimator, error) {
@@ -386,6 +381,58 @@ func (e *estimator) adjustOrder(k int) {
 }
 
 // countOfCounts returns n_1..n_max of the given counts.
+// firstOf returns the first i in [0, n) for which is(i) holds, or -1,
+// looking at GOMAXPROCS parts of the range at once.
+func firstOf(n int, is func(i int) bool) int {
+	first := make([]int, partsOf(n))
+	tasks := make([]func(), len(first))
+	for p := range tasks {
+		tasks[p] = func() {
+			first[p] = -1
+			for i := n * p / len(first); i < n*(p+1)/len(first); i++ {
+				if is(i) {
+					first[p] = i
+					return
+				}
+			}
+		}
+	}
+	inParallel(tasks)
+	for _, i := range first {
+		if i >= 0 {
+			return i
+		}
+	}
+	return -1
+}
+
+// partsOf returns in how many parts a pass over n values is shared out:
+// GOMAXPROCS, or one below 2^16 values.
+func partsOf(n int) int {
+	if n < 1<<16 {
+		return 1
+	}
+	return runtime.GOMAXPROCS(0)
+}
+
+// countOfCountsOf is countOfCounts over GOMAXPROCS parts of cnt at once:
+// the tallies are whole numbers, so their sums are the same.
+func countOfCountsOf(cnt []uint64, max int) []float64 {
+	parts := make([][]float64, partsOf(len(cnt)))
+	tasks := make([]func(), len(parts))
+	for p := range tasks {
+		tasks[p] = func() { parts[p] = countOfCounts(cnt[len(cnt)*p/len(parts):len(cnt)*(p+1)/len(parts)], max) }
+	}
+	inParallel(tasks)
+	n := parts[0]
+	for _, q := range parts[1:] {
+		for r := range n {
+			n[r] += q[r]
+		}
+	}
+	return n
+}
+
 func countOfCounts(cnt []uint64, max int) []float64 {
 	n := make([]float64, max+1)
 	for _, r := range cnt {
@@ -504,7 +551,7 @@ func (e *estimator) order(k int) error {
 	if e.opt.Method == KneserNey {
 		cnt = e.adj[k-1]
 	}
-	n := countOfCounts(cnt, e.opt.countOfCountsMax())
+	n := countOfCountsOf(cnt, e.opt.countOfCountsMax())
 	disc := e.opt.discounter(k, n, &rep)
 	if k == 1 {
 		var t tally
