@@ -33,12 +33,12 @@ sections() { "$work/ingot" inspect --json "$1" | grep -o '{"index":[^}]*}' | gre
 same_model=no
 [ "$(sections "$work/full.ingot")" = "$(sections "$work/small.ingot")" ] && same_model=yes
 
-# Compile against reading its counts: 9 rounds, each running the three
+# Compile against reading its counts: 9 rounds, each running the four
 # benchmarks one after the other (so that a change in the machine's load
 # touches all three alike), medians.
 go test -c -o "$work/bounded.test" ./compile/bounded
 cbench=$(for _ in 1 2 3 4 5 6 7 8 9; do
-	(cd compile/bounded && "$work/bounded.test" -test.run '^$' -test.bench '^(BenchmarkDecodeCounts|BenchmarkCompileOnDisk|BenchmarkCompileInMemory)$' -test.benchtime 3x)
+	(cd compile/bounded && "$work/bounded.test" -test.run '^$' -test.bench '^(BenchmarkDecodeCounts|BenchmarkDecodeCountsAhead|BenchmarkCompileOnDisk|BenchmarkCompileInMemory)$' -test.benchtime 3x)
 done)
 # values OUTPUT BENCH UNIT: the figures of one unit that one benchmark
 # reported in a go test output, sorted; median FORMAT OUTPUT BENCH UNIT the
@@ -50,11 +50,15 @@ median() { values "$2" "$3" "$4" | awk -v f="$1" '{v[NR] = $1} END {printf f, v[
 lowest() { values "$1" "$2" "$3" | awk 'NR == 1 {printf "%.0f", $1}'; }
 highest() { values "$1" "$2" "$3" | awk '{v = $1} END {printf "%.0f", v}'; }
 decode_ns=$(median %.0f "$cbench" BenchmarkDecodeCounts ns/op)
+ahead_ns=$(median %.0f "$cbench" BenchmarkDecodeCountsAhead ns/op)
+# The floor the target is judged against: the faster of the two decodes.
+floor_ns=$(awk -v a="$decode_ns" -v b="$ahead_ns" 'BEGIN {print (a < b) ? a : b}')
 disk_ns=$(median %.0f "$cbench" BenchmarkCompileOnDisk ns/op)
 mem_ns=$(median %.0f "$cbench" BenchmarkCompileInMemory ns/op)
 # CPU seconds per run (every core's): the work, which the load of a shared
 # machine does not inflate as it does the wall time.
 decode_cpu=$(median %.3f "$cbench" BenchmarkDecodeCounts cpu-s/op)
+ahead_cpu=$(median %.3f "$cbench" BenchmarkDecodeCountsAhead cpu-s/op)
 disk_cpu=$(median %.3f "$cbench" BenchmarkCompileOnDisk cpu-s/op)
 mem_cpu=$(median %.3f "$cbench" BenchmarkCompileInMemory cpu-s/op)
 load=$(cut -d' ' -f1-3 /proc/loadavg)
@@ -115,18 +119,26 @@ echo "each command line): $same_model."
 echo
 echo "Compile time against the time to read and decode its input counts"
 echo "(checksums, zstd, varints), Kneser-Ney order 5 on \`corpus.Generate(seed 1,"
-echo "20000 sentences, 20000 words)\`, medians of 9 rounds, each running the three"
+echo "20000 sentences, 20000 words)\`, medians of 9 rounds, each running the four"
 echo "benchmarks one after the other in one process (\`go test -c ./compile/bounded\`, then"
-echo "9 times \`bounded.test -test.run '^\$' -test.bench '^(BenchmarkDecodeCounts|BenchmarkCompileOnDisk|BenchmarkCompileInMemory)\$' -test.benchtime 3x\`):"
+echo "9 times \`bounded.test -test.run '^\$' -test.bench '^(BenchmarkDecodeCounts|BenchmarkDecodeCountsAhead|BenchmarkCompileOnDisk|BenchmarkCompileInMemory)\$' -test.benchtime 3x\`)."
+echo "The counts are decoded two ways: on one goroutine, and with the blocks"
+echo "read, checked and decompressed a few ahead on a second one (as the"
+echo "in-memory compile reads them); ratios are to the one-goroutine decode,"
+echo "and the target is judged against the faster of the two:"
 echo
+ms() { awk -v n="$1" 'BEGIN {printf "%.0f ms", n / 1e6}'; }
+ratio() { awk -v a="$1" -v b="$2" 'BEGIN {printf "%.1f", a / b}'; }
 echo "| step | wall time per run | ratio to decoding | CPU time per run | ratio to decoding |"
 echo "| --- | ---: | ---: | ---: | ---: |"
-echo "| read and decode the counts | $(awk -v n="$decode_ns" 'BEGIN {printf "%.2f s", n / 1e9}') | 1 | $decode_cpu s | 1 |"
-echo "| compile on disk (\`--memory 48MiB\`: spool, passes on disk, streamed writer) | $(awk -v n="$disk_ns" 'BEGIN {printf "%.2f s", n / 1e9}') | $(awk -v a="$disk_ns" -v b="$decode_ns" 'BEGIN {printf "%.1f", a / b}') | $disk_cpu s | $(awk -v a="$disk_cpu" -v b="$decode_cpu" 'BEGIN {printf "%.1f", a / b}') |"
-echo "| compile in memory (load, estimate, write) | $(awk -v n="$mem_ns" 'BEGIN {printf "%.2f s", n / 1e9}') | $(awk -v a="$mem_ns" -v b="$decode_ns" 'BEGIN {printf "%.1f", a / b}') | $mem_cpu s | $(awk -v a="$mem_cpu" -v b="$decode_cpu" 'BEGIN {printf "%.1f", a / b}') |"
+echo "| read and decode the counts, one goroutine | $(ms "$decode_ns") | 1 | $decode_cpu s | 1 |"
+echo "| read and decode the counts, blocks read ahead | $(ms "$ahead_ns") | $(ratio "$ahead_ns" "$decode_ns") | $ahead_cpu s | $(ratio "$ahead_cpu" "$decode_cpu") |"
+echo "| compile on disk (\`--memory 48MiB\`: spool, passes on disk, streamed writer) | $(ms "$disk_ns") | $(ratio "$disk_ns" "$decode_ns") | $disk_cpu s | $(ratio "$disk_cpu" "$decode_cpu") |"
+echo "| compile in memory (load, estimate, write) | $(ms "$mem_ns") | $(ratio "$mem_ns" "$decode_ns") | $mem_cpu s | $(ratio "$mem_cpu" "$decode_cpu") |"
 echo
-echo "Load average when measured: $load (2 cores). The target, at most 4 times"
-echo "the decoding's wall time: on disk it $(holds "$disk_ns" "$decode_ns"), in memory it $(holds "$mem_ns" "$decode_ns")."
+echo "Load average when measured: $load (2 cores). Against the faster decode"
+echo "($(ms "$floor_ns")): on disk $(ratio "$disk_ns" "$floor_ns"), in memory $(ratio "$mem_ns" "$floor_ns"). The target, at most 4 times"
+echo "the decoding's wall time: on disk it $(holds "$disk_ns" "$floor_ns"), in memory it $(holds "$mem_ns" "$floor_ns")."
 echo "Measured by CPU time, which the load does not inflate: on disk it"
 echo "$(holds "$disk_cpu" "$decode_cpu"), in memory it $(holds "$mem_cpu" "$decode_cpu"). What the time goes to: on disk, the"
 echo "counts are decoded on one goroutine while another spools them into"

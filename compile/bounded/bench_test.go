@@ -83,22 +83,41 @@ func overCounts(b *testing.B, run func(f *os.File)) {
 }
 
 // BenchmarkDecodeCounts reads and decodes every entry of the count file
-// (checksums, zstd, varints): the floor that compile's time is compared
-// with.
+// (checksums, zstd, varints) on one goroutine: the floor that compile's
+// time is compared with.
 func BenchmarkDecodeCounts(b *testing.B) {
-	overCounts(b, func(f *os.File) {
-		r, err := counts.NewReader(f)
-		if err != nil {
+	overCounts(b, func(f *os.File) { decodeAll(b, f, false) })
+}
+
+// BenchmarkDecodeCountsAhead is BenchmarkDecodeCounts with the blocks read,
+// checked and decompressed a few ahead on a second goroutine
+// (Reader.ReadAhead), as the in-memory compile reads them: the other
+// floor, the faster where the second core is free.
+func BenchmarkDecodeCountsAhead(b *testing.B) {
+	overCounts(b, func(f *os.File) { decodeAll(b, f, true) })
+}
+
+func decodeAll(b *testing.B, f *os.File, ahead bool) {
+	r, err := counts.NewReader(f)
+	if err != nil {
+		b.Fatal(err)
+	}
+	if ahead {
+		r.ReadAhead()
+		defer r.StopAhead()
+	}
+	n := 0
+	for {
+		if _, _, err := r.Next(); err == io.EOF {
+			break
+		} else if err != nil {
 			b.Fatal(err)
 		}
-		for {
-			if _, _, err := r.Next(); err == io.EOF {
-				break
-			} else if err != nil {
-				b.Fatal(err)
-			}
-		}
-	})
+		n++
+	}
+	if n == 0 {
+		b.Fatal("no entry decoded")
+	}
 }
 
 // BenchmarkCompileOnDisk is compile's bounded path, Kneser-Ney order 5,
