@@ -60,7 +60,9 @@ func packedAt(b []byte, i uint64, width uint) uint64 {
 
 // Index returns the codebook index stored for entry i of order k, for the
 // probabilities (backoff false) or the back-off weights; ok is false when
-// that column is not quantized or there is no such entry.
+// that column is not quantized or there is no such entry, and also where
+// a damaged file stores no index for it (a context mark past the stored
+// weights, or no +0.0 level for an unmarked context's weight 1).
 func (m *Model) Index(k, i int, backoff bool) (index int, ok bool) {
 	if k < 1 || k > m.order || i < 0 || i >= m.Count(k) {
 		return 0, false
@@ -81,10 +83,19 @@ func (m *Model) Index(k, i int, backoff bool) (index int, ok bool) {
 				}
 				return 0, false
 			}
-			return c.index(int(r)), true
+			return c.stored(int(r))
 		}
 	}
 	if c.packed == nil {
+		return 0, false
+	}
+	return c.stored(i)
+}
+
+// stored returns the codebook index of the column's value i, if it stores
+// one (at reads NaN where it does not).
+func (c *column) stored(i int) (int, bool) {
+	if i < 0 || i >= c.n {
 		return 0, false
 	}
 	return c.index(i), true
