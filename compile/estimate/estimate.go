@@ -308,11 +308,11 @@ func newEstimator(c *counts.Counts, opt Options) (*estimator, error) {
 	copy(e.prefix, links.Parent)
 	copy(e.suffix, links.Suffix)
 	for k := 1; k < N; k++ {
-		e.bow[k-1] = make([]float64, c.Len(k))
+		e.bow[k-1] = hugeMake[float64](c.Len(k))
 		for i := range e.bow[k-1] {
 			e.bow[k-1][i] = 1
 		}
-		e.logBow[k-1] = make([]float32, c.Len(k)) // +0: log10 1
+		e.logBow[k-1] = hugeMake[float32](c.Len(k)) // +0: log10 1
 	}
 	if opt.Method == KneserNey {
 		e.adjust()
@@ -359,7 +359,7 @@ func (e *estimator) adjustOrder(k int) {
 		e.adj[k-1] = raw // read, never written
 		return
 	}
-	a := make([]uint64, len(raw))
+	a := hugeMake[uint64](len(raw))
 	var kept []bool
 	var above []uint64
 	if e.opt.Survivors != nil {
@@ -566,8 +566,8 @@ func (e *estimator) order(k int) error {
 		e.report.Orders = append(e.report.Orders, rep)
 		return nil
 	}
-	e.prob[k-1] = make([]float64, len(cnt))
-	e.logProb[k-1] = make([]float32, len(cnt))
+	e.prob[k-1] = hugeMake[float64](len(cnt))
+	e.logProb[k-1] = hugeMake[float32](len(cnt))
 	// The contexts are discounted in runs on GOMAXPROCS workers, each run
 	// with its own tally; the first error of the first run that has one
 	// is the first of the order.
@@ -957,4 +957,12 @@ func inParallel(tasks []func()) {
 		}()
 	}
 	wg.Wait()
+}
+
+// hugeMake makes a slice of n zero values with a huge-page hint
+// (counts.HugePagesOf), before anything touches it.
+func hugeMake[E any](n int) []E {
+	s := make([]E, n)
+	counts.HugePagesOf(s)
+	return s
 }
