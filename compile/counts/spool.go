@@ -248,19 +248,38 @@ type spoolWriter struct {
 }
 
 func (w *spoolWriter) add(g []uint32, n uint64) error {
-	if w.m+4*len(g)+8 > len(w.buf) {
+	size := recordSize(len(g))
+	if w.m+size > len(w.buf) {
 		if err := w.flush(); err != nil {
 			return err
 		}
 	}
-	b := w.buf[w.m : w.m+4*len(g)+8]
+	putRecord(w.buf[w.m:w.m+size], g, n)
+	w.m += size
+	w.n++
+	return nil
+}
+
+// recordSize is the size of a spooled entry of order k: each id in 4
+// bytes, then the count in 8, little-endian.
+func recordSize(k int) int { return 4*k + 8 }
+
+// putRecord writes the entry g with count n into b, recordSize(len(g))
+// bytes.
+func putRecord(b []byte, g []uint32, n uint64) {
 	for i, id := range g {
 		binary.LittleEndian.PutUint32(b[4*i:], id)
 	}
 	binary.LittleEndian.PutUint64(b[4*len(g):], n)
-	w.m += len(b)
-	w.n++
-	return nil
+}
+
+// readRecord reads the entry in b, recordSize(len(ids)) bytes, into ids
+// and returns its count.
+func readRecord(b []byte, ids []uint32) uint64 {
+	for i := range ids {
+		ids[i] = binary.LittleEndian.Uint32(b[4*i:])
+	}
+	return binary.LittleEndian.Uint64(b[4*len(ids):])
 }
 
 func (w *spoolWriter) flush() error {
@@ -361,7 +380,7 @@ func (r *TailReader) Entries() uint64 { return r.n }
 // count, or io.EOF after the last, waiting for the spool where needed.
 func (r *TailReader) Next() ([]uint32, uint64, error) {
 	k := r.t.k
-	size := 4*k + 8
+	size := recordSize(k)
 	for r.pos+size > len(r.buf) {
 		t := r.t
 		t.mu.Lock()
@@ -392,13 +411,10 @@ func (r *TailReader) Next() ([]uint32, uint64, error) {
 			return nil, 0, r.ctx.Err()
 		}
 	}
-	b := r.buf[r.pos : r.pos+size]
-	for i := range r.ids {
-		r.ids[i] = binary.LittleEndian.Uint32(b[4*i:])
-	}
+	n := readRecord(r.buf[r.pos:r.pos+size], r.ids)
 	r.pos += size
 	r.n++
-	return r.ids, binary.LittleEndian.Uint64(b[4*k:]), nil
+	return r.ids, n, nil
 }
 
 // SpoolReader reads the entries of one order of Spooled counts.
@@ -421,7 +437,7 @@ func (r *SpoolReader) Next() ([]uint32, uint64, error) {
 	if r.left == 0 {
 		return nil, 0, io.EOF
 	}
-	size := 4*r.k + 8
+	size := recordSize(r.k)
 	if r.pos+size > len(r.buf) {
 		rest := copy(r.buf[:cap(r.buf)], r.buf[r.pos:])
 		n, err := io.ReadAtLeast(r.f, r.buf[rest:cap(r.buf)], size-rest)
@@ -430,13 +446,10 @@ func (r *SpoolReader) Next() ([]uint32, uint64, error) {
 		}
 		r.buf, r.pos = r.buf[:rest+n], 0
 	}
-	b := r.buf[r.pos : r.pos+size]
-	for i := range r.ids {
-		r.ids[i] = binary.LittleEndian.Uint32(b[4*i:])
-	}
+	n := readRecord(r.buf[r.pos:r.pos+size], r.ids)
 	r.pos += size
 	r.left--
-	return r.ids, binary.LittleEndian.Uint64(b[4*r.k:]), nil
+	return r.ids, n, nil
 }
 
 // Open returns a reader of the entries of order k >= 2, in order.
