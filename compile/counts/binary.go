@@ -527,8 +527,6 @@ func (r *blockSource) full(b []byte) error {
 	return err
 }
 
-// frame reads packedLen bytes, whose CRC-32C must be sum, and decodes them
-// into rawLen bytes.
 // frame reads a frame of packedLen bytes, checks it against sum and
 // returns its rawLen bytes decompressed into dst's memory.
 func (r *blockSource) frame(packedLen, rawLen int, sum uint32, what string, dst []byte) ([]byte, error) {

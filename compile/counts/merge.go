@@ -501,7 +501,7 @@ func (ld *loader) readOne(m *merger, s *readerStream) readOutcome {
 	g, n, at := m.heads[0], m.counts[0], m.at[0]
 	m.live = m.live[:0]
 	var ids []uint32
-	for i := 0; ; i++ {
+	for {
 		k := len(g)
 		if k != ld.top && k >= 3 && k <= ld.order {
 			ld.first[k] = at.index

@@ -380,7 +380,6 @@ func (e *estimator) adjustOrder(k int) {
 	e.adj[k-1] = a
 }
 
-// countOfCounts returns n_1..n_max of the given counts.
 // firstOf returns the first i in [0, n) for which is(i) holds, or -1,
 // looking at GOMAXPROCS parts of the range at once.
 func firstOf(n int, is func(i int) bool) int {
@@ -433,6 +432,7 @@ func countOfCountsOf(cnt []uint64, max int) []float64 {
 	return n
 }
 
+// countOfCounts returns n_1..n_max of the given counts.
 func countOfCounts(cnt []uint64, max int) []float64 {
 	n := make([]float64, max+1)
 	for _, r := range cnt {
